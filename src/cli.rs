@@ -1,0 +1,334 @@
+//! The command line: arguments as plain data (clap), then one function per command that returns
+//! the text to print. The binary only calls [`main`]. Exit codes are chosen in one place,
+//! [`Failure::code`]:
+//!
+//! | code | meaning |
+//! |------|---------|
+//! | 0 | success |
+//! | 2 | bad input (an expression, a flag, a file) or a numerical failure |
+
+use crate::compile::{compile, lower_into, ExprError};
+use crate::config::Config;
+use crate::diag::Diagnostic;
+use crate::ir::{Graph, Scope};
+use crate::tape::MAX_ORDER;
+use clap::{Parser, Subcommand, ValueEnum};
+use std::fmt::Write as _;
+use std::process::ExitCode;
+
+/// efold: from a potential and a kinetic function to inflationary predictions.
+#[derive(Debug, Parser)]
+#[command(name = "efold", version, about, long_about = None)]
+pub struct Args {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The commands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Evaluate an expression and its derivatives with respect to the field at one point.
+    Eval(EvalArgs),
+    /// Show what the compiler makes of an expression: syntax tree, IR, tape, derivatives.
+    Compile(CompileArgs),
+}
+
+/// Output formats.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Format {
+    /// Aligned text for people.
+    Text,
+    /// One JSON object.
+    Json,
+}
+
+/// Flags naming the field and binding parameters, shared by the commands that take expressions.
+#[derive(Debug, clap::Args)]
+pub struct ScopeArgs {
+    /// A parameter, NAME=VALUE; VALUE may be an expression of `pi` and earlier parameters
+    /// (`--param alpha=1/3`). Repeatable.
+    #[arg(long = "param", value_name = "NAME=VALUE")]
+    pub params: Vec<String>,
+    /// The field variable's name [default: phi, or the name given to --at].
+    #[arg(long, value_name = "NAME")]
+    pub field: Option<String>,
+}
+
+/// `efold eval`.
+#[derive(Debug, clap::Args)]
+pub struct EvalArgs {
+    /// The expression, e.g. '1 - tanh(phi/sqrt(6*alpha))^2'.
+    pub expr: String,
+    /// The point, FIELD=VALUE (VALUE may be an expression of the parameters).
+    #[arg(long, value_name = "FIELD=VALUE")]
+    pub at: String,
+    /// Highest derivative to report (0 to 8).
+    #[arg(long, default_value_t = 1)]
+    pub order: usize,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scope: ScopeArgs,
+}
+
+/// Stages `efold compile` can show.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Emit {
+    /// The syntax tree with spans.
+    Ast,
+    /// The normalised expression, printed back in the language.
+    Ir,
+    /// The compiled instructions.
+    Tape,
+    /// Symbolic derivatives d/dfield, up to --order.
+    Derivatives,
+}
+
+/// `efold compile`.
+#[derive(Debug, clap::Args)]
+pub struct CompileArgs {
+    /// The expression.
+    pub expr: String,
+    /// Stages to show (repeatable, or comma-separated) [default: all].
+    #[arg(long, value_enum, value_delimiter = ',')]
+    pub emit: Vec<Emit>,
+    /// Highest symbolic derivative to show.
+    #[arg(long, default_value_t = 2)]
+    pub order: usize,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scope: ScopeArgs,
+}
+
+/// A command's failure: what to print on stderr, and the exit code.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Failure {
+    /// The rendered message, ending in a newline.
+    pub message: String,
+    /// The process exit code (see the module docs).
+    pub code: u8,
+}
+
+impl Failure {
+    /// Bad input or a numerical failure: exit code 2.
+    pub fn input(message: String) -> Failure {
+        Failure { message, code: 2 }
+    }
+
+    /// The exit code.
+    pub fn code(&self) -> u8 {
+        self.code
+    }
+}
+
+impl From<ExprError> for Failure {
+    fn from(e: ExprError) -> Failure {
+        Failure::input(e.render())
+    }
+}
+
+impl From<Diagnostic> for Failure {
+    fn from(d: Diagnostic) -> Failure {
+        Failure::input(d.render(None))
+    }
+}
+
+/// Runs the binary: parses the arguments, runs the command, prints, returns the exit code.
+pub fn main() -> ExitCode {
+    let args = Args::parse();
+    match run(&args) {
+        Ok(out) => {
+            print!("{out}");
+            ExitCode::SUCCESS
+        }
+        Err(f) => {
+            eprint!("efold: {}", f.message);
+            ExitCode::from(f.code())
+        }
+    }
+}
+
+/// Runs one command; returns what it prints on stdout.
+pub fn run(args: &Args) -> Result<String, Failure> {
+    let config = Config::default();
+    match &args.command {
+        Command::Eval(a) => eval(a, &config),
+        Command::Compile(a) => compile_view(a, &config),
+    }
+}
+
+/// Splits `NAME=VALUE`.
+fn split_binding<'a>(flag: &str, text: &'a str) -> Result<(&'a str, &'a str), Failure> {
+    let bad = || {
+        Failure::from(
+            Diagnostic::new(format!("`{flag} {text}` is not of the form NAME=VALUE"))
+                .with_hint(format!("write it as `{flag} alpha=1/3`")),
+        )
+    };
+    let (name, value) = text.split_once('=').ok_or_else(bad)?;
+    let name = name.trim();
+    let valid = name.chars().next().is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+        && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_');
+    if !valid {
+        return Err(bad());
+    }
+    Ok((name, value))
+}
+
+/// Parameter names and values from `--param` flags, each value an expression of `pi` and the
+/// parameters before it.
+pub fn bind_params(flags: &[String], config: &Config) -> Result<(Vec<String>, Vec<f64>), Failure> {
+    let mut names: Vec<String> = Vec::new();
+    let mut values: Vec<f64> = Vec::new();
+    for flag in flags {
+        let (name, text) = split_binding("--param", flag)?;
+        if names.iter().any(|n| n == name) {
+            return Err(Diagnostic::new(format!("parameter `{name}` is given twice"))
+                .with_hint("give each --param once")
+                .into());
+        }
+        let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+        let scope = Scope::new("\u{0}no-field", &refs);
+        let v = constant_expr(&format!("--param {name}"), text, &scope, &values, config)?;
+        names.push(name.to_string());
+        values.push(v);
+    }
+    Ok((names, values))
+}
+
+/// Evaluates an expression that must not depend on the field.
+fn constant_expr(origin: &str, text: &str, scope: &Scope, params: &[f64], config: &Config) -> Result<f64, Failure> {
+    let mut g = Graph::new(scope.clone());
+    let (_, id) = lower_into(&mut g, origin, text, &config.limits)?;
+    if g.is_varying(id) {
+        return Err(Diagnostic::new(format!(
+            "{origin}: the value `{}` depends on the field `{}`",
+            text.trim(),
+            scope.field
+        ))
+        .with_hint("a value may use numbers, `pi` and the parameters")
+        .into());
+    }
+    let tape = crate::tape::Tape::compile(&g, &[id]);
+    let v = tape.evaluator(params).eval(0.0);
+    if !v.is_finite() {
+        return Err(Diagnostic::new(format!("{origin}: `{}` is not a finite number ({v})", text.trim())).into());
+    }
+    Ok(v)
+}
+
+fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
+    if a.order > MAX_ORDER {
+        return Err(Diagnostic::new(format!("--order {} is above the highest supported, {MAX_ORDER}", a.order))
+            .with_hint(format!("use --order 0 to {MAX_ORDER}"))
+            .into());
+    }
+    let (at_name, at_text) = split_binding("--at", &a.at)?;
+    let field = a.scope.field.clone().unwrap_or_else(|| at_name.to_string());
+    if at_name != field {
+        return Err(Diagnostic::new(format!("--at names `{at_name}`, but the field is `{field}`"))
+            .with_hint(format!("write `--at {field}=VALUE`, or `--field {at_name}`"))
+            .into());
+    }
+    let (names, values) = bind_params(&a.scope.params, config)?;
+    let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+    if refs.contains(&field.as_str()) {
+        return Err(Diagnostic::new(format!("`{field}` is both the field and a parameter"))
+            .with_hint("rename the parameter")
+            .into());
+    }
+    let scope = Scope::new(&field, &refs);
+    let x = constant_expr("--at", at_text, &scope, &values, config)?;
+    let c = compile(&[("expression", &a.expr)], &scope, &config.limits)?;
+    let mut ev = c.tape.evaluator(&values);
+    let derivs = ev.derivatives(x, a.order);
+    let mut warnings = Vec::new();
+    if c.tape.has_abs() && a.order > 0 {
+        warnings.push("`abs` is not differentiable where its argument is zero; derivatives there are undefined".to_string());
+    }
+    if let Some((k, v)) = derivs.iter().enumerate().find(|(_, v)| !v.is_finite()) {
+        let what = if k == 0 { "the value".to_string() } else { format!("derivative {k}") };
+        let mut d = Diagnostic::new(format!("{what} of the expression is {v} at {field} = {x}"));
+        if let Some((id, bad)) = c.graph.first_non_finite(c.roots[0], x, &values) {
+            d = d.with_hint(format!("`{}` is {bad} there", c.graph.print(id)));
+        }
+        return Err(d
+            .with_hint("check the domain of log, sqrt, asin, acos, acosh, atanh, powers, and divisions by zero")
+            .into());
+    }
+    Ok(match a.format {
+        Format::Json => {
+            let params: serde_json::Map<String, serde_json::Value> =
+                names.iter().cloned().zip(values.iter().map(|v| serde_json::json!(v))).collect();
+            let obj = serde_json::json!({
+                "expression": a.expr,
+                "field": field,
+                "at": x,
+                "params": params,
+                "value": derivs[0],
+                "derivatives": &derivs[1..],
+                "warnings": warnings,
+            });
+            format!("{}\n", serde_json::to_string_pretty(&obj).expect("json of plain numbers"))
+        }
+        Format::Text => {
+            let mut out = String::new();
+            for w in &warnings {
+                let _ = writeln!(out, "warning: {w}");
+            }
+            let _ = writeln!(out, "at {field} = {x}");
+            for (k, v) in derivs.iter().enumerate() {
+                let label = match k {
+                    0 => "value".to_string(),
+                    _ => format!("d^{k}/d{field}^{k}"),
+                };
+                let _ = writeln!(out, "  {label:<16} {v:>24e}");
+            }
+            out
+        }
+    })
+}
+
+fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
+    let field = a.scope.field.clone().unwrap_or_else(|| "phi".to_string());
+    let (names, _) = bind_params(&a.scope.params, config)?;
+    let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+    let scope = Scope::new(&field, &refs);
+    let mut c = compile(&[("expression", &a.expr)], &scope, &config.limits)?;
+    let emit = if a.emit.is_empty() {
+        vec![Emit::Ast, Emit::Ir, Emit::Tape, Emit::Derivatives]
+    } else {
+        a.emit.clone()
+    };
+    let mut out = String::new();
+    for e in emit {
+        match e {
+            Emit::Ast => {
+                let _ = write!(out, "== syntax tree\n{}", c.asts[0].tree());
+            }
+            Emit::Ir => {
+                let _ = writeln!(
+                    out,
+                    "== IR ({} distinct nodes)\n{}",
+                    c.graph.reachable(&c.roots).len(),
+                    c.graph.print(c.roots[0])
+                );
+            }
+            Emit::Tape => {
+                let _ = write!(out, "== tape\n{}", c.tape);
+            }
+            Emit::Derivatives => {
+                let _ = writeln!(out, "== derivatives");
+                let mut d = c.roots[0];
+                for k in 1..=a.order {
+                    d = c.graph.derivative(d);
+                    let _ = writeln!(out, "d^{k}/d{field}^{k} = {}", c.graph.print(d));
+                }
+            }
+        }
+    }
+    Ok(out)
+}

@@ -1,0 +1,34 @@
+//! Limits and tolerances, in one place, with documented defaults.
+//!
+//! Every stage that can be driven by hostile or merely large input takes its limits from here, so
+//! that a limit is changed in one spot and named in one error message.
+
+/// Limits on the expression language.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Limits {
+    /// Maximum length of one expression, in bytes. Default 10 000.
+    pub max_len: usize,
+    /// Maximum nesting of parentheses and function calls. Default 64: far beyond any real model
+    /// (the shipped ones stay under 8), and well within a 2 MiB thread stack.
+    pub max_nesting: usize,
+    /// Maximum height of the syntax tree (a chain `x+x+...` or `2^2^...` counts one level per
+    /// operator). Default 512.
+    pub max_depth: usize,
+}
+
+impl Default for Limits {
+    fn default() -> Self {
+        Limits {
+            max_len: 10_000,
+            max_nesting: 64,
+            max_depth: 512,
+        }
+    }
+}
+
+/// Everything configurable, grouped by stage. Later stages add their tolerances here.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Config {
+    /// Limits on the expression language.
+    pub limits: Limits,
+}

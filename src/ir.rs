@@ -1,0 +1,1034 @@
+//! Stage 2: the normalised form, a hash-consed DAG.
+//!
+//! A [`Graph`] stores each distinct node once (equal subexpressions share one [`Id`]), and can
+//! only grow through constructors that fold constants and apply the identities that keep
+//! expressions small: `x+0`, `x*1`, `x*0` (see below), `x^1`, `x^0`, `--x`, `1^x`. Children are
+//! always created before their parents, so ids are a topological order and no pass needs to
+//! recurse over the graph.
+//!
+//! `x*0 = 0` and `0/x = 0` assume `x` finite, as any algebra system does; a constant is folded
+//! only when the result is finite, so the graph never holds an infinity or a NaN.
+//!
+//! ```
+//! use efold::{config::Limits, ir::{Graph, Scope}, syntax};
+//! let scope = Scope::new("phi", &["alpha"]);
+//! let mut g = Graph::new(scope);
+//! let ast = syntax::parse("(phi + 0) * 1 + phi^2 / (6*alpha)", &Limits::default())?;
+//! let v = g.lower(&ast).unwrap();
+//! assert_eq!(g.print(v), "phi + phi^2/(6*alpha)");
+//! let dv = g.derivative(v);
+//! assert_eq!(g.print(dv), "1 + 2*phi/(6*alpha)");
+//! # Ok::<(), efold::syntax::SyntaxError>(())
+//! ```
+
+use crate::diag::{closest, Diagnostic, Span};
+use crate::syntax::{BinOp, Expr, ExprKind};
+use std::collections::HashMap;
+use std::fmt;
+
+/// A node's index in its [`Graph`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub struct Id(pub u32);
+
+impl Id {
+    /// The index as usize.
+    pub fn index(self) -> usize {
+        self.0 as usize
+    }
+}
+
+/// Built-in functions of one argument.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[allow(missing_docs)]
+pub enum Func {
+    Exp,
+    Log,
+    Sqrt,
+    Sin,
+    Cos,
+    Tan,
+    Asin,
+    Acos,
+    Atan,
+    Sinh,
+    Cosh,
+    Tanh,
+    Sech,
+    Asinh,
+    Acosh,
+    Atanh,
+    Abs,
+}
+
+impl Func {
+    /// Every built-in function of one argument, in the order the docs list them.
+    pub const ALL: [Func; 17] = [
+        Func::Exp,
+        Func::Log,
+        Func::Sqrt,
+        Func::Sin,
+        Func::Cos,
+        Func::Tan,
+        Func::Asin,
+        Func::Acos,
+        Func::Atan,
+        Func::Sinh,
+        Func::Cosh,
+        Func::Tanh,
+        Func::Sech,
+        Func::Asinh,
+        Func::Acosh,
+        Func::Atanh,
+        Func::Abs,
+    ];
+
+    /// The name used when printing.
+    pub fn name(self) -> &'static str {
+        match self {
+            Func::Exp => "exp",
+            Func::Log => "log",
+            Func::Sqrt => "sqrt",
+            Func::Sin => "sin",
+            Func::Cos => "cos",
+            Func::Tan => "tan",
+            Func::Asin => "asin",
+            Func::Acos => "acos",
+            Func::Atan => "atan",
+            Func::Sinh => "sinh",
+            Func::Cosh => "cosh",
+            Func::Tanh => "tanh",
+            Func::Sech => "sech",
+            Func::Asinh => "asinh",
+            Func::Acosh => "acosh",
+            Func::Atanh => "atanh",
+            Func::Abs => "abs",
+        }
+    }
+
+    /// Looks a function up by name (`ln` is `log`).
+    pub fn from_name(name: &str) -> Option<Func> {
+        if name == "ln" {
+            return Some(Func::Log);
+        }
+        Func::ALL.into_iter().find(|f| f.name() == name)
+    }
+
+    /// The function's value in f64. The tape and the constant folder both call this, so a folded
+    /// constant is bit-for-bit what the evaluator would have computed.
+    #[inline]
+    pub fn apply(self, x: f64) -> f64 {
+        match self {
+            Func::Exp => x.exp(),
+            Func::Log => x.ln(),
+            Func::Sqrt => x.sqrt(),
+            Func::Sin => x.sin(),
+            Func::Cos => x.cos(),
+            Func::Tan => x.tan(),
+            Func::Asin => x.asin(),
+            Func::Acos => x.acos(),
+            Func::Atan => x.atan(),
+            Func::Sinh => x.sinh(),
+            Func::Cosh => x.cosh(),
+            Func::Tanh => x.tanh(),
+            Func::Sech => 1.0 / x.cosh(),
+            Func::Asinh => x.asinh(),
+            Func::Acosh => x.acosh(),
+            Func::Atanh => x.atanh(),
+            Func::Abs => x.abs(),
+        }
+    }
+}
+
+/// Integer exponents up to this size are stored as [`Node::PowI`] and evaluated by repeated
+/// multiplication; larger ones by `powf`.
+pub const MAX_POWI: i32 = 16;
+
+/// One node of the DAG. Operands are ids of earlier nodes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Node {
+    /// A finite constant, stored as its bits.
+    Const(u64),
+    /// The field variable.
+    Var,
+    /// The i-th parameter of the [`Scope`].
+    Param(u32),
+    /// a + b
+    Add(Id, Id),
+    /// a - b
+    Sub(Id, Id),
+    /// a * b
+    Mul(Id, Id),
+    /// a / b
+    Div(Id, Id),
+    /// -a
+    Neg(Id),
+    /// a ^ n for a small integer n.
+    PowI(Id, i32),
+    /// a ^ b in general.
+    Pow(Id, Id),
+    /// f(a)
+    Func(Func, Id),
+}
+
+/// The names an expression may use: the field variable and the parameters, in order.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Scope {
+    /// The field variable's name (default `phi`).
+    pub field: String,
+    /// Parameter names; a parameter's index here is its slot in the evaluator.
+    pub params: Vec<String>,
+}
+
+impl Scope {
+    /// A scope with a field name and parameter names.
+    pub fn new(field: &str, params: &[&str]) -> Scope {
+        Scope {
+            field: field.to_string(),
+            params: params.iter().map(|p| p.to_string()).collect(),
+        }
+    }
+
+    fn param_index(&self, name: &str) -> Option<usize> {
+        self.params.iter().position(|p| p == name)
+    }
+}
+
+/// Built-in constants.
+pub const CONSTANTS: [(&str, f64); 1] = [("pi", std::f64::consts::PI)];
+
+/// A name that could not be resolved, or a call with the wrong number of arguments.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NameError {
+    /// What went wrong.
+    pub kind: NameErrorKind,
+    /// Where.
+    pub span: Span,
+}
+
+/// The kinds of [`NameError`].
+#[derive(Debug, Clone, PartialEq)]
+pub enum NameErrorKind {
+    /// A call to a function the language does not have.
+    UnknownFunction {
+        /// The name as written.
+        name: String,
+        /// A close built-in name, if any.
+        suggestion: Option<String>,
+        /// True if the name is a parameter or the field (a missing `*`).
+        is_variable: bool,
+    },
+    /// A name that is neither the field, a parameter nor a constant.
+    UnknownName {
+        /// The name as written.
+        name: String,
+        /// A close name in scope, if any.
+        suggestion: Option<String>,
+        /// The field's name.
+        field: String,
+        /// The parameters in scope.
+        params: Vec<String>,
+    },
+    /// A function called with the wrong number of arguments.
+    Arity {
+        /// The function.
+        name: String,
+        /// How many it takes.
+        expected: usize,
+        /// How many it got.
+        found: usize,
+    },
+    /// A function name used without a call.
+    FunctionAsValue {
+        /// The function.
+        name: String,
+    },
+}
+
+impl NameError {
+    /// The error in words, pointing at its span.
+    pub fn diagnostic(&self) -> Diagnostic {
+        use NameErrorKind::*;
+        match &self.kind {
+            UnknownFunction {
+                name,
+                suggestion,
+                is_variable,
+            } => {
+                let d = Diagnostic::new(format!("unknown function `{name}`"))
+                    .with_span(self.span, "not a built-in function");
+                if *is_variable {
+                    d.with_hint(format!("`{name}` is a variable: write `{name}*(...)` to multiply"))
+                } else if let Some(s) = suggestion {
+                    d.with_hint(format!("did you mean `{s}`?"))
+                } else {
+                    d.with_hint(format!("the functions are: {}, pow", function_names().join(", ")))
+                }
+            }
+            UnknownName {
+                name,
+                suggestion,
+                field,
+                params,
+            } => {
+                let mut d = Diagnostic::new(format!("unknown name `{name}`"))
+                    .with_span(self.span, "not the field, a parameter or a constant");
+                if let Some(s) = suggestion {
+                    d = d.with_hint(format!("did you mean `{s}`?"));
+                }
+                let list = if params.is_empty() {
+                    "none".to_string()
+                } else {
+                    params.iter().map(|p| format!("`{p}`")).collect::<Vec<_>>().join(", ")
+                };
+                d.with_hint(format!(
+                    "in scope: the field `{field}`, the constant `pi`, and parameters: {list}"
+                ))
+                .with_hint(format!("declare a parameter with `--param {name}=VALUE`"))
+            }
+            Arity {
+                name,
+                expected,
+                found,
+            } => {
+                let s = |n: usize| if n == 1 { "" } else { "s" };
+                Diagnostic::new(format!(
+                    "`{name}` takes {expected} argument{}, but {found} {} given",
+                    s(*expected),
+                    if *found == 1 { "was" } else { "were" }
+                ))
+                .with_span(self.span, format!("{found} argument{}", s(*found)))
+                .with_hint(if name == "pow" {
+                    "write `pow(x, y)`, or `x^y`".to_string()
+                } else {
+                    format!("write `{name}(x)`")
+                })
+            }
+            FunctionAsValue { name } => Diagnostic::new(format!("`{name}` is a function, not a value"))
+                .with_span(self.span, "needs an argument")
+                .with_hint(format!("write `{name}(x)`")),
+        }
+    }
+}
+
+impl fmt::Display for NameError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}", self.diagnostic().message)
+    }
+}
+
+impl std::error::Error for NameError {}
+
+fn function_names() -> Vec<&'static str> {
+    Func::ALL.iter().map(|f| f.name()).collect()
+}
+
+/// The hash-consed DAG. See the module docs.
+#[derive(Debug, Clone)]
+pub struct Graph {
+    nodes: Vec<Node>,
+    index: HashMap<Node, Id>,
+    /// Whether each node depends on the field variable.
+    varying: Vec<bool>,
+    scope: Scope,
+}
+
+impl Graph {
+    /// An empty graph over a scope.
+    pub fn new(scope: Scope) -> Graph {
+        Graph {
+            nodes: Vec::new(),
+            index: HashMap::new(),
+            varying: Vec::new(),
+            scope,
+        }
+    }
+
+    /// The scope the graph's parameters refer to.
+    pub fn scope(&self) -> &Scope {
+        &self.scope
+    }
+
+    /// The node behind an id.
+    pub fn node(&self, id: Id) -> Node {
+        self.nodes[id.index()]
+    }
+
+    /// Number of distinct nodes.
+    pub fn len(&self) -> usize {
+        self.nodes.len()
+    }
+
+    /// True if the graph holds no node.
+    pub fn is_empty(&self) -> bool {
+        self.nodes.is_empty()
+    }
+
+    /// True if the node depends on the field variable.
+    pub fn is_varying(&self, id: Id) -> bool {
+        self.varying[id.index()]
+    }
+
+    /// The node's constant value, if it is a constant.
+    pub fn constant_value(&self, id: Id) -> Option<f64> {
+        match self.node(id) {
+            Node::Const(bits) => Some(f64::from_bits(bits)),
+            _ => None,
+        }
+    }
+
+    fn is_const(&self, id: Id, v: f64) -> bool {
+        self.constant_value(id) == Some(v)
+    }
+
+    fn intern(&mut self, node: Node) -> Id {
+        if let Some(&id) = self.index.get(&node) {
+            return id;
+        }
+        let id = Id(self.nodes.len() as u32);
+        let varying = match node {
+            Node::Var => true,
+            Node::Const(_) | Node::Param(_) => false,
+            Node::Add(a, b) | Node::Sub(a, b) | Node::Mul(a, b) | Node::Div(a, b) | Node::Pow(a, b) => {
+                self.is_varying(a) || self.is_varying(b)
+            }
+            Node::Neg(a) | Node::PowI(a, _) | Node::Func(_, a) => self.is_varying(a),
+        };
+        self.nodes.push(node);
+        self.varying.push(varying);
+        self.index.insert(node, id);
+        id
+    }
+
+    /// A constant. Non-finite values are refused (the graph holds finite constants only).
+    pub fn constant(&mut self, v: f64) -> Id {
+        assert!(v.is_finite(), "ir: constants are finite");
+        // -0.0 and 0.0 are one constant: they behave alike everywhere except 1/x.
+        let v = if v == 0.0 { 0.0 } else { v };
+        self.intern(Node::Const(v.to_bits()))
+    }
+
+    /// The field variable.
+    pub fn var(&mut self) -> Id {
+        self.intern(Node::Var)
+    }
+
+    /// The i-th parameter.
+    pub fn param(&mut self, i: usize) -> Id {
+        self.intern(Node::Param(i as u32))
+    }
+
+    /// Folds `f` over constant operands when the result is finite.
+    fn fold2(&mut self, a: Id, b: Id, f: impl Fn(f64, f64) -> f64) -> Option<Id> {
+        let (x, y) = (self.constant_value(a)?, self.constant_value(b)?);
+        let v = f(x, y);
+        v.is_finite().then(|| self.constant(v))
+    }
+
+    /// Constants first, then by id: one order for the operands of + and *.
+    fn ordered(&self, a: Id, b: Id) -> (Id, Id) {
+        let key = |id: Id| (self.constant_value(id).is_none(), id);
+        if key(a) <= key(b) {
+            (a, b)
+        } else {
+            (b, a)
+        }
+    }
+
+    /// a + b
+    pub fn add(&mut self, a: Id, b: Id) -> Id {
+        if let Some(c) = self.fold2(a, b, |x, y| x + y) {
+            return c;
+        }
+        if self.is_const(a, 0.0) {
+            return b;
+        }
+        if self.is_const(b, 0.0) {
+            return a;
+        }
+        if let Node::Neg(nb) = self.node(b) {
+            return self.sub(a, nb);
+        }
+        if let Node::Neg(na) = self.node(a) {
+            return self.sub(b, na);
+        }
+        let (a, b) = self.ordered(a, b);
+        self.intern(Node::Add(a, b))
+    }
+
+    /// a - b
+    pub fn sub(&mut self, a: Id, b: Id) -> Id {
+        if let Some(c) = self.fold2(a, b, |x, y| x - y) {
+            return c;
+        }
+        if self.is_const(b, 0.0) {
+            return a;
+        }
+        if self.is_const(a, 0.0) {
+            return self.neg(b);
+        }
+        if let Node::Neg(nb) = self.node(b) {
+            return self.add(a, nb);
+        }
+        self.intern(Node::Sub(a, b))
+    }
+
+    /// a * b
+    pub fn mul(&mut self, a: Id, b: Id) -> Id {
+        if let Some(c) = self.fold2(a, b, |x, y| x * y) {
+            return c;
+        }
+        if self.is_const(a, 0.0) || self.is_const(b, 0.0) {
+            return self.constant(0.0);
+        }
+        if self.is_const(a, 1.0) {
+            return b;
+        }
+        if self.is_const(b, 1.0) {
+            return a;
+        }
+        if self.is_const(a, -1.0) {
+            return self.neg(b);
+        }
+        if self.is_const(b, -1.0) {
+            return self.neg(a);
+        }
+        match (self.node(a), self.node(b)) {
+            (Node::Neg(x), Node::Neg(y)) => return self.mul(x, y),
+            (Node::Neg(x), _) => {
+                let m = self.mul(x, b);
+                return self.neg(m);
+            }
+            (_, Node::Neg(y)) => {
+                let m = self.mul(a, y);
+                return self.neg(m);
+            }
+            _ => {}
+        }
+        let (a, b) = self.ordered(a, b);
+        self.intern(Node::Mul(a, b))
+    }
+
+    /// a / b
+    pub fn div(&mut self, a: Id, b: Id) -> Id {
+        if let Some(c) = self.fold2(a, b, |x, y| x / y) {
+            return c;
+        }
+        if self.is_const(a, 0.0) && !self.is_const(b, 0.0) {
+            return self.constant(0.0);
+        }
+        if self.is_const(b, 1.0) {
+            return a;
+        }
+        if self.is_const(b, -1.0) {
+            return self.neg(a);
+        }
+        self.intern(Node::Div(a, b))
+    }
+
+    /// -a
+    pub fn neg(&mut self, a: Id) -> Id {
+        if let Some(x) = self.constant_value(a) {
+            return self.constant(-x);
+        }
+        if let Node::Neg(x) = self.node(a) {
+            return x;
+        }
+        self.intern(Node::Neg(a))
+    }
+
+    /// a ^ b
+    pub fn pow(&mut self, a: Id, b: Id) -> Id {
+        if let Some(c) = self.fold2(a, b, f64::powf) {
+            return c;
+        }
+        if self.is_const(a, 1.0) {
+            return a;
+        }
+        if let Some(y) = self.constant_value(b) {
+            if y.fract() == 0.0 && y.abs() <= f64::from(MAX_POWI) {
+                return self.powi(a, y as i32);
+            }
+        }
+        self.intern(Node::Pow(a, b))
+    }
+
+    /// a ^ n for an integer n.
+    pub fn powi(&mut self, a: Id, n: i32) -> Id {
+        if n.abs() > MAX_POWI {
+            let e = self.constant(f64::from(n));
+            return self.intern(Node::Pow(a, e));
+        }
+        if n == 0 {
+            return self.constant(1.0);
+        }
+        if n == 1 {
+            return a;
+        }
+        if let Some(x) = self.constant_value(a) {
+            let v = x.powi(n);
+            if v.is_finite() {
+                return self.constant(v);
+            }
+        }
+        self.intern(Node::PowI(a, n))
+    }
+
+    /// f(a)
+    pub fn func(&mut self, f: Func, a: Id) -> Id {
+        if let Some(x) = self.constant_value(a) {
+            let v = f.apply(x);
+            if v.is_finite() {
+                return self.constant(v);
+            }
+        }
+        self.intern(Node::Func(f, a))
+    }
+
+    /// Lowers a syntax tree into the graph, resolving names against the scope.
+    pub fn lower(&mut self, e: &Expr) -> Result<Id, NameError> {
+        match &e.kind {
+            ExprKind::Number(v) => Ok(self.constant(*v)),
+            ExprKind::Ident(name) => self.lower_name(name, e.span),
+            ExprKind::Neg(a) => {
+                let a = self.lower(a)?;
+                Ok(self.neg(a))
+            }
+            ExprKind::Binary(op, a, b) => {
+                let (a, b) = (self.lower(a)?, self.lower(b)?);
+                Ok(match op {
+                    BinOp::Add => self.add(a, b),
+                    BinOp::Sub => self.sub(a, b),
+                    BinOp::Mul => self.mul(a, b),
+                    BinOp::Div => self.div(a, b),
+                    BinOp::Pow => self.pow(a, b),
+                })
+            }
+            ExprKind::Call { name, name_span, args } => self.lower_call(name, *name_span, args, e.span),
+        }
+    }
+
+    fn lower_name(&mut self, name: &str, span: Span) -> Result<Id, NameError> {
+        if name == self.scope.field {
+            return Ok(self.var());
+        }
+        if let Some(i) = self.scope.param_index(name) {
+            return Ok(self.param(i));
+        }
+        if let Some((_, v)) = CONSTANTS.iter().find(|(n, _)| *n == name) {
+            return Ok(self.constant(*v));
+        }
+        if Func::from_name(name).is_some() || name == "pow" {
+            return Err(NameError {
+                kind: NameErrorKind::FunctionAsValue { name: name.to_string() },
+                span,
+            });
+        }
+        let mut known: Vec<&str> = vec![self.scope.field.as_str()];
+        known.extend(self.scope.params.iter().map(String::as_str));
+        known.extend(CONSTANTS.iter().map(|(n, _)| *n));
+        Err(NameError {
+            kind: NameErrorKind::UnknownName {
+                name: name.to_string(),
+                suggestion: closest(name, known).map(str::to_string),
+                field: self.scope.field.clone(),
+                params: self.scope.params.clone(),
+            },
+            span,
+        })
+    }
+
+    fn lower_call(&mut self, name: &str, name_span: Span, args: &[Expr], span: Span) -> Result<Id, NameError> {
+        let arity = |expected: usize| -> Result<(), NameError> {
+            if args.len() == expected {
+                Ok(())
+            } else {
+                Err(NameError {
+                    kind: NameErrorKind::Arity {
+                        name: name.to_string(),
+                        expected,
+                        found: args.len(),
+                    },
+                    span,
+                })
+            }
+        };
+        if name == "pow" {
+            arity(2)?;
+            let (a, b) = (self.lower(&args[0])?, self.lower(&args[1])?);
+            return Ok(self.pow(a, b));
+        }
+        let Some(f) = Func::from_name(name) else {
+            let is_variable = name == self.scope.field || self.scope.param_index(name).is_some();
+            let mut names = function_names();
+            names.extend(["ln", "pow"]);
+            return Err(NameError {
+                kind: NameErrorKind::UnknownFunction {
+                    name: name.to_string(),
+                    suggestion: closest(name, names).map(str::to_string),
+                    is_variable,
+                },
+                span: name_span,
+            });
+        };
+        arity(1)?;
+        let a = self.lower(&args[0])?;
+        Ok(self.func(f, a))
+    }
+
+    /// The nodes reachable from `roots`, in ascending (topological) order.
+    pub fn reachable(&self, roots: &[Id]) -> Vec<Id> {
+        let mut seen = vec![false; self.nodes.len()];
+        let mut stack: Vec<Id> = roots.to_vec();
+        while let Some(id) = stack.pop() {
+            if std::mem::replace(&mut seen[id.index()], true) {
+                continue;
+            }
+            stack.extend(self.children(id));
+        }
+        (0..self.nodes.len()).filter(|&i| seen[i]).map(|i| Id(i as u32)).collect()
+    }
+
+    /// The operands of a node.
+    pub fn children(&self, id: Id) -> impl Iterator<Item = Id> {
+        let (a, b) = match self.node(id) {
+            Node::Const(_) | Node::Var | Node::Param(_) => (None, None),
+            Node::Add(a, b) | Node::Sub(a, b) | Node::Mul(a, b) | Node::Div(a, b) | Node::Pow(a, b) => {
+                (Some(a), Some(b))
+            }
+            Node::Neg(a) | Node::PowI(a, _) | Node::Func(_, a) => (Some(a), None),
+        };
+        a.into_iter().chain(b)
+    }
+
+    /// True if `abs` occurs under `root` (derivatives are then not smooth everywhere).
+    pub fn has_abs(&self, root: Id) -> bool {
+        self.reachable(&[root])
+            .into_iter()
+            .any(|id| matches!(self.node(id), Node::Func(Func::Abs, _)))
+    }
+
+    /// Evaluates, node by node, everything under `root` at field value `x`; returns the first
+    /// (innermost) node whose value is not finite, with that value. A slow reference path for
+    /// diagnostics: "`log(phi - 1)` is NaN there".
+    pub fn first_non_finite(&self, root: Id, x: f64, params: &[f64]) -> Option<(Id, f64)> {
+        let mut val = vec![0.0; self.nodes.len()];
+        for id in self.reachable(&[root]) {
+            let v = |i: Id| val[i.index()];
+            let y = match self.node(id) {
+                Node::Const(bits) => f64::from_bits(bits),
+                Node::Var => x,
+                Node::Param(i) => params[i as usize],
+                Node::Add(a, b) => v(a) + v(b),
+                Node::Sub(a, b) => v(a) - v(b),
+                Node::Mul(a, b) => v(a) * v(b),
+                Node::Div(a, b) => v(a) / v(b),
+                Node::Neg(a) => -v(a),
+                Node::PowI(a, n) => crate::tape::powi(v(a), n),
+                Node::Pow(a, b) => v(a).powf(v(b)),
+                Node::Func(f, a) => f.apply(v(a)),
+            };
+            if !y.is_finite() {
+                return Some((id, y));
+            }
+            val[id.index()] = y;
+        }
+        None
+    }
+
+    /// The symbolic derivative d/d(field), simplified by the same constructors.
+    pub fn derivative(&mut self, root: Id) -> Id {
+        let order = self.reachable(&[root]);
+        let mut d: HashMap<Id, Id> = HashMap::with_capacity(order.len());
+        for id in order {
+            let dv = self.derivative_of(id, &d);
+            d.insert(id, dv);
+        }
+        d[&root]
+    }
+
+    /// One rule of differentiation; the operands' derivatives are in `d`.
+    fn derivative_of(&mut self, id: Id, d: &HashMap<Id, Id>) -> Id {
+        let zero = self.constant(0.0);
+        if !self.is_varying(id) {
+            return zero;
+        }
+        match self.node(id) {
+            Node::Const(_) | Node::Param(_) => zero,
+            Node::Var => self.constant(1.0),
+            Node::Add(a, b) => self.add(d[&a], d[&b]),
+            Node::Sub(a, b) => self.sub(d[&a], d[&b]),
+            Node::Mul(a, b) => {
+                let l = self.mul(d[&a], b);
+                let r = self.mul(a, d[&b]);
+                self.add(l, r)
+            }
+            Node::Div(a, b) if !self.is_varying(b) => self.div(d[&a], b),
+            Node::Div(a, b) => {
+                // (a' b - a b') / b^2
+                let l = self.mul(d[&a], b);
+                let r = self.mul(a, d[&b]);
+                let num = self.sub(l, r);
+                let den = self.powi(b, 2);
+                self.div(num, den)
+            }
+            Node::Neg(a) => self.neg(d[&a]),
+            Node::PowI(a, n) => {
+                let c = self.constant(f64::from(n));
+                let p = self.powi(a, n - 1);
+                let cp = self.mul(c, p);
+                self.mul(cp, d[&a])
+            }
+            Node::Pow(a, b) => {
+                if self.is_varying(b) {
+                    // a^b (b' log a + b a'/a)
+                    let la = self.func(Func::Log, a);
+                    let t1 = self.mul(d[&b], la);
+                    let ba = self.mul(b, d[&a]);
+                    let t2 = self.div(ba, a);
+                    let s = self.add(t1, t2);
+                    self.mul(id, s)
+                } else {
+                    // b a^(b-1) a'
+                    let one = self.constant(1.0);
+                    let bm1 = self.sub(b, one);
+                    let p = self.pow(a, bm1);
+                    let bp = self.mul(b, p);
+                    self.mul(bp, d[&a])
+                }
+            }
+            Node::Func(f, a) => {
+                let g = self.func_derivative(f, a, id);
+                self.mul(g, d[&a])
+            }
+        }
+    }
+
+    /// f'(a), where `fa` is the node f(a).
+    fn func_derivative(&mut self, f: Func, a: Id, fa: Id) -> Id {
+        let one = self.constant(1.0);
+        let a2 = self.powi(a, 2);
+        match f {
+            Func::Exp => fa,
+            Func::Log => self.div(one, a),
+            Func::Sqrt => {
+                let two = self.constant(2.0);
+                let den = self.mul(two, fa);
+                self.div(one, den)
+            }
+            Func::Sin => self.func(Func::Cos, a),
+            Func::Cos => {
+                let s = self.func(Func::Sin, a);
+                self.neg(s)
+            }
+            Func::Tan => {
+                let t2 = self.powi(fa, 2);
+                self.add(one, t2)
+            }
+            Func::Asin | Func::Acos => {
+                let w = self.sub(one, a2);
+                let s = self.func(Func::Sqrt, w);
+                let g = self.div(one, s);
+                if f == Func::Acos {
+                    self.neg(g)
+                } else {
+                    g
+                }
+            }
+            Func::Atan => {
+                let w = self.add(one, a2);
+                self.div(one, w)
+            }
+            Func::Sinh => self.func(Func::Cosh, a),
+            Func::Cosh => self.func(Func::Sinh, a),
+            Func::Tanh => {
+                let t2 = self.powi(fa, 2);
+                self.sub(one, t2)
+            }
+            Func::Sech => {
+                let t = self.func(Func::Tanh, a);
+                let st = self.mul(fa, t);
+                self.neg(st)
+            }
+            Func::Asinh => {
+                let w = self.add(a2, one);
+                let s = self.func(Func::Sqrt, w);
+                self.div(one, s)
+            }
+            Func::Acosh => {
+                let w = self.sub(a2, one);
+                let s = self.func(Func::Sqrt, w);
+                self.div(one, s)
+            }
+            Func::Atanh => {
+                let w = self.sub(one, a2);
+                self.div(one, w)
+            }
+            // The sign of a: not defined at a = 0, where abs is flagged as non-smooth.
+            Func::Abs => self.div(a, fa),
+        }
+    }
+
+    /// Prints a node back to the expression language, with the fewest parentheses that keep its
+    /// grouping: parsing the result gives back an expression that evaluates identically.
+    pub fn print(&self, id: Id) -> String {
+        let mut out = String::new();
+        self.print_into(id, 0, &mut out);
+        out
+    }
+
+    /// Binding strength of a node as printed: 1 sums, 2 products, 3 negation, 4 powers, 5 atoms.
+    fn level(&self, id: Id) -> u8 {
+        match self.node(id) {
+            Node::Add(..) | Node::Sub(..) => 1,
+            Node::Mul(..) | Node::Div(..) => 2,
+            Node::Neg(_) => 3,
+            Node::Const(bits) if f64::from_bits(bits) < 0.0 => 3,
+            Node::Pow(..) | Node::PowI(..) => 4,
+            Node::Const(_) | Node::Var | Node::Param(_) | Node::Func(..) => 5,
+        }
+    }
+
+    fn print_into(&self, id: Id, min: u8, out: &mut String) {
+        let paren = self.level(id) < min;
+        if paren {
+            out.push('(');
+        }
+        let bin = |s: &Self, a: Id, op: &str, la: u8, b: Id, lb: u8, out: &mut String| {
+            s.print_into(a, la, out);
+            out.push_str(op);
+            s.print_into(b, lb, out);
+        };
+        match self.node(id) {
+            Node::Const(bits) => out.push_str(&format_number(f64::from_bits(bits))),
+            Node::Var => out.push_str(&self.scope.field),
+            Node::Param(i) => out.push_str(&self.scope.params[i as usize]),
+            Node::Add(a, b) => bin(self, a, " + ", 1, b, 2, out),
+            Node::Sub(a, b) => bin(self, a, " - ", 1, b, 2, out),
+            Node::Mul(a, b) => bin(self, a, "*", 2, b, 3, out),
+            Node::Div(a, b) => bin(self, a, "/", 2, b, 3, out),
+            Node::Neg(a) => {
+                out.push('-');
+                self.print_into(a, 4, out);
+            }
+            Node::PowI(a, n) => {
+                self.print_into(a, 5, out);
+                out.push_str(&format!("^{n}"));
+            }
+            Node::Pow(a, b) => bin(self, a, "^", 5, b, 3, out),
+            Node::Func(f, a) => {
+                out.push_str(f.name());
+                out.push('(');
+                self.print_into(a, 0, out);
+                out.push(')');
+            }
+        }
+        if paren {
+            out.push(')');
+        }
+    }
+}
+
+/// Shortest text that reads back as the same f64, in the language's number syntax.
+pub fn format_number(v: f64) -> String {
+    let a = v.abs();
+    if a != 0.0 && !(1e-5..1e16).contains(&a) {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::config::Limits;
+    use crate::syntax::parse;
+
+    fn lowered(src: &str) -> (Graph, Id) {
+        let mut g = Graph::new(Scope::new("phi", &["alpha", "b"]));
+        let id = g.lower(&parse(src, &Limits::default()).unwrap()).unwrap();
+        (g, id)
+    }
+
+    #[test]
+    fn identities_keep_expressions_small() {
+        let cases = [
+            ("phi + 0", "phi"),
+            ("0 + phi", "phi"),
+            ("phi*1", "phi"),
+            ("1*phi", "phi"),
+            ("phi*0", "0"),
+            ("0/phi", "0"),
+            ("phi^1", "phi"),
+            ("phi^0", "1"),
+            ("--phi", "phi"),
+            ("1^phi", "1"),
+            ("2*3 + phi", "6 + phi"),
+            ("sqrt(4) * phi", "2*phi"),
+            ("phi - -alpha", "phi + alpha"),
+            ("phi + -alpha", "phi - alpha"),
+            ("(-phi)*(-alpha)", "phi*alpha"),
+            ("-(2)", "-2"),
+            ("phi^2.5", "phi^2.5"),
+            ("phi^-2", "phi^-2"),
+            ("2^-1 * phi", "0.5*phi"),
+            ("1/0 + phi", "1/0 + phi"),
+        ];
+        for (src, want) in cases {
+            let (g, id) = lowered(src);
+            assert_eq!(g.print(id), want, "{src}");
+        }
+    }
+
+    #[test]
+    fn equal_subexpressions_are_stored_once() {
+        let (g, id) = lowered("tanh(phi/alpha)^2 + tanh(phi/alpha)^2 * tanh(alpha\t+phi)");
+        // phi, alpha, phi/alpha, tanh, ^2, alpha+phi (= phi+alpha), tanh, *, + : and 2 as PowI.
+        let distinct = g.reachable(&[id]).len();
+        assert_eq!(distinct, 9, "{}", g.print(id));
+        let (g2, a) = lowered("phi*alpha + alpha*phi");
+        assert_eq!(g2.print(a), "phi*alpha + phi*alpha");
+        assert_eq!(g2.reachable(&[a]).len(), 4);
+    }
+
+    #[test]
+    fn printing_keeps_grouping() {
+        let cases = [
+            "phi - (alpha - b)",
+            "phi/(alpha*b)",
+            "(phi^alpha)^b",
+            "phi^alpha^b",
+            "-phi^2",
+            "(-phi)^alpha",
+            "phi^-alpha",
+            "-(phi*alpha)",
+            "exp(-b*phi)",
+            "(1 - exp(-b*phi))^2",
+            "1.5e-300*phi + 2.5e300",
+        ];
+        for src in cases {
+            let (g, id) = lowered(src);
+            let printed = g.print(id);
+            let (g2, id2) = lowered(&printed);
+            assert_eq!(g2.print(id2), printed, "{src} -> {printed}");
+        }
+    }
+
+    #[test]
+    fn derivatives_by_rule() {
+        let cases = [
+            ("phi^2", "2*phi"),
+            ("exp(-phi)", "-exp(-phi)"),
+            ("alpha*phi^3", "alpha*(3*phi^2)"),
+            ("log(phi)", "1/phi"),
+            ("tanh(phi)", "1 - tanh(phi)^2"),
+            ("phi^alpha", "alpha*phi^(alpha - 1)"),
+            ("alpha", "0"),
+        ];
+        for (src, want) in cases {
+            let (mut g, id) = lowered(src);
+            let d = g.derivative(id);
+            assert_eq!(g.print(d), want, "{src}");
+        }
+    }
+}

@@ -1,0 +1,16 @@
+//! efold: predictions of inflationary models from a potential V(phi) and a kinetic function
+//! K(phi), for L = 1/2 K(phi) (d phi)^2 - V(phi) in reduced Planck units (M_p = 1).
+//!
+//! The pipeline, one stage a module:
+//! [`syntax`] (text → spanned tree) → [`ir`] (hash-consed DAG, symbolic d/dphi) →
+//! [`tape`] (compiled evaluator: f64 and Taylor jets) → the commands in [`cli`].
+//! Errors of every stage become a [`diag::Diagnostic`], drawn by one renderer.
+#![warn(missing_docs)]
+
+pub mod cli;
+pub mod compile;
+pub mod config;
+pub mod diag;
+pub mod ir;
+pub mod syntax;
+pub mod tape;

@@ -1,0 +1,671 @@
+//! Stage 3: the compiled evaluator.
+//!
+//! A [`Tape`] is the IR flattened into straight-line instructions over a register file, one
+//! register per node. Nodes that do not depend on the field (constants, parameters, and anything
+//! computed from them alone, such as `sqrt(6*alpha)`) are evaluated once, when parameters are
+//! bound; only the rest runs per point. Parameters are inputs, not folded constants: rebinding
+//! them costs one pass over the parameter-only part and no recompilation (see the benchmark
+//! `bind` in `benches/tape.rs` for the measurement behind this choice).
+//!
+//! Two evaluators share the tape: plain f64 ([`Evaluator::eval`]) and truncated Taylor series
+//! ([`Evaluator::eval_jet`]) up to order [`MAX_ORDER`], giving the function and its derivatives
+//! in one pass by the Taylor-mode recurrences of Griewank & Walther, *Evaluating Derivatives*,
+//! 2nd ed. (SIAM 2008), ch. 13. A [`Tape`] is immutable, `Send` and `Sync`; each thread makes
+//! its own [`Evaluator`], which owns the registers, so no evaluation allocates.
+//!
+//! ```
+//! use efold::{compile::compile_one, ir::Scope};
+//! let f = compile_one("phi^3", &Scope::new("phi", &[]))?;
+//! let mut ev = f.tape.evaluator(&[]);
+//! assert_eq!(ev.eval(2.0), 8.0);
+//! let d = ev.derivatives(2.0, 3);
+//! assert_eq!(d, vec![8.0, 12.0, 12.0, 6.0]);
+//! # Ok::<(), efold::compile::ExprError>(())
+//! ```
+
+use crate::ir::{Func, Graph, Id, Node};
+use std::fmt;
+
+/// Highest Taylor order the jet evaluator supports.
+pub const MAX_ORDER: usize = 8;
+/// Coefficients in a jet: orders 0 to [`MAX_ORDER`].
+pub const JET_LEN: usize = MAX_ORDER + 1;
+/// A truncated Taylor series: `c[k] = f^(k)(x) / k!`.
+pub type Jet = [f64; JET_LEN];
+
+/// One instruction; operands are register numbers, the destination is implied by position.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Op {
+    /// r[a] + r[b]
+    Add(u32, u32),
+    /// r[a] - r[b]
+    Sub(u32, u32),
+    /// r[a] * r[b]
+    Mul(u32, u32),
+    /// r[a] / r[b]
+    Div(u32, u32),
+    /// -r[a]
+    Neg(u32),
+    /// r[a]^n
+    PowI(u32, i32),
+    /// r[a]^r[b]
+    Pow(u32, u32),
+    /// f(r[a])
+    Func(Func, u32),
+}
+
+/// The compiled form of one or more expressions over one scope.
+#[derive(Debug, Clone)]
+pub struct Tape {
+    n_regs: usize,
+    /// (register, value) of every constant.
+    consts: Vec<(u32, f64)>,
+    /// (register, parameter index) of every parameter used.
+    params: Vec<(u32, u32)>,
+    n_params: usize,
+    /// Field-independent instructions; the i-th writes register `prologue_start + i`.
+    prologue: Vec<Op>,
+    prologue_start: u32,
+    /// The field's register, if the field is used.
+    var_reg: u32,
+    /// Field-dependent instructions; the i-th writes register `var_reg + 1 + i`.
+    body: Vec<Op>,
+    outputs: Vec<u32>,
+    has_abs: bool,
+}
+
+impl Tape {
+    /// Compiles the given roots of a graph (one output each, in order).
+    pub fn compile(graph: &Graph, roots: &[Id]) -> Tape {
+        let order = graph.reachable(roots);
+        let mut reg = vec![u32::MAX; graph.len()];
+        let mut next = 0u32;
+        let mut tape = Tape {
+            n_regs: 0,
+            consts: Vec::new(),
+            params: Vec::new(),
+            n_params: graph.scope().params.len(),
+            prologue: Vec::new(),
+            prologue_start: 0,
+            var_reg: 0,
+            body: Vec::new(),
+            outputs: Vec::new(),
+            has_abs: false,
+        };
+        // Leaves first: constants and parameters.
+        for &id in &order {
+            match graph.node(id) {
+                Node::Const(bits) => tape.consts.push((next, f64::from_bits(bits))),
+                Node::Param(i) => tape.params.push((next, i)),
+                _ => continue,
+            }
+            reg[id.index()] = next;
+            next += 1;
+        }
+        // Then what depends on parameters alone, then the field, then the rest.
+        tape.prologue_start = next;
+        let is_leaf = |n: Node| matches!(n, Node::Const(_) | Node::Param(_) | Node::Var);
+        for &id in &order {
+            let n = graph.node(id);
+            if !is_leaf(n) && !graph.is_varying(id) {
+                tape.prologue.push(op_of(n, &reg));
+                reg[id.index()] = next;
+                next += 1;
+            }
+        }
+        tape.var_reg = next;
+        next += 1;
+        for &id in &order {
+            let n = graph.node(id);
+            if n == Node::Var {
+                reg[id.index()] = tape.var_reg;
+            } else if !is_leaf(n) && graph.is_varying(id) {
+                tape.body.push(op_of(n, &reg));
+                reg[id.index()] = next;
+                next += 1;
+            }
+            tape.has_abs |= matches!(n, Node::Func(Func::Abs, _));
+        }
+        tape.n_regs = next as usize;
+        tape.outputs = roots.iter().map(|r| reg[r.index()]).collect();
+        tape
+    }
+
+    /// Number of parameters the evaluator expects.
+    pub fn n_params(&self) -> usize {
+        self.n_params
+    }
+
+    /// Number of outputs.
+    pub fn n_outputs(&self) -> usize {
+        self.outputs.len()
+    }
+
+    /// Instructions run per point (the parameter-only part runs once per binding).
+    pub fn body_len(&self) -> usize {
+        self.body.len()
+    }
+
+    /// True if `abs` occurs: derivatives are not defined where its argument is zero.
+    pub fn has_abs(&self) -> bool {
+        self.has_abs
+    }
+
+    /// An evaluator with its own registers, parameters bound to `params` (in scope order).
+    ///
+    /// # Panics
+    /// If `params.len()` differs from [`Tape::n_params`]: a programming error, not bad input.
+    pub fn evaluator(&self, params: &[f64]) -> Evaluator<'_> {
+        let mut ev = Evaluator {
+            tape: self,
+            regs: vec![0.0; self.n_regs],
+            jets: vec![[0.0; JET_LEN]; self.n_regs],
+        };
+        ev.set_params(params);
+        ev
+    }
+}
+
+fn op_of(n: Node, reg: &[u32]) -> Op {
+    let r = |id: Id| {
+        let v = reg[id.index()];
+        debug_assert!(v != u32::MAX, "tape: operand before its definition");
+        v
+    };
+    match n {
+        Node::Add(a, b) => Op::Add(r(a), r(b)),
+        Node::Sub(a, b) => Op::Sub(r(a), r(b)),
+        Node::Mul(a, b) => Op::Mul(r(a), r(b)),
+        Node::Div(a, b) => Op::Div(r(a), r(b)),
+        Node::Neg(a) => Op::Neg(r(a)),
+        Node::PowI(a, k) => Op::PowI(r(a), k),
+        Node::Pow(a, b) => Op::Pow(r(a), r(b)),
+        Node::Func(f, a) => Op::Func(f, r(a)),
+        Node::Const(_) | Node::Param(_) | Node::Var => unreachable!("tape: leaves have no op"),
+    }
+}
+
+/// Runs `ops`, the i-th writing register `start + i`.
+#[inline]
+fn run_f64(ops: &[Op], regs: &mut [f64], start: usize) {
+    for (i, op) in ops.iter().enumerate() {
+        let v = match *op {
+            Op::Add(a, b) => regs[a as usize] + regs[b as usize],
+            Op::Sub(a, b) => regs[a as usize] - regs[b as usize],
+            Op::Mul(a, b) => regs[a as usize] * regs[b as usize],
+            Op::Div(a, b) => regs[a as usize] / regs[b as usize],
+            Op::Neg(a) => -regs[a as usize],
+            Op::PowI(a, n) => powi(regs[a as usize], n),
+            Op::Pow(a, b) => regs[a as usize].powf(regs[b as usize]),
+            Op::Func(f, a) => f.apply(regs[a as usize]),
+        };
+        regs[start + i] = v;
+    }
+}
+
+/// x^n for a small integer n; the one definition the folder, the tape and the jets share.
+#[inline]
+pub fn powi(x: f64, n: i32) -> f64 {
+    match n {
+        2 => x * x,
+        3 => x * x * x,
+        _ => x.powi(n),
+    }
+}
+
+/// Registers for one thread: evaluates a [`Tape`] in f64 or in jets without allocating.
+#[derive(Debug, Clone)]
+pub struct Evaluator<'t> {
+    tape: &'t Tape,
+    regs: Vec<f64>,
+    jets: Vec<Jet>,
+}
+
+impl Evaluator<'_> {
+    /// Rebinds the parameters (in scope order) and recomputes what depends on them alone.
+    ///
+    /// # Panics
+    /// If `params.len()` differs from [`Tape::n_params`].
+    pub fn set_params(&mut self, params: &[f64]) {
+        let t = self.tape;
+        assert_eq!(params.len(), t.n_params, "tape: wrong number of parameters");
+        for &(r, v) in &t.consts {
+            self.regs[r as usize] = v;
+        }
+        for &(r, i) in &t.params {
+            self.regs[r as usize] = params[i as usize];
+        }
+        run_f64(&t.prologue, &mut self.regs, t.prologue_start as usize);
+        for r in 0..t.var_reg as usize {
+            let mut j = [0.0; JET_LEN];
+            j[0] = self.regs[r];
+            self.jets[r] = j;
+        }
+    }
+
+    /// Evaluates every output at `x`; returns the first.
+    #[inline]
+    pub fn eval(&mut self, x: f64) -> f64 {
+        let t = self.tape;
+        self.regs[t.var_reg as usize] = x;
+        run_f64(&t.body, &mut self.regs, t.var_reg as usize + 1);
+        self.regs[t.outputs[0] as usize]
+    }
+
+    /// Output `i` of the last [`Evaluator::eval`].
+    #[inline]
+    pub fn output(&self, i: usize) -> f64 {
+        self.regs[self.tape.outputs[i] as usize]
+    }
+
+    /// Evaluates every output as a Taylor series to `order` (at most [`MAX_ORDER`]) at `x`;
+    /// returns the first output's coefficients. Coefficients above `order` are left zero.
+    ///
+    /// # Panics
+    /// If `order > MAX_ORDER`.
+    pub fn eval_jet(&mut self, x: f64, order: usize) -> &Jet {
+        assert!(order <= MAX_ORDER, "tape: jet order above {MAX_ORDER}");
+        let t = self.tape;
+        let mut seed = [0.0; JET_LEN];
+        seed[0] = x;
+        if order >= 1 {
+            seed[1] = 1.0;
+        }
+        self.jets[t.var_reg as usize] = seed;
+        let start = t.var_reg as usize + 1;
+        let fixed = t.var_reg as usize;
+        for (i, op) in t.body.iter().enumerate() {
+            let v = jet_op(*op, &self.jets, fixed, order);
+            self.jets[start + i] = v;
+        }
+        &self.jets[t.outputs[0] as usize]
+    }
+
+    /// Output `i` of the last [`Evaluator::eval_jet`], as Taylor coefficients.
+    pub fn jet_output(&self, i: usize) -> &Jet {
+        &self.jets[self.tape.outputs[i] as usize]
+    }
+
+    /// The first output and its derivatives `f, f', ..., f^(order)` at `x` (allocates the
+    /// result; solvers use [`Evaluator::eval_jet`] instead).
+    pub fn derivatives(&mut self, x: f64, order: usize) -> Vec<f64> {
+        let jet = *self.eval_jet(x, order);
+        taylor_to_derivatives(&jet, order)
+    }
+}
+
+/// Taylor coefficients to derivatives: `f^(k) = k! c[k]`.
+pub fn taylor_to_derivatives(jet: &Jet, order: usize) -> Vec<f64> {
+    let mut fact = 1.0;
+    (0..=order)
+        .map(|k| {
+            if k > 0 {
+                fact *= k as f64;
+            }
+            jet[k] * fact
+        })
+        .collect()
+}
+
+/// A jet holding a constant.
+fn constant(v: f64) -> Jet {
+    let mut j = [0.0; JET_LEN];
+    j[0] = v;
+    j
+}
+
+/// One instruction on jets. Registers below `fixed` hold constants (order 0 only), which lets
+/// products and quotients by them skip the convolution.
+#[inline]
+fn jet_op(op: Op, regs: &[Jet], fixed: usize, n: usize) -> Jet {
+    let r = |i: u32| &regs[i as usize];
+    match op {
+        Op::Add(a, b) => zip(r(a), r(b), n, |x, y| x + y),
+        Op::Sub(a, b) => zip(r(a), r(b), n, |x, y| x - y),
+        Op::Mul(a, b) if (a as usize) < fixed => scale(r(b), r(a)[0], n),
+        Op::Mul(a, b) if (b as usize) < fixed => scale(r(a), r(b)[0], n),
+        Op::Mul(a, b) => mul(r(a), r(b), n),
+        Op::Div(a, b) if (b as usize) < fixed => scale(r(a), 1.0 / r(b)[0], n).map_first(r(a)[0] / r(b)[0]),
+        Op::Div(a, b) => div(r(a), r(b), n),
+        Op::Neg(a) => scale(r(a), -1.0, n),
+        Op::PowI(a, k) => powi_jet(r(a), k, n),
+        Op::Pow(a, b) if (b as usize) < fixed => powc_jet(r(a), r(b)[0], n),
+        Op::Pow(a, b) => {
+            let (a, b) = (r(a), r(b));
+            let l = log_jet(a, n);
+            let m = mul(b, &l, n);
+            exp_jet(&m, n).map_first(a[0].powf(b[0]))
+        }
+        Op::Func(f, a) => func_jet(f, r(a), n),
+    }
+}
+
+/// Small helper to overwrite the value (order 0) with the f64 evaluator's exact expression.
+trait MapFirst {
+    fn map_first(self, v: f64) -> Self;
+}
+
+impl MapFirst for Jet {
+    #[inline]
+    fn map_first(mut self, v: f64) -> Jet {
+        self[0] = v;
+        self
+    }
+}
+
+#[inline]
+fn zip(a: &Jet, b: &Jet, n: usize, f: impl Fn(f64, f64) -> f64) -> Jet {
+    let mut c = [0.0; JET_LEN];
+    for k in 0..=n {
+        c[k] = f(a[k], b[k]);
+    }
+    c
+}
+
+#[inline]
+fn scale(a: &Jet, s: f64, n: usize) -> Jet {
+    let mut c = [0.0; JET_LEN];
+    for k in 0..=n {
+        c[k] = a[k] * s;
+    }
+    c
+}
+
+/// c_k = sum_{j=0}^{k} a_j b_{k-j}
+#[inline]
+fn mul(a: &Jet, b: &Jet, n: usize) -> Jet {
+    let mut c = [0.0; JET_LEN];
+    for k in 0..=n {
+        let mut s = 0.0;
+        for j in 0..=k {
+            s += a[j] * b[k - j];
+        }
+        c[k] = s;
+    }
+    c
+}
+
+/// c = a / b: c_k = (a_k - sum_{j=0}^{k-1} c_j b_{k-j}) / b_0
+#[inline]
+fn div(a: &Jet, b: &Jet, n: usize) -> Jet {
+    let mut c = [0.0; JET_LEN];
+    c[0] = a[0] / b[0];
+    for k in 1..=n {
+        let mut s = a[k];
+        for j in 0..k {
+            s -= c[j] * b[k - j];
+        }
+        c[k] = s / b[0];
+    }
+    c
+}
+
+/// 1 / b
+#[inline]
+fn recip(b: &Jet, n: usize) -> Jet {
+    div(&constant(1.0), b, n)
+}
+
+/// b with b' = g a', where g is known as a jet: b_k = (1/k) sum_{j=1}^{k} j a_j g_{k-j}.
+#[inline]
+fn integrate(b0: f64, a: &Jet, g: &Jet, n: usize) -> Jet {
+    let mut b = [0.0; JET_LEN];
+    b[0] = b0;
+    for k in 1..=n {
+        let mut s = 0.0;
+        for j in 1..=k {
+            s += j as f64 * a[j] * g[k - j];
+        }
+        b[k] = s / k as f64;
+    }
+    b
+}
+
+/// exp: b_k = (1/k) sum_{j=1}^{k} j a_j b_{k-j}
+#[inline]
+fn exp_jet(a: &Jet, n: usize) -> Jet {
+    let mut b = [0.0; JET_LEN];
+    b[0] = a[0].exp();
+    for k in 1..=n {
+        let mut s = 0.0;
+        for j in 1..=k {
+            s += j as f64 * a[j] * b[k - j];
+        }
+        b[k] = s / k as f64;
+    }
+    b
+}
+
+/// log: b_k = (a_k - (1/k) sum_{j=1}^{k-1} j b_j a_{k-j}) / a_0
+#[inline]
+fn log_jet(a: &Jet, n: usize) -> Jet {
+    let mut b = [0.0; JET_LEN];
+    b[0] = a[0].ln();
+    for k in 1..=n {
+        let mut s = 0.0;
+        for j in 1..k {
+            s += j as f64 * b[j] * a[k - j];
+        }
+        b[k] = (a[k] - s / k as f64) / a[0];
+    }
+    b
+}
+
+/// sqrt: b_k = (a_k - sum_{j=1}^{k-1} b_j b_{k-j}) / (2 b_0)
+#[inline]
+fn sqrt_jet(a: &Jet, n: usize) -> Jet {
+    let mut b = [0.0; JET_LEN];
+    b[0] = a[0].sqrt();
+    for k in 1..=n {
+        let mut s = a[k];
+        for j in 1..k {
+            s -= b[j] * b[k - j];
+        }
+        b[k] = s / (2.0 * b[0]);
+    }
+    b
+}
+
+/// a^r for a constant r, a_0 != 0: b_k = (1/(k a_0)) sum_{j=0}^{k-1} (r(k-j) - j) a_{k-j} b_j.
+#[inline]
+fn powc_recurrence(a: &Jet, r: f64, b0: f64, n: usize) -> Jet {
+    let mut b = [0.0; JET_LEN];
+    b[0] = b0;
+    for k in 1..=n {
+        let mut s = 0.0;
+        for j in 0..k {
+            s += (r * (k - j) as f64 - j as f64) * a[k - j] * b[j];
+        }
+        b[k] = s / (k as f64 * a[0]);
+    }
+    b
+}
+
+fn powc_jet(a: &Jet, r: f64, n: usize) -> Jet {
+    let b0 = a[0].powf(r);
+    if a[0] != 0.0 {
+        return powc_recurrence(a, r, b0, n);
+    }
+    // At a_0 = 0 a real power has no Taylor series unless r is a whole number (then PowI
+    // handles it): the derivatives above r are infinite. Report NaN rather than a wrong number.
+    let mut b = [f64::NAN; JET_LEN];
+    b[0] = b0;
+    b
+}
+
+fn powi_jet(a: &Jet, k: i32, n: usize) -> Jet {
+    let b0 = powi(a[0], k);
+    if k == 2 {
+        return mul(a, a, n);
+    }
+    if a[0] != 0.0 {
+        return powc_recurrence(a, f64::from(k), b0, n);
+    }
+    // a_0 = 0: repeated squaring stays exact (and 1/0 gives the infinity it should).
+    let mut result = constant(1.0);
+    let mut base = *a;
+    let mut e = k.unsigned_abs();
+    while e > 0 {
+        if e & 1 == 1 {
+            result = mul(&result, &base, n);
+        }
+        base = mul(&base, &base, n);
+        e >>= 1;
+    }
+    if k < 0 {
+        result = recip(&result, n);
+    }
+    result.map_first(b0)
+}
+
+/// sin and cos together: s_k = (1/k) sum j a_j c_{k-j}, c_k = -(1/k) sum j a_j s_{k-j}.
+/// With `hyperbolic`, sinh and cosh (the second sign is +).
+fn sin_cos(a: &Jet, n: usize, hyperbolic: bool) -> (Jet, Jet) {
+    let mut s = [0.0; JET_LEN];
+    let mut c = [0.0; JET_LEN];
+    let sign = if hyperbolic { 1.0 } else { -1.0 };
+    if hyperbolic {
+        s[0] = a[0].sinh();
+        c[0] = a[0].cosh();
+    } else {
+        (s[0], c[0]) = a[0].sin_cos();
+    }
+    for k in 1..=n {
+        let (mut ss, mut cc) = (0.0, 0.0);
+        for j in 1..=k {
+            let ja = j as f64 * a[j];
+            ss += ja * c[k - j];
+            cc += ja * s[k - j];
+        }
+        s[k] = ss / k as f64;
+        c[k] = sign * cc / k as f64;
+    }
+    (s, c)
+}
+
+/// tan (sign +1) and tanh (sign -1): t' = (1 + sign t^2) a'.
+fn tan_like(a: &Jet, n: usize, t0: f64, sign: f64) -> Jet {
+    let mut t = [0.0; JET_LEN];
+    let mut u = [0.0; JET_LEN];
+    t[0] = t0;
+    u[0] = 1.0 + sign * t0 * t0;
+    for k in 1..=n {
+        let mut s = 0.0;
+        for j in 1..=k {
+            s += j as f64 * a[j] * u[k - j];
+        }
+        t[k] = s / k as f64;
+        let mut q = 0.0;
+        for j in 0..=k {
+            q += t[j] * t[k - j];
+        }
+        u[k] = sign * q;
+    }
+    t
+}
+
+fn func_jet(f: Func, a: &Jet, n: usize) -> Jet {
+    let one = constant(1.0);
+    let v = f.apply(a[0]);
+    match f {
+        Func::Exp => exp_jet(a, n),
+        Func::Log => log_jet(a, n),
+        Func::Sqrt => sqrt_jet(a, n),
+        Func::Sin => sin_cos(a, n, false).0,
+        Func::Cos => sin_cos(a, n, false).1,
+        Func::Sinh => sin_cos(a, n, true).0,
+        Func::Cosh => sin_cos(a, n, true).1,
+        Func::Tan => tan_like(a, n, v, 1.0),
+        Func::Tanh => tan_like(a, n, v, -1.0),
+        Func::Sech => recip(&sin_cos(a, n, true).1, n).map_first(v),
+        Func::Asin | Func::Acos => {
+            let w = zip(&one, &mul(a, a, n), n, |x, y| x - y);
+            let g = recip(&sqrt_jet(&w, n), n);
+            let g = if f == Func::Acos { scale(&g, -1.0, n) } else { g };
+            integrate(v, a, &g, n)
+        }
+        Func::Atan => integrate(v, a, &recip(&zip(&one, &mul(a, a, n), n, |x, y| x + y), n), n),
+        Func::Asinh => {
+            let w = zip(&mul(a, a, n), &one, n, |x, y| x + y);
+            integrate(v, a, &recip(&sqrt_jet(&w, n), n), n)
+        }
+        Func::Acosh => {
+            let w = zip(&mul(a, a, n), &one, n, |x, y| x - y);
+            integrate(v, a, &recip(&sqrt_jet(&w, n), n), n)
+        }
+        Func::Atanh => integrate(v, a, &recip(&zip(&one, &mul(a, a, n), n, |x, y| x - y), n), n),
+        Func::Abs => {
+            if a[0] == 0.0 {
+                // The kink: no derivative exists.
+                let mut b = [f64::NAN; JET_LEN];
+                b[0] = 0.0;
+                b
+            } else {
+                scale(a, a[0].signum(), n).map_first(v)
+            }
+        }
+    }
+}
+
+impl fmt::Display for Tape {
+    /// The `--emit tape` view: registers, the per-binding prologue and the per-point body.
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        for &(r, v) in &self.consts {
+            writeln!(f, "r{r} = const {v}")?;
+        }
+        for &(r, i) in &self.params {
+            writeln!(f, "r{r} = param #{i}")?;
+        }
+        if !self.prologue.is_empty() {
+            writeln!(f, "; once per parameter binding")?;
+        }
+        for (i, op) in self.prologue.iter().enumerate() {
+            writeln!(f, "r{} = {}", self.prologue_start as usize + i, op_text(op))?;
+        }
+        writeln!(f, "; per point")?;
+        writeln!(f, "r{} = field", self.var_reg)?;
+        for (i, op) in self.body.iter().enumerate() {
+            writeln!(f, "r{} = {}", self.var_reg as usize + 1 + i, op_text(op))?;
+        }
+        let outs: Vec<String> = self.outputs.iter().map(|r| format!("r{r}")).collect();
+        writeln!(f, "outputs: {}", outs.join(", "))
+    }
+}
+
+fn op_text(op: &Op) -> String {
+    match *op {
+        Op::Add(a, b) => format!("add r{a} r{b}"),
+        Op::Sub(a, b) => format!("sub r{a} r{b}"),
+        Op::Mul(a, b) => format!("mul r{a} r{b}"),
+        Op::Div(a, b) => format!("div r{a} r{b}"),
+        Op::Neg(a) => format!("neg r{a}"),
+        Op::PowI(a, n) => format!("powi r{a} {n}"),
+        Op::Pow(a, b) => format!("pow r{a} r{b}"),
+        Op::Func(func, a) => format!("{} r{a}", func.name()),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn assert_send_sync<T: Send + Sync>() {}
+
+    #[test]
+    fn tape_is_send_and_sync() {
+        assert_send_sync::<Tape>();
+    }
+
+    /// Handbook check: the Maclaurin series of tanh is x - x^3/3 + 2x^5/15 - 17x^7/315
+    /// (DLMF 4.33.3), so the jet at 0 has these coefficients.
+    #[test]
+    fn tanh_taylor_coefficients_dlmf_4_33_3() {
+        let mut a = [0.0; JET_LEN];
+        a[1] = 1.0;
+        let t = tan_like(&a, MAX_ORDER, 0.0, -1.0);
+        let want = [0.0, 1.0, 0.0, -1.0 / 3.0, 0.0, 2.0 / 15.0, 0.0, -17.0 / 315.0, 0.0];
+        for k in 0..=MAX_ORDER {
+            assert!((t[k] - want[k]).abs() < 1e-15, "order {k}: {} vs {}", t[k], want[k]);
+        }
+    }
+}
