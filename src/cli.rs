@@ -180,7 +180,7 @@ fn split_binding<'a>(flag: &str, text: &'a str) -> Result<(&'a str, &'a str), Fa
 
 /// Parameter names and values from `--param` flags, each value an expression of `pi` and the
 /// parameters before it.
-pub fn bind_params(flags: &[String], config: &Config) -> Result<(Vec<String>, Vec<f64>), Failure> {
+pub fn bind_params(flags: &[String], field: &str, config: &Config) -> Result<(Vec<String>, Vec<f64>), Failure> {
     let mut names: Vec<String> = Vec::new();
     let mut values: Vec<f64> = Vec::new();
     for flag in flags {
@@ -191,7 +191,7 @@ pub fn bind_params(flags: &[String], config: &Config) -> Result<(Vec<String>, Ve
                 .into());
         }
         let refs: Vec<&str> = names.iter().map(String::as_str).collect();
-        let scope = Scope::new("\u{0}no-field", &refs);
+        let scope = Scope::new(field, &refs);
         let v = constant_expr(&format!("--param {name}"), text, &scope, &values, config)?;
         names.push(name.to_string());
         values.push(v);
@@ -222,18 +222,23 @@ fn constant_expr(origin: &str, text: &str, scope: &Scope, params: &[f64], config
 
 fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     if a.order > MAX_ORDER {
-        return Err(Diagnostic::new(format!("--order {} is above the highest supported, {MAX_ORDER}", a.order))
-            .with_hint(format!("use --order 0 to {MAX_ORDER}"))
-            .into());
+        return Err(Diagnostic::new(format!(
+            "--order {} is above the highest supported, {MAX_ORDER}",
+            a.order
+        ))
+        .with_hint(format!("use --order 0 to {MAX_ORDER}"))
+        .into());
     }
     let (at_name, at_text) = split_binding("--at", &a.at)?;
     let field = a.scope.field.clone().unwrap_or_else(|| at_name.to_string());
     if at_name != field {
-        return Err(Diagnostic::new(format!("--at names `{at_name}`, but the field is `{field}`"))
-            .with_hint(format!("write `--at {field}=VALUE`, or `--field {at_name}`"))
-            .into());
+        return Err(
+            Diagnostic::new(format!("--at names `{at_name}`, but the field is `{field}`"))
+                .with_hint(format!("write `--at {field}=VALUE`, or `--field {at_name}`"))
+                .into(),
+        );
     }
-    let (names, values) = bind_params(&a.scope.params, config)?;
+    let (names, values) = bind_params(&a.scope.params, &field, config)?;
     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
     if refs.contains(&field.as_str()) {
         return Err(Diagnostic::new(format!("`{field}` is both the field and a parameter"))
@@ -247,13 +252,21 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     let derivs = ev.derivatives(x, a.order);
     let mut warnings = Vec::new();
     if c.tape.has_abs() && a.order > 0 {
-        warnings.push("`abs` is not differentiable where its argument is zero; derivatives there are undefined".to_string());
+        warnings.push(
+            "`abs` is not differentiable where its argument is zero; derivatives there are undefined".to_string(),
+        );
     }
     if let Some((k, v)) = derivs.iter().enumerate().find(|(_, v)| !v.is_finite()) {
-        let what = if k == 0 { "the value".to_string() } else { format!("derivative {k}") };
+        let what = if k == 0 {
+            "the value".to_string()
+        } else {
+            format!("derivative {k}")
+        };
         let mut d = Diagnostic::new(format!("{what} of the expression is {v} at {field} = {x}"));
         if let Some((id, bad)) = c.graph.first_non_finite(c.roots[0], x, &values) {
             d = d.with_hint(format!("`{}` is {bad} there", c.graph.print(id)));
+        } else if c.tape.has_abs() {
+            d = d.with_hint("`abs` has no derivative where its argument is zero");
         }
         return Err(d
             .with_hint("check the domain of log, sqrt, asin, acos, acosh, atanh, powers, and divisions by zero")
@@ -261,8 +274,11 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     }
     Ok(match a.format {
         Format::Json => {
-            let params: serde_json::Map<String, serde_json::Value> =
-                names.iter().cloned().zip(values.iter().map(|v| serde_json::json!(v))).collect();
+            let params: serde_json::Map<String, serde_json::Value> = names
+                .iter()
+                .cloned()
+                .zip(values.iter().map(|v| serde_json::json!(v)))
+                .collect();
             let obj = serde_json::json!({
                 "expression": a.expr,
                 "field": field,
@@ -272,7 +288,10 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
                 "derivatives": &derivs[1..],
                 "warnings": warnings,
             });
-            format!("{}\n", serde_json::to_string_pretty(&obj).expect("json of plain numbers"))
+            format!(
+                "{}\n",
+                serde_json::to_string_pretty(&obj).expect("json of plain numbers")
+            )
         }
         Format::Text => {
             let mut out = String::new();
@@ -285,7 +304,7 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
                     0 => "value".to_string(),
                     _ => format!("d^{k}/d{field}^{k}"),
                 };
-                let _ = writeln!(out, "  {label:<16} {v:>24e}");
+                let _ = writeln!(out, "  {label:<16} {:>24}", crate::ir::format_number(*v));
             }
             out
         }
@@ -294,7 +313,7 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
 
 fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
     let field = a.scope.field.clone().unwrap_or_else(|| "phi".to_string());
-    let (names, _) = bind_params(&a.scope.params, config)?;
+    let (names, _) = bind_params(&a.scope.params, &field, config)?;
     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
     let scope = Scope::new(&field, &refs);
     let mut c = compile(&[("expression", &a.expr)], &scope, &config.limits)?;

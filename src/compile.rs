@@ -26,7 +26,7 @@ pub struct ExprError {
     /// The expression's text.
     pub text: String,
     /// What went wrong.
-    pub error: StageError,
+    pub error: Box<StageError>,
 }
 
 /// The stage an expression failed in.
@@ -41,7 +41,7 @@ pub enum StageError {
 impl ExprError {
     /// The diagnostic, spans relative to the expression's text.
     pub fn diagnostic(&self) -> Diagnostic {
-        match &self.error {
+        match self.error.as_ref() {
             StageError::Syntax(e) => e.diagnostic(),
             StageError::Name(e) => e.diagnostic(),
         }
@@ -80,7 +80,7 @@ pub fn lower_into(graph: &mut Graph, origin: &str, text: &str, limits: &Limits) 
     let wrap = |error| ExprError {
         origin: origin.to_string(),
         text: text.to_string(),
-        error,
+        error: Box::new(error),
     };
     let ast = syntax::parse(text, limits).map_err(|e| wrap(StageError::Syntax(e)))?;
     let id = graph.lower(&ast).map_err(|e| wrap(StageError::Name(e)))?;

@@ -120,6 +120,9 @@ impl fmt::Display for Diagnostic {
     }
 }
 
+/// Longest stretch of a source line drawn; longer lines are cut around the span.
+const MAX_LINE: usize = 100;
+
 /// The source line holding `span.start`, with carets under the span (clipped to that line).
 fn draw_span(src: &Source<'_>, span: Span, label: &str) -> String {
     let text = src.text;
@@ -134,7 +137,22 @@ fn draw_span(src: &Source<'_>, span: Span, label: &str) -> String {
     let gutter = line_no.to_string();
     let pad = " ".repeat(gutter.len());
     let mut out = format!("  {pad} --> {}:{}:{}\n", src.origin, line_no, col + 1);
-    out.push_str(&format!("  {gutter} | {}\n", line.replace('\t', " ")));
+    // Long lines are cut to a window around the span, marked with `...` where cut.
+    let chars: Vec<char> = line.chars().map(|c| if c == '\t' { ' ' } else { c }).collect();
+    let (from, to) = if chars.len() <= MAX_LINE {
+        (0, chars.len())
+    } else {
+        let from = col
+            .saturating_sub(MAX_LINE / 2)
+            .min(chars.len().saturating_sub(MAX_LINE));
+        (from, (from + MAX_LINE).min(chars.len()))
+    };
+    let lead = if from > 0 { "..." } else { "" };
+    let tail = if to < chars.len() { "..." } else { "" };
+    let shown: String = chars[from..to].iter().collect();
+    out.push_str(&format!("  {gutter} | {lead}{shown}{tail}\n"));
+    let width = width.min(to.saturating_sub(col)).max(1);
+    let col = col - from + lead.len();
     let carets = "^".repeat(width);
     let label = if label.is_empty() {
         String::new()
@@ -152,19 +170,29 @@ fn floor_char_boundary(text: &str, mut i: usize) -> usize {
     i
 }
 
-/// Edit distance between two short words (for "did you mean" hints).
+/// Edit distance between two short words, a swap of neighbours counting as one edit (for "did
+/// you mean" hints).
 pub fn edit_distance(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().collect();
     let b: Vec<char> = b.chars().collect();
-    let mut prev: Vec<usize> = (0..=b.len()).collect();
-    for (i, ca) in a.chars().enumerate() {
-        let mut cur = vec![i + 1; b.len() + 1];
-        for (j, cb) in b.iter().enumerate() {
-            let cost = usize::from(ca != *cb);
-            cur[j + 1] = (prev[j] + cost).min(prev[j + 1] + 1).min(cur[j] + 1);
-        }
-        prev = cur;
+    let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
+    for (i, row) in d.iter_mut().enumerate() {
+        row[0] = i;
     }
-    prev[b.len()]
+    for j in 0..=b.len() {
+        d[0][j] = j;
+    }
+    for i in 1..=a.len() {
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            let mut v = (d[i - 1][j - 1] + cost).min(d[i - 1][j] + 1).min(d[i][j - 1] + 1);
+            if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
+                v = v.min(d[i - 2][j - 2] + 1);
+            }
+            d[i][j] = v;
+        }
+    }
+    d[a.len()][b.len()]
 }
 
 /// The closest candidate to `word`, if it is close enough to be a plausible typo.
@@ -198,5 +226,6 @@ mod tests {
         assert_eq!(closest("tanhh", ["tanh", "sinh", "exp"]), Some("tanh"));
         assert_eq!(closest("qqq", ["tanh", "exp"]), None);
         assert_eq!(edit_distance("kitten", "sitting"), 3);
+        assert_eq!(edit_distance("alhpa", "alpha"), 1);
     }
 }

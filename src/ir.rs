@@ -285,11 +285,7 @@ impl NameError {
                 ))
                 .with_hint(format!("declare a parameter with `--param {name}=VALUE`"))
             }
-            Arity {
-                name,
-                expected,
-                found,
-            } => {
+            Arity { name, expected, found } => {
                 let s = |n: usize| if n == 1 { "" } else { "s" };
                 Diagnostic::new(format!(
                     "`{name}` takes {expected} argument{}, but {found} {} given",
@@ -685,7 +681,10 @@ impl Graph {
             }
             stack.extend(self.children(id));
         }
-        (0..self.nodes.len()).filter(|&i| seen[i]).map(|i| Id(i as u32)).collect()
+        (0..self.nodes.len())
+            .filter(|&i| seen[i])
+            .map(|i| Id(i as u32))
+            .collect()
     }
 
     /// The operands of a node.

@@ -6,6 +6,8 @@
 //! [`tape`] (compiled evaluator: f64 and Taylor jets) → the commands in [`cli`].
 //! Errors of every stage become a [`diag::Diagnostic`], drawn by one renderer.
 #![warn(missing_docs)]
+// Numerical recurrences read best with explicit indices (c[k] = sum a[j] b[k-j]).
+#![allow(clippy::needless_range_loop)]
 
 pub mod cli;
 pub mod compile;

@@ -271,18 +271,17 @@ fn expected_words(rules: &[Rule]) -> String {
     let mut words: Vec<&str> = Vec::new();
     for r in rules {
         let w = match r {
-            Rule::EOI => "an operator or the end of the expression",
+            Rule::EOI => "the end of the expression",
             Rule::add_op | Rule::mul_op | Rule::pow_op => "an operator",
             Rule::number | Rule::ident | Rule::primary | Rule::call | Rule::group => "a number, a name or `(`",
-            Rule::sum | Rule::product | Rule::factor | Rule::power | Rule::exponent | Rule::sign => {
-                "an operand"
-            }
+            Rule::sum | Rule::product | Rule::factor | Rule::power | Rule::exponent | Rule::sign => "an operand",
             _ => "something else",
         };
         if !words.contains(&w) {
             words.push(w);
         }
     }
+    words.sort_by_key(|w| *w == "the end of the expression");
     if words.is_empty() {
         "an expression".to_string()
     } else {
@@ -555,11 +554,20 @@ mod tests {
             SyntaxErrorKind::TooDeep { limit: 64 }
         );
         let chain = vec!["2"; 50_000].join("^");
-        assert!(matches!(parse(&chain, &limits).unwrap_err().kind, SyntaxErrorKind::TooDeep { .. }));
+        assert!(matches!(
+            parse(&chain, &limits).unwrap_err().kind,
+            SyntaxErrorKind::TooDeep { .. }
+        ));
         let minus = "-".repeat(50_000) + "x";
-        assert!(matches!(parse(&minus, &limits).unwrap_err().kind, SyntaxErrorKind::TooDeep { .. }));
+        assert!(matches!(
+            parse(&minus, &limits).unwrap_err().kind,
+            SyntaxErrorKind::TooDeep { .. }
+        ));
         let sum = vec!["x"; 50_000].join("+");
-        assert!(matches!(parse(&sum, &limits).unwrap_err().kind, SyntaxErrorKind::TooDeep { .. }));
+        assert!(matches!(
+            parse(&sum, &limits).unwrap_err().kind,
+            SyntaxErrorKind::TooDeep { .. }
+        ));
         // At the limit itself the parser must not run out of stack in a test thread.
         let at_limit = "(".repeat(64) + "1" + &")".repeat(64);
         assert!(parse(&at_limit, &limits).is_ok());

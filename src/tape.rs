@@ -186,7 +186,7 @@ fn op_of(n: Node, reg: &[u32]) -> Op {
 }
 
 /// Runs `ops`, the i-th writing register `start + i`.
-#[inline]
+#[inline(always)]
 fn run_f64(ops: &[Op], regs: &mut [f64], start: usize) {
     for (i, op) in ops.iter().enumerate() {
         let v = match *op {
@@ -206,10 +206,35 @@ fn run_f64(ops: &[Op], regs: &mut [f64], start: usize) {
 /// x^n for a small integer n; the one definition the folder, the tape and the jets share.
 #[inline]
 pub fn powi(x: f64, n: i32) -> f64 {
+    if n < 0 {
+        return 1.0 / powi(x, -n);
+    }
+    // Binary powering, unrolled for the exponents the IR keeps (|n| <= MAX_POWI = 16).
+    let x2 = x * x;
     match n {
-        2 => x * x,
-        3 => x * x * x,
-        _ => x.powi(n),
+        0 => 1.0,
+        1 => x,
+        2 => x2,
+        3 => x2 * x,
+        4 => x2 * x2,
+        5 => x2 * x2 * x,
+        6 => x2 * x2 * x2,
+        7 => x2 * x2 * x2 * x,
+        8 => {
+            let x4 = x2 * x2;
+            x4 * x4
+        }
+        _ => {
+            let (mut acc, mut base, mut e) = (1.0, x, n as u32);
+            while e > 0 {
+                if e & 1 == 1 {
+                    acc *= base;
+                }
+                base *= base;
+                e >>= 1;
+            }
+            acc
+        }
     }
 }
 
@@ -272,12 +297,18 @@ impl Evaluator<'_> {
             seed[1] = 1.0;
         }
         self.jets[t.var_reg as usize] = seed;
-        let start = t.var_reg as usize + 1;
-        let fixed = t.var_reg as usize;
-        for (i, op) in t.body.iter().enumerate() {
-            let v = jet_op(*op, &self.jets, fixed, order);
-            self.jets[start + i] = v;
-        }
+        let run = match order {
+            0 => run_jets::<0>,
+            1 => run_jets::<1>,
+            2 => run_jets::<2>,
+            3 => run_jets::<3>,
+            4 => run_jets::<4>,
+            5 => run_jets::<5>,
+            6 => run_jets::<6>,
+            7 => run_jets::<7>,
+            _ => run_jets::<8>,
+        };
+        run(&t.body, &mut self.jets, t.var_reg as usize);
         &self.jets[t.outputs[0] as usize]
     }
 
@@ -294,6 +325,15 @@ impl Evaluator<'_> {
     }
 }
 
+/// Runs the per-point instructions on jets truncated at order `N`; a constant order lets the
+/// compiler unroll every recurrence.
+fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize) {
+    for (i, op) in body.iter().enumerate() {
+        let v = jet_op(*op, jets, var_reg, N);
+        jets[var_reg + 1 + i] = v;
+    }
+}
+
 /// Taylor coefficients to derivatives: `f^(k) = k! c[k]`.
 pub fn taylor_to_derivatives(jet: &Jet, order: usize) -> Vec<f64> {
     let mut fact = 1.0;
@@ -307,6 +347,17 @@ pub fn taylor_to_derivatives(jet: &Jet, order: usize) -> Vec<f64> {
         .collect()
 }
 
+/// 1/k for the recurrences' divisions by the order.
+const INV: [f64; JET_LEN] = {
+    let mut t = [0.0; JET_LEN];
+    let mut k = 1;
+    while k < JET_LEN {
+        t[k] = 1.0 / k as f64;
+        k += 1;
+    }
+    t
+};
+
 /// A jet holding a constant.
 fn constant(v: f64) -> Jet {
     let mut j = [0.0; JET_LEN];
@@ -316,7 +367,7 @@ fn constant(v: f64) -> Jet {
 
 /// One instruction on jets. Registers below `fixed` hold constants (order 0 only), which lets
 /// products and quotients by them skip the convolution.
-#[inline]
+#[inline(always)]
 fn jet_op(op: Op, regs: &[Jet], fixed: usize, n: usize) -> Jet {
     let r = |i: u32| &regs[i as usize];
     match op {
@@ -353,7 +404,7 @@ impl MapFirst for Jet {
     }
 }
 
-#[inline]
+#[inline(always)]
 fn zip(a: &Jet, b: &Jet, n: usize, f: impl Fn(f64, f64) -> f64) -> Jet {
     let mut c = [0.0; JET_LEN];
     for k in 0..=n {
@@ -362,7 +413,7 @@ fn zip(a: &Jet, b: &Jet, n: usize, f: impl Fn(f64, f64) -> f64) -> Jet {
     c
 }
 
-#[inline]
+#[inline(always)]
 fn scale(a: &Jet, s: f64, n: usize) -> Jet {
     let mut c = [0.0; JET_LEN];
     for k in 0..=n {
@@ -372,7 +423,7 @@ fn scale(a: &Jet, s: f64, n: usize) -> Jet {
 }
 
 /// c_k = sum_{j=0}^{k} a_j b_{k-j}
-#[inline]
+#[inline(always)]
 fn mul(a: &Jet, b: &Jet, n: usize) -> Jet {
     let mut c = [0.0; JET_LEN];
     for k in 0..=n {
@@ -386,7 +437,7 @@ fn mul(a: &Jet, b: &Jet, n: usize) -> Jet {
 }
 
 /// c = a / b: c_k = (a_k - sum_{j=0}^{k-1} c_j b_{k-j}) / b_0
-#[inline]
+#[inline(always)]
 fn div(a: &Jet, b: &Jet, n: usize) -> Jet {
     let mut c = [0.0; JET_LEN];
     c[0] = a[0] / b[0];
@@ -401,13 +452,13 @@ fn div(a: &Jet, b: &Jet, n: usize) -> Jet {
 }
 
 /// 1 / b
-#[inline]
+#[inline(always)]
 fn recip(b: &Jet, n: usize) -> Jet {
     div(&constant(1.0), b, n)
 }
 
 /// b with b' = g a', where g is known as a jet: b_k = (1/k) sum_{j=1}^{k} j a_j g_{k-j}.
-#[inline]
+#[inline(always)]
 fn integrate(b0: f64, a: &Jet, g: &Jet, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = b0;
@@ -416,13 +467,13 @@ fn integrate(b0: f64, a: &Jet, g: &Jet, n: usize) -> Jet {
         for j in 1..=k {
             s += j as f64 * a[j] * g[k - j];
         }
-        b[k] = s / k as f64;
+        b[k] = s * INV[k];
     }
     b
 }
 
 /// exp: b_k = (1/k) sum_{j=1}^{k} j a_j b_{k-j}
-#[inline]
+#[inline(always)]
 fn exp_jet(a: &Jet, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = a[0].exp();
@@ -431,13 +482,13 @@ fn exp_jet(a: &Jet, n: usize) -> Jet {
         for j in 1..=k {
             s += j as f64 * a[j] * b[k - j];
         }
-        b[k] = s / k as f64;
+        b[k] = s * INV[k];
     }
     b
 }
 
 /// log: b_k = (a_k - (1/k) sum_{j=1}^{k-1} j b_j a_{k-j}) / a_0
-#[inline]
+#[inline(always)]
 fn log_jet(a: &Jet, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = a[0].ln();
@@ -446,13 +497,13 @@ fn log_jet(a: &Jet, n: usize) -> Jet {
         for j in 1..k {
             s += j as f64 * b[j] * a[k - j];
         }
-        b[k] = (a[k] - s / k as f64) / a[0];
+        b[k] = (a[k] - s * INV[k]) / a[0];
     }
     b
 }
 
 /// sqrt: b_k = (a_k - sum_{j=1}^{k-1} b_j b_{k-j}) / (2 b_0)
-#[inline]
+#[inline(always)]
 fn sqrt_jet(a: &Jet, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = a[0].sqrt();
@@ -467,7 +518,7 @@ fn sqrt_jet(a: &Jet, n: usize) -> Jet {
 }
 
 /// a^r for a constant r, a_0 != 0: b_k = (1/(k a_0)) sum_{j=0}^{k-1} (r(k-j) - j) a_{k-j} b_j.
-#[inline]
+#[inline(always)]
 fn powc_recurrence(a: &Jet, r: f64, b0: f64, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = b0;
@@ -481,6 +532,7 @@ fn powc_recurrence(a: &Jet, r: f64, b0: f64, n: usize) -> Jet {
     b
 }
 
+#[inline(always)]
 fn powc_jet(a: &Jet, r: f64, n: usize) -> Jet {
     let b0 = a[0].powf(r);
     if a[0] != 0.0 {
@@ -493,6 +545,7 @@ fn powc_jet(a: &Jet, r: f64, n: usize) -> Jet {
     b
 }
 
+#[inline(always)]
 fn powi_jet(a: &Jet, k: i32, n: usize) -> Jet {
     let b0 = powi(a[0], k);
     if k == 2 {
@@ -520,6 +573,7 @@ fn powi_jet(a: &Jet, k: i32, n: usize) -> Jet {
 
 /// sin and cos together: s_k = (1/k) sum j a_j c_{k-j}, c_k = -(1/k) sum j a_j s_{k-j}.
 /// With `hyperbolic`, sinh and cosh (the second sign is +).
+#[inline(always)]
 fn sin_cos(a: &Jet, n: usize, hyperbolic: bool) -> (Jet, Jet) {
     let mut s = [0.0; JET_LEN];
     let mut c = [0.0; JET_LEN];
@@ -537,13 +591,14 @@ fn sin_cos(a: &Jet, n: usize, hyperbolic: bool) -> (Jet, Jet) {
             ss += ja * c[k - j];
             cc += ja * s[k - j];
         }
-        s[k] = ss / k as f64;
-        c[k] = sign * cc / k as f64;
+        s[k] = ss * INV[k];
+        c[k] = sign * cc * INV[k];
     }
     (s, c)
 }
 
 /// tan (sign +1) and tanh (sign -1): t' = (1 + sign t^2) a'.
+#[inline(always)]
 fn tan_like(a: &Jet, n: usize, t0: f64, sign: f64) -> Jet {
     let mut t = [0.0; JET_LEN];
     let mut u = [0.0; JET_LEN];
@@ -554,7 +609,7 @@ fn tan_like(a: &Jet, n: usize, t0: f64, sign: f64) -> Jet {
         for j in 1..=k {
             s += j as f64 * a[j] * u[k - j];
         }
-        t[k] = s / k as f64;
+        t[k] = s * INV[k];
         let mut q = 0.0;
         for j in 0..=k {
             q += t[j] * t[k - j];
@@ -564,9 +619,10 @@ fn tan_like(a: &Jet, n: usize, t0: f64, sign: f64) -> Jet {
     t
 }
 
+#[inline(always)]
 fn func_jet(f: Func, a: &Jet, n: usize) -> Jet {
     let one = constant(1.0);
-    let v = f.apply(a[0]);
+    let v = || f.apply(a[0]);
     match f {
         Func::Exp => exp_jet(a, n),
         Func::Log => log_jet(a, n),
@@ -575,25 +631,25 @@ fn func_jet(f: Func, a: &Jet, n: usize) -> Jet {
         Func::Cos => sin_cos(a, n, false).1,
         Func::Sinh => sin_cos(a, n, true).0,
         Func::Cosh => sin_cos(a, n, true).1,
-        Func::Tan => tan_like(a, n, v, 1.0),
-        Func::Tanh => tan_like(a, n, v, -1.0),
-        Func::Sech => recip(&sin_cos(a, n, true).1, n).map_first(v),
+        Func::Tan => tan_like(a, n, v(), 1.0),
+        Func::Tanh => tan_like(a, n, v(), -1.0),
+        Func::Sech => recip(&sin_cos(a, n, true).1, n).map_first(v()),
         Func::Asin | Func::Acos => {
             let w = zip(&one, &mul(a, a, n), n, |x, y| x - y);
             let g = recip(&sqrt_jet(&w, n), n);
             let g = if f == Func::Acos { scale(&g, -1.0, n) } else { g };
-            integrate(v, a, &g, n)
+            integrate(v(), a, &g, n)
         }
-        Func::Atan => integrate(v, a, &recip(&zip(&one, &mul(a, a, n), n, |x, y| x + y), n), n),
+        Func::Atan => integrate(v(), a, &recip(&zip(&one, &mul(a, a, n), n, |x, y| x + y), n), n),
         Func::Asinh => {
             let w = zip(&mul(a, a, n), &one, n, |x, y| x + y);
-            integrate(v, a, &recip(&sqrt_jet(&w, n), n), n)
+            integrate(v(), a, &recip(&sqrt_jet(&w, n), n), n)
         }
         Func::Acosh => {
             let w = zip(&mul(a, a, n), &one, n, |x, y| x - y);
-            integrate(v, a, &recip(&sqrt_jet(&w, n), n), n)
+            integrate(v(), a, &recip(&sqrt_jet(&w, n), n), n)
         }
-        Func::Atanh => integrate(v, a, &recip(&zip(&one, &mul(a, a, n), n, |x, y| x - y), n), n),
+        Func::Atanh => integrate(v(), a, &recip(&zip(&one, &mul(a, a, n), n, |x, y| x - y), n), n),
         Func::Abs => {
             if a[0] == 0.0 {
                 // The kink: no derivative exists.
@@ -601,7 +657,7 @@ fn func_jet(f: Func, a: &Jet, n: usize) -> Jet {
                 b[0] = 0.0;
                 b
             } else {
-                scale(a, a[0].signum(), n).map_first(v)
+                scale(a, a[0].signum(), n).map_first(v())
             }
         }
     }

@@ -31,7 +31,12 @@ fn reference_cases() -> Vec<Case> {
                 names: params.keys().cloned().collect(),
                 values: params.values().map(|v| v.as_f64().unwrap()).collect(),
                 at: c["at"].as_f64().unwrap(),
-                derivatives: c["derivatives"].as_array().unwrap().iter().map(|v| v.as_f64().unwrap()).collect(),
+                derivatives: c["derivatives"]
+                    .as_array()
+                    .unwrap()
+                    .iter()
+                    .map(|v| v.as_f64().unwrap())
+                    .collect(),
             }
         })
         .collect()
@@ -65,7 +70,13 @@ fn jets_match_sympy_derivatives_to_order_8() {
             worst[k] = worst[k].max(err);
 
             let tol = 1e-13;
-            assert!(err <= tol, "{} order {k}: {} vs {} (rel {err:e})", case.expr, got[k], case.derivatives[k]);
+            assert!(
+                err <= tol,
+                "{} order {k}: {} vs {} (rel {err:e})",
+                case.expr,
+                got[k],
+                case.derivatives[k]
+            );
         }
     }
     let w: Vec<String> = worst.iter().map(|e| format!("{e:.1e}")).collect();
@@ -129,9 +140,21 @@ fn tanh_maclaurin_coefficients_dlmf() {
 fn inverse_hyperbolic_derivatives_dlmf() {
     type Closed = fn(f64) -> [f64; 2];
     let cases: [(&str, Closed, &[f64]); 3] = [
-        ("asinh(phi)", |x| [(1.0 + x * x).powf(-0.5), -x * (1.0 + x * x).powf(-1.5)], &[-2.0, -0.3, 0.0, 0.7, 5.0]),
-        ("acosh(phi)", |x| [(x * x - 1.0).powf(-0.5), -x * (x * x - 1.0).powf(-1.5)], &[1.1, 1.5, 3.0, 40.0]),
-        ("atanh(phi)", |x| [1.0 / (1.0 - x * x), 2.0 * x / (1.0 - x * x).powi(2)], &[-0.9, -0.2, 0.0, 0.5, 0.99]),
+        (
+            "asinh(phi)",
+            |x| [(1.0 + x * x).powf(-0.5), -x * (1.0 + x * x).powf(-1.5)],
+            &[-2.0, -0.3, 0.0, 0.7, 5.0],
+        ),
+        (
+            "acosh(phi)",
+            |x| [(x * x - 1.0).powf(-0.5), -x * (x * x - 1.0).powf(-1.5)],
+            &[1.1, 1.5, 3.0, 40.0],
+        ),
+        (
+            "atanh(phi)",
+            |x| [1.0 / (1.0 - x * x), 2.0 * x / (1.0 - x * x).powi(2)],
+            &[-0.9, -0.2, 0.0, 0.5, 0.99],
+        ),
     ];
     for (expr, closed, points) in cases {
         let c = compile_one(expr, &Scope::new("phi", &[])).unwrap();
@@ -150,7 +173,12 @@ fn inverse_hyperbolic_derivatives_dlmf() {
 #[test]
 fn rebinding_parameters_equals_recompiling() {
     let scope = Scope::new("phi", &["alpha"]);
-    let c = compile(&[("v", "1 - tanh(phi/sqrt(6*alpha))^2*exp(-phi)")], &scope, &Limits::default()).unwrap();
+    let c = compile(
+        &[("v", "1 - tanh(phi/sqrt(6*alpha))^2*exp(-phi)")],
+        &scope,
+        &Limits::default(),
+    )
+    .unwrap();
     let mut ev = c.tape.evaluator(&[1.0]);
     for alpha in [0.1, 1.0 / 3.0, 7.5] {
         ev.set_params(&[alpha]);

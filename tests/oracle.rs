@@ -47,7 +47,13 @@ fn expr() -> impl Strategy<Value = Pair> {
                         3 => ("/", "/"),
                         _ => (if stars { "**" } else { "^" }, "^"),
                     };
-                    let wrap = |s: &str| if paren { format!("({s})") } else { s.to_string() };
+                    let wrap = |s: &str| {
+                        if paren {
+                            format!("({s})")
+                        } else {
+                            s.to_string()
+                        }
+                    };
                     Pair {
                         efold: wrap(&format!("{} {e_op} {}", paren_atom(&a.efold), paren_atom(&b.efold))),
                         meval: wrap(&format!("{} {m_op} {}", paren_atom(&a.meval), paren_atom(&b.meval))),
@@ -67,7 +73,10 @@ fn expr() -> impl Strategy<Value = Pair> {
                     "sech" => format!("(1/cosh({}))", a.meval),
                     _ => format!("{name}({})", a.meval),
                 };
-                Pair { efold: format!("{name}({})", a.efold), meval }
+                Pair {
+                    efold: format!("{name}({})", a.efold),
+                    meval,
+                }
             }),
         ]
     })
@@ -127,7 +136,13 @@ proptest! {
 /// looser than power, power is right-associative and takes a signed exponent.
 #[test]
 fn operator_conventions_match_meval() {
-    let cases = [("-2^2", -4.0), ("2^3^2", 512.0), ("2^-1", 0.5), ("-2^-2", -0.25), ("2*-3", -6.0)];
+    let cases = [
+        ("-2^2", -4.0),
+        ("2^3^2", 512.0),
+        ("2^-1", 0.5),
+        ("-2^-2", -0.25),
+        ("2*-3", -6.0),
+    ];
     for (src, want) in cases {
         assert_eq!(meval_at(src, 0.0), want, "meval {src}");
         assert_eq!(efold_at(src, 0.0), want, "efold {src}");
@@ -148,7 +163,11 @@ fn printed_ir_evaluates_identically() {
         for i in 0..7 {
             let x = -2.9 + 0.97 * i as f64;
             let (a, b) = (c.tape.evaluator(&[]).eval(x), c2.tape.evaluator(&[]).eval(x));
-            assert!(a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()), "{} -> {printed} at {x}: {a} vs {b}", p.efold);
+            assert!(
+                a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()),
+                "{} -> {printed} at {x}: {a} vs {b}",
+                p.efold
+            );
         }
     }
 }
