@@ -13,6 +13,7 @@ pub mod cli;
 pub mod compile;
 pub mod config;
 pub mod diag;
+pub mod numerics;
 pub mod ir;
 pub mod syntax;
 pub mod tape;
