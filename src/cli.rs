@@ -32,6 +32,48 @@ pub enum Command {
     Eval(EvalArgs),
     /// Show what the compiler makes of an expression: syntax tree, IR, tape, derivatives.
     Compile(CompileArgs),
+    /// Analyse a model in canonical variables: domain, poles of K, plateaus, asymptotics.
+    Inspect(InspectArgs),
+}
+
+/// The model: a TOML file, or given inline; flags override the file.
+#[derive(Debug, clap::Args)]
+pub struct ModelArgs {
+    /// A model file (TOML; see README for the format).
+    #[arg(value_name = "MODEL.toml")]
+    pub model: Option<std::path::PathBuf>,
+    /// The potential V(FIELD).
+    #[arg(long, value_name = "EXPR")]
+    pub potential: Option<String>,
+    /// The kinetic function K(FIELD) in L = 1/2 K (d FIELD)^2 - V [default: 1].
+    #[arg(long, value_name = "EXPR")]
+    pub kinetic: Option<String>,
+    /// A parameter, NAME=VALUE (VALUE may be an expression such as 1/3). Repeatable.
+    #[arg(long = "param", value_name = "NAME=VALUE")]
+    pub params: Vec<String>,
+    /// The field variable's name [default: phi].
+    #[arg(long, value_name = "NAME")]
+    pub field: Option<String>,
+    /// The field interval to consider: two expressions; -inf and inf allowed.
+    #[arg(long, num_args = 2, value_names = ["LO", "HI"], allow_hyphen_values = true)]
+    pub range: Option<Vec<String>>,
+}
+
+/// `efold inspect`.
+#[derive(Debug, clap::Args)]
+pub struct InspectArgs {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub model: ModelArgs,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+    /// Add a table of (phi, chi, V) with this many rows.
+    #[arg(long, value_name = "ROWS")]
+    pub table: Option<usize>,
+    /// Write a figure of V against the field and against chi to this SVG file.
+    #[arg(long, value_name = "FILE")]
+    pub svg: Option<std::path::PathBuf>,
 }
 
 /// Output formats.
@@ -130,6 +172,18 @@ impl From<ExprError> for Failure {
     }
 }
 
+impl From<crate::model::ModelError> for Failure {
+    fn from(e: crate::model::ModelError) -> Failure {
+        Failure::input(e.render())
+    }
+}
+
+impl From<crate::canonical::AnalysisError> for Failure {
+    fn from(e: crate::canonical::AnalysisError) -> Failure {
+        Failure::input(e.diagnostic().render(None))
+    }
+}
+
 impl From<Diagnostic> for Failure {
     fn from(d: Diagnostic) -> Failure {
         Failure::input(d.render(None))
@@ -157,6 +211,7 @@ pub fn run(args: &Args) -> Result<String, Failure> {
     match &args.command {
         Command::Eval(a) => eval(a, &config),
         Command::Compile(a) => compile_view(a, &config),
+        Command::Inspect(a) => inspect_cmd(a, &config),
     }
 }
 
@@ -350,4 +405,60 @@ fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
         }
     }
     Ok(out)
+}
+
+/// Builds the model from a file and/or the inline flags (flags override the file).
+pub fn load_model(a: &ModelArgs, config: &Config) -> Result<crate::model::Model, Failure> {
+    use crate::model::{ModelSpec, Text};
+    let mut spec = match (&a.model, &a.potential) {
+        (Some(path), _) => ModelSpec::load(path)?,
+        (None, Some(v)) => ModelSpec::inline(v, None),
+        (None, None) => {
+            return Err(Diagnostic::new("no model given")
+                .with_hint("give a model file, e.g. `efold inspect models/pole-order-2-quadratic.toml`")
+                .with_hint("or the model inline: `--potential 'phi^2/2' [--kinetic EXPR] [--param NAME=VALUE]`")
+                .into())
+        }
+    };
+    if a.model.is_some() {
+        if let Some(v) = &a.potential {
+            spec.potential = Text::inline("--potential", v);
+        }
+    }
+    if let Some(k) = &a.kinetic {
+        spec.kinetic = Text::inline("--kinetic", k);
+    }
+    if let Some(f) = &a.field {
+        spec.field = f.clone();
+    }
+    for p in &a.params {
+        let (name, value) = split_binding("--param", p)?;
+        spec.set_param(name, value);
+    }
+    if let Some(r) = &a.range {
+        spec.range = Some((Text::inline("--range LO", &r[0]), Text::inline("--range HI", &r[1])));
+    }
+    Ok(crate::model::Model::build(&spec, config)?)
+}
+
+fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failure> {
+    crate::inspect::write_atomic(path, contents).map_err(|e| {
+        Failure::from(
+            Diagnostic::new(format!("cannot write `{}`: {e}", path.display()))
+                .with_hint("check that the directory exists and is writable"),
+        )
+    })
+}
+
+fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
+    let model = load_model(&a.model, config)?;
+    let ins = crate::inspect::inspect(&model, config, a.table)?;
+    if let Some(path) = &a.svg {
+        let svg = crate::inspect::figure(&model, &ins, &Default::default(), config)?;
+        write_output_file(path, &svg)?;
+    }
+    Ok(match a.format {
+        Format::Json => format!("{}\n", serde_json::to_string_pretty(&ins).expect("serialisable report")),
+        Format::Text => crate::inspect::text(&ins),
+    })
 }

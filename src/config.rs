@@ -26,9 +26,12 @@ impl Default for Limits {
     }
 }
 
-/// Everything configurable, grouped by stage. Later stages add their tolerances here.
+/// Everything configurable, grouped by stage.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Config {
     /// Limits on the expression language.
     pub limits: Limits,
+    /// Quadrature tolerance for the canonical map and e-fold integrals (default: relative
+    /// 1e-12, at most 2000 subintervals).
+    pub quad: crate::numerics::quad::Tolerance,
 }

@@ -9,11 +9,15 @@
 // Numerical recurrences read best with explicit indices (c[k] = sum a[j] b[k-j]).
 #![allow(clippy::needless_range_loop)]
 
+pub mod canonical;
 pub mod cli;
 pub mod compile;
 pub mod config;
 pub mod diag;
 pub mod numerics;
+pub mod plot;
+pub mod inspect;
 pub mod ir;
+pub mod model;
 pub mod syntax;
 pub mod tape;

@@ -1,0 +1,1102 @@
+//! The model in canonical variables: derivatives with respect to the canonical field chi
+//! (d chi / d phi = sqrt(K)), the field-space domain, the canonical map chi(phi) and its
+//! inverse, the poles of K, and the asymptotic shape of V(chi) toward each end of field space.
+//! Units: reduced Planck units throughout (M_p = 1).
+
+use crate::config::Config;
+use crate::model::{Model, OUT_K, OUT_SQRT_K, OUT_V};
+use crate::numerics::quad::{gauss_kronrod, tanh_sinh};
+use crate::numerics::roots::safeguarded_newton;
+use crate::numerics::{Estimate, NumericError};
+use crate::tape::{Evaluator, Jet, JET_LEN};
+use serde::Serialize;
+
+/// V and its first four derivatives with respect to chi, at a point: `[V, V_chi, V_chichi,
+/// V_chichichi, V_chi^4]`, from the jets of V and sqrt(K) by the chain rule
+/// d/dchi = K^(-1/2) d/dphi (no inversion of chi(phi) needed). Entries above `order` are zero.
+pub fn chi_derivatives(ev: &mut Evaluator<'_>, phi: f64, order: usize) -> [f64; 5] {
+    let order = order.min(4);
+    ev.eval_jet(phi, order);
+    let v = *ev.jet_output(OUT_V);
+    let s = *ev.jet_output(OUT_SQRT_K);
+    chain_rule(&v, &s, order)
+}
+
+/// The chain rule on truncated Taylor series: W_0 = V, W_{k+1} = (d W_k / d phi) / s, each
+/// step losing one order.
+pub fn chain_rule(v: &Jet, s: &Jet, order: usize) -> [f64; 5] {
+    let mut out = [0.0; 5];
+    let mut w = *v;
+    out[0] = w[0];
+    for k in 1..=order.min(4) {
+        let n = order - k; // orders left after this derivative
+        let mut d = [0.0; JET_LEN];
+        for j in 0..=n {
+            d[j] = (j + 1) as f64 * w[j + 1];
+        }
+        // divide by s, truncated at order n
+        let mut q = [0.0; JET_LEN];
+        for j in 0..=n {
+            let mut acc = d[j];
+            for i in 0..j {
+                acc -= q[i] * s[j - i];
+            }
+            q[j] = acc / s[0];
+        }
+        w = q;
+        out[k] = w[0];
+    }
+    out
+}
+
+/// How an end of the field interval comes about.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "kebab-case", tag = "kind")]
+pub enum EndKind {
+    /// The field is unbounded in this direction.
+    Infinite,
+    /// K diverges here.
+    Pole,
+    /// K vanishes here (a strong-coupling point).
+    ZeroOfK,
+    /// K changes sign here (a ghost beyond).
+    KSignChange,
+    /// V diverges here (a pole of V).
+    VSingular,
+    /// V grows beyond double precision past this point: in effect an unbounded end.
+    VOverflow,
+    /// The end of the range the user gave.
+    Range,
+}
+
+impl EndKind {
+    /// A few words for people.
+    pub fn words(self) -> &'static str {
+        match self {
+            EndKind::Infinite => "unbounded",
+            EndKind::Pole => "pole of K",
+            EndKind::ZeroOfK => "zero of K (strong coupling)",
+            EndKind::KSignChange => "K changes sign (ghost beyond)",
+            EndKind::VSingular => "pole of V",
+            EndKind::VOverflow => "V exceeds double precision beyond (effectively unbounded)",
+            EndKind::Range => "end of the given range",
+        }
+    }
+}
+
+/// An interval of field space where K > 0 and finite and V finite.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Interval {
+    /// Lower end (may be -inf).
+    #[serde(serialize_with = "ser_f64")]
+    pub lo: f64,
+    /// Upper end (may be +inf).
+    #[serde(serialize_with = "ser_f64")]
+    pub hi: f64,
+    /// What the lower end is.
+    pub lo_kind: EndKind,
+    /// What the upper end is.
+    pub hi_kind: EndKind,
+}
+
+impl Interval {
+    /// True if `x` lies strictly inside.
+    pub fn contains(&self, x: f64) -> bool {
+        x > self.lo && x < self.hi
+    }
+}
+
+/// Serialises non-finite numbers as the strings "inf", "-inf" and "nan" (JSON has no such
+/// numbers).
+pub fn ser_f64<S: serde::Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
+    if x.is_finite() {
+        s.serialize_f64(*x)
+    } else if x.is_nan() {
+        s.serialize_str("nan")
+    } else if *x > 0.0 {
+        s.serialize_str("inf")
+    } else {
+        s.serialize_str("-inf")
+    }
+}
+
+/// A failure of the canonical analysis, with a diagnosis.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AnalysisError {
+    /// What went wrong.
+    pub message: String,
+    /// How to fix or what it means.
+    pub hints: Vec<String>,
+}
+
+impl AnalysisError {
+    fn new(message: impl Into<String>, hint: impl Into<String>) -> AnalysisError {
+        AnalysisError {
+            message: message.into(),
+            hints: vec![hint.into()],
+        }
+    }
+
+    /// As a diagnostic.
+    pub fn diagnostic(&self) -> crate::diag::Diagnostic {
+        let mut d = crate::diag::Diagnostic::new(self.message.clone());
+        for h in &self.hints {
+            d = d.with_hint(h.clone());
+        }
+        d
+    }
+}
+
+impl std::fmt::Display for AnalysisError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.message)
+    }
+}
+
+impl std::error::Error for AnalysisError {}
+
+impl From<NumericError> for AnalysisError {
+    fn from(e: NumericError) -> Self {
+        AnalysisError::new(format!("numerical failure: {e}"), "tighten the range with --range, or report the model")
+    }
+}
+
+/// Status of a field value: usable, or why not.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Status {
+    Good,
+    KNonPositive,
+    KNotFinite,
+    VNotFinite,
+}
+
+fn status(ev: &mut Evaluator<'_>, x: f64) -> Status {
+    let v = ev.eval(x);
+    let k = ev.output(OUT_K);
+    if !k.is_finite() {
+        Status::KNotFinite
+    } else if k <= 0.0 {
+        Status::KNonPositive
+    } else if !v.is_finite() {
+        Status::VNotFinite
+    } else {
+        Status::Good
+    }
+}
+
+/// The field-space domain: the interval used, the other admissible intervals, and where V
+/// is negative.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Domain {
+    /// The interval the analysis uses.
+    pub interval: Interval,
+    /// Other intervals where K > 0 and V is finite (not used; pick one with --range).
+    pub others: Vec<Interval>,
+    /// Sub-intervals of the domain where V < 0.
+    pub negative_v: Vec<(f64, f64)>,
+    /// Points inside the domain where K touches zero or diverges without changing the domain
+    /// (none in a well-formed domain; listed for diagnosis).
+    pub notes: Vec<String>,
+}
+
+/// Sample points used to survey the real line: 0 and +-10^(k/10) for 1e-5 <= |x| <= 1e6.
+fn survey_grid() -> Vec<f64> {
+    let mut g: Vec<f64> = (-50..=60).map(|k| 10f64.powf(k as f64 / 10.0)).collect();
+    let neg: Vec<f64> = g.iter().map(|x| -x).collect();
+    g.extend(neg);
+    g.push(0.0);
+    g.sort_by(f64::total_cmp);
+    g
+}
+
+/// Bisects between a point with status `good` and one without, to rounding.
+fn bisect_status(ev: &mut Evaluator<'_>, mut good: f64, mut bad: f64) -> f64 {
+    for _ in 0..200 {
+        let m = 0.5 * (good + bad);
+        if m == good || m == bad {
+            break;
+        }
+        if status(ev, m) == Status::Good {
+            good = m;
+        } else {
+            bad = m;
+        }
+    }
+    0.5 * (good + bad)
+}
+
+/// Locates a sign change of `g` between a and b by bisection; a non-finite value means the
+/// singular point itself was hit.
+fn bisect_sign(mut g: impl FnMut(f64) -> f64, mut a: f64, mut b: f64) -> Option<f64> {
+    let (mut ga, gb) = (g(a), g(b));
+    if !(ga.is_finite() && gb.is_finite()) || ga.signum() == gb.signum() {
+        return None;
+    }
+    for _ in 0..200 {
+        let m = 0.5 * (a + b);
+        if m == a || m == b {
+            break;
+        }
+        let gm = g(m);
+        if !gm.is_finite() || gm == 0.0 {
+            return Some(m);
+        }
+        if gm.signum() == ga.signum() {
+            a = m;
+            ga = gm;
+        } else {
+            b = m;
+        }
+    }
+    Some(0.5 * (a + b))
+}
+
+/// Finds the domain. With a user range, checks it; otherwise surveys the real line.
+pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, AnalysisError> {
+    let field = model.field().to_string();
+    if let Some((lo, hi)) = model.range {
+        return check_range(ev, lo, hi, &field);
+    }
+    let grid = survey_grid();
+    let st: Vec<Status> = grid.iter().map(|&x| status(ev, x)).collect();
+    // Cut points: transitions of status, and hidden poles or zeros of K between good samples.
+    let mut cuts: Vec<(f64, EndKind)> = Vec::new();
+    for i in 0..grid.len() - 1 {
+        let (a, b) = (grid[i], grid[i + 1]);
+        match (st[i] == Status::Good, st[i + 1] == Status::Good) {
+            (true, false) => {
+                let x = bisect_status(ev, a, b);
+                let kind = end_kind_beyond(ev, x, b, st[i + 1]);
+                cuts.push(refine_end(ev, x, -1.0, kind));
+            }
+            (false, true) => {
+                let x = bisect_status(ev, b, a);
+                let kind = end_kind_beyond(ev, x, a, st[i]);
+                cuts.push(refine_end(ev, x, 1.0, kind));
+            }
+            _ => {}
+        }
+    }
+    for i in 1..grid.len() - 1 {
+        if st[i - 1] != Status::Good || st[i] != Status::Good || st[i + 1] != Status::Good {
+            continue;
+        }
+        if let Some(c) = hidden_singularity(ev, grid[i - 1], grid[i], grid[i + 1]) {
+            cuts.push(c);
+        }
+    }
+    cuts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    cuts.dedup_by(|a, b| (a.0 - b.0).abs() <= 1e-12 * a.0.abs().max(1e-300));
+    // Intervals between consecutive cuts whose interior is good.
+    let mut bounds: Vec<(f64, EndKind)> = vec![(f64::NEG_INFINITY, EndKind::Infinite)];
+    bounds.extend(cuts.iter().copied());
+    bounds.push((f64::INFINITY, EndKind::Infinite));
+    let mut intervals = Vec::new();
+    for w in bounds.windows(2) {
+        let (lo, hi) = (w[0].0, w[1].0);
+        let probe = interior_probe(lo, hi, &grid);
+        if status(ev, probe) == Status::Good {
+            intervals.push(Interval {
+                lo,
+                hi,
+                lo_kind: w[0].1,
+                hi_kind: w[1].1,
+            });
+        }
+    }
+    if intervals.is_empty() {
+        return Err(AnalysisError {
+            message: "no interval of field space has K > 0 with V finite".to_string(),
+            hints: vec![
+                "check the kinetic function: L = 1/2 K (d phi)^2 - V needs K > 0".to_string(),
+                "or give the interval with --range LO HI".to_string(),
+            ],
+        });
+    }
+    // The interval holding the lowest V seen in the survey.
+    let mut best = 0;
+    let mut best_v = f64::INFINITY;
+    for (i, iv) in intervals.iter().enumerate() {
+        for &x in grid.iter().filter(|&&x| iv.contains(x)) {
+            let v = ev.eval(x);
+            if v < best_v {
+                best_v = v;
+                best = i;
+            }
+        }
+    }
+    let interval = intervals.remove(best);
+    let negative_v = negative_regions(ev, &interval, &grid);
+    Ok(Domain {
+        interval,
+        others: intervals,
+        negative_v,
+        notes: Vec::new(),
+    })
+}
+
+/// A point inside (lo, hi) to test, preferring a survey point.
+fn interior_probe(lo: f64, hi: f64, grid: &[f64]) -> f64 {
+    let inside: Vec<f64> = grid.iter().copied().filter(|&x| x > lo && x < hi).collect();
+    if !inside.is_empty() {
+        return inside[inside.len() / 2];
+    }
+    match (lo.is_finite(), hi.is_finite()) {
+        (true, true) => 0.5 * (lo + hi),
+        (true, false) => lo + lo.abs().max(1.0),
+        (false, true) => hi - hi.abs().max(1.0),
+        (false, false) => 0.0,
+    }
+}
+
+/// A boundary found where K or V stops being finite may only be where double precision
+/// overflows: a pole at x_p with f ~ a |x - x_p|^(-p) overflows a little before x_p. From
+/// h = f/f' = -(x - x_p)/p at two points on the good side (direction `inward`) it finds p and
+/// x_p; with no consistent finite p the growth is faster than any power (V overflows).
+fn refine_end(ev: &mut Evaluator<'_>, xb: f64, inward: f64, kind: EndKind) -> (f64, EndKind) {
+    let out = match kind {
+        EndKind::Pole => OUT_K,
+        EndKind::VSingular => OUT_V,
+        _ => return (xb, kind),
+    };
+    let w = 1e-6 * xb.abs().max(1.0);
+    let mut h = |x: f64| {
+        ev.eval_jet(x, 1);
+        let j = ev.jet_output(out);
+        j[0] / j[1]
+    };
+    let (x1, x2) = (xb + inward * w, xb + inward * 2.0 * w);
+    let (h1, h2) = (h(x1), h(x2));
+    let p = -(x1 - x2) / (h1 - h2);
+    let xp = x1 + p * h1;
+    if !(p.is_finite() && xp.is_finite()) || p <= 0.0 || p > 64.0 || (xp - xb).abs() > w {
+        // Faster than any power: overflow of V (or of K) rather than a pole.
+        return (xb, if kind == EndKind::VSingular { EndKind::VOverflow } else { kind });
+    }
+    // Keep the bisected point when it is already the better location (a pole that the
+    // bisection resolved to rounding), else the extrapolated one; snap to 0 at rounding size.
+    let xp = if xp.abs() < 1e-14 * w { 0.0 } else { xp };
+    let at_xb = {
+        ev.eval(xb);
+        ev.output(out).abs()
+    };
+    if at_xb < 1e200 {
+        (xb, kind)
+    } else {
+        (xp, kind)
+    }
+}
+
+fn end_kind_beyond(ev: &mut Evaluator<'_>, x: f64, beyond: f64, st: Status) -> EndKind {
+    match st {
+        Status::VNotFinite => EndKind::VSingular,
+        Status::KNotFinite => EndKind::Pole,
+        Status::KNonPositive => {
+            // K -> 0 continuously (a zero), or K -> +inf then negative (an odd pole)?
+            let inside = x + (x - beyond) * 1e-6;
+            ev.eval(inside);
+            let k = ev.output(OUT_K);
+            if k > 1e6 {
+                EndKind::Pole
+            } else if k < 1e-6 {
+                EndKind::ZeroOfK
+            } else {
+                EndKind::KSignChange
+            }
+        }
+        Status::Good => EndKind::Range,
+    }
+}
+
+/// Between three good samples with the middle one extreme: a pole of K (1/K touches zero) or a
+/// zero of K (K touches zero), located where d(1/K)/dphi or dK/dphi changes sign.
+fn hidden_singularity(ev: &mut Evaluator<'_>, a: f64, m: f64, b: f64) -> Option<(f64, EndKind)> {
+    let k = |ev: &mut Evaluator<'_>, x: f64| {
+        ev.eval(x);
+        ev.output(OUT_K)
+    };
+    let (ka, km, kb) = (k(ev, a), k(ev, m), k(ev, b));
+    let dk = |ev: &mut Evaluator<'_>, x: f64| {
+        ev.eval_jet(x, 1);
+        let j = ev.jet_output(OUT_K);
+        (j[0], j[1])
+    };
+    if km >= ka && km >= kb {
+        // Possible pole: d(1/K)/dphi = -K'/K^2 changes sign at the maximum of K.
+        let x = bisect_sign(
+            |x| {
+                let (k0, k1) = dk(ev, x);
+                -k1 / (k0 * k0)
+            },
+            a,
+            b,
+        )?;
+        let kx = k(ev, x);
+        let scale = ka.max(kb);
+        if !kx.is_finite() || kx > 1e12 * scale {
+            return Some((x, EndKind::Pole));
+        }
+    } else if km <= ka && km <= kb {
+        let x = bisect_sign(|x| dk(ev, x).1, a, b)?;
+        let kx = k(ev, x);
+        if kx <= 1e-12 * ka.max(kb) {
+            return Some((x, EndKind::ZeroOfK));
+        }
+    }
+    None
+}
+
+fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<Domain, AnalysisError> {
+    // Probe the interior densely enough to find a bad stretch: 400 points, evenly spaced in a
+    // variable that maps infinite ends to finite ones.
+    let map = |u: f64| -> f64 {
+        match (lo.is_finite(), hi.is_finite()) {
+            (true, true) => lo + (hi - lo) * u,
+            (true, false) => lo + u / (1.0 - u) * lo.abs().max(1.0),
+            (false, true) => hi - (1.0 - u) / u * hi.abs().max(1.0),
+            (false, false) => (u - 0.5) / (u * (1.0 - u)),
+        }
+    };
+    for i in 1..400 {
+        let x = map(i as f64 / 400.0);
+        match status(ev, x) {
+            Status::Good => {}
+            s => {
+                ev.eval(x);
+                let k = ev.output(OUT_K);
+                let what = match s {
+                    Status::KNonPositive if k == 0.0 => format!("K = 0 at {field} = {x} inside the range"),
+                    Status::KNonPositive => format!("K = {k} <= 0 at {field} = {x} inside the range"),
+                    Status::KNotFinite => format!("K is {k} at {field} = {x} inside the range (a pole?)"),
+                    _ => format!("V is {} at {field} = {x} inside the range", ev.eval(x)),
+                };
+                return Err(AnalysisError {
+                    message: what,
+                    hints: vec![
+                        "the kinetic term must be positive and V finite everywhere in the range".to_string(),
+                        "narrow it with --range LO HI, or leave it out to let efold find the domain".to_string(),
+                    ],
+                });
+            }
+        }
+    }
+    let classify = |ev: &mut Evaluator<'_>, end: f64, inward: f64| -> EndKind {
+        if !end.is_finite() {
+            return EndKind::Infinite;
+        }
+        match status(ev, end) {
+            Status::Good => EndKind::Range,
+            s => end_kind_beyond(ev, end, end - inward, s),
+        }
+    };
+    let interval = Interval {
+        lo,
+        hi,
+        lo_kind: classify(ev, lo, 1.0),
+        hi_kind: classify(ev, hi, -1.0),
+    };
+    let grid = survey_grid();
+    let negative_v = negative_regions(ev, &interval, &grid);
+    Ok(Domain {
+        interval,
+        others: Vec::new(),
+        negative_v,
+        notes: Vec::new(),
+    })
+}
+
+/// Stretches of the interval where V < 0, located to rounding.
+fn negative_regions(ev: &mut Evaluator<'_>, iv: &Interval, grid: &[f64]) -> Vec<(f64, f64)> {
+    let mut pts: Vec<f64> = grid.iter().copied().filter(|&x| iv.contains(x)).collect();
+    // also sample a little inside finite ends
+    for (end, dir) in [(iv.lo, 1.0), (iv.hi, -1.0)] {
+        if end.is_finite() {
+            let w = (iv.hi - iv.lo).min(end.abs().max(1.0));
+            for k in 1..8 {
+                pts.push(end + dir * w * 10f64.powi(-k));
+            }
+        }
+    }
+    pts.sort_by(f64::total_cmp);
+    let mut out = Vec::new();
+    let mut start: Option<f64> = None;
+    let mut prev = (iv.lo, f64::NAN);
+    for &x in &pts {
+        let v = ev.eval(x);
+        let neg = v < 0.0;
+        match (start, neg) {
+            (None, true) => {
+                let s = if prev.1.is_finite() {
+                    bisect_sign(|t| ev.eval(t), prev.0, x).unwrap_or(x)
+                } else {
+                    iv.lo
+                };
+                start = Some(s);
+            }
+            (Some(s), false) => {
+                let e = bisect_sign(|t| ev.eval(t), prev.0, x).unwrap_or(x);
+                out.push((s, e));
+                start = None;
+            }
+            _ => {}
+        }
+        prev = (x, v);
+    }
+    if let Some(s) = start {
+        out.push((s, iv.hi));
+    }
+    out
+}
+
+/// The minimum of V inside the interval (the lowest survey point, refined where V' changes
+/// sign). None if V decreases all the way to an end (a runaway).
+pub fn minimum_of_v(ev: &mut Evaluator<'_>, iv: &Interval) -> Option<f64> {
+    let mut pts: Vec<f64> = survey_grid().into_iter().filter(|&x| iv.contains(x)).collect();
+    for (end, dir) in [(iv.lo, 1.0), (iv.hi, -1.0)] {
+        if end.is_finite() {
+            let w = (iv.hi - iv.lo).min(end.abs().max(1.0));
+            for k in 1..12 {
+                pts.push(end + dir * w * 10f64.powi(-k));
+            }
+        }
+    }
+    pts.sort_by(f64::total_cmp);
+    if pts.len() < 3 {
+        let m = interior_probe(iv.lo, iv.hi, &pts);
+        pts = vec![iv.lo.max(m - 1.0), m, iv.hi.min(m + 1.0)];
+    }
+    let vals: Vec<f64> = pts.iter().map(|&x| ev.eval(x)).collect();
+    let (i, _) = vals.iter().enumerate().min_by(|a, b| a.1.total_cmp(b.1))?;
+    if i == 0 || i == pts.len() - 1 {
+        return None;
+    }
+    let dv = |ev: &mut Evaluator<'_>, x: f64| {
+        ev.eval_jet(x, 1);
+        ev.jet_output(OUT_V)[1]
+    };
+    Some(bisect_sign(|x| dv(ev, x), pts[i - 1], pts[i + 1]).unwrap_or(pts[i]))
+}
+
+/// The canonical map: chi(phi) = integral of sqrt(K) from a reference point.
+pub struct CanonicalMap<'m> {
+    ev: Evaluator<'m>,
+    /// The field value where chi = 0.
+    pub phi_ref: f64,
+    tol: crate::numerics::quad::Tolerance,
+}
+
+impl<'m> CanonicalMap<'m> {
+    /// A map with chi = 0 at `phi_ref`.
+    pub fn new(model: &'m Model, phi_ref: f64, config: &Config) -> CanonicalMap<'m> {
+        CanonicalMap {
+            ev: model.evaluator(),
+            phi_ref,
+            tol: config.quad,
+        }
+    }
+
+    /// chi between two points of the interior (adaptive Gauss–Kronrod, relative tolerance
+    /// `config.quad.rel`), with its error estimate.
+    pub fn between(&mut self, a: f64, b: f64) -> Result<Estimate, NumericError> {
+        let ev = &mut self.ev;
+        gauss_kronrod(
+            |x| {
+                ev.eval(x);
+                ev.output(OUT_SQRT_K)
+            },
+            a,
+            b,
+            &self.tol,
+        )
+    }
+
+    /// chi(phi), measured from `phi_ref`.
+    pub fn chi(&mut self, phi: f64) -> Result<Estimate, NumericError> {
+        self.between(self.phi_ref, phi)
+    }
+
+    /// chi from `phi_ref` to a finite end of the interval where sqrt(K) may be singular
+    /// (double-exponential rule); `Ok(None)` if the integral diverges (an infinite distance).
+    pub fn to_end(&mut self, end: f64) -> Result<Estimate, NumericError> {
+        let ev = &mut self.ev;
+        let (a, b) = (self.phi_ref.min(end), self.phi_ref.max(end));
+        let r = tanh_sinh(
+            |x, _| {
+                ev.eval(x);
+                ev.output(OUT_SQRT_K)
+            },
+            a,
+            b,
+            &self.tol,
+        )?;
+        let sign = if end >= self.phi_ref { 1.0 } else { -1.0 };
+        Ok(Estimate {
+            value: sign * r.value,
+            error: r.error,
+        })
+    }
+
+    /// The inverse map phi(chi) inside (lo, hi), by Newton's method on chi(phi) - target with
+    /// d chi/d phi = sqrt(K), safeguarded by bisection.
+    pub fn phi_of_chi(&mut self, target: f64, lo: f64, hi: f64) -> Result<Estimate, NumericError> {
+        // Expand a bracket from phi_ref toward the side of the target.
+        let dir = if target >= 0.0 { 1.0 } else { -1.0 };
+        let limit = if dir > 0.0 { hi } else { lo };
+        let mut a = self.phi_ref;
+        let mut chi_a = 0.0;
+        let mut step = 0.1 * self.phi_ref.abs().max(1.0);
+        let mut b;
+        let mut chi_b;
+        loop {
+            b = a + dir * step;
+            if (dir > 0.0 && b >= limit) || (dir < 0.0 && b <= limit) {
+                b = if limit.is_finite() { a + 0.5 * (limit - a) } else { b };
+            }
+            chi_b = chi_a + self.between(a, b)?.value;
+            if (chi_b - target) * dir >= 0.0 {
+                break;
+            }
+            a = b;
+            chi_a = chi_b;
+            step *= 2.0;
+            if step > 1e12 || (b - a).abs() < 1e-15 * b.abs().max(1.0) {
+                return Err(NumericError::NoConvergence {
+                    what: "bracketing phi(chi)",
+                    estimate: b,
+                    error: f64::INFINITY,
+                    iterations: 0,
+                });
+            }
+        }
+        let (base, chi_base) = (a, chi_a);
+        let tol = self.tol;
+        let ev = &mut self.ev;
+        let mut chi_at = |x: f64| {
+            let r = gauss_kronrod(
+                |t| {
+                    ev.eval(t);
+                    ev.output(OUT_SQRT_K)
+                },
+                base,
+                x,
+                &tol,
+            );
+            let c = r.map(|e| e.value).unwrap_or(f64::NAN);
+            ev.eval(x);
+            (chi_base + c - target, ev.output(OUT_SQRT_K))
+        };
+        safeguarded_newton(&mut chi_at, a.min(b), a.max(b), 0.5 * (a + b), 1e-14 * b.abs().max(1.0), 100)
+    }
+}
+
+/// A pole of K at a finite end of the domain: K ~ residue / |phi - phi_p|^order.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Pole {
+    /// Where.
+    pub phi: f64,
+    /// The order p (rounded to a multiple of 1/2 when within 1e-6 of one).
+    pub order: f64,
+    /// The order as measured before rounding.
+    pub order_measured: f64,
+    /// The residue a_p.
+    pub residue: f64,
+    /// Relative uncertainty of the residue (from two extrapolations).
+    pub residue_uncertainty: f64,
+    /// True if the canonical distance to the pole is infinite (p >= 2).
+    pub infinite_distance: bool,
+    /// The leading-order predictions of the pole alone, if they exist.
+    pub leading_order: Option<PoleLeadingOrder>,
+}
+
+/// Leading order in 1/N from a pole of order p > 1 with V regular and nonzero there, and
+/// falling away from it: V = V_p (1 - c rho + ...), K = a_p / rho^p, rho = |phi - phi_p|.
+/// Then N = a_p rho^(1-p) / (c (p-1)), and
+/// n_s = 1 - p / ((p-1) N),  r = 8 c^((p-2)/(p-1)) a_p^(1/(p-1)) / ((p-1) N)^(p/(p-1)).
+/// For p = 2: n_s = 1 - 2/N, r = 8 a_2 / N^2, whatever the potential.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PoleLeadingOrder {
+    /// c = -(dV/drho)/V at the pole.
+    pub slope: f64,
+    /// The pole order used.
+    pub order: f64,
+    /// The residue used.
+    pub residue: f64,
+}
+
+impl PoleLeadingOrder {
+    /// (n_s, r) at N e-folds.
+    pub fn predict(&self, n: f64) -> (f64, f64) {
+        let p = self.order;
+        let ns = 1.0 - p / ((p - 1.0) * n);
+        let r = 8.0 * self.slope.powf((p - 2.0) / (p - 1.0)) * self.residue.powf(1.0 / (p - 1.0))
+            / ((p - 1.0) * n).powf(p / (p - 1.0));
+        (ns, r)
+    }
+}
+
+/// f(0) from f(d), f(2d), f(4d) by quadratic extrapolation.
+fn extrapolate(f1: f64, f2: f64, f4: f64) -> f64 {
+    (8.0 * f1 - 6.0 * f2 + f4) / 3.0
+}
+
+/// Order and residue of a pole of K at `end`, approached from the side `inward` (+1: the
+/// interior lies above the pole).
+pub fn analyse_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -> Option<Pole> {
+    let w = width.min(end.abs().max(1.0));
+    let at = |ev: &mut Evaluator<'_>, d: f64| {
+        let x = end + inward * d;
+        ev.eval_jet(x, 1);
+        let (k0, k1) = {
+            let j = ev.jet_output(OUT_K);
+            (j[0], j[1])
+        };
+        let v = *ev.jet_output(OUT_V);
+        // local order -dlnK/dln(rho), rho = inward (x - end)
+        (-inward * d * k1 / k0, k0, v)
+    };
+    let est = |ev: &mut Evaluator<'_>, d: f64| {
+        let (p1, _, _) = at(ev, d);
+        let (p2, _, _) = at(ev, 2.0 * d);
+        let (p4, _, _) = at(ev, 4.0 * d);
+        extrapolate(p1, p2, p4)
+    };
+    let (pa, pb) = (est(ev, 1e-4 * w), est(ev, 3e-4 * w));
+    if !(pa.is_finite() && pb.is_finite()) || pa <= 0.0 {
+        return None;
+    }
+    let measured = pa;
+    let rounded = (2.0 * pa).round() / 2.0;
+    let order = if (pa - rounded).abs() < 1e-6 { rounded } else { pa };
+    let residue_at = |ev: &mut Evaluator<'_>, d: f64| {
+        let f = |ev: &mut Evaluator<'_>, d: f64| at(ev, d).1 * d.powf(order);
+        extrapolate(f(ev, d), f(ev, 2.0 * d), f(ev, 4.0 * d))
+    };
+    let (ra, rb) = (residue_at(ev, 1e-4 * w), residue_at(ev, 3e-4 * w));
+    let residue = ra;
+    let residue_uncertainty = ((ra - rb) / ra).abs();
+    // Leading order needs V(end) > 0 finite and V falling away from the pole.
+    let (v0, v1) = {
+        let (_, _, v) = at(ev, 1e-9 * w);
+        (v[0], v[1])
+    };
+    let slope = -inward * v1 / v0;
+    let leading_order = (order > 1.0 && v0.is_finite() && v0 > 0.0 && slope > 0.0).then_some(PoleLeadingOrder {
+        slope,
+        order,
+        residue,
+    });
+    Some(Pole {
+        phi: end,
+        order,
+        order_measured: measured,
+        residue,
+        residue_uncertainty,
+        infinite_distance: order >= 2.0,
+        leading_order,
+    })
+}
+
+/// How V(chi) behaves toward one end of field space.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Asymptote {
+    /// The end, as a field value (or +-inf).
+    #[serde(serialize_with = "ser_f64")]
+    pub end: f64,
+    /// The classification.
+    pub kind: AsymptoteKind,
+    /// Plateau height V_inf (plateaus).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub height: Option<f64>,
+    /// Scale M in V ~ V_inf (1 - c exp(-chi/M)) (exponential plateaus).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub scale: Option<f64>,
+    /// alpha = 2 M^2 / 3 (exponential plateaus).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub alpha: Option<f64>,
+    /// Power: q in V ~ V_inf (1 - c chi^-q) (power plateaus), or n in V ~ chi^n (power-law
+    /// growth or decay).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub power: Option<f64>,
+    /// Rate lambda in V ~ exp(lambda chi) (exponential growth or decay).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rate: Option<f64>,
+    /// Canonical distance from the reference point to the end, when finite.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub chi_distance: Option<f64>,
+    /// Relative change of the main number between the two best sample points: how certain.
+    pub uncertainty: f64,
+    /// "high" (uncertainty < 1e-6), "medium" (< 1e-3) or "low".
+    pub confidence: &'static str,
+}
+
+/// The kinds of asymptotic behaviour.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum AsymptoteKind {
+    /// V -> V_inf with V_inf - V ~ exp(-chi/M).
+    ExponentialPlateau,
+    /// V -> V_inf with V_inf - V ~ chi^(-q).
+    PowerPlateau,
+    /// V ~ chi^n, n > 0.
+    PowerGrowth,
+    /// V ~ exp(lambda chi), lambda > 0.
+    ExponentialGrowth,
+    /// V ~ chi^n -> 0.
+    PowerDecay,
+    /// V ~ exp(-lambda chi) -> 0.
+    ExponentialDecay,
+    /// V becomes negative.
+    Negative,
+    /// V' changes sign again and again.
+    Oscillating,
+    /// Field space ends at a finite canonical distance.
+    FiniteDistance,
+    /// None of the above could be established.
+    Unclassified,
+}
+
+impl AsymptoteKind {
+    /// The word used in reports and JSON.
+    pub fn word(self) -> &'static str {
+        match self {
+            AsymptoteKind::ExponentialPlateau => "exponential-plateau",
+            AsymptoteKind::PowerPlateau => "power-plateau",
+            AsymptoteKind::PowerGrowth => "power-growth",
+            AsymptoteKind::ExponentialGrowth => "exponential-growth",
+            AsymptoteKind::PowerDecay => "power-decay",
+            AsymptoteKind::ExponentialDecay => "exponential-decay",
+            AsymptoteKind::Negative => "negative",
+            AsymptoteKind::Oscillating => "oscillating",
+            AsymptoteKind::FiniteDistance => "finite-distance",
+            AsymptoteKind::Unclassified => "unclassified",
+        }
+    }
+}
+
+fn confidence(u: f64) -> &'static str {
+    if u < 1e-6 {
+        "high"
+    } else if u < 1e-3 {
+        "medium"
+    } else {
+        "low"
+    }
+}
+
+/// One sample on the way to an end: V and its derivatives along t (t = +-chi, increasing
+/// toward the end), and the canonical distance from the previous sample.
+#[derive(Debug, Clone, Copy)]
+struct Sample {
+    v: f64,
+    vt: f64,
+    vtt: f64,
+    vttt: f64,
+    dchi: f64,
+}
+
+/// Classifies V(chi) toward the end `end` of the interval (the `upper` end if true).
+pub fn asymptote(
+    model: &Model,
+    ev: &mut Evaluator<'_>,
+    iv: &Interval,
+    upper: bool,
+    phi_ref: f64,
+    config: &Config,
+) -> Asymptote {
+    let end = if upper { iv.hi } else { iv.lo };
+    let tau = if upper { 1.0 } else { -1.0 };
+    let pts: Vec<f64> = if end.is_finite() {
+        let w = (iv.hi - iv.lo).min(end.abs().max(1.0));
+        (4..=36).map(|j| end - tau * w * 10f64.powf(-j as f64 / 4.0)).collect()
+    } else {
+        let base = if phi_ref.is_finite() { phi_ref } else { 0.0 };
+        (0..=28).map(|j| base + tau * 10f64.powf(j as f64 / 4.0)).collect()
+    };
+    let mut map = CanonicalMap::new(model, phi_ref, config);
+    let mut samples: Vec<Sample> = Vec::new();
+    let mut prev: Option<f64> = None;
+    for &x in &pts {
+        if !iv.contains(x) {
+            continue;
+        }
+        let d = chi_derivatives(ev, x, 3);
+        if d.iter().take(4).any(|v| !v.is_finite()) {
+            break;
+        }
+        let dchi = match prev {
+            Some(p) => map.between(p, x).map(|e| e.value.abs()).unwrap_or(f64::NAN),
+            None => map.chi(x).map(|e| e.value.abs()).unwrap_or(f64::NAN),
+        };
+        prev = Some(x);
+        samples.push(Sample {
+            v: d[0],
+            vt: tau * d[1],
+            vtt: d[2],
+            vttt: tau * d[3],
+            dchi,
+        });
+    }
+    classify(end, &samples)
+}
+
+fn best_stable(est: &[f64]) -> Option<(usize, f64)> {
+    // The consecutive pair whose estimates agree best (relative), preferring later points.
+    let mut best: Option<(usize, f64)> = None;
+    for j in 1..est.len() {
+        let (a, b) = (est[j - 1], est[j]);
+        if !(a.is_finite() && b.is_finite()) || b == 0.0 {
+            continue;
+        }
+        let rel = ((a - b) / b).abs();
+        if best.is_none_or(|(_, r)| rel <= r) {
+            best = Some((j, rel));
+        }
+    }
+    best
+}
+
+fn classify(end: f64, s: &[Sample]) -> Asymptote {
+    let mut out = Asymptote {
+        end,
+        kind: AsymptoteKind::Unclassified,
+        height: None,
+        scale: None,
+        alpha: None,
+        power: None,
+        rate: None,
+        chi_distance: None,
+        uncertainty: f64::INFINITY,
+        confidence: "low",
+    };
+    if s.len() < 4 {
+        return out;
+    }
+    let last = s[s.len() - 1];
+    let set = |out: &mut Asymptote, kind, u: f64| {
+        out.kind = kind;
+        out.uncertainty = u;
+        out.confidence = confidence(u);
+    };
+    // Falling below zero.
+    if last.v < 0.0 {
+        set(&mut out, AsymptoteKind::Negative, 0.0);
+        return out;
+    }
+    // Oscillation: the slope changes sign at least twice.
+    let flips = s.windows(2).filter(|w| w[0].vt.signum() != w[1].vt.signum() && w[1].vt != 0.0).count();
+    if flips >= 2 {
+        set(&mut out, AsymptoteKind::Oscillating, 0.0);
+        return out;
+    }
+    // Finite canonical distance: the increments of chi shrink geometrically.
+    let n = s.len();
+    let incr: Vec<f64> = s.iter().map(|x| x.dchi).collect();
+    let total: f64 = incr.iter().sum();
+    let tail = incr[n - 3..].iter().sum::<f64>();
+    let shrinking = incr[n - 3..].windows(2).all(|w| w[1] < 0.8 * w[0]);
+    if total.is_finite() && shrinking && tail < 1e-3 * total {
+        // Add the geometric tail beyond the last sample.
+        let q = incr[n - 1] / incr[n - 2];
+        let total = total + incr[n - 1] * q / (1.0 - q);
+        out.chi_distance = Some(total);
+        set(&mut out, AsymptoteKind::FiniteDistance, tail / total);
+        return out;
+    }
+    let ell: Vec<f64> = s.iter().map(|x| x.vt / x.v).collect();
+    let m_est: Vec<f64> = s.iter().map(|x| -x.vt / x.vtt).collect();
+    let vmax = s.iter().fold(0.0f64, |m, x| m.max(x.v.abs()));
+    // Exponential plateau: M = -V_t / V_tt stable and positive, V -> V_inf != 0.
+    if let Some((j, rel)) = best_stable(&m_est) {
+        let m = m_est[j];
+        let height = s[j].v + m * s[j].vt;
+        if m > 0.0 && rel < 1e-3 && height.abs() > 1e-6 * vmax && (ell[j] * m).abs() < 1e-2 {
+            // Extrapolate M to the plateau against u = M |V_t| / V (the relative distance).
+            let u = |k: usize| (m_est[k] * s[k].vt / s[k].v).abs();
+            let (u1, u2) = (u(j - 1), u(j));
+            let m0 = if (u1 - u2).abs() > 0.0 {
+                m_est[j] - u2 * (m_est[j] - m_est[j - 1]) / (u2 - u1)
+            } else {
+                m
+            };
+            let m0 = if ((m0 - m) / m).abs() < 10.0 * rel.max(1e-9) { m0 } else { m };
+            out.height = Some(s[j].v + m0 * s[j].vt);
+            out.scale = Some(m0);
+            out.alpha = Some(2.0 * m0 * m0 / 3.0);
+            set(&mut out, AsymptoteKind::ExponentialPlateau, rel);
+            return out;
+        }
+    }
+    // Power plateau: q + 1 = kappa^2 / (dkappa/dt) stable, with V_t / V -> 0.
+    let q_est: Vec<f64> = s
+        .iter()
+        .map(|x| {
+            let kappa = x.vtt / x.vt;
+            let dk = x.vttt / x.vt - kappa * kappa;
+            kappa * kappa / dk - 1.0
+        })
+        .collect();
+    if let Some((j, rel)) = best_stable(&q_est) {
+        let q = q_est[j];
+        let kappa = s[j].vtt / s[j].vt;
+        let height = s[j].v - s[j].vt * (q + 1.0) / (q * kappa);
+        if q > 0.0 && rel < 1e-2 && ell[j].abs() < 1e-2 && height.abs() > 1e-6 * vmax {
+            out.height = Some(height);
+            out.power = Some(q);
+            set(&mut out, AsymptoteKind::PowerPlateau, rel);
+            return out;
+        }
+    }
+    // Exponential growth or decay: V_t / V stable and not tending to zero.
+    if let Some((j, rel)) = best_stable(&ell) {
+        if rel < 1e-4 && ell[j].abs() > 1e-6 {
+            out.rate = Some(ell[j].abs());
+            let kind = if ell[j] > 0.0 {
+                AsymptoteKind::ExponentialGrowth
+            } else {
+                AsymptoteKind::ExponentialDecay
+            };
+            set(&mut out, kind, rel);
+            return out;
+        }
+    }
+    // Power-law growth or decay: n = ell^2 / (ell^2 - V_tt/V) stable.
+    let n_est: Vec<f64> = s
+        .iter()
+        .zip(&ell)
+        .map(|(x, l)| l * l / (l * l - x.vtt / x.v))
+        .collect();
+    if let Some((j, rel)) = best_stable(&n_est) {
+        if rel < 1e-3 {
+            out.power = Some(n_est[j]);
+            let kind = if n_est[j] > 0.0 {
+                AsymptoteKind::PowerGrowth
+            } else {
+                AsymptoteKind::PowerDecay
+            };
+            set(&mut out, kind, rel);
+            return out;
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn chain_rule_on_a_canonical_field_is_plain_differentiation() {
+        // s = 1: the chi-derivatives are the phi-derivatives, V = exp(phi) at 0.
+        let mut v = [0.0; JET_LEN];
+        let mut f = 1.0;
+        for (k, c) in v.iter_mut().enumerate().take(5) {
+            if k > 0 {
+                f *= k as f64;
+            }
+            *c = 1.0 / f;
+        }
+        let mut s = [0.0; JET_LEN];
+        s[0] = 1.0;
+        assert_eq!(chain_rule(&v, &s, 4), [1.0, 1.0, 1.0, 1.0, 1.0]);
+    }
+}

@@ -1,0 +1,705 @@
+//! Stage 4: a model: field name, parameters, V(phi), K(phi) and an optional field range, read
+//! from a TOML file or given inline, then compiled to one tape with outputs V, K and sqrt(K).
+//!
+//! The file format (all keys but `potential` optional):
+//!
+//! ```toml
+//! name = "pole-order-2-quadratic"
+//! description = "Quadratic potential in the pole variable"
+//! field = "phi"                                  # default phi
+//! potential = "phi^2/(6*alpha)"
+//! kinetic = "1/(1 - phi^2/(6*alpha))^2"          # default 1
+//!
+//! [params]                                       # a number, or an expression of earlier ones
+//! alpha = 1
+//!
+//! [scan]                                         # default ranges for scans: [lo, hi] or [lo, hi, "log"]
+//! alpha = [0.1, 100, "log"]
+//!
+//! [settings]
+//! range = ["0", "sqrt(6*alpha)"]                 # field interval to consider; "-inf"/"inf" allowed
+//! start = "above"                                # field starts above (larger phi) or below the minimum of V
+//! efolds = [50, 55, 60]                          # default N_* values
+//! ```
+//!
+//! ```
+//! use efold::model::{ModelSpec, Model};
+//! let spec = ModelSpec::from_toml("potential = \"phi^2\"\n", "inline.toml")?;
+//! let model = Model::build(&spec, &Default::default())?;
+//! let mut ev = model.evaluator();
+//! assert_eq!(ev.eval(3.0), 9.0); // V
+//! assert_eq!(ev.output(1), 1.0); // K
+//! # Ok::<(), efold::model::ModelError>(())
+//! ```
+
+use crate::compile::{lower_into, Compiled, ExprError};
+use crate::config::Config;
+use crate::diag::{closest, Diagnostic, Source, Span};
+use crate::ir::{Func, Graph, Scope};
+use crate::tape::{Evaluator, Tape};
+use indexmap::IndexMap;
+use serde::Deserialize;
+use std::fmt;
+use std::path::Path;
+
+/// Where a piece of text came from, so that errors can point into the file.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Origin {
+    /// A name shown before the line number: a path, or a flag such as `--potential`.
+    pub name: String,
+    /// The whole text that `offset` points into (a file), if any.
+    pub file_text: Option<String>,
+    /// Byte offset of the expression inside `file_text`.
+    pub offset: usize,
+}
+
+/// An expression with its origin.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Text {
+    /// The expression.
+    pub text: String,
+    /// Where it came from.
+    pub origin: Origin,
+}
+
+impl Text {
+    /// An expression given on the command line (or in code): errors point at the text itself.
+    pub fn inline(name: &str, text: &str) -> Text {
+        Text {
+            text: text.to_string(),
+            origin: Origin {
+                name: name.to_string(),
+                file_text: None,
+                offset: 0,
+            },
+        }
+    }
+}
+
+/// Which side of the minimum of V the field starts on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Side {
+    /// At larger field values than the minimum.
+    Above,
+    /// At smaller field values than the minimum.
+    Below,
+}
+
+/// A parameter: name, value expression, optional scan range.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ParamSpec {
+    /// The name.
+    pub name: String,
+    /// Its value, an expression of numbers, `pi` and earlier parameters.
+    pub value: Text,
+    /// A default range for scans: (lo, hi, logarithmic).
+    pub scan: Option<(f64, f64, bool)>,
+}
+
+/// A model as written: plain data, not yet compiled.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ModelSpec {
+    /// A name (file stem if not given).
+    pub name: String,
+    /// One line saying what the model is.
+    pub description: String,
+    /// The field variable's name.
+    pub field: String,
+    /// V(phi).
+    pub potential: Text,
+    /// K(phi).
+    pub kinetic: Text,
+    /// Parameters in order.
+    pub params: Vec<ParamSpec>,
+    /// The field interval to consider, as two expressions (`-inf`, `inf` allowed).
+    pub range: Option<(Text, Text)>,
+    /// Which side of the minimum the field starts on.
+    pub start: Option<Side>,
+    /// Default N_* values.
+    pub efolds: Option<Vec<f64>>,
+}
+
+/// What went wrong while reading or compiling a model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ModelError {
+    /// The error in words.
+    pub diagnostic: Diagnostic,
+    /// The text its span points into: (name, text, offset).
+    pub source: Option<(String, String, usize)>,
+}
+
+impl ModelError {
+    fn plain(d: Diagnostic) -> ModelError {
+        ModelError {
+            diagnostic: d,
+            source: None,
+        }
+    }
+
+    fn in_file(d: Diagnostic, name: &str, text: &str) -> ModelError {
+        ModelError {
+            diagnostic: d,
+            source: Some((name.to_string(), text.to_string(), 0)),
+        }
+    }
+
+    /// An expression error, pointing into the file it came from when there is one.
+    pub fn from_expr(e: ExprError, origin: &Origin) -> ModelError {
+        let d = e.diagnostic();
+        match &origin.file_text {
+            Some(file) => ModelError {
+                diagnostic: d,
+                source: Some((origin.name.clone(), file.clone(), origin.offset)),
+            },
+            None => ModelError {
+                diagnostic: d,
+                source: Some((e.origin.clone(), e.text.clone(), 0)),
+            },
+        }
+    }
+
+    /// Drawn with the source line and carets.
+    pub fn render(&self) -> String {
+        match &self.source {
+            Some((name, text, offset)) => self.diagnostic.render(Some(&Source {
+                origin: name,
+                text,
+                offset: *offset,
+            })),
+            None => self.diagnostic.render(None),
+        }
+    }
+}
+
+impl fmt::Display for ModelError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.diagnostic.message)
+    }
+}
+
+impl std::error::Error for ModelError {}
+
+const TOP_KEYS: [&str; 8] = [
+    "name",
+    "description",
+    "field",
+    "potential",
+    "kinetic",
+    "params",
+    "scan",
+    "settings",
+];
+const SETTINGS_KEYS: [&str; 3] = ["range", "start", "efolds"];
+
+#[derive(Deserialize)]
+struct RawModel {
+    name: Option<String>,
+    description: Option<String>,
+    field: Option<toml::Spanned<String>>,
+    potential: toml::Spanned<String>,
+    kinetic: Option<toml::Spanned<String>>,
+    #[serde(default)]
+    params: IndexMap<String, toml::Spanned<RawValue>>,
+    #[serde(default)]
+    scan: IndexMap<String, toml::Spanned<Vec<RawValue>>>,
+    settings: Option<RawSettings>,
+}
+
+#[derive(Deserialize)]
+struct RawSettings {
+    range: Option<toml::Spanned<Vec<toml::Spanned<RawValue>>>>,
+    start: Option<toml::Spanned<String>>,
+    efolds: Option<toml::Spanned<Vec<f64>>>,
+}
+
+#[derive(Deserialize, Clone, Debug)]
+#[serde(untagged)]
+enum RawValue {
+    Number(f64),
+    Text(String),
+}
+
+/// The span of a quoted TOML string's contents, if the contents appear verbatim in the file
+/// (no escapes), so that expression spans map straight into the file.
+fn verbatim_offset(file: &str, span: std::ops::Range<usize>, value: &str) -> Option<usize> {
+    let raw = file.get(span.clone())?;
+    for q in ["\"\"\"", "'''", "\"", "'"] {
+        if raw.starts_with(q) && raw.len() >= 2 * q.len() {
+            let inner = &raw[q.len()..raw.len() - q.len()];
+            if inner == value {
+                return Some(span.start + q.len());
+            }
+        }
+    }
+    None
+}
+
+/// Byte range of `key =` at the start of a line inside `[section]` (or the top level).
+fn key_span(file: &str, section: Option<&str>, key: &str) -> Option<Span> {
+    let mut current: Option<String> = None;
+    let mut offset = 0;
+    for line in file.split_inclusive('\n') {
+        let trimmed = line.trim_start();
+        if let Some(rest) = trimmed.strip_prefix('[') {
+            current = rest.split(']').next().map(|s| s.trim().to_string());
+        } else if current.as_deref() == section {
+            let lead = line.len() - trimmed.len();
+            let name = trimmed.split(['=', ' ', '\t']).next().unwrap_or("");
+            let name = name.trim_matches(|c| c == '"' || c == '\'');
+            if name == key {
+                return Some(Span::new(offset + lead, offset + lead + key.len()));
+            }
+        }
+        offset += line.len();
+    }
+    None
+}
+
+impl ModelSpec {
+    /// Reads a model file.
+    pub fn load(path: &Path) -> Result<ModelSpec, ModelError> {
+        let name = path.display().to_string();
+        let text = std::fs::read_to_string(path).map_err(|e| {
+            ModelError::plain(
+                Diagnostic::new(format!("cannot read model file `{name}`: {e}"))
+                    .with_hint("give the path of a .toml model file, or the model inline with --potential"),
+            )
+        })?;
+        let mut spec = ModelSpec::from_toml(&text, &name)?;
+        if spec.name.is_empty() {
+            spec.name = path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
+        }
+        Ok(spec)
+    }
+
+    /// Parses a model from TOML text; `file` names it in errors.
+    pub fn from_toml(text: &str, file: &str) -> Result<ModelSpec, ModelError> {
+        let table: toml::Table = toml::from_str(text).map_err(|e| toml_error(e, text, file))?;
+        check_keys(&table, text, file)?;
+        let raw: RawModel = toml::from_str(text).map_err(|e| toml_error(e, text, file))?;
+        let origin_of = |s: &toml::Spanned<String>, key: &str| -> Text {
+            let value = s.get_ref().clone();
+            match verbatim_offset(text, s.span(), &value) {
+                Some(offset) => Text {
+                    text: value,
+                    origin: Origin {
+                        name: file.to_string(),
+                        file_text: Some(text.to_string()),
+                        offset,
+                    },
+                },
+                None => Text::inline(&format!("{file}: {key}"), &value),
+            }
+        };
+        let raw_text = |v: &toml::Spanned<RawValue>, key: &str| -> Text {
+            match v.get_ref() {
+                RawValue::Number(x) => Text::inline(&format!("{file}: {key}"), &crate::ir::format_number(*x)),
+                RawValue::Text(s) => origin_of(&toml::Spanned::new(v.span(), s.clone()), key),
+            }
+        };
+        let mut params = Vec::new();
+        for (name, value) in &raw.params {
+            check_identifier(name, text, file, Some("params"))?;
+            params.push(ParamSpec {
+                name: name.clone(),
+                value: raw_text(value, &format!("params.{name}")),
+                scan: None,
+            });
+        }
+        for (name, range) in &raw.scan {
+            let Some(p) = params.iter_mut().find(|p| &p.name == name) else {
+                let span = key_span(text, Some("scan"), name).unwrap_or_default();
+                return Err(ModelError::in_file(
+                    Diagnostic::new(format!("scan range for `{name}`, which is not a parameter"))
+                        .with_span(span, "not in [params]")
+                        .with_hint("add it under [params], or remove this range"),
+                    file,
+                    text,
+                ));
+            };
+            p.scan = Some(scan_range(range, text, file)?);
+        }
+        let settings = raw.settings.unwrap_or(RawSettings {
+            range: None,
+            start: None,
+            efolds: None,
+        });
+        let range = match &settings.range {
+            None => None,
+            Some(r) if r.get_ref().len() == 2 => {
+                let v = r.get_ref();
+                Some((raw_text(&v[0], "settings.range"), raw_text(&v[1], "settings.range")))
+            }
+            Some(r) => {
+                return Err(ModelError::in_file(
+                    Diagnostic::new("`range` needs two values")
+                        .with_span(Span::new(r.span().start, r.span().end), "here")
+                        .with_hint("write `range = [\"0\", \"sqrt(6*alpha)\"]`"),
+                    file,
+                    text,
+                ))
+            }
+        };
+        let start = match &settings.start {
+            None => None,
+            Some(s) => Some(match s.get_ref().as_str() {
+                "above" => Side::Above,
+                "below" => Side::Below,
+                other => {
+                    return Err(ModelError::in_file(
+                        Diagnostic::new(format!("unknown start side `{other}`"))
+                            .with_span(Span::new(s.span().start, s.span().end), "expected \"above\" or \"below\"")
+                            .with_hint("\"above\": the field starts at larger values than the minimum of V"),
+                        file,
+                        text,
+                    ))
+                }
+            }),
+        };
+        let field = raw.field.map(|f| f.into_inner()).unwrap_or_else(|| "phi".to_string());
+        check_identifier(&field, text, file, None)?;
+        Ok(ModelSpec {
+            name: raw.name.unwrap_or_default(),
+            description: raw.description.unwrap_or_default(),
+            field,
+            potential: origin_of(&raw.potential, "potential"),
+            kinetic: raw
+                .kinetic
+                .as_ref()
+                .map(|k| origin_of(k, "kinetic"))
+                .unwrap_or_else(|| Text::inline("kinetic (default)", "1")),
+            params,
+            range,
+            start,
+            efolds: settings.efolds.map(|e| e.into_inner()),
+        })
+    }
+
+    /// A model given by flags alone.
+    pub fn inline(potential: &str, kinetic: Option<&str>) -> ModelSpec {
+        ModelSpec {
+            name: "inline".to_string(),
+            description: String::new(),
+            field: "phi".to_string(),
+            potential: Text::inline("--potential", potential),
+            kinetic: Text::inline("--kinetic", kinetic.unwrap_or("1")),
+            ..ModelSpec::default()
+        }
+    }
+
+    /// Sets a parameter (replacing one of the same name), as `--param NAME=VALUE` does.
+    pub fn set_param(&mut self, name: &str, value: &str) {
+        let text = Text::inline(&format!("--param {name}"), value);
+        match self.params.iter_mut().find(|p| p.name == name) {
+            Some(p) => p.value = text,
+            None => self.params.push(ParamSpec {
+                name: name.to_string(),
+                value: text,
+                scan: None,
+            }),
+        }
+    }
+}
+
+fn scan_range(range: &toml::Spanned<Vec<RawValue>>, text: &str, file: &str) -> Result<(f64, f64, bool), ModelError> {
+    let bad = |why: &str| {
+        ModelError::in_file(
+            Diagnostic::new(format!("bad scan range: {why}"))
+                .with_span(Span::new(range.span().start, range.span().end), "here")
+                .with_hint("write `[lo, hi]` or `[lo, hi, \"log\"]` with numbers lo < hi"),
+            file,
+            text,
+        )
+    };
+    let v = range.get_ref();
+    let num = |x: &RawValue| match x {
+        RawValue::Number(n) => Some(*n),
+        RawValue::Text(_) => None,
+    };
+    let (lo, hi) = match (v.first().and_then(num), v.get(1).and_then(num)) {
+        (Some(lo), Some(hi)) if lo < hi => (lo, hi),
+        _ => return Err(bad("two increasing numbers expected")),
+    };
+    let log = match v.get(2) {
+        None => false,
+        Some(RawValue::Text(s)) if s == "log" => true,
+        Some(RawValue::Text(s)) if s == "linear" => false,
+        _ => return Err(bad("the third entry may only be \"log\" or \"linear\"")),
+    };
+    if log && lo <= 0.0 {
+        return Err(bad("a logarithmic range must be positive"));
+    }
+    if v.len() > 3 {
+        return Err(bad("too many entries"));
+    }
+    Ok((lo, hi, log))
+}
+
+fn check_identifier(name: &str, text: &str, file: &str, section: Option<&str>) -> Result<(), ModelError> {
+    let ok = name.chars().next().is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+        && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_');
+    let reserved = name == "pi" || Func::from_name(name).is_some() || name == "pow";
+    if ok && !reserved {
+        return Ok(());
+    }
+    let span = key_span(text, section, name).unwrap_or_default();
+    let why = if reserved {
+        "is a built-in name"
+    } else {
+        "is not a valid name"
+    };
+    Err(ModelError::in_file(
+        Diagnostic::new(format!("`{name}` {why}"))
+            .with_span(span, "here")
+            .with_hint("names are letters, digits and _, starting with a letter, and not a function or `pi`"),
+        file,
+        text,
+    ))
+}
+
+fn check_keys(table: &toml::Table, text: &str, file: &str) -> Result<(), ModelError> {
+    let unknown = |key: &str, section: Option<&str>, known: &[&str]| {
+        let span = key_span(text, section, key).unwrap_or_default();
+        let mut d = Diagnostic::new(format!(
+            "unknown key `{key}`{}",
+            section.map(|s| format!(" in [{s}]")).unwrap_or_default()
+        ))
+        .with_span(span, "not a model key");
+        if let Some(s) = closest(key, known.iter().copied()) {
+            d = d.with_hint(format!("did you mean `{s}`?"));
+        }
+        ModelError::in_file(d.with_hint(format!("the keys here are: {}", known.join(", "))), file, text)
+    };
+    for key in table.keys() {
+        if !TOP_KEYS.contains(&key.as_str()) {
+            return Err(unknown(key, None, &TOP_KEYS));
+        }
+    }
+    if let Some(toml::Value::Table(s)) = table.get("settings") {
+        for key in s.keys() {
+            if !SETTINGS_KEYS.contains(&key.as_str()) {
+                return Err(unknown(key, Some("settings"), &SETTINGS_KEYS));
+            }
+        }
+    }
+    if !table.contains_key("potential") {
+        return Err(ModelError::in_file(
+            Diagnostic::new("the model has no `potential`")
+                .with_span(Span::new(0, 0), "")
+                .with_hint("add a line such as `potential = \"phi^2/2\"`"),
+            file,
+            text,
+        ));
+    }
+    Ok(())
+}
+
+fn toml_error(e: toml::de::Error, text: &str, file: &str) -> ModelError {
+    let message = e.message().trim().to_string();
+    let mut d = Diagnostic::new(format!("malformed model file: {message}"));
+    if let Some(span) = e.span() {
+        d = d.with_span(Span::new(span.start, span.end.max(span.start + 1)), "here");
+    }
+    ModelError::in_file(
+        d.with_hint("the model file is TOML: `key = \"expression\"`, with [params] and [settings] tables"),
+        file,
+        text,
+    )
+}
+
+/// A compiled model: one tape with outputs V, K and sqrt(K), and the parameter values.
+#[derive(Debug, Clone)]
+pub struct Model {
+    /// The model as written.
+    pub spec: ModelSpec,
+    /// Field and parameter names.
+    pub scope: Scope,
+    /// Parameter values, in scope order.
+    pub params: Vec<f64>,
+    /// The compiled expressions: roots V, K, sqrt(K).
+    pub compiled: Compiled,
+    /// The field interval given by the user, if any (infinite ends allowed).
+    pub range: Option<(f64, f64)>,
+}
+
+/// Output index of V on the model's tape.
+pub const OUT_V: usize = 0;
+/// Output index of K.
+pub const OUT_K: usize = 1;
+/// Output index of sqrt(K).
+pub const OUT_SQRT_K: usize = 2;
+
+impl Model {
+    /// Compiles a model: parameters first (each an expression of `pi` and earlier ones), then V
+    /// and K, then the range.
+    pub fn build(spec: &ModelSpec, config: &Config) -> Result<Model, ModelError> {
+        let mut names: Vec<String> = Vec::new();
+        let mut values: Vec<f64> = Vec::new();
+        for p in &spec.params {
+            if p.name == spec.field {
+                return Err(ModelError::plain(
+                    Diagnostic::new(format!("`{}` is both the field and a parameter", p.name))
+                        .with_hint("rename the parameter, or the field with `field = ...`"),
+                ));
+            }
+            if names.contains(&p.name) {
+                return Err(ModelError::plain(
+                    Diagnostic::new(format!("parameter `{}` is given twice", p.name)).with_hint("give each parameter once"),
+                ));
+            }
+            let v = constant(&p.value, &spec.field, &names, &values, config, &format!("parameter `{}`", p.name))?;
+            names.push(p.name.clone());
+            values.push(v);
+        }
+        let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+        let scope = Scope::new(&spec.field, &refs);
+        let mut graph = Graph::new(scope.clone());
+        let (v_ast, v) = lower_into(&mut graph, &spec.potential.origin.name, &spec.potential.text, &config.limits)
+            .map_err(|e| ModelError::from_expr(e, &spec.potential.origin))?;
+        let (k_ast, k) = lower_into(&mut graph, &spec.kinetic.origin.name, &spec.kinetic.text, &config.limits)
+            .map_err(|e| ModelError::from_expr(e, &spec.kinetic.origin))?;
+        let sqrt_k = graph.func(Func::Sqrt, k);
+        let roots = vec![v, k, sqrt_k];
+        let tape = Tape::compile(&graph, &roots);
+        let range = match &spec.range {
+            None => None,
+            Some((lo, hi)) => {
+                let lo_v = range_end(lo, &spec.field, &names, &values, config)?;
+                let hi_v = range_end(hi, &spec.field, &names, &values, config)?;
+                if lo_v >= hi_v {
+                    return Err(ModelError::plain(
+                        Diagnostic::new(format!("the range is empty: {lo_v} is not below {hi_v}"))
+                            .with_hint("give the lower end first: --range LO HI"),
+                    ));
+                }
+                Some((lo_v, hi_v))
+            }
+        };
+        Ok(Model {
+            spec: spec.clone(),
+            scope,
+            params: values,
+            compiled: Compiled {
+                asts: vec![v_ast, k_ast],
+                graph,
+                roots,
+                tape,
+            },
+            range,
+        })
+    }
+
+    /// An evaluator bound to the model's parameters: `eval(phi)` returns V, `output(1)` K,
+    /// `output(2)` sqrt(K).
+    pub fn evaluator(&self) -> Evaluator<'_> {
+        self.compiled.tape.evaluator(&self.params)
+    }
+
+    /// The field's name.
+    pub fn field(&self) -> &str {
+        &self.scope.field
+    }
+
+    /// Parameter names and values.
+    pub fn param_pairs(&self) -> impl Iterator<Item = (&str, f64)> {
+        self.scope.params.iter().map(String::as_str).zip(self.params.iter().copied())
+    }
+
+    /// V printed in normalised form.
+    pub fn potential_ir(&self) -> String {
+        self.compiled.graph.print(self.compiled.roots[OUT_V])
+    }
+
+    /// K printed in normalised form.
+    pub fn kinetic_ir(&self) -> String {
+        self.compiled.graph.print(self.compiled.roots[OUT_K])
+    }
+}
+
+/// Evaluates a constant expression (a parameter or a range end).
+fn constant(
+    t: &Text,
+    field: &str,
+    names: &[String],
+    values: &[f64],
+    config: &Config,
+    what: &str,
+) -> Result<f64, ModelError> {
+    let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+    let mut g = Graph::new(Scope::new(field, &refs));
+    let (_, id) = lower_into(&mut g, &t.origin.name, &t.text, &config.limits).map_err(|e| ModelError::from_expr(e, &t.origin))?;
+    if g.is_varying(id) {
+        return Err(ModelError::plain(
+            Diagnostic::new(format!("{what}: `{}` depends on the field `{field}`", t.text.trim()))
+                .with_hint("a value may use numbers, `pi` and parameters defined before it"),
+        ));
+    }
+    let v = Tape::compile(&g, &[id]).evaluator(values).eval(0.0);
+    if !v.is_finite() {
+        return Err(ModelError::plain(Diagnostic::new(format!(
+            "{what}: `{}` is not a finite number ({v})",
+            t.text.trim()
+        ))));
+    }
+    Ok(v)
+}
+
+fn range_end(t: &Text, field: &str, names: &[String], values: &[f64], config: &Config) -> Result<f64, ModelError> {
+    match t.text.trim() {
+        "inf" | "+inf" => Ok(f64::INFINITY),
+        "-inf" => Ok(f64::NEG_INFINITY),
+        _ => constant(t, field, names, values, config, "range"),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn err(text: &str) -> String {
+        ModelSpec::from_toml(text, "m.toml")
+            .and_then(|s| Model::build(&s, &Config::default()).map(|_| ()))
+            .unwrap_err()
+            .render()
+    }
+
+    #[test]
+    fn reads_a_full_model() {
+        let text = r#"
+name = "pole"
+description = "a pole"
+potential = "phi^2/(6*alpha)"
+kinetic = "1/(1 - phi^2/(6*alpha))^2"
+[params]
+alpha = "1/3"
+beta = "2*alpha"
+[scan]
+alpha = [0.1, 10, "log"]
+[settings]
+range = ["0", "sqrt(6*alpha)"]
+start = "above"
+efolds = [50, 60]
+"#;
+        let spec = ModelSpec::from_toml(text, "m.toml").unwrap();
+        let m = Model::build(&spec, &Config::default()).unwrap();
+        assert_eq!(m.params, vec![1.0 / 3.0, 2.0 / 3.0]);
+        assert_eq!(m.range, Some((0.0, 2f64.sqrt())));
+        assert_eq!(spec.params[0].scan, Some((0.1, 10.0, true)));
+        assert_eq!(spec.start, Some(Side::Above));
+        assert_eq!(spec.efolds, Some(vec![50.0, 60.0]));
+    }
+
+    #[test]
+    fn errors_point_into_the_file() {
+        let e = err("potential = \"phi^2 * tanhh(phi)\"\n");
+        assert!(e.contains("--> m.toml:1:22"), "{e}");
+        assert!(e.contains("did you mean `tanh`?"), "{e}");
+        let e = err("potental = \"phi^2\"\n");
+        assert!(e.contains("unknown key `potental`") && e.contains("did you mean `potential`?"), "{e}");
+        let e = err("potential = \"phi^2*a\"\n[params]\nb = 1\n");
+        assert!(e.contains("unknown name `a`"), "{e}");
+        let e = err("potential = \"phi^2\n");
+        assert!(e.contains("malformed model file"), "{e}");
+    }
+}

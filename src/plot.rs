@@ -1,0 +1,307 @@
+//! A small SVG writer for line plots: panels side by side, each with axes, ticks, labels,
+//! series, vertical markers and point markers. Output is plain SVG 1.1, no scripts, so any
+//! browser or vector editor opens it.
+
+use std::fmt::Write as _;
+
+/// One line on a panel.
+#[derive(Debug, Clone)]
+pub struct Series {
+    /// Legend text.
+    pub name: String,
+    /// (x, y) points; non-finite points break the line.
+    pub points: Vec<(f64, f64)>,
+    /// A CSS colour.
+    pub color: String,
+    /// Dashed line.
+    pub dashed: bool,
+}
+
+/// A labelled vertical line.
+#[derive(Debug, Clone)]
+pub struct VLine {
+    /// Where.
+    pub x: f64,
+    /// Label at the top.
+    pub label: String,
+    /// A CSS colour.
+    pub color: String,
+}
+
+/// A labelled point.
+#[derive(Debug, Clone)]
+pub struct Marker {
+    /// Where.
+    pub x: f64,
+    /// Where.
+    pub y: f64,
+    /// Label beside it.
+    pub label: String,
+    /// A CSS colour.
+    pub color: String,
+}
+
+/// One set of axes.
+#[derive(Debug, Clone, Default)]
+pub struct Panel {
+    /// Title above the axes.
+    pub title: String,
+    /// x-axis label.
+    pub x_label: String,
+    /// y-axis label.
+    pub y_label: String,
+    /// Logarithmic y axis.
+    pub log_y: bool,
+    /// The lines.
+    pub series: Vec<Series>,
+    /// Vertical markers.
+    pub vlines: Vec<VLine>,
+    /// Point markers.
+    pub markers: Vec<Marker>,
+}
+
+const W: f64 = 460.0;
+const H: f64 = 340.0;
+const ML: f64 = 70.0;
+const MR: f64 = 20.0;
+const MT: f64 = 40.0;
+const MB: f64 = 50.0;
+
+/// "Nice" tick positions covering [lo, hi].
+pub fn ticks(lo: f64, hi: f64) -> Vec<f64> {
+    if !(lo.is_finite() && hi.is_finite()) || hi <= lo {
+        return vec![lo];
+    }
+    let raw = (hi - lo) / 5.0;
+    let mag = 10f64.powf(raw.log10().floor());
+    let step = [1.0, 2.0, 5.0, 10.0].iter().map(|m| m * mag).find(|s| *s >= raw).unwrap_or(10.0 * mag);
+    let start = (lo / step).ceil() as i64;
+    let end = (hi / step).floor() as i64;
+    (start..=end).map(|k| k as f64 * step).collect()
+}
+
+fn fmt_tick(v: f64) -> String {
+    if v == 0.0 {
+        return "0".to_string();
+    }
+    let a = v.abs();
+    if !(1e-3..1e4).contains(&a) {
+        let s = format!("{v:.1e}");
+        return s.replace(".0e", "e");
+    }
+    let s = format!("{v:.4}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    s.to_string()
+}
+
+fn esc(s: &str) -> String {
+    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;")
+}
+
+/// Renders panels side by side into one SVG document.
+pub fn render(title: &str, panels: &[Panel]) -> String {
+    let total_w = W * panels.len() as f64;
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{total_w}\" height=\"{}\" viewBox=\"0 0 {total_w} {}\" font-family=\"sans-serif\" font-size=\"12\">",
+        H + 24.0,
+        H + 24.0
+    );
+    let _ = writeln!(out, "<title>{}</title>", esc(title));
+    let _ = writeln!(out, "<rect width=\"100%\" height=\"100%\" fill=\"white\"/>");
+    let _ = writeln!(
+        out,
+        "<text x=\"{}\" y=\"16\" text-anchor=\"middle\" font-size=\"14\">{}</text>",
+        total_w / 2.0,
+        esc(title)
+    );
+    for (i, p) in panels.iter().enumerate() {
+        let _ = writeln!(out, "<g class=\"panel\" transform=\"translate({},24)\">", W * i as f64);
+        panel(&mut out, p);
+        let _ = writeln!(out, "</g>");
+    }
+    out.push_str("</svg>\n");
+    out
+}
+
+fn panel(out: &mut String, p: &Panel) {
+    let ty = |y: f64| if p.log_y { y.log10() } else { y };
+    let mut xs: Vec<f64> = Vec::new();
+    let mut ys: Vec<f64> = Vec::new();
+    for s in &p.series {
+        for &(x, y) in &s.points {
+            if x.is_finite() && ty(y).is_finite() {
+                xs.push(x);
+                ys.push(ty(y));
+            }
+        }
+    }
+    for m in &p.markers {
+        if m.x.is_finite() && ty(m.y).is_finite() {
+            xs.push(m.x);
+            ys.push(ty(m.y));
+        }
+    }
+    xs.extend(p.vlines.iter().map(|v| v.x).filter(|x| x.is_finite()));
+    let (mut x0, mut x1) = min_max(&xs);
+    let (mut y0, mut y1) = min_max(&ys);
+    if x1 <= x0 {
+        x0 -= 1.0;
+        x1 += 1.0;
+    }
+    if y1 <= y0 {
+        y0 -= 1.0;
+        y1 += 1.0;
+    }
+    let pad = 0.05 * (y1 - y0);
+    let (y0, y1) = (y0 - pad, y1 + pad);
+    let pw = W - ML - MR;
+    let ph = H - MT - MB;
+    let sx = |x: f64| ML + (x - x0) / (x1 - x0) * pw;
+    let sy = |y: f64| MT + (1.0 - (y - y0) / (y1 - y0)) * ph;
+    let _ = writeln!(
+        out,
+        "<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" font-size=\"13\">{}</text>",
+        ML + pw / 2.0,
+        MT - 14.0,
+        esc(&p.title)
+    );
+    let _ = writeln!(
+        out,
+        "<rect class=\"axes\" x=\"{ML}\" y=\"{MT}\" width=\"{pw}\" height=\"{ph}\" fill=\"none\" stroke=\"black\"/>"
+    );
+    for t in ticks(x0, x1) {
+        let x = sx(t);
+        let _ = writeln!(
+            out,
+            "<line x1=\"{x:.2}\" y1=\"{}\" x2=\"{x:.2}\" y2=\"{}\" stroke=\"black\"/><text class=\"xtick\" x=\"{x:.2}\" y=\"{}\" text-anchor=\"middle\">{}</text>",
+            MT + ph,
+            MT + ph + 5.0,
+            MT + ph + 18.0,
+            fmt_tick(t)
+        );
+    }
+    for t in ticks(y0, y1) {
+        let y = sy(t);
+        let label = if p.log_y { format!("1e{}", fmt_tick(t)) } else { fmt_tick(t) };
+        let _ = writeln!(
+            out,
+            "<line x1=\"{}\" y1=\"{y:.2}\" x2=\"{ML}\" y2=\"{y:.2}\" stroke=\"black\"/><text class=\"ytick\" x=\"{}\" y=\"{:.2}\" text-anchor=\"end\">{}</text>",
+            ML - 5.0,
+            ML - 8.0,
+            y + 4.0,
+            label
+        );
+    }
+    let _ = writeln!(
+        out,
+        "<text class=\"xlabel\" x=\"{}\" y=\"{}\" text-anchor=\"middle\">{}</text>",
+        ML + pw / 2.0,
+        H - 12.0,
+        esc(&p.x_label)
+    );
+    let _ = writeln!(
+        out,
+        "<text class=\"ylabel\" x=\"16\" y=\"{}\" text-anchor=\"middle\" transform=\"rotate(-90 16 {})\">{}</text>",
+        MT + ph / 2.0,
+        MT + ph / 2.0,
+        esc(&p.y_label)
+    );
+    let _ = writeln!(
+        out,
+        "<clipPath id=\"clip{}\"><rect x=\"{ML}\" y=\"{MT}\" width=\"{pw}\" height=\"{ph}\"/></clipPath>",
+        p.title.len()
+    );
+    for s in &p.series {
+        let mut d = String::new();
+        let mut pen_up = true;
+        for &(x, y) in &s.points {
+            let y = ty(y);
+            if !(x.is_finite() && y.is_finite()) {
+                pen_up = true;
+                continue;
+            }
+            let _ = write!(d, "{}{:.2},{:.2} ", if pen_up { "M" } else { "L" }, sx(x), sy(y));
+            pen_up = false;
+        }
+        let dash = if s.dashed { " stroke-dasharray=\"6,4\"" } else { "" };
+        let _ = writeln!(
+            out,
+            "<path class=\"series\" data-name=\"{}\" d=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"1.6\"{dash} clip-path=\"url(#clip{})\"/>",
+            esc(&s.name),
+            d.trim_end(),
+            s.color,
+            p.title.len()
+        );
+    }
+    for v in &p.vlines {
+        if !(v.x >= x0 && v.x <= x1) {
+            continue;
+        }
+        let x = sx(v.x);
+        let _ = writeln!(
+            out,
+            "<line class=\"vline\" x1=\"{x:.2}\" y1=\"{MT}\" x2=\"{x:.2}\" y2=\"{}\" stroke=\"{}\" stroke-dasharray=\"3,3\"/><text x=\"{:.2}\" y=\"{}\" font-size=\"10\" fill=\"{}\">{}</text>",
+            MT + ph,
+            v.color,
+            x + 3.0,
+            MT + 12.0,
+            v.color,
+            esc(&v.label)
+        );
+    }
+    for m in &p.markers {
+        let y = ty(m.y);
+        if !(m.x.is_finite() && y.is_finite()) {
+            continue;
+        }
+        let _ = writeln!(
+            out,
+            "<circle class=\"marker\" cx=\"{:.2}\" cy=\"{:.2}\" r=\"3.5\" fill=\"{}\"/><text x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
+            sx(m.x),
+            sy(y),
+            m.color,
+            sx(m.x) + 5.0,
+            sy(y) - 5.0,
+            m.color,
+            esc(&m.label)
+        );
+    }
+    // legend
+    for (i, s) in p.series.iter().enumerate() {
+        let y = MT + 14.0 + 14.0 * i as f64;
+        let _ = writeln!(
+            out,
+            "<line x1=\"{}\" y1=\"{y}\" x2=\"{}\" y2=\"{y}\" stroke=\"{}\" stroke-width=\"2\"/><text class=\"legend\" x=\"{}\" y=\"{}\">{}</text>",
+            ML + pw - 120.0,
+            ML + pw - 100.0,
+            s.color,
+            ML + pw - 95.0,
+            y + 4.0,
+            esc(&s.name)
+        );
+    }
+}
+
+fn min_max(v: &[f64]) -> (f64, f64) {
+    let lo = v.iter().copied().fold(f64::INFINITY, f64::min);
+    let hi = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if lo.is_finite() {
+        (lo, hi)
+    } else {
+        (0.0, 1.0)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn nice_ticks() {
+        assert_eq!(ticks(0.0, 1.0), vec![0.0, 0.2, 0.4, 0.6000000000000001, 0.8, 1.0]);
+        assert_eq!(ticks(-3.0, 7.0), vec![-2.0, 0.0, 2.0, 4.0, 6.0]);
+        assert_eq!(fmt_tick(0.00012), "1.2e-4");
+    }
+}
