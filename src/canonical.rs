@@ -65,6 +65,8 @@ pub enum EndKind {
     VSingular,
     /// V grows beyond double precision past this point: in effect an unbounded end.
     VOverflow,
+    /// V is not a real number beyond this point (log or sqrt of a negative number, ...).
+    VNotReal,
     /// The end of the range the user gave.
     Range,
 }
@@ -79,6 +81,7 @@ impl EndKind {
             EndKind::KSignChange => "K changes sign (ghost beyond)",
             EndKind::VSingular => "pole of V",
             EndKind::VOverflow => "V exceeds double precision beyond (effectively unbounded)",
+            EndKind::VNotReal => "V is not real beyond (log or sqrt of a negative number?)",
             EndKind::Range => "end of the given range",
         }
     }
@@ -157,7 +160,10 @@ impl std::error::Error for AnalysisError {}
 
 impl From<NumericError> for AnalysisError {
     fn from(e: NumericError) -> Self {
-        AnalysisError::new(format!("numerical failure: {e}"), "tighten the range with --range, or report the model")
+        AnalysisError::new(
+            format!("numerical failure: {e}"),
+            "tighten the range with --range, or report the model",
+        )
     }
 }
 
@@ -168,6 +174,7 @@ enum Status {
     KNonPositive,
     KNotFinite,
     VNotFinite,
+    VNotReal,
 }
 
 fn status(ev: &mut Evaluator<'_>, x: f64) -> Status {
@@ -177,6 +184,8 @@ fn status(ev: &mut Evaluator<'_>, x: f64) -> Status {
         Status::KNotFinite
     } else if k <= 0.0 {
         Status::KNonPositive
+    } else if v.is_nan() {
+        Status::VNotReal
     } else if !v.is_finite() {
         Status::VNotFinite
     } else {
@@ -211,9 +220,13 @@ fn survey_grid() -> Vec<f64> {
 
 /// Bisects between a point with status `good` and one without, to rounding.
 fn bisect_status(ev: &mut Evaluator<'_>, mut good: f64, mut bad: f64) -> f64 {
+    let floor = 1e-17 * (good - bad).abs();
     for _ in 0..200 {
         let m = 0.5 * (good + bad);
-        if m == good || m == bad {
+        if m == good || m == bad || (good - bad).abs() <= floor {
+            if good * bad <= 0.0 {
+                return 0.0;
+            }
             break;
         }
         if status(ev, m) == Status::Good {
@@ -232,9 +245,10 @@ fn bisect_sign(mut g: impl FnMut(f64) -> f64, mut a: f64, mut b: f64) -> Option<
     if !(ga.is_finite() && gb.is_finite()) || ga.signum() == gb.signum() {
         return None;
     }
+    let floor = 1e-17 * (b - a).abs();
     for _ in 0..200 {
         let m = 0.5 * (a + b);
-        if m == a || m == b {
+        if m == a || m == b || (b - a).abs() <= floor {
             break;
         }
         let gm = g(m);
@@ -248,7 +262,8 @@ fn bisect_sign(mut g: impl FnMut(f64) -> f64, mut a: f64, mut b: f64) -> Option<
             b = m;
         }
     }
-    Some(0.5 * (a + b))
+    // A bracket shrunk onto zero from both sides: the point is 0 itself.
+    Some(if a * b <= 0.0 { 0.0 } else { 0.5 * (a + b) })
 }
 
 /// Finds the domain. With a user range, checks it; otherwise surveys the real line.
@@ -371,7 +386,14 @@ fn refine_end(ev: &mut Evaluator<'_>, xb: f64, inward: f64, kind: EndKind) -> (f
     let xp = x1 + p * h1;
     if !(p.is_finite() && xp.is_finite()) || p <= 0.0 || p > 64.0 || (xp - xb).abs() > w {
         // Faster than any power: overflow of V (or of K) rather than a pole.
-        return (xb, if kind == EndKind::VSingular { EndKind::VOverflow } else { kind });
+        return (
+            xb,
+            if kind == EndKind::VSingular {
+                EndKind::VOverflow
+            } else {
+                kind
+            },
+        );
     }
     // Keep the bisected point when it is already the better location (a pole that the
     // bisection resolved to rounding), else the extrapolated one; snap to 0 at rounding size.
@@ -380,16 +402,19 @@ fn refine_end(ev: &mut Evaluator<'_>, xb: f64, inward: f64, kind: EndKind) -> (f
         ev.eval(xb);
         ev.output(out).abs()
     };
-    if at_xb < 1e200 {
-        (xb, kind)
-    } else {
+    // Only an overflow (finite but huge at the bisected point) moves the end; a point where
+    // the function is exactly infinite is the singularity itself.
+    if at_xb.is_finite() && at_xb >= 1e200 && (xp - xb) * inward <= 0.0 {
         (xp, kind)
+    } else {
+        (xb, kind)
     }
 }
 
 fn end_kind_beyond(ev: &mut Evaluator<'_>, x: f64, beyond: f64, st: Status) -> EndKind {
     match st {
         Status::VNotFinite => EndKind::VSingular,
+        Status::VNotReal => EndKind::VNotReal,
         Status::KNotFinite => EndKind::Pole,
         Status::KNonPositive => {
             // K -> 0 continuously (a zero), or K -> +inf then negative (an odd pole)?
@@ -457,8 +482,25 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
             (false, false) => (u - 0.5) / (u * (1.0 - u)),
         }
     };
-    for i in 1..400 {
-        let x = map(i as f64 / 400.0);
+    let probes: Vec<f64> = (1..400).map(|i| map(i as f64 / 400.0)).collect();
+    for w in probes.windows(3) {
+        if let Some((x, kind)) = hidden_singularity(ev, w[0], w[1], w[2]) {
+            let what = if kind == EndKind::Pole {
+                "K has a pole"
+            } else {
+                "K vanishes"
+            };
+            return Err(AnalysisError {
+                message: format!("{what} at {field} = {} inside the range", crate::ir::format_number(x)),
+                hints: vec![
+                    "the kinetic term must be positive and finite inside the range".to_string(),
+                    "end the range at this point with --range, or leave it out to let efold find the domain"
+                        .to_string(),
+                ],
+            });
+        }
+    }
+    for &x in &probes {
         match status(ev, x) {
             Status::Good => {}
             s => {
@@ -468,6 +510,7 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
                     Status::KNonPositive if k == 0.0 => format!("K = 0 at {field} = {x} inside the range"),
                     Status::KNonPositive => format!("K = {k} <= 0 at {field} = {x} inside the range"),
                     Status::KNotFinite => format!("K is {k} at {field} = {x} inside the range (a pole?)"),
+                    Status::VNotReal => format!("V is not real (NaN) at {field} = {x} inside the range"),
                     _ => format!("V is {} at {field} = {x} inside the range", ev.eval(x)),
                 };
                 return Err(AnalysisError {
@@ -484,10 +527,7 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         if !end.is_finite() {
             return EndKind::Infinite;
         }
-        match status(ev, end) {
-            Status::Good => EndKind::Range,
-            s => end_kind_beyond(ev, end, end - inward, s),
-        }
+        probe_end(ev, end, inward, hi - lo)
     };
     let interval = Interval {
         lo,
@@ -503,6 +543,29 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         negative_v,
         notes: Vec::new(),
     })
+}
+
+/// What a finite end of a given range is, from the local powers of K and V approaching it:
+/// K ~ d^(-p) with p > 0.9 is a pole, K ~ d^p a zero; V ~ d^(-p) a pole of V.
+fn probe_end(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -> EndKind {
+    let w = width.min(end.abs().max(1.0));
+    let (d1, d2) = (1e-7 * w, 1e-5 * w);
+    let mut at = |d: f64| {
+        let v = ev.eval(end + inward * d);
+        (v.abs(), ev.output(OUT_K))
+    };
+    let ((v1, k1), (v2, k2)) = (at(d1), at(d2));
+    let power = |f1: f64, f2: f64| (f1 / f2).ln() / (d2 / d1).ln();
+    let pk = power(k1, k2);
+    if pk > 0.9 {
+        EndKind::Pole
+    } else if pk < -0.9 {
+        EndKind::ZeroOfK
+    } else if power(v1, v2) > 0.9 {
+        EndKind::VSingular
+    } else {
+        EndKind::Range
+    }
 }
 
 /// Stretches of the interval where V < 0, located to rounding.
@@ -568,13 +631,44 @@ pub fn minimum_of_v(ev: &mut Evaluator<'_>, iv: &Interval) -> Option<f64> {
     let vals: Vec<f64> = pts.iter().map(|&x| ev.eval(x)).collect();
     let (i, _) = vals.iter().enumerate().min_by(|a, b| a.1.total_cmp(b.1))?;
     if i == 0 || i == pts.len() - 1 {
-        return None;
+        // Lowest at a finite end where V is finite: the minimum sits on the boundary (a range
+        // chosen to end at the minimum). Toward an infinite end: a runaway, no minimum.
+        let end = if i == 0 { iv.lo } else { iv.hi };
+        let v_end = ev.eval(end);
+        return (end.is_finite() && v_end.is_finite() && v_end <= vals[i]).then_some(end);
     }
     let dv = |ev: &mut Evaluator<'_>, x: f64| {
-        ev.eval_jet(x, 1);
-        ev.jet_output(OUT_V)[1]
+        ev.eval_jet(x, 2);
+        let j = ev.jet_output(OUT_V);
+        // A V that has underflowed to zero (flat to second order) has no slope to speak of.
+        if j[0].abs() < 1e-280 && j[1] == 0.0 && j[2] == 0.0 {
+            f64::NAN
+        } else {
+            j[1]
+        }
     };
-    Some(bisect_sign(|x| dv(ev, x), pts[i - 1], pts[i + 1]).unwrap_or(pts[i]))
+    // Candidates: where V' changes sign next to the lowest sample, a finite end next to it,
+    // and the sample itself; the lowest V wins, earlier candidates on ties.
+    let mut cands: Vec<f64> = Vec::new();
+    if let Some(x) = bisect_sign(|x| dv(ev, x), pts[i - 1], pts[i]) {
+        cands.push(x);
+    }
+    if let Some(x) = bisect_sign(|x| dv(ev, x), pts[i], pts[i + 1]) {
+        cands.push(x);
+    }
+    cands.extend([iv.lo, iv.hi].into_iter().filter(|e| e.is_finite()));
+    // No sign change of V' and no finite end: V only levels off numerically (an underflowing
+    // runaway), which is not a minimum.
+    let mut best = None;
+    let mut best_v = f64::INFINITY;
+    for x in cands {
+        let v = ev.eval(x);
+        if v.is_finite() && v < best_v {
+            best = Some(x);
+            best_v = v;
+        }
+    }
+    best
 }
 
 /// The canonical map: chi(phi) = integral of sqrt(K) from a reference point.
@@ -652,6 +746,14 @@ impl<'m> CanonicalMap<'m> {
             if (dir > 0.0 && b >= limit) || (dir < 0.0 && b <= limit) {
                 b = if limit.is_finite() { a + 0.5 * (limit - a) } else { b };
             }
+            if step > 1e12 || (b - a).abs() < 1e-15 * b.abs().max(1.0) {
+                return Err(NumericError::NoConvergence {
+                    what: "bracketing phi(chi): chi does not reach the target inside the interval",
+                    estimate: b,
+                    error: f64::INFINITY,
+                    iterations: 0,
+                });
+            }
             chi_b = chi_a + self.between(a, b)?.value;
             if (chi_b - target) * dir >= 0.0 {
                 break;
@@ -659,14 +761,6 @@ impl<'m> CanonicalMap<'m> {
             a = b;
             chi_a = chi_b;
             step *= 2.0;
-            if step > 1e12 || (b - a).abs() < 1e-15 * b.abs().max(1.0) {
-                return Err(NumericError::NoConvergence {
-                    what: "bracketing phi(chi)",
-                    estimate: b,
-                    error: f64::INFINITY,
-                    iterations: 0,
-                });
-            }
         }
         let (base, chi_base) = (a, chi_a);
         let tol = self.tol;
@@ -685,7 +779,14 @@ impl<'m> CanonicalMap<'m> {
             ev.eval(x);
             (chi_base + c - target, ev.output(OUT_SQRT_K))
         };
-        safeguarded_newton(&mut chi_at, a.min(b), a.max(b), 0.5 * (a + b), 1e-14 * b.abs().max(1.0), 100)
+        safeguarded_newton(
+            &mut chi_at,
+            a.min(b),
+            a.max(b),
+            0.5 * (a + b),
+            1e-14 * b.abs().max(1.0),
+            100,
+        )
     }
 }
 
@@ -905,6 +1006,27 @@ pub fn asymptote(
 ) -> Asymptote {
     let end = if upper { iv.hi } else { iv.lo };
     let tau = if upper { 1.0 } else { -1.0 };
+    let kind = if upper { iv.hi_kind } else { iv.lo_kind };
+    if end.is_finite() && matches!(kind, EndKind::Range | EndKind::ZeroOfK | EndKind::KSignChange) {
+        // Field space is cut off here at a finite canonical distance.
+        let mut map = CanonicalMap::new(model, phi_ref, config);
+        let (dist, u) = match map.to_end(end) {
+            Ok(e) => (e.value.abs(), e.error / e.value.abs().max(1e-300)),
+            Err(_) => (f64::NAN, f64::INFINITY),
+        };
+        return Asymptote {
+            end,
+            kind: AsymptoteKind::FiniteDistance,
+            height: Some(ev.eval(end)).filter(|v| v.is_finite()),
+            scale: None,
+            alpha: None,
+            power: None,
+            rate: None,
+            chi_distance: Some(dist),
+            uncertainty: u,
+            confidence: confidence(u),
+        };
+    }
     let pts: Vec<f64> = if end.is_finite() {
         let w = (iv.hi - iv.lo).min(end.abs().max(1.0));
         (4..=36).map(|j| end - tau * w * 10f64.powf(-j as f64 / 4.0)).collect()
@@ -920,7 +1042,9 @@ pub fn asymptote(
             continue;
         }
         let d = chi_derivatives(ev, x, 3);
-        if d.iter().take(4).any(|v| !v.is_finite()) {
+        // Stop where V or its derivatives leave the range of doubles (overflow, or underflow
+        // of a decaying V, which would read as a flat zero).
+        if d.iter().take(4).any(|v| !v.is_finite()) || d[0].abs() < 1e-280 || d[1] == 0.0 {
             break;
         }
         let dchi = match prev {
@@ -936,7 +1060,7 @@ pub fn asymptote(
             dchi,
         });
     }
-    classify(end, &samples)
+    classify(end, &samples, kind == EndKind::VOverflow)
 }
 
 fn best_stable(est: &[f64]) -> Option<(usize, f64)> {
@@ -955,7 +1079,7 @@ fn best_stable(est: &[f64]) -> Option<(usize, f64)> {
     best
 }
 
-fn classify(end: f64, s: &[Sample]) -> Asymptote {
+fn classify(end: f64, s: &[Sample], unbounded: bool) -> Asymptote {
     let mut out = Asymptote {
         end,
         kind: AsymptoteKind::Unclassified,
@@ -983,7 +1107,10 @@ fn classify(end: f64, s: &[Sample]) -> Asymptote {
         return out;
     }
     // Oscillation: the slope changes sign at least twice.
-    let flips = s.windows(2).filter(|w| w[0].vt.signum() != w[1].vt.signum() && w[1].vt != 0.0).count();
+    let flips = s
+        .windows(2)
+        .filter(|w| w[0].vt.signum() != w[1].vt.signum() && w[1].vt != 0.0)
+        .count();
     if flips >= 2 {
         set(&mut out, AsymptoteKind::Oscillating, 0.0);
         return out;
@@ -994,7 +1121,7 @@ fn classify(end: f64, s: &[Sample]) -> Asymptote {
     let total: f64 = incr.iter().sum();
     let tail = incr[n - 3..].iter().sum::<f64>();
     let shrinking = incr[n - 3..].windows(2).all(|w| w[1] < 0.8 * w[0]);
-    if total.is_finite() && shrinking && tail < 1e-3 * total {
+    if !unbounded && total.is_finite() && shrinking && tail < 1e-3 * total {
         // Add the geometric tail beyond the last sample.
         let q = incr[n - 1] / incr[n - 2];
         let total = total + incr[n - 1] * q / (1.0 - q);
@@ -1018,7 +1145,11 @@ fn classify(end: f64, s: &[Sample]) -> Asymptote {
             } else {
                 m
             };
-            let m0 = if ((m0 - m) / m).abs() < 10.0 * rel.max(1e-9) { m0 } else { m };
+            let m0 = if ((m0 - m) / m).abs() < 10.0 * rel.max(1e-9) {
+                m0
+            } else {
+                m
+            };
             out.height = Some(s[j].v + m0 * s[j].vt);
             out.scale = Some(m0);
             out.alpha = Some(2.0 * m0 * m0 / 3.0);
@@ -1060,11 +1191,7 @@ fn classify(end: f64, s: &[Sample]) -> Asymptote {
         }
     }
     // Power-law growth or decay: n = ell^2 / (ell^2 - V_tt/V) stable.
-    let n_est: Vec<f64> = s
-        .iter()
-        .zip(&ell)
-        .map(|(x, l)| l * l / (l * l - x.vtt / x.v))
-        .collect();
+    let n_est: Vec<f64> = s.iter().zip(&ell).map(|(x, l)| l * l / (l * l - x.vtt / x.v)).collect();
     if let Some((j, rel)) = best_stable(&n_est) {
         if rel < 1e-3 {
             out.power = Some(n_est[j]);

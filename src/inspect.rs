@@ -116,6 +116,10 @@ pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<I
                     format_number(end)
                 ));
             }
+            EndKind::VNotReal => warnings.push(format!(
+                "V is not a real number beyond {field} = {}: the domain stops there",
+                format_number(end)
+            )),
             EndKind::KSignChange => warnings.push(format!(
                 "K changes sign at {field} = {}: beyond it the field is a ghost",
                 format_number(end)
@@ -243,7 +247,11 @@ pub fn text(ins: &Inspection) -> String {
     let mut o = String::new();
     let m = &ins.model;
     let f = &m.field;
-    let _ = writeln!(o, "model       {}", if m.name.is_empty() { "(unnamed)" } else { &m.name });
+    let _ = writeln!(
+        o,
+        "model       {}",
+        if m.name.is_empty() { "(unnamed)" } else { &m.name }
+    );
     if !m.description.is_empty() {
         let _ = writeln!(o, "            {}", m.description);
     }
@@ -265,7 +273,11 @@ pub fn text(ins: &Inspection) -> String {
             let _ = writeln!(o, "minimum     none inside the domain (V falls toward an end)");
         }
     }
-    let _ = writeln!(o, "chi = 0 at  {f} = {}   (chi = integral of sqrt(K) d{f})", fmt(ins.chi_origin));
+    let _ = writeln!(
+        o,
+        "chi = 0 at  {f} = {}   (chi = integral of sqrt(K) d{f})",
+        fmt(ins.chi_origin)
+    );
     let _ = writeln!(o, "\npoles of K");
     if ins.poles.is_empty() {
         let _ = writeln!(o, "  none at the ends of the domain");
@@ -300,7 +312,10 @@ pub fn text(ins: &Inspection) -> String {
                 );
             }
             None => {
-                let _ = writeln!(o, "    no leading-order prediction: needs order > 1 and V > 0 falling away from the pole");
+                let _ = writeln!(
+                    o,
+                    "    no leading-order prediction: needs order > 1 and V > 0 falling away from the pole"
+                );
             }
         }
     }
@@ -452,8 +467,14 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
 /// Writes a file atomically: a temporary file beside it, then a rename, so a failure never
 /// leaves a half-written file.
 pub fn write_atomic(path: &std::path::Path, contents: &str) -> std::io::Result<()> {
-    let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(std::path::Path::new("."));
-    let name = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_else(|| "out".into());
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(std::path::Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "out".into());
     let tmp = dir.join(format!(".{name}.tmp{}", std::process::id()));
     std::fs::write(&tmp, contents)?;
     std::fs::rename(&tmp, path).inspect_err(|_| {

@@ -283,7 +283,9 @@ impl NameError {
                 d.with_hint(format!(
                     "in scope: the field `{field}`, the constant `pi`, and parameters: {list}"
                 ))
-                .with_hint(format!("declare a parameter with `--param {name}=VALUE`"))
+                .with_hint(format!(
+                    "declare it with `--param {name}=VALUE`, or `{name} = VALUE` under [params] in a model file"
+                ))
             }
             Arity { name, expected, found } => {
                 let s = |n: usize| if n == 1 { "" } else { "s" };

@@ -124,7 +124,7 @@ pub struct ModelSpec {
 #[derive(Debug, Clone, PartialEq)]
 pub struct ModelError {
     /// The error in words.
-    pub diagnostic: Diagnostic,
+    pub diagnostic: Box<Diagnostic>,
     /// The text its span points into: (name, text, offset).
     pub source: Option<(String, String, usize)>,
 }
@@ -132,14 +132,14 @@ pub struct ModelError {
 impl ModelError {
     fn plain(d: Diagnostic) -> ModelError {
         ModelError {
-            diagnostic: d,
+            diagnostic: Box::new(d),
             source: None,
         }
     }
 
     fn in_file(d: Diagnostic, name: &str, text: &str) -> ModelError {
         ModelError {
-            diagnostic: d,
+            diagnostic: Box::new(d),
             source: Some((name.to_string(), text.to_string(), 0)),
         }
     }
@@ -149,11 +149,11 @@ impl ModelError {
         let d = e.diagnostic();
         match &origin.file_text {
             Some(file) => ModelError {
-                diagnostic: d,
+                diagnostic: Box::new(d),
                 source: Some((origin.name.clone(), file.clone(), origin.offset)),
             },
             None => ModelError {
-                diagnostic: d,
+                diagnostic: Box::new(d),
                 source: Some((e.origin.clone(), e.text.clone(), 0)),
             },
         }
@@ -268,7 +268,10 @@ impl ModelSpec {
         })?;
         let mut spec = ModelSpec::from_toml(&text, &name)?;
         if spec.name.is_empty() {
-            spec.name = path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
+            spec.name = path
+                .file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_default();
         }
         Ok(spec)
     }
@@ -349,7 +352,10 @@ impl ModelSpec {
                 other => {
                     return Err(ModelError::in_file(
                         Diagnostic::new(format!("unknown start side `{other}`"))
-                            .with_span(Span::new(s.span().start, s.span().end), "expected \"above\" or \"below\"")
+                            .with_span(
+                                Span::new(s.span().start, s.span().end),
+                                "expected \"above\" or \"below\"",
+                            )
                             .with_hint("\"above\": the field starts at larger values than the minimum of V"),
                         file,
                         text,
@@ -469,7 +475,11 @@ fn check_keys(table: &toml::Table, text: &str, file: &str) -> Result<(), ModelEr
         if let Some(s) = closest(key, known.iter().copied()) {
             d = d.with_hint(format!("did you mean `{s}`?"));
         }
-        ModelError::in_file(d.with_hint(format!("the keys here are: {}", known.join(", "))), file, text)
+        ModelError::in_file(
+            d.with_hint(format!("the keys here are: {}", known.join(", "))),
+            file,
+            text,
+        )
     };
     for key in table.keys() {
         if !TOP_KEYS.contains(&key.as_str()) {
@@ -545,20 +555,38 @@ impl Model {
             }
             if names.contains(&p.name) {
                 return Err(ModelError::plain(
-                    Diagnostic::new(format!("parameter `{}` is given twice", p.name)).with_hint("give each parameter once"),
+                    Diagnostic::new(format!("parameter `{}` is given twice", p.name))
+                        .with_hint("give each parameter once"),
                 ));
             }
-            let v = constant(&p.value, &spec.field, &names, &values, config, &format!("parameter `{}`", p.name))?;
+            let v = constant(
+                &p.value,
+                &spec.field,
+                &names,
+                &values,
+                config,
+                &format!("parameter `{}`", p.name),
+            )?;
             names.push(p.name.clone());
             values.push(v);
         }
         let refs: Vec<&str> = names.iter().map(String::as_str).collect();
         let scope = Scope::new(&spec.field, &refs);
         let mut graph = Graph::new(scope.clone());
-        let (v_ast, v) = lower_into(&mut graph, &spec.potential.origin.name, &spec.potential.text, &config.limits)
-            .map_err(|e| ModelError::from_expr(e, &spec.potential.origin))?;
-        let (k_ast, k) = lower_into(&mut graph, &spec.kinetic.origin.name, &spec.kinetic.text, &config.limits)
-            .map_err(|e| ModelError::from_expr(e, &spec.kinetic.origin))?;
+        let (v_ast, v) = lower_into(
+            &mut graph,
+            &spec.potential.origin.name,
+            &spec.potential.text,
+            &config.limits,
+        )
+        .map_err(|e| ModelError::from_expr(e, &spec.potential.origin))?;
+        let (k_ast, k) = lower_into(
+            &mut graph,
+            &spec.kinetic.origin.name,
+            &spec.kinetic.text,
+            &config.limits,
+        )
+        .map_err(|e| ModelError::from_expr(e, &spec.kinetic.origin))?;
         let sqrt_k = graph.func(Func::Sqrt, k);
         let roots = vec![v, k, sqrt_k];
         let tape = Tape::compile(&graph, &roots);
@@ -603,7 +631,11 @@ impl Model {
 
     /// Parameter names and values.
     pub fn param_pairs(&self) -> impl Iterator<Item = (&str, f64)> {
-        self.scope.params.iter().map(String::as_str).zip(self.params.iter().copied())
+        self.scope
+            .params
+            .iter()
+            .map(String::as_str)
+            .zip(self.params.iter().copied())
     }
 
     /// V printed in normalised form.
@@ -628,7 +660,8 @@ fn constant(
 ) -> Result<f64, ModelError> {
     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
     let mut g = Graph::new(Scope::new(field, &refs));
-    let (_, id) = lower_into(&mut g, &t.origin.name, &t.text, &config.limits).map_err(|e| ModelError::from_expr(e, &t.origin))?;
+    let (_, id) =
+        lower_into(&mut g, &t.origin.name, &t.text, &config.limits).map_err(|e| ModelError::from_expr(e, &t.origin))?;
     if g.is_varying(id) {
         return Err(ModelError::plain(
             Diagnostic::new(format!("{what}: `{}` depends on the field `{field}`", t.text.trim()))
@@ -696,7 +729,10 @@ efolds = [50, 60]
         assert!(e.contains("--> m.toml:1:22"), "{e}");
         assert!(e.contains("did you mean `tanh`?"), "{e}");
         let e = err("potental = \"phi^2\"\n");
-        assert!(e.contains("unknown key `potental`") && e.contains("did you mean `potential`?"), "{e}");
+        assert!(
+            e.contains("unknown key `potental`") && e.contains("did you mean `potential`?"),
+            "{e}"
+        );
         let e = err("potential = \"phi^2*a\"\n[params]\nb = 1\n");
         assert!(e.contains("unknown name `a`"), "{e}");
         let e = err("potential = \"phi^2\n");

@@ -74,7 +74,11 @@ pub fn ticks(lo: f64, hi: f64) -> Vec<f64> {
     }
     let raw = (hi - lo) / 5.0;
     let mag = 10f64.powf(raw.log10().floor());
-    let step = [1.0, 2.0, 5.0, 10.0].iter().map(|m| m * mag).find(|s| *s >= raw).unwrap_or(10.0 * mag);
+    let step = [1.0, 2.0, 5.0, 10.0]
+        .iter()
+        .map(|m| m * mag)
+        .find(|s| *s >= raw)
+        .unwrap_or(10.0 * mag);
     let start = (lo / step).ceil() as i64;
     let end = (hi / step).floor() as i64;
     (start..=end).map(|k| k as f64 * step).collect()
@@ -184,7 +188,11 @@ fn panel(out: &mut String, p: &Panel) {
     }
     for t in ticks(y0, y1) {
         let y = sy(t);
-        let label = if p.log_y { format!("1e{}", fmt_tick(t)) } else { fmt_tick(t) };
+        let label = if p.log_y {
+            format!("1e{}", fmt_tick(t))
+        } else {
+            fmt_tick(t)
+        };
         let _ = writeln!(
             out,
             "<line x1=\"{}\" y1=\"{y:.2}\" x2=\"{ML}\" y2=\"{y:.2}\" stroke=\"black\"/><text class=\"ytick\" x=\"{}\" y=\"{:.2}\" text-anchor=\"end\">{}</text>",

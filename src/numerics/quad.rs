@@ -285,8 +285,13 @@ mod tests {
         let e = tanh_sinh(|x, _| 1.0 / x.sqrt(), 0.0, 1.0, &tol).unwrap();
         assert!((e.value - 2.0).abs() < 1e-12, "{e:?}");
         // integral of 1/sqrt(1 - x^2) on [-1, 1] = pi, using the accurate distance.
-        let e = tanh_sinh(|x, d| 1.0 / (d * (2.0 - d)).sqrt() * if x.abs() <= 1.0 { 1.0 } else { f64::NAN }, -1.0, 1.0, &tol)
-            .unwrap();
+        let e = tanh_sinh(
+            |x, d| 1.0 / (d * (2.0 - d)).sqrt() * if x.abs() <= 1.0 { 1.0 } else { f64::NAN },
+            -1.0,
+            1.0,
+            &tol,
+        )
+        .unwrap();
         assert!((e.value - std::f64::consts::PI).abs() < 1e-12, "{e:?}");
     }
 

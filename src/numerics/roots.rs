@@ -14,7 +14,13 @@ use super::{Estimate, NumericError};
 /// ch. 4): a root of `f` in `[a, b]`, where `f(a)` and `f(b)` differ in sign. Stops when the
 /// bracket is narrower than `xtol` (absolute, plus 2 ulps of the root); the returned error is
 /// the final bracket's half-width.
-pub fn brent(mut f: impl FnMut(f64) -> f64, a: f64, b: f64, xtol: f64, max_iter: usize) -> Result<Estimate, NumericError> {
+pub fn brent(
+    mut f: impl FnMut(f64) -> f64,
+    a: f64,
+    b: f64,
+    xtol: f64,
+    max_iter: usize,
+) -> Result<Estimate, NumericError> {
     let check = |x: f64, v: f64| {
         if v.is_finite() {
             Ok(v)
@@ -175,8 +181,14 @@ mod tests {
         let r = brent(|x| x.cos() - x, 0.0, 1.0, 1e-15, 100).unwrap();
         // the Dottie number, cos x = x (a classical constant, from memory: 0.7390851332151607)
         assert!((r.value - 0.739_085_133_215_160_7).abs() < 2e-16);
-        assert!(matches!(brent(|x| x * x + 1.0, -1.0, 1.0, 1e-12, 100), Err(NumericError::NoBracket { .. })));
-        assert!(matches!(brent(|x| 1.0 / x, -1.0, 1.0, 1e-12, 100), Err(NumericError::NotFinite { .. }) | Ok(_)));
+        assert!(matches!(
+            brent(|x| x * x + 1.0, -1.0, 1.0, 1e-12, 100),
+            Err(NumericError::NoBracket { .. })
+        ));
+        assert!(matches!(
+            brent(|x| 1.0 / x, -1.0, 1.0, 1e-12, 100),
+            Err(NumericError::NotFinite { .. }) | Ok(_)
+        ));
     }
 
     #[test]

@@ -1,0 +1,163 @@
+//! `efold inspect` run as a user would: reports for every shipped model, JSON keys, the
+//! figure, and each kind of bad model input.
+
+use std::path::Path;
+use std::process::Command;
+
+struct Run {
+    code: i32,
+    stdout: String,
+    stderr: String,
+}
+
+fn efold(args: &[&str]) -> Run {
+    let out = Command::new(env!("CARGO_BIN_EXE_efold")).args(args).output().unwrap();
+    Run {
+        code: out.status.code().unwrap_or(-1),
+        stdout: String::from_utf8(out.stdout).unwrap(),
+        stderr: String::from_utf8(out.stderr).unwrap(),
+    }
+}
+
+fn shipped_models() -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(Path::new(env!("CARGO_MANIFEST_DIR")).join("models"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
+        .map(|p| p.display().to_string())
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn report_for_every_shipped_model() {
+    let models = shipped_models();
+    assert!(models.len() >= 8, "{models:?}");
+    for path in models {
+        let r = efold(&["inspect", &path]);
+        assert_eq!(r.code, 0, "{path}: {}", r.stderr);
+        let name = Path::new(&path).file_stem().unwrap().to_string_lossy().into_owned();
+        insta::assert_snapshot!(format!("inspect_{name}"), r.stdout);
+    }
+}
+
+#[test]
+fn json_has_the_documented_keys() {
+    let m = format!("{}/models/pole-order-2-quadratic.toml", env!("CARGO_MANIFEST_DIR"));
+    let r = efold(&["inspect", &m, "--format", "json", "--table", "5"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    let poles = v["poles"].as_array().unwrap();
+    assert_eq!(poles.len(), 2);
+    for p in poles {
+        assert!(p["phi"].is_number() && p["order"].is_number() && p["residue"].is_number());
+    }
+    let asym = v["asymptotics"].as_array().unwrap();
+    assert_eq!(asym.len(), 2);
+    for a in asym {
+        assert_eq!(a["kind"], "exponential-plateau");
+        assert!(a["end"].is_number());
+        for key in ["height", "scale", "alpha"] {
+            assert!(a[key].is_number(), "{key}");
+        }
+    }
+    assert_eq!(v["table"].as_array().unwrap().len(), 5);
+    // Infinite ends are the strings "inf" / "-inf".
+    let r = efold(&["inspect", "--potential", "phi^2", "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    assert_eq!(v["asymptotics"][1]["end"], "inf");
+    assert_eq!(v["asymptotics"][0]["end"], "-inf");
+}
+
+#[test]
+fn figure_has_both_panels_and_markers() {
+    let dir = std::env::temp_dir().join(format!("efold-fig-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let svg = dir.join("pole.svg");
+    let m = format!("{}/models/pole-order-2-quadratic.toml", env!("CARGO_MANIFEST_DIR"));
+    let r = efold(&["inspect", &m, "--svg", svg.to_str().unwrap()]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let text = std::fs::read_to_string(&svg).unwrap();
+    // Structure, not pixels: two panels, axes, labels, the series, pole lines, the minimum.
+    assert_eq!(text.matches("class=\"panel\"").count(), 2);
+    assert_eq!(text.matches("class=\"axes\"").count(), 2);
+    assert!(text.contains(">V(phi)<") && text.contains(">V(chi), canonical field<"));
+    assert!(text.contains("class=\"xlabel\" ") && text.contains(">chi<"));
+    assert_eq!(text.matches("class=\"series\"").count(), 2);
+    assert_eq!(text.matches("class=\"vline\"").count(), 2);
+    assert!(text.contains(">minimum<"));
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+/// Bad input: each a clear error, exit code 2, nothing on stdout.
+#[test]
+fn bad_models() {
+    let dir = std::env::temp_dir().join(format!("efold-bad-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let write = |name: &str, text: &str| {
+        let p = dir.join(name);
+        std::fs::write(&p, text).unwrap();
+        p.display().to_string()
+    };
+    let unknown_param = write(
+        "unknown-param.toml",
+        "potential = \"m^2*phi^2/2\"\n\n[params]\nmass = 1\n",
+    );
+    let malformed = write("malformed.toml", "potential = \"phi^2\nkinetic = 1\n");
+    let unknown_key = write("unknown-key.toml", "potential = \"phi^2\"\nkinetc = \"1\"\n");
+    let bad_expr = write(
+        "bad-expr.toml",
+        "name = \"x\"\npotential = \"phi^2 * (1 + tanhh(phi))\"\n",
+    );
+    let cases: Vec<(&str, Vec<&str>)> = vec![
+        (
+            "k_negative",
+            vec![
+                "inspect",
+                "--potential",
+                "phi^2",
+                "--kinetic",
+                "1 - phi^2",
+                "--range",
+                "-2",
+                "2",
+            ],
+        ),
+        (
+            "k_zero",
+            vec![
+                "inspect",
+                "--potential",
+                "phi^2",
+                "--kinetic",
+                "(phi - 0.3)^2",
+                "--range",
+                "-1",
+                "1",
+            ],
+        ),
+        (
+            "v_complex",
+            vec!["inspect", "--potential", "log(phi)", "--range", "-1", "1"],
+        ),
+        ("unknown_param", vec!["inspect", &unknown_param]),
+        ("malformed_toml", vec!["inspect", &malformed]),
+        ("unknown_key", vec!["inspect", &unknown_key]),
+        ("expression_in_file", vec!["inspect", &bad_expr]),
+        ("no_model", vec!["inspect"]),
+        ("missing_file", vec!["inspect", "no-such-model.toml"]),
+        (
+            "empty_range",
+            vec!["inspect", "--potential", "phi^2", "--range", "1", "0"],
+        ),
+    ];
+    for (name, args) in cases {
+        let r = efold(&args);
+        assert_eq!(r.code, 2, "{name}: {}", r.stderr);
+        assert!(r.stdout.is_empty(), "{name}");
+        let stderr = r.stderr.replace(&dir.display().to_string(), "TMP");
+        insta::assert_snapshot!(format!("inspect_error_{name}"), stderr);
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
