@@ -328,19 +328,22 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
             ],
         });
     }
-    // The interval holding the lowest V seen in the survey.
-    let mut best = 0;
-    let mut best_v = f64::INFINITY;
+    // The interval to use: one whose V has a minimum with V >= 0 inside (where inflation can
+    // end), the lowest such; failing that, the one holding phi = 0; failing that, the first.
+    let mut best: Option<(usize, f64)> = None;
     for (i, iv) in intervals.iter().enumerate() {
-        for &x in grid.iter().filter(|&&x| iv.contains(x)) {
-            let v = ev.eval(x);
-            if v < best_v {
-                best_v = v;
-                best = i;
+        if let Some(m) = minimum_of_v(ev, iv).filter(|m| iv.contains(*m)) {
+            let v = ev.eval(m);
+            if v >= 0.0 && best.is_none_or(|(_, bv)| v < bv) {
+                best = Some((i, v));
             }
         }
     }
-    let interval = intervals.remove(best);
+    let pick = best
+        .map(|(i, _)| i)
+        .or_else(|| intervals.iter().position(|iv| iv.contains(0.0)))
+        .unwrap_or(0);
+    let interval = intervals.remove(pick);
     let negative_v = negative_regions(ev, &interval, &grid);
     Ok(Domain {
         interval,

@@ -34,6 +34,63 @@ pub enum Command {
     Compile(CompileArgs),
     /// Analyse a model in canonical variables: domain, poles of K, plateaus, asymptotics.
     Inspect(InspectArgs),
+    /// Predict n_s, r, the running and the scales of a model, and judge them against data.
+    Predict(PredictArgs),
+}
+
+/// Output formats of `predict`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum TableFormat {
+    /// Aligned text for people.
+    Text,
+    /// One JSON object.
+    Json,
+    /// A header and one row per N_*.
+    Csv,
+}
+
+/// `efold predict`.
+#[derive(Debug, clap::Args)]
+pub struct PredictArgs {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub model: ModelArgs,
+    /// e-folds between the pivot's exit and the end of inflation, comma-separated
+    /// [default: the model's `efolds` setting, or 50,55,60].
+    #[arg(long, value_delimiter = ',', value_name = "N,N,...")]
+    pub efolds: Vec<f64>,
+    /// Use this branch (1-based, in ascending field position) [default: the one at larger field
+    /// values that gives the e-folds].
+    #[arg(long, value_name = "K")]
+    pub branch: Option<usize>,
+    /// Second-order slow-roll observables (Hubble-flow expansion).
+    #[arg(long)]
+    pub second_order: bool,
+    /// Fix N_* from reheating: `instant` (radiation right after inflation).
+    #[arg(long, value_name = "instant")]
+    pub reheat: Option<String>,
+    /// Equation of state during reheating (with --reheat-temp or --reheat-efolds).
+    #[arg(long, value_name = "W", allow_hyphen_values = true)]
+    pub reheat_w: Option<f64>,
+    /// Reheating temperature in GeV.
+    #[arg(long, value_name = "GEV")]
+    pub reheat_temp: Option<f64>,
+    /// e-folds of reheating.
+    #[arg(long, value_name = "N")]
+    pub reheat_efolds: Option<f64>,
+    /// Relativistic degrees of freedom at reheating.
+    #[arg(long, default_value_t = 106.75, value_name = "G")]
+    pub g_star: f64,
+    /// A data file of constraints and constants [default: the built-in
+    /// data/planck2018-bk18.toml].
+    #[arg(long, value_name = "FILE")]
+    pub data: Option<std::path::PathBuf>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = TableFormat::Text)]
+    pub format: TableFormat,
+    /// Write a figure of V with the end of inflation and the pivot points to this SVG file.
+    #[arg(long, value_name = "FILE")]
+    pub svg: Option<std::path::PathBuf>,
 }
 
 /// The model: a TOML file, or given inline; flags override the file.
@@ -43,10 +100,10 @@ pub struct ModelArgs {
     #[arg(value_name = "MODEL.toml")]
     pub model: Option<std::path::PathBuf>,
     /// The potential V(FIELD).
-    #[arg(long, value_name = "EXPR")]
+    #[arg(long, value_name = "EXPR", allow_hyphen_values = true)]
     pub potential: Option<String>,
     /// The kinetic function K(FIELD) in L = 1/2 K (d FIELD)^2 - V [default: 1].
-    #[arg(long, value_name = "EXPR")]
+    #[arg(long, value_name = "EXPR", allow_hyphen_values = true)]
     pub kinetic: Option<String>,
     /// A parameter, NAME=VALUE (VALUE may be an expression such as 1/3). Repeatable.
     #[arg(long = "param", value_name = "NAME=VALUE")]
@@ -212,6 +269,7 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Eval(a) => eval(a, &config),
         Command::Compile(a) => compile_view(a, &config),
         Command::Inspect(a) => inspect_cmd(a, &config),
+        Command::Predict(a) => predict_cmd(a, &config),
     }
 }
 
@@ -460,5 +518,61 @@ fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
     Ok(match a.format {
         Format::Json => format!("{}\n", serde_json::to_string_pretty(&ins).expect("serialisable report")),
         Format::Text => crate::inspect::text(&ins),
+    })
+}
+
+fn reheating_from(a: &PredictArgs) -> Result<Option<crate::reheating::Reheating>, Failure> {
+    use crate::reheating::Reheating;
+    let g_star = a.g_star;
+    match (&a.reheat, a.reheat_w, a.reheat_temp, a.reheat_efolds) {
+        (None, None, None, None) => Ok(None),
+        (Some(s), None, None, None) if s == "instant" => Ok(Some(Reheating::Instant { g_star })),
+        (None, Some(w), Some(t), None) => Ok(Some(Reheating::Temperature {
+            w,
+            t_reh_gev: t,
+            g_star,
+        })),
+        (None, Some(w), None, Some(n)) => Ok(Some(Reheating::Efolds { w, n_reh: n, g_star })),
+        _ => Err(Diagnostic::new("incomplete or conflicting reheating flags")
+            .with_hint("`--reheat instant`, or `--reheat-w W` with one of `--reheat-temp GEV` and `--reheat-efolds N`")
+            .into()),
+    }
+}
+
+fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
+    let model = load_model(&a.model, config)?;
+    let data = match &a.data {
+        Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
+        None => crate::data::DataSet::builtin(),
+    };
+    let n_stars = if !a.efolds.is_empty() {
+        a.efolds.clone()
+    } else {
+        model.spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
+    };
+    let opts = crate::predict::Options {
+        n_stars,
+        branch: a.branch,
+        second_order: a.second_order,
+        reheating: reheating_from(a)?,
+        data,
+    };
+    let rep = crate::predict::predict(&model, &opts, config)?;
+    if let Some(path) = &a.svg {
+        let ins = crate::inspect::inspect(&model, config, None)?;
+        let mut marks = crate::inspect::FigureMarks::default();
+        if let Some(p) = rep.predictions.first() {
+            marks.points.push((p.phi_end, "end".to_string()));
+        }
+        for p in &rep.predictions {
+            marks.points.push((p.phi_star, format!("N={}", p.n_star)));
+        }
+        let svg = crate::inspect::figure(&model, &ins, &marks, config)?;
+        write_output_file(path, &svg)?;
+    }
+    Ok(match a.format {
+        TableFormat::Json => format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable report")),
+        TableFormat::Csv => crate::predict::csv(&rep),
+        TableFormat::Text => crate::predict::text(&rep),
     })
 }

@@ -1,0 +1,624 @@
+//! `efold predict`: from a model to what the CMB sees. Slow-roll observables at each N_*, the
+//! amplitude fixed by A_s, scales in GeV, the field excursion, the pivot from a reheating
+//! history, and the verdict against a data set. Reduced Planck units unless a key says GeV.
+
+use crate::canonical::{analyse_pole, find_domain, minimum_of_v, AnalysisError, CanonicalMap, EndKind, Interval};
+use crate::config::Config;
+use crate::data::DataSet;
+use crate::inspect::ModelSummary;
+use crate::model::{Model, Side};
+use crate::reheating::{Matching, Reheating};
+use crate::slowroll::{branches, end_of_inflation, fail, phi_stars, Branch, Observables, SlowRoll};
+use crate::tape::Evaluator;
+use serde::Serialize;
+use std::f64::consts::PI;
+use std::fmt::Write as _;
+
+/// What to compute.
+#[derive(Debug, Clone)]
+pub struct Options {
+    /// N_* values (ignored when `reheating` is given: it fixes N_*).
+    pub n_stars: Vec<f64>,
+    /// 1-based branch index (in ascending position), if chosen.
+    pub branch: Option<usize>,
+    /// Second-order slow-roll observables.
+    pub second_order: bool,
+    /// A reheating history that fixes N_*.
+    pub reheating: Option<Reheating>,
+    /// The data to judge against, and the constants for the scales.
+    pub data: DataSet,
+}
+
+/// The leading-order prediction of a pole alone, beside the numerical one.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct PoleOnly {
+    /// Pole order.
+    pub order: f64,
+    /// Residue a_p.
+    pub residue: f64,
+    /// n_s at leading order in 1/N.
+    pub n_s: f64,
+    /// r at leading order in 1/N.
+    pub r: f64,
+}
+
+/// The predictions at one N_*.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Prediction {
+    /// e-folds between the pivot's exit and the end of inflation.
+    pub n_star: f64,
+    /// Field value at the pivot's exit.
+    pub phi_star: f64,
+    /// Field value at the end of inflation (eps_V = 1).
+    pub phi_end: f64,
+    /// Scalar spectral index.
+    pub n_s: f64,
+    /// Tensor-to-scalar ratio.
+    pub r: f64,
+    /// Running dn_s/dln k.
+    pub alpha_s: f64,
+    /// Tensor tilt.
+    pub n_t: f64,
+    /// eps_V at phi_*.
+    pub eps_v: f64,
+    /// eta_V at phi_*.
+    pub eta_v: f64,
+    /// xi2_V at phi_*.
+    pub xi2_v: f64,
+    /// omega3_V at phi_*.
+    pub omega3_v: f64,
+    /// Canonical field excursion |chi_* - chi_end|.
+    pub delta_chi: f64,
+    /// Excursion in the original field |phi_* - phi_end|.
+    pub delta_phi: f64,
+    /// N_* sqrt(r/8), the Lyth estimate of delta_chi for slowly varying eps.
+    pub lyth_bound: f64,
+    /// A_s of the potential as written.
+    pub a_s_unscaled: f64,
+    /// The factor on the user's V that gives the observed A_s.
+    pub potential_scale: f64,
+    /// (scaled V_*)^(1/4) in GeV.
+    pub v_star_quarter_gev: f64,
+    /// H_* = sqrt(V_*/3) in GeV.
+    pub h_star_gev: f64,
+    /// The de Sitter temperature H_*/(2 pi) in GeV.
+    pub t_ds_gev: f64,
+    /// Scaled V at the end of inflation, in M_p^4.
+    pub v_end: f64,
+    /// (scaled V_end)^(1/4) in GeV.
+    pub v_end_quarter_gev: f64,
+    /// (n_s - mean) / sigma against the data.
+    pub n_s_pull: f64,
+    /// The data's upper limit on r.
+    pub r_limit: f64,
+    /// consistent, tension or excluded.
+    pub verdict: &'static str,
+    /// The pole-only leading-order prediction, when the branch starts at a pole.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub pole_only: Option<PoleOnly>,
+    /// How N_* was fixed by reheating, when it was.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub reheating: Option<Matching>,
+}
+
+/// A branch with its index among all branches.
+#[derive(Debug, Clone, Serialize)]
+pub struct BranchInfo {
+    /// 1-based, in ascending position.
+    pub index: usize,
+    /// How many branches the interval has.
+    pub count: usize,
+    /// Where the field comes from and rolls to.
+    #[serde(flatten)]
+    pub branch: Branch,
+}
+
+/// Everything `predict` reports.
+#[derive(Debug, Clone, Serialize)]
+pub struct Report {
+    /// The model.
+    pub model: ModelSummary,
+    /// "slow-roll".
+    pub method: &'static str,
+    /// 1 or 2.
+    pub order: u8,
+    /// The branch used.
+    pub branch: BranchInfo,
+    /// The other branches (position only).
+    pub other_branches: Vec<BranchInfo>,
+    /// The data set's name and source.
+    pub data: DataSummary,
+    /// How N_* was chosen.
+    pub n_star_from: String,
+    /// One object per N_*.
+    pub predictions: Vec<Prediction>,
+    /// Things to know.
+    pub warnings: Vec<String>,
+}
+
+/// Name and origin of the data set.
+#[derive(Debug, Clone, Serialize)]
+pub struct DataSummary {
+    /// Name.
+    pub name: String,
+    /// File or built-in.
+    pub source: String,
+}
+
+/// Runs the predictions.
+pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report, AnalysisError> {
+    let field = model.field().to_string();
+    let mut ev = model.evaluator();
+    let domain = find_domain(model, &mut ev)?;
+    let iv = domain.interval;
+    let all = branches(&mut ev, &iv);
+    if all.is_empty() {
+        return Err(fail(
+            "V is constant on the domain: the field does not roll".to_string(),
+            &["check the potential"],
+        ));
+    }
+    let n_wanted: Vec<f64> = if opts.reheating.is_some() {
+        vec![55.0]
+    } else {
+        opts.n_stars.clone()
+    };
+    if let Some(bad) = n_wanted.iter().find(|n| !(n.is_finite() && **n > 0.0)) {
+        return Err(fail(
+            format!("N_* = {bad} is not a positive number of e-folds"),
+            &["use --efolds 50,55,60"],
+        ));
+    }
+    // Which branches to try, in order.
+    let order: Vec<usize> = match (opts.branch, model.spec.start) {
+        (Some(k), _) => {
+            if k == 0 || k > all.len() {
+                return Err(fail(
+                    format!(
+                        "--branch {k}: the domain has {} branch(es), numbered 1 to {}",
+                        all.len(),
+                        all.len()
+                    ),
+                    &["run without --branch to see them listed"],
+                ));
+            }
+            vec![k - 1]
+        }
+        (None, Some(side)) => {
+            let min = minimum_of_v(&mut ev, &iv);
+            let mut v: Vec<usize> = (0..all.len())
+                .filter(|&i| match (min, side) {
+                    (Some(m), Side::Above) => all[i].top > m,
+                    (Some(m), Side::Below) => all[i].top < m,
+                    (None, _) => true,
+                })
+                .collect();
+            v.reverse();
+            v
+        }
+        (None, None) => (0..all.len()).rev().collect(),
+    };
+    let mut first_err: Option<AnalysisError> = None;
+    for &i in &order {
+        let b = all[i];
+        match run_branch(model, &mut ev, &b, &iv, &n_wanted, opts, config, &field) {
+            Ok((predictions, warnings, n_from)) => {
+                let info = |j: usize| BranchInfo {
+                    index: j + 1,
+                    count: all.len(),
+                    branch: all[j],
+                };
+                let mut warnings = warnings;
+                if order.len() > 1 && i != order[0] {
+                    warnings.push(format!(
+                        "branch {} was the first choice but does not give the requested e-folds; branch {} was used",
+                        order[0] + 1,
+                        i + 1
+                    ));
+                }
+                return Ok(Report {
+                    model: ModelSummary::of(model),
+                    method: "slow-roll",
+                    order: if opts.second_order { 2 } else { 1 },
+                    branch: info(i),
+                    other_branches: (0..all.len()).filter(|&j| j != i).map(info).collect(),
+                    data: DataSummary {
+                        name: opts.data.name.clone(),
+                        source: opts.data.source.clone(),
+                    },
+                    n_star_from: n_from,
+                    predictions,
+                    warnings,
+                });
+            }
+            Err(e) => {
+                if first_err.is_none() {
+                    first_err = Some(e);
+                }
+            }
+        }
+    }
+    let mut e = first_err.expect("at least one branch was tried");
+    if all.len() > 1 {
+        let list: Vec<String> = all
+            .iter()
+            .enumerate()
+            .map(|(i, b)| format!("{}: {field} from {} to {}", i + 1, fmt(b.top), fmt(b.bottom)))
+            .collect();
+        e.hints.push(format!("branches: {}", list.join("; ")));
+    }
+    Err(e)
+}
+
+type BranchResult = (Vec<Prediction>, Vec<String>, String);
+
+#[allow(clippy::too_many_arguments)]
+fn run_branch(
+    model: &Model,
+    ev: &mut Evaluator<'_>,
+    b: &Branch,
+    iv: &Interval,
+    n_wanted: &[f64],
+    opts: &Options,
+    config: &Config,
+    field: &str,
+) -> Result<BranchResult, AnalysisError> {
+    // A branch that rolls into a pole of K: V levels off there, and the field never gets out.
+    let bottom_kind = if b.bottom == iv.lo {
+        Some(iv.lo_kind)
+    } else if b.bottom == iv.hi {
+        Some(iv.hi_kind)
+    } else {
+        None
+    };
+    if bottom_kind == Some(EndKind::Pole) {
+        return Err(fail(
+            format!(
+                "on the branch from {field} = {} the field rolls into the pole of K at {field} = {}",
+                fmt(b.top),
+                fmt(b.bottom)
+            ),
+            &[
+                "V decreases toward the pole, so the field runs into it instead of reaching a minimum",
+                "choose another branch with --branch, or change the potential",
+            ],
+        ));
+    }
+    let phi_end = end_of_inflation(ev, b, field)?;
+    let top_kind = if b.top == iv.lo {
+        Some(iv.lo_kind)
+    } else if b.top == iv.hi {
+        Some(iv.hi_kind)
+    } else {
+        None
+    };
+    let pole = if top_kind == Some(EndKind::Pole) {
+        let inward = if b.top == iv.lo { 1.0 } else { -1.0 };
+        analyse_pole(ev, b.top, inward, iv.hi - iv.lo).and_then(|p| p.leading_order.map(|lo| (p.order, p.residue, lo)))
+    } else {
+        None
+    };
+    let mut warnings = Vec::new();
+    let (n_stars, matching, n_from) = match &opts.reheating {
+        None => (n_wanted.to_vec(), None, "given".to_string()),
+        Some(reh) => {
+            let (n, m) = solve_matching(ev, b, phi_end, reh, opts, config, field)?;
+            (vec![n], Some(m), format!("reheating: {}", reh.describe()))
+        }
+    };
+    let stars = phi_stars(ev, b, phi_end, &n_stars, config, field)?;
+    let mut map = CanonicalMap::new(model, phi_end, config);
+    let data = &opts.data;
+    let mp = data.units.reduced_planck_mass_gev;
+    let v_end_user = ev.eval(phi_end);
+    let mut out = Vec::new();
+    for (&n_star, &phi_star) in n_stars.iter().zip(&stars) {
+        let sr = SlowRoll::at(ev, phi_star);
+        let obs: Observables = if opts.second_order {
+            sr.second_order()
+        } else {
+            sr.first_order()
+        };
+        let a_s_user = sr.v / (24.0 * PI * PI * sr.eps_v);
+        let scale = data.a_s() / a_s_user;
+        let v_star = scale * sr.v;
+        let h_star = (v_star / 3.0).sqrt();
+        let v_end = scale * v_end_user;
+        let delta_chi = map.chi(phi_star)?.value.abs();
+        let pull = (obs.n_s - data.n_s.mean) / data.n_s.sigma;
+        let verdict = if pull.abs() > data.verdict.excluded_sigma || obs.r > data.r.upper {
+            "excluded"
+        } else if pull.abs() > data.verdict.tension_sigma {
+            "tension"
+        } else {
+            "consistent"
+        };
+        // slow roll along the way
+        let violated = (1..8).any(|k| {
+            let x = phi_end + (phi_star - phi_end) * k as f64 / 8.0;
+            SlowRoll::at(ev, x).eps_v >= 1.0
+        });
+        if violated {
+            warnings.push(format!(
+                "N_* = {n_star}: eps_V exceeds 1 somewhere between phi_* and phi_end; slow roll is not reliable there"
+            ));
+        }
+        out.push(Prediction {
+            n_star,
+            phi_star,
+            phi_end,
+            n_s: obs.n_s,
+            r: obs.r,
+            alpha_s: obs.alpha_s,
+            n_t: obs.n_t,
+            eps_v: sr.eps_v,
+            eta_v: sr.eta_v,
+            xi2_v: sr.xi2_v,
+            omega3_v: sr.omega3_v,
+            delta_chi,
+            delta_phi: (phi_star - phi_end).abs(),
+            lyth_bound: n_star * (obs.r / 8.0).sqrt(),
+            a_s_unscaled: a_s_user,
+            potential_scale: scale,
+            v_star_quarter_gev: v_star.powf(0.25) * mp,
+            h_star_gev: h_star * mp,
+            t_ds_gev: h_star * mp / (2.0 * PI),
+            v_end,
+            v_end_quarter_gev: v_end.max(0.0).powf(0.25) * mp,
+            n_s_pull: pull,
+            r_limit: data.r.upper,
+            verdict,
+            pole_only: pole.as_ref().map(|(order, residue, lo)| {
+                let (n_s, r) = lo.predict(n_star);
+                PoleOnly {
+                    order: *order,
+                    residue: *residue,
+                    n_s,
+                    r,
+                }
+            }),
+            reheating: matching,
+        });
+    }
+    warnings.dedup();
+    Ok((out, warnings, n_from))
+}
+
+/// N_* consistent with a reheating history: V_* (and so H_*) depends on N_*, N_* on H_* and
+/// V_end; iterated to a fixed point (the dependence is logarithmic, so it converges in a few
+/// steps), to 1e-10 e-folds.
+#[allow(clippy::too_many_arguments)]
+fn solve_matching(
+    ev: &mut Evaluator<'_>,
+    b: &Branch,
+    phi_end: f64,
+    reh: &Reheating,
+    opts: &Options,
+    config: &Config,
+    field: &str,
+) -> Result<(f64, Matching), AnalysisError> {
+    let data = &opts.data;
+    let v_end_user = ev.eval(phi_end);
+    let mut n = 55.0;
+    for _ in 0..60 {
+        let phi = phi_stars(ev, b, phi_end, &[n], config, field)?[0];
+        let sr = SlowRoll::at(ev, phi);
+        let scale = data.a_s() * 24.0 * PI * PI * sr.eps_v / sr.v;
+        let h = (scale * sr.v / 3.0).sqrt();
+        let m = reh
+            .match_pivot(h, scale * v_end_user, data)
+            .map_err(|e| fail(e.0, &["change the reheating assumptions (--reheat ...)"]))?;
+        if (m.n_star - n).abs() < 1e-10 {
+            return Ok((m.n_star, m));
+        }
+        if !(m.n_star.is_finite() && m.n_star > 0.0) {
+            return Err(fail(
+                format!("the matching gives N_* = {}", m.n_star),
+                &["check the reheating assumptions"],
+            ));
+        }
+        n = m.n_star;
+    }
+    Err(fail(
+        "the reheating matching did not converge in 60 steps".to_string(),
+        &["check the reheating assumptions"],
+    ))
+}
+
+fn fmt(x: f64) -> String {
+    if x.is_infinite() {
+        return if x > 0.0 { "inf".into() } else { "-inf".into() };
+    }
+    let a = x.abs();
+    if a != 0.0 && !(1e-4..1e5).contains(&a) {
+        format!("{x:.6e}")
+    } else {
+        let s = format!("{x:.8}");
+        let s = s.trim_end_matches('0');
+        s.trim_end_matches('.').to_string()
+    }
+}
+
+/// The human table: one column per N_*, with units.
+pub fn text(rep: &Report) -> String {
+    let mut o = String::new();
+    let m = &rep.model;
+    let f = &m.field;
+    let params: Vec<String> = m.params.iter().map(|(k, v)| format!("{k} = {}", fmt(*v))).collect();
+    let _ = writeln!(
+        o,
+        "model    {}{}",
+        if m.name.is_empty() { "(unnamed)" } else { &m.name },
+        if params.is_empty() {
+            String::new()
+        } else {
+            format!("   ({})", params.join(", "))
+        }
+    );
+    let b = &rep.branch;
+    let _ = writeln!(
+        o,
+        "branch   {} of {}: {f} rolls from {} to {}",
+        b.index,
+        b.count,
+        fmt(b.branch.top),
+        fmt(b.branch.bottom)
+    );
+    for ob in &rep.other_branches {
+        let _ = writeln!(
+            o,
+            "         other: {} of {}, {f} from {} to {} (choose with --branch {})",
+            ob.index,
+            ob.count,
+            fmt(ob.branch.top),
+            fmt(ob.branch.bottom),
+            ob.index
+        );
+    }
+    let _ = writeln!(
+        o,
+        "method   {} slow roll, {} order; N_* {}",
+        if rep.order == 2 { "potential" } else { "potential" },
+        if rep.order == 2 { "second" } else { "first" },
+        rep.n_star_from
+    );
+    let _ = writeln!(o, "data     {} [{}]", rep.data.name, rep.data.source);
+    let _ = writeln!(o, "units    reduced Planck units (M_p = 1) unless marked GeV\n");
+    let p = &rep.predictions;
+    let mut rows: Vec<(String, Vec<String>)> = Vec::new();
+    let mut row = |label: &str, vals: Vec<String>| rows.push((label.to_string(), vals));
+    let col = |g: &dyn Fn(&Prediction) -> String| p.iter().map(g).collect::<Vec<_>>();
+    row("N_*", col(&|x| fmt(x.n_star)));
+    row(&format!("{f}_*"), col(&|x| fmt(x.phi_star)));
+    row(&format!("{f}_end"), col(&|x| fmt(x.phi_end)));
+    row("n_s", col(&|x| format!("{:.6}", x.n_s)));
+    row("r", col(&|x| fmt(x.r)));
+    row("alpha_s", col(&|x| fmt(x.alpha_s)));
+    row("n_t", col(&|x| fmt(x.n_t)));
+    row("eps_V", col(&|x| fmt(x.eps_v)));
+    row("eta_V", col(&|x| fmt(x.eta_v)));
+    row("xi2_V", col(&|x| fmt(x.xi2_v)));
+    row("delta chi", col(&|x| fmt(x.delta_chi)));
+    row(&format!("delta {f}"), col(&|x| fmt(x.delta_phi)));
+    row("N_* sqrt(r/8)", col(&|x| fmt(x.lyth_bound)));
+    row("scale on V", col(&|x| fmt(x.potential_scale)));
+    row("V_*^1/4 [GeV]", col(&|x| format!("{:.4e}", x.v_star_quarter_gev)));
+    row("H_* [GeV]", col(&|x| format!("{:.4e}", x.h_star_gev)));
+    row("H_*/2pi [GeV]", col(&|x| format!("{:.4e}", x.t_ds_gev)));
+    row("V_end^1/4 [GeV]", col(&|x| format!("{:.4e}", x.v_end_quarter_gev)));
+    row("n_s pull [sigma]", col(&|x| format!("{:+.2}", x.n_s_pull)));
+    row("r limit", col(&|x| format!("< {}", fmt(x.r_limit))));
+    row("verdict", col(&|x| x.verdict.to_string()));
+    if p.iter().any(|x| x.pole_only.is_some()) {
+        row(
+            "pole alone: n_s",
+            col(&|x| x.pole_only.map(|q| format!("{:.6}", q.n_s)).unwrap_or_default()),
+        );
+        row(
+            "pole alone: r",
+            col(&|x| x.pole_only.map(|q| fmt(q.r)).unwrap_or_default()),
+        );
+    }
+    if p.iter().any(|x| x.reheating.is_some()) {
+        row("N_reh", col(&|x| x.reheating.map(|m| fmt(m.n_reh)).unwrap_or_default()));
+        row(
+            "T_reh [GeV]",
+            col(&|x| x.reheating.map(|m| format!("{:.4e}", m.t_reh_gev)).unwrap_or_default()),
+        );
+    }
+    let w0 = rows.iter().map(|r| r.0.len()).max().unwrap_or(0);
+    let wc: Vec<usize> = (0..p.len())
+        .map(|j| rows.iter().map(|r| r.1[j].len()).max().unwrap_or(0).max(12))
+        .collect();
+    for (label, vals) in &rows {
+        let _ = write!(o, "{label:<w0$}");
+        for (j, v) in vals.iter().enumerate() {
+            let _ = write!(o, "  {v:>w$}", w = wc[j]);
+        }
+        let _ = writeln!(o);
+    }
+    if let Some(q) = p.iter().find_map(|x| x.pole_only) {
+        let _ = writeln!(
+            o,
+            "\npole alone: leading order in 1/N from the pole of order {} with residue {} at the top of the branch",
+            fmt(q.order),
+            fmt(q.residue)
+        );
+    }
+    for w in &rep.warnings {
+        let _ = writeln!(o, "warning: {w}");
+    }
+    o
+}
+
+/// The keys of the CSV output, in order (stable; documented in the README).
+pub const CSV_KEYS: [&str; 27] = [
+    "n_star",
+    "phi_star",
+    "phi_end",
+    "n_s",
+    "r",
+    "alpha_s",
+    "n_t",
+    "eps_v",
+    "eta_v",
+    "xi2_v",
+    "omega3_v",
+    "delta_chi",
+    "delta_phi",
+    "lyth_bound",
+    "a_s_unscaled",
+    "potential_scale",
+    "v_star_quarter_gev",
+    "h_star_gev",
+    "t_ds_gev",
+    "v_end",
+    "v_end_quarter_gev",
+    "n_s_pull",
+    "r_limit",
+    "verdict",
+    "pole_n_s",
+    "pole_r",
+    "n_reh",
+];
+
+/// One CSV row per N_*, with a header.
+pub fn csv(rep: &Report) -> String {
+    let mut o = CSV_KEYS.join(",");
+    o.push('\n');
+    for p in &rep.predictions {
+        let opt = |x: Option<f64>| x.map(|v| format!("{v:e}")).unwrap_or_default();
+        let vals = [
+            format!("{}", p.n_star),
+            format!("{:e}", p.phi_star),
+            format!("{:e}", p.phi_end),
+            format!("{:e}", p.n_s),
+            format!("{:e}", p.r),
+            format!("{:e}", p.alpha_s),
+            format!("{:e}", p.n_t),
+            format!("{:e}", p.eps_v),
+            format!("{:e}", p.eta_v),
+            format!("{:e}", p.xi2_v),
+            format!("{:e}", p.omega3_v),
+            format!("{:e}", p.delta_chi),
+            format!("{:e}", p.delta_phi),
+            format!("{:e}", p.lyth_bound),
+            format!("{:e}", p.a_s_unscaled),
+            format!("{:e}", p.potential_scale),
+            format!("{:e}", p.v_star_quarter_gev),
+            format!("{:e}", p.h_star_gev),
+            format!("{:e}", p.t_ds_gev),
+            format!("{:e}", p.v_end),
+            format!("{:e}", p.v_end_quarter_gev),
+            format!("{:e}", p.n_s_pull),
+            format!("{:e}", p.r_limit),
+            p.verdict.to_string(),
+            opt(p.pole_only.map(|q| q.n_s)),
+            opt(p.pole_only.map(|q| q.r)),
+            opt(p.reheating.map(|m| m.n_reh)),
+        ];
+        o.push_str(&vals.join(","));
+        o.push('\n');
+    }
+    o
+}

@@ -1,0 +1,430 @@
+//! Potential slow roll: the slow-roll parameters in the canonical field, the branches along
+//! which the field rolls, the end of inflation (eps_V = 1), e-folds N(phi) and phi_* for each
+//! N_*, and the observables there. Reduced Planck units (M_p = 1).
+//!
+//! Definitions (Liddle & Lyth, *Cosmological Inflation and Large-Scale Structure*, CUP 2000,
+//! ch. 3; running: Liddle, Parsons & Barrow, Phys. Rev. D 50, 7222 (1994)):
+//!
+//! ```text
+//! eps_V = (V_chi/V)^2 / 2     eta_V = V_chichi/V     xi2_V = V_chi V_chichichi / V^2
+//! omega3_V = V_chi^2 V_chi^4 / V^3
+//! n_s = 1 - 6 eps + 2 eta     r = 16 eps     n_t = -2 eps
+//! alpha_s = 16 eps eta - 24 eps^2 - 2 xi2
+//! N(phi) = integral from phi_end to phi of V K / V_phi dphi
+//! ```
+
+use crate::canonical::{chi_derivatives, AnalysisError, Interval};
+use crate::config::Config;
+use crate::model::{OUT_K, OUT_V};
+use crate::numerics::quad::gauss_kronrod;
+use crate::numerics::roots::brent;
+use crate::tape::Evaluator;
+use serde::Serialize;
+
+/// The potential slow-roll parameters at one field value.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct SlowRoll {
+    /// V.
+    pub v: f64,
+    /// (V_chi/V)^2 / 2.
+    pub eps_v: f64,
+    /// V_chichi / V.
+    pub eta_v: f64,
+    /// V_chi V_chichichi / V^2.
+    pub xi2_v: f64,
+    /// V_chi^2 V_chi^(4) / V^3.
+    pub omega3_v: f64,
+}
+
+impl SlowRoll {
+    /// At `phi`, from the jets of V and sqrt(K) (no inversion of chi(phi)).
+    pub fn at(ev: &mut Evaluator<'_>, phi: f64) -> SlowRoll {
+        let d = chi_derivatives(ev, phi, 4);
+        let v = d[0];
+        let l = d[1] / v;
+        SlowRoll {
+            v,
+            eps_v: 0.5 * l * l,
+            eta_v: d[2] / v,
+            xi2_v: d[1] * d[3] / (v * v),
+            omega3_v: d[1] * d[1] * d[4] / (v * v * v),
+        }
+    }
+
+    /// First-order observables.
+    pub fn first_order(&self) -> Observables {
+        let (e, h, x) = (self.eps_v, self.eta_v, self.xi2_v);
+        Observables {
+            n_s: 1.0 - 6.0 * e + 2.0 * h,
+            r: 16.0 * e,
+            n_t: -2.0 * e,
+            alpha_s: 16.0 * e * h - 24.0 * e * e - 2.0 * x,
+        }
+    }
+
+    /// Hubble-flow parameters (eps_1, eps_2, eps_2 eps_3) from the potential ones, to second
+    /// order. Derived in DEVELOPERS.md from the exact Hamilton–Jacobi relations
+    /// eps_V = eps_H ((3 - eta_H)/(3 - eps_H))^2 and
+    /// eta_V = (3 eps_H + 3 eta_H - eta_H^2 - xi_H^2)/(3 - eps_H):
+    /// eps_H = eps - 4/3 eps^2 + 2/3 eps eta,
+    /// eta_H = eta - eps + 8/3 eps^2 - 8/3 eps eta + 1/3 eta^2 + 1/3 xi2,
+    /// eps_1 = eps_H, eps_2 = 2 (eps_H - eta_H), eps_2 eps_3 = 16 eps^2 - 12 eps eta + 2 xi2.
+    pub fn hubble_flow(&self) -> (f64, f64, f64) {
+        let (e, h, x) = (self.eps_v, self.eta_v, self.xi2_v);
+        let eps_h = e - 4.0 / 3.0 * e * e + 2.0 / 3.0 * e * h;
+        let eta_h = h - e + 8.0 / 3.0 * e * e - 8.0 / 3.0 * e * h + h * h / 3.0 + x / 3.0;
+        (eps_h, 2.0 * (eps_h - eta_h), 16.0 * e * e - 12.0 * e * h + 2.0 * x)
+    }
+
+    /// Second-order observables from the Hubble-flow parameters, with C = gamma_E + ln 2 - 2
+    /// (Stewart & Lyth, Phys. Lett. B 302, 171 (1993); in this form Schwarz, Terrero-Escalante &
+    /// Garcia, Phys. Lett. B 517, 243 (2001)): n_s - 1 = -2 e1 - e2 - 2 e1^2 - (2C + 3) e1 e2 -
+    /// C e2 e3, r = 16 e1 (1 + C e2), n_t = -2 e1 - 2 e1^2 - 2 (C + 1) e1 e2. The running keeps its
+    /// leading order, alpha_s = -2 e1 e2 - e2 e3.
+    pub fn second_order(&self) -> Observables {
+        let c = EULER_GAMMA + std::f64::consts::LN_2 - 2.0;
+        let (e1, e2, e2e3) = self.hubble_flow();
+        Observables {
+            n_s: 1.0 - 2.0 * e1 - e2 - 2.0 * e1 * e1 - (2.0 * c + 3.0) * e1 * e2 - c * e2e3,
+            r: 16.0 * e1 * (1.0 + c * e2),
+            n_t: -2.0 * e1 - 2.0 * e1 * e1 - 2.0 * (c + 1.0) * e1 * e2,
+            alpha_s: -2.0 * e1 * e2 - e2e3,
+        }
+    }
+}
+
+/// The Euler–Mascheroni constant.
+pub const EULER_GAMMA: f64 = 0.577_215_664_901_532_9;
+
+/// The spectral observables.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Observables {
+    /// Scalar spectral index.
+    pub n_s: f64,
+    /// Tensor-to-scalar ratio.
+    pub r: f64,
+    /// Tensor tilt.
+    pub n_t: f64,
+    /// Running dn_s/dln k.
+    pub alpha_s: f64,
+}
+
+/// A stretch of field space along which V is monotonic: the field rolls from `top` down to
+/// `bottom`.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Branch {
+    /// Where the field comes from (a maximum of V or an end of the domain).
+    #[serde(serialize_with = "crate::canonical::ser_f64")]
+    pub top: f64,
+    /// Where it rolls to (a minimum of V or an end of the domain).
+    #[serde(serialize_with = "crate::canonical::ser_f64")]
+    pub bottom: f64,
+}
+
+impl Branch {
+    /// +1 if the field rolls toward larger phi.
+    pub fn direction(&self) -> f64 {
+        if self.bottom > self.top {
+            1.0
+        } else {
+            -1.0
+        }
+    }
+
+    /// The branch's lower and upper field values.
+    pub fn span(&self) -> (f64, f64) {
+        (self.top.min(self.bottom), self.top.max(self.bottom))
+    }
+}
+
+/// Points inside (lo, hi): dense near finite ends (down to 1e-13 of the width) and spread
+/// geometrically toward infinite ones. Ascending.
+pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
+    // The field's natural scale is M_p = 1: a logarithmic grid around 0 from 1e-5 to 1e8,
+    // plus refinements toward each end of the interval.
+    let mut pts: Vec<f64> = (-60..=96)
+        .flat_map(|k| {
+            let x = 10f64.powf(k as f64 / 12.0);
+            [x, -x]
+        })
+        .collect();
+    pts.push(0.0);
+    match (lo.is_finite(), hi.is_finite()) {
+        (true, true) => {
+            let w = hi - lo;
+            for k in 4..=52 {
+                let d = w * 10f64.powf(-k as f64 / 4.0);
+                pts.push(lo + d);
+                pts.push(hi - d);
+            }
+            for i in 1..64 {
+                pts.push(lo + w * i as f64 / 64.0);
+            }
+        }
+        (true, false) | (false, true) => {
+            let (end, dir) = if lo.is_finite() { (lo, 1.0) } else { (hi, -1.0) };
+            let w = end.abs().max(1.0);
+            for k in 4..=52 {
+                pts.push(end + dir * w * 10f64.powf(-k as f64 / 4.0));
+            }
+            for k in 0..=96 {
+                pts.push(end + dir * w * 10f64.powf(-1.0 + k as f64 / 12.0));
+            }
+        }
+        (false, false) => {}
+    }
+    pts.retain(|x| *x > lo && *x < hi && x.is_finite());
+    pts.sort_by(f64::total_cmp);
+    pts.dedup();
+    pts
+}
+
+/// The branches of the interval: stretches between stationary points of V (and the ends),
+/// in ascending order of position.
+pub fn branches(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<Branch> {
+    let pts = sample_points(iv.lo, iv.hi);
+    let mut dv = |x: f64| {
+        ev.eval_jet(x, 1);
+        let j = ev.jet_output(OUT_V);
+        (j[0], j[1])
+    };
+    // The sign of V' where it is significant: a slope below rounding of V over the scale of x
+    // (V' |x| < 1e-10 |V|) is numerical noise on a plateau, not a direction. 0 marks "none".
+    let mut sign = |x: f64| -> f64 {
+        let (v, d) = dv(x);
+        if !(v.is_finite() && d.is_finite()) || d.abs() * x.abs().max(1.0) <= 1e-10 * v.abs() {
+            0.0
+        } else {
+            d.signum()
+        }
+    };
+    let signs: Vec<f64> = pts.iter().map(|&x| sign(x)).collect();
+    // Sign changes between consecutive significant samples, refined by Brent on V'.
+    let mut stationary = Vec::new();
+    let mut prev: Option<usize> = None;
+    for i in 0..pts.len() {
+        if signs[i] == 0.0 {
+            continue;
+        }
+        if let Some(j) = prev {
+            if signs[j] != signs[i] {
+                let r = brent(
+                    |x| dv(x).1,
+                    pts[j],
+                    pts[i],
+                    1e-15 * pts[j].abs().max(pts[i].abs()).max(1e-300),
+                    300,
+                );
+                let x = r.map(|r| r.value).unwrap_or(0.5 * (pts[j] + pts[i]));
+                // a stationary point at the origin, found to rounding (M_p = 1 sets the scale)
+                let x = if x.abs() < 1e-12 { 0.0 } else { x };
+                stationary.push(x);
+            }
+        }
+        prev = Some(i);
+    }
+    let mut edges = vec![iv.lo];
+    edges.extend(stationary);
+    edges.push(iv.hi);
+    let mut out = Vec::new();
+    for w in edges.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        // The direction of roll: the sign of V' at the middle significant sample inside.
+        let inside: Vec<usize> = (0..pts.len())
+            .filter(|&i| pts[i] > a && pts[i] < b && signs[i] != 0.0)
+            .collect();
+        let Some(&i) = inside.get(inside.len() / 2) else {
+            continue;
+        };
+        // V' > 0: V grows with phi, so the field rolls down toward smaller phi.
+        out.push(if signs[i] > 0.0 {
+            Branch { top: b, bottom: a }
+        } else {
+            Branch { top: a, bottom: b }
+        });
+    }
+    out
+}
+
+/// Why the slow-roll computation failed on a branch.
+pub fn fail(message: String, hints: &[&str]) -> AnalysisError {
+    AnalysisError {
+        message,
+        hints: hints.iter().map(|h| h.to_string()).collect(),
+    }
+}
+
+/// The end of inflation on a branch: the last point, going down toward the bottom, where
+/// eps_V rises through 1 with eps_V < 1 just above it. Errors say why there is none.
+pub fn end_of_inflation(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Result<f64, AnalysisError> {
+    let (lo, hi) = b.span();
+    // Walk the way the field rolls: from the top to the bottom.
+    let mut pts = sample_points(lo, hi);
+    if b.direction() < 0.0 {
+        pts.reverse();
+    }
+    let mut eps = |x: f64| SlowRoll::at(ev, x);
+    let mut seen_inflation = false;
+    let mut last: Option<(f64, f64)> = None; // (x, eps) on the inflating side of a crossing
+    let mut crossing: Option<(f64, f64)> = None;
+    for &x in &pts {
+        let sr = eps(x);
+        if !(sr.v.is_finite() && sr.eps_v.is_finite()) {
+            continue;
+        }
+        if sr.v <= 0.0 {
+            if last.is_some() {
+                return Err(fail(
+                    format!("V becomes negative at {field} = {} before eps_V reaches 1", fmt_end(x)),
+                    &["inflation would end in a region of negative potential energy: check the potential's minimum"],
+                ));
+            }
+            if !seen_inflation && crossing.is_none() {
+                return Err(fail(
+                    format!(
+                        "V <= 0 at {field} = {}, near the top of the branch from {field} = {} to {}: a negative potential does not inflate",
+                        fmt_end(x),
+                        fmt_end(b.top),
+                        fmt_end(b.bottom)
+                    ),
+                    &["inflation needs V > 0 where the field starts: check the sign and the constant term of V"],
+                ));
+            }
+            break;
+        }
+        if sr.eps_v < 1.0 {
+            seen_inflation = true;
+            last = Some((x, sr.eps_v));
+        } else if let Some((xa, _)) = last {
+            crossing = Some((xa, x));
+            last = None;
+        }
+    }
+    let Some((a, c)) = crossing else {
+        if !seen_inflation {
+            return Err(fail(
+                format!(
+                    "eps_V >= 1 everywhere on the branch from {field} = {} to {}: it does not inflate",
+                    fmt_end(b.top),
+                    fmt_end(b.bottom)
+                ),
+                &["choose another branch with --branch, or check the potential"],
+            ));
+        }
+        return Err(fail(
+            format!(
+                "inflation never ends on the branch from {field} = {} to {}: eps_V stays below 1 down to the bottom",
+                fmt_end(b.top),
+                fmt_end(b.bottom)
+            ),
+            &["inflation would have to end by another mechanism (a second field, a phase transition)"],
+        ));
+    };
+    let root = brent(
+        |x| SlowRoll::at(ev, x).eps_v - 1.0,
+        a,
+        c,
+        1e-15 * a.abs().max(1e-300),
+        300,
+    )?;
+    Ok(root.value)
+}
+
+fn fmt_end(x: f64) -> String {
+    if x.is_infinite() {
+        if x > 0.0 { "inf" } else { "-inf" }.to_string()
+    } else {
+        crate::ir::format_number(x)
+    }
+}
+
+/// dN/dphi = V K / V_phi (positive uphill).
+fn dn_dphi(ev: &mut Evaluator<'_>, x: f64) -> f64 {
+    ev.eval_jet(x, 1);
+    let v = ev.jet_output(OUT_V);
+    let (v0, v1) = (v[0], v[1]);
+    let k = ev.jet_output(OUT_K)[0];
+    v0 * k / v1
+}
+
+/// N between phi_end and x along the branch (adaptive Gauss–Kronrod, `config.quad`).
+pub fn efolds_between(ev: &mut Evaluator<'_>, a: f64, b: f64, config: &Config) -> Result<f64, AnalysisError> {
+    let r = gauss_kronrod(|x| dn_dphi(ev, x), a, b, &config.quad)?;
+    Ok(r.value)
+}
+
+/// phi_* for each requested N_* (any order), counted from `phi_end` up the branch. Errors
+/// with the maximum available if the branch gives fewer e-folds.
+pub fn phi_stars(
+    ev: &mut Evaluator<'_>,
+    b: &Branch,
+    phi_end: f64,
+    n_stars: &[f64],
+    config: &Config,
+    field: &str,
+) -> Result<Vec<f64>, AnalysisError> {
+    let (lo, hi) = b.span();
+    let up = -b.direction(); // direction of increasing N
+    let mut pts: Vec<f64> = sample_points(lo, hi)
+        .into_iter()
+        .filter(|&x| (x - phi_end) * up > 0.0)
+        .collect();
+    if up < 0.0 {
+        pts.reverse();
+    }
+    // Also a few points just above phi_end so that the first segment is short.
+    let w = (b.top - phi_end).abs().min(phi_end.abs().max(1.0));
+    let mut near: Vec<f64> = (1..=8).map(|k| phi_end + up * w * 10f64.powi(-k)).collect();
+    near.reverse();
+    let mut path: Vec<f64> = near
+        .into_iter()
+        .filter(|x| pts.first().is_none_or(|p| (p - x) * up > 0.0))
+        .collect();
+    path.extend(pts);
+    let need = n_stars.iter().copied().fold(0.0f64, f64::max);
+    let mut out = vec![f64::NAN; n_stars.len()];
+    let mut n_prev = 0.0;
+    let mut x_prev = phi_end;
+    for &x in &path {
+        let seg = efolds_between(ev, x_prev, x, config).map_err(|e| {
+            fail(
+                format!(
+                    "e-fold integral failed between {field} = {x_prev} and {x}: {}",
+                    e.message
+                ),
+                &["the slow-roll integrand V K / V' must stay finite up the branch"],
+            )
+        })?;
+        let n_here = n_prev + seg;
+        for (i, &target) in n_stars.iter().enumerate() {
+            if out[i].is_nan() && n_here >= target {
+                let (base, n_base) = (x_prev, n_prev);
+                let r = brent(
+                    |t| n_base + efolds_between(ev, base, t, config).unwrap_or(f64::NAN) - target,
+                    x_prev,
+                    x,
+                    1e-15 * x.abs().max(1e-300),
+                    300,
+                )?;
+                out[i] = r.value;
+            }
+        }
+        n_prev = n_here;
+        x_prev = x;
+        if n_here >= need {
+            break;
+        }
+    }
+    if out.iter().any(|x| x.is_nan()) {
+        return Err(fail(
+            format!(
+                "the branch gives only {:.3} e-folds between the end of inflation at {field} = {} and {field} = {}, fewer than the {need} asked",
+                n_prev,
+                fmt_end(phi_end),
+                fmt_end(b.top)
+            ),
+            &["ask for fewer e-folds with --efolds, or choose another branch or parameters"],
+        ));
+    }
+    Ok(out)
+}
