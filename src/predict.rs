@@ -477,8 +477,7 @@ pub fn text(rep: &Report) -> String {
     }
     let _ = writeln!(
         o,
-        "method   {} slow roll, {} order; N_* {}",
-        if rep.order == 2 { "potential" } else { "potential" },
+        "method   slow roll, {} order; N_* {}",
         if rep.order == 2 { "second" } else { "first" },
         rep.n_star_from
     );
