@@ -57,7 +57,7 @@ pub struct PredictArgs {
     pub model: ModelArgs,
     /// e-folds between the pivot's exit and the end of inflation, comma-separated
     /// [default: the model's `efolds` setting, or 50,55,60].
-    #[arg(long, value_delimiter = ',', value_name = "N,N,...")]
+    #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
     pub efolds: Vec<f64>,
     /// Use this branch (1-based, in ascending field position) [default: the one at larger field
     /// values that gives the e-folds].

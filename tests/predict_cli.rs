@@ -1,0 +1,227 @@
+//! `efold predict` run as a user would: the table and JSON for every shipped model, the CSV
+//! header, the documented JSON keys, figures, data files and failures.
+
+use std::path::Path;
+use std::process::Command;
+
+struct Run {
+    code: i32,
+    stdout: String,
+    stderr: String,
+}
+
+fn efold(args: &[&str]) -> Run {
+    let out = Command::new(env!("CARGO_BIN_EXE_efold")).args(args).output().unwrap();
+    Run {
+        code: out.status.code().unwrap_or(-1),
+        stdout: String::from_utf8(out.stdout).unwrap(),
+        stderr: String::from_utf8(out.stderr).unwrap(),
+    }
+}
+
+fn model(name: &str) -> String {
+    format!("{}/models/{name}.toml", env!("CARGO_MANIFEST_DIR"))
+}
+
+fn shipped() -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(Path::new(env!("CARGO_MANIFEST_DIR")).join("models"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
+        .map(|p| p.file_stem().unwrap().to_string_lossy().into_owned())
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn table_and_json_for_every_shipped_model() {
+    for name in shipped() {
+        let r = efold(&["predict", &model(&name)]);
+        assert_eq!(r.code, 0, "{name}: {}", r.stderr);
+        insta::assert_snapshot!(format!("predict_{name}"), r.stdout);
+        let r = efold(&["predict", &model(&name), "--format", "json"]);
+        assert_eq!(r.code, 0, "{name}: {}", r.stderr);
+        insta::assert_snapshot!(format!("predict_json_{name}"), r.stdout);
+    }
+}
+
+#[test]
+fn json_keys_scripts_rely_on() {
+    let r = efold(&[
+        "predict",
+        &model("pole-order-2-quadratic"),
+        "--efolds",
+        "50,55,60",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    let preds = v["predictions"].as_array().unwrap();
+    assert_eq!(preds.len(), 3);
+    for p in preds {
+        for key in [
+            "n_star",
+            "phi_star",
+            "phi_end",
+            "n_s",
+            "r",
+            "alpha_s",
+            "n_t",
+            "eps_v",
+            "eta_v",
+            "delta_chi",
+            "potential_scale",
+        ] {
+            assert!(p[key].is_number(), "{key} missing in {p}");
+        }
+    }
+    assert_eq!(preds[1]["n_star"], 55.0);
+}
+
+#[test]
+fn csv_header_and_rows() {
+    let r = efold(&[
+        "predict",
+        &model("quadratic-monomial"),
+        "--efolds",
+        "50,60",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let lines: Vec<&str> = r.stdout.lines().collect();
+    assert_eq!(lines.len(), 3);
+    insta::assert_snapshot!("predict_csv_header", lines[0]);
+    let cols = lines[0].split(',').count();
+    assert!(lines[1..].iter().all(|l| l.split(',').count() == cols));
+}
+
+#[test]
+fn inline_model_and_second_order() {
+    let r = efold(&[
+        "predict",
+        "--potential",
+        "phi^2",
+        "--range",
+        "0",
+        "inf",
+        "--efolds",
+        "60",
+        "--second-order",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    assert_eq!(v["order"], 2);
+    let ns = v["predictions"][0]["n_s"].as_f64().unwrap();
+    // second order moves n_s of phi^2 at N = 60 by O(eps^2) ~ 1e-4 from 1 - 4/121
+    assert!(
+        (ns - (1.0 - 4.0 / 121.0)).abs() < 1e-3 && ns != 1.0 - 4.0 / 121.0,
+        "{ns}"
+    );
+}
+
+#[test]
+fn reheating_flags() {
+    let r = efold(&[
+        "predict",
+        &model("exponential-plateau"),
+        "--reheat",
+        "instant",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    let p = &v["predictions"][0];
+    assert!(p["reheating"]["n_reh"].as_f64().unwrap() == 0.0);
+    assert!(v["n_star_from"].as_str().unwrap().contains("instant"));
+    let r = efold(&["predict", &model("exponential-plateau"), "--reheat-w", "0"]);
+    assert_eq!(r.code, 2);
+    insta::assert_snapshot!("predict_error_reheat_flags", r.stderr);
+}
+
+#[test]
+fn figure_marks_end_and_pivots() {
+    let dir = std::env::temp_dir().join(format!("efold-pfig-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let svg = dir.join("p.svg");
+    let r = efold(&[
+        "predict",
+        &model("pole-order-2-quadratic"),
+        "--svg",
+        svg.to_str().unwrap(),
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let text = std::fs::read_to_string(&svg).unwrap();
+    assert!(text.contains(">end<") && text.contains(">N=55<"));
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn data_files() {
+    let alt = format!("{}/data/act-dr6.toml", env!("CARGO_MANIFEST_DIR"));
+    let r = efold(&[
+        "predict",
+        &model("exponential-plateau"),
+        "--data",
+        &alt,
+        "--format",
+        "json",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    assert!(v["data"]["name"].as_str().unwrap().contains("ACT"));
+    // n_s = 0.9650 at N = 55 sits (0.9650 - 0.9743)/0.0034 = -2.7 sigma from that mean.
+    let pull = v["predictions"][1]["n_s_pull"].as_f64().unwrap();
+    assert!((pull + 2.73).abs() < 0.02, "{pull}");
+    assert_eq!(v["predictions"][1]["verdict"], "tension");
+
+    let dir = std::env::temp_dir().join(format!("efold-data-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let bad = dir.join("bad.toml");
+    std::fs::write(&bad, "name = \"x\"\n[pivot]\nk_mpc = \"a lot\"\n").unwrap();
+    let r = efold(&[
+        "predict",
+        &model("exponential-plateau"),
+        "--data",
+        bad.to_str().unwrap(),
+    ]);
+    assert_eq!(r.code, 2);
+    insta::assert_snapshot!(
+        "predict_error_bad_data",
+        r.stderr.replace(&dir.display().to_string(), "TMP")
+    );
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn failures_exit_2_with_a_diagnosis() {
+    let tilt = model("pole-order-2-cubic-tilt");
+    let cases: Vec<(&str, Vec<&str>)> = vec![
+        ("never_ends", vec!["predict", "--potential", "1 + phi^2"]),
+        (
+            "too_few_efolds",
+            vec!["predict", "--potential", "phi^2", "--range", "0", "10"],
+        ),
+        ("into_the_pole", vec!["predict", &tilt, "--branch", "1"]),
+        ("negative_potential", vec!["predict", "--potential", "-1 - phi^2"]),
+        (
+            "no_such_branch",
+            vec!["predict", "--potential", "phi^2", "--branch", "7"],
+        ),
+        ("bad_efolds", vec!["predict", "--potential", "phi^2", "--efolds", "-5"]),
+    ];
+    for (name, args) in cases {
+        let r = efold(&args);
+        assert_eq!(r.code, 2, "{name}: {}", r.stderr);
+        assert!(r.stdout.is_empty());
+        insta::assert_snapshot!(
+            format!("predict_error_{name}"),
+            r.stderr.replace(env!("CARGO_MANIFEST_DIR"), "REPO")
+        );
+    }
+}
