@@ -6,7 +6,7 @@
 use crate::config::Config;
 use crate::model::{Model, OUT_K, OUT_SQRT_K, OUT_V};
 use crate::numerics::quad::{gauss_kronrod, tanh_sinh};
-use crate::numerics::roots::safeguarded_newton;
+use crate::numerics::roots::{brent, safeguarded_newton};
 use crate::numerics::{Estimate, NumericError};
 use crate::tape::{Evaluator, Jet, JET_LEN};
 use serde::Serialize;
@@ -179,7 +179,10 @@ enum Status {
 
 fn status(ev: &mut Evaluator<'_>, x: f64) -> Status {
     let v = ev.eval(x);
-    let k = ev.output(OUT_K);
+    classify_status(v, ev.output(OUT_K))
+}
+
+fn classify_status(v: f64, k: f64) -> Status {
     if !k.is_finite() {
         Status::KNotFinite
     } else if k <= 0.0 {
@@ -273,7 +276,14 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
         return check_range(ev, lo, hi, &field);
     }
     let grid = survey_grid();
-    let st: Vec<Status> = grid.iter().map(|&x| status(ev, x)).collect();
+    let samples: Vec<(f64, f64)> = grid
+        .iter()
+        .map(|&x| {
+            let v = ev.eval(x);
+            (v, ev.output(OUT_K))
+        })
+        .collect();
+    let st: Vec<Status> = samples.iter().map(|&(v, k)| classify_status(v, k)).collect();
     // Cut points: transitions of status, and hidden poles or zeros of K between good samples.
     let mut cuts: Vec<(f64, EndKind)> = Vec::new();
     for i in 0..grid.len() - 1 {
@@ -296,7 +306,8 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
         if st[i - 1] != Status::Good || st[i] != Status::Good || st[i + 1] != Status::Good {
             continue;
         }
-        if let Some(c) = hidden_singularity(ev, grid[i - 1], grid[i], grid[i + 1]) {
+        let ks = [samples[i - 1].1, samples[i].1, samples[i + 1].1];
+        if let Some(c) = hidden_singularity(ev, [grid[i - 1], grid[i], grid[i + 1]], ks) {
             cuts.push(c);
         }
     }
@@ -330,12 +341,14 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
     }
     // The interval to use: one whose V has a minimum with V >= 0 inside (where inflation can
     // end), the lowest such; failing that, the one holding phi = 0; failing that, the first.
+    // (From the survey samples: a sample lower than both neighbours, all inside.)
     let mut best: Option<(usize, f64)> = None;
     for (i, iv) in intervals.iter().enumerate() {
-        if let Some(m) = minimum_of_v(ev, iv).filter(|m| iv.contains(*m)) {
-            let v = ev.eval(m);
-            if v >= 0.0 && best.is_none_or(|(_, bv)| v < bv) {
-                best = Some((i, v));
+        for j in 1..grid.len() - 1 {
+            let (a, m, b) = (samples[j - 1].0, samples[j].0, samples[j + 1].0);
+            let inside = iv.contains(grid[j - 1]) && iv.contains(grid[j + 1]);
+            if inside && m <= a && m <= b && m >= 0.0 && best.is_none_or(|(_, bv)| m < bv) {
+                best = Some((i, m));
             }
         }
     }
@@ -344,11 +357,10 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
         .or_else(|| intervals.iter().position(|iv| iv.contains(0.0)))
         .unwrap_or(0);
     let interval = intervals.remove(pick);
-    let negative_v = negative_regions(ev, &interval, &grid);
     Ok(Domain {
         interval,
         others: intervals,
-        negative_v,
+        negative_v: Vec::new(),
         notes: Vec::new(),
     })
 }
@@ -438,35 +450,43 @@ fn end_kind_beyond(ev: &mut Evaluator<'_>, x: f64, beyond: f64, st: Status) -> E
 
 /// Between three good samples with the middle one extreme: a pole of K (1/K touches zero) or a
 /// zero of K (K touches zero), located where d(1/K)/dphi or dK/dphi changes sign.
-fn hidden_singularity(ev: &mut Evaluator<'_>, a: f64, m: f64, b: f64) -> Option<(f64, EndKind)> {
-    let k = |ev: &mut Evaluator<'_>, x: f64| {
-        ev.eval(x);
-        ev.output(OUT_K)
-    };
-    let (ka, km, kb) = (k(ev, a), k(ev, m), k(ev, b));
+fn hidden_singularity(ev: &mut Evaluator<'_>, x: [f64; 3], k: [f64; 3]) -> Option<(f64, EndKind)> {
+    let [a, _, b] = x;
+    let [ka, km, kb] = k;
     let dk = |ev: &mut Evaluator<'_>, x: f64| {
         ev.eval_jet(x, 1);
         let j = ev.jet_output(OUT_K);
         (j[0], j[1])
     };
-    if km >= ka && km >= kb {
+    if km > ka && km > kb {
         // Possible pole: d(1/K)/dphi = -K'/K^2 changes sign at the maximum of K.
-        let x = bisect_sign(
+        let x = brent(
             |x| {
                 let (k0, k1) = dk(ev, x);
-                -k1 / (k0 * k0)
+                if k0.is_finite() {
+                    -k1 / (k0 * k0)
+                } else {
+                    0.0
+                }
             },
             a,
             b,
-        )?;
-        let kx = k(ev, x);
-        let scale = ka.max(kb);
-        if !kx.is_finite() || kx > 1e12 * scale {
+            1e-16 * a.abs().max(b.abs()),
+            200,
+        )
+        .ok()?
+        .value;
+        ev.eval(x);
+        let kx = ev.output(OUT_K);
+        if !kx.is_finite() || kx > 1e12 * ka.max(kb) {
             return Some((x, EndKind::Pole));
         }
-    } else if km <= ka && km <= kb {
-        let x = bisect_sign(|x| dk(ev, x).1, a, b)?;
-        let kx = k(ev, x);
+    } else if km < ka && km < kb {
+        let x = brent(|x| dk(ev, x).1, a, b, 1e-16 * a.abs().max(b.abs()), 200)
+            .ok()?
+            .value;
+        ev.eval(x);
+        let kx = ev.output(OUT_K);
         if kx <= 1e-12 * ka.max(kb) {
             return Some((x, EndKind::ZeroOfK));
         }
@@ -486,8 +506,19 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         }
     };
     let probes: Vec<f64> = (1..400).map(|i| map(i as f64 / 400.0)).collect();
-    for w in probes.windows(3) {
-        if let Some((x, kind)) = hidden_singularity(ev, w[0], w[1], w[2]) {
+    let ks: Vec<f64> = probes
+        .iter()
+        .map(|&x| {
+            ev.eval(x);
+            ev.output(OUT_K)
+        })
+        .collect();
+    for i in 1..probes.len() - 1 {
+        let (x3, k3) = ([probes[i - 1], probes[i], probes[i + 1]], [ks[i - 1], ks[i], ks[i + 1]]);
+        if k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
+            continue;
+        }
+        if let Some((x, kind)) = hidden_singularity(ev, x3, k3) {
             let what = if kind == EndKind::Pole {
                 "K has a pole"
             } else {
@@ -538,12 +569,10 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         lo_kind: classify(ev, lo, 1.0),
         hi_kind: classify(ev, hi, -1.0),
     };
-    let grid = survey_grid();
-    let negative_v = negative_regions(ev, &interval, &grid);
     Ok(Domain {
         interval,
         others: Vec::new(),
-        negative_v,
+        negative_v: Vec::new(),
         notes: Vec::new(),
     })
 }
@@ -572,8 +601,8 @@ fn probe_end(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -> EndKi
 }
 
 /// Stretches of the interval where V < 0, located to rounding.
-fn negative_regions(ev: &mut Evaluator<'_>, iv: &Interval, grid: &[f64]) -> Vec<(f64, f64)> {
-    let mut pts: Vec<f64> = grid.iter().copied().filter(|&x| iv.contains(x)).collect();
+pub fn negative_regions(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<(f64, f64)> {
+    let mut pts: Vec<f64> = survey_grid().into_iter().filter(|&x| iv.contains(x)).collect();
     // also sample a little inside finite ends
     for (end, dir) in [(iv.lo, 1.0), (iv.hi, -1.0)] {
         if end.is_finite() {
@@ -653,11 +682,15 @@ pub fn minimum_of_v(ev: &mut Evaluator<'_>, iv: &Interval) -> Option<f64> {
     // Candidates: where V' changes sign next to the lowest sample, a finite end next to it,
     // and the sample itself; the lowest V wins, earlier candidates on ties.
     let mut cands: Vec<f64> = Vec::new();
-    if let Some(x) = bisect_sign(|x| dv(ev, x), pts[i - 1], pts[i]) {
-        cands.push(x);
-    }
-    if let Some(x) = bisect_sign(|x| dv(ev, x), pts[i], pts[i + 1]) {
-        cands.push(x);
+    for (a, b) in [(pts[i - 1], pts[i]), (pts[i], pts[i + 1])] {
+        let tol = 1e-16 * a.abs().max(b.abs());
+        if let Ok(r) = brent(|x| dv(ev, x), a, b, tol, 200) {
+            cands.push(if r.value.abs() < 1e-12 * (b - a).abs() {
+                0.0
+            } else {
+                r.value
+            });
+        }
     }
     cands.extend([iv.lo, iv.hi].into_iter().filter(|e| e.is_finite()));
     // No sign change of V' and no finite end: V only levels off numerically (an underflowing

@@ -3,8 +3,8 @@
 //! of (phi, chi, V), and a figure of V against phi and against chi.
 
 use crate::canonical::{
-    analyse_pole, asymptote, find_domain, minimum_of_v, ser_f64, AnalysisError, Asymptote, CanonicalMap, Domain,
-    EndKind, Pole,
+    analyse_pole, asymptote, find_domain, minimum_of_v, negative_regions, ser_f64, AnalysisError, Asymptote,
+    CanonicalMap, Domain, EndKind, Pole,
 };
 use crate::config::Config;
 use crate::ir::format_number;
@@ -92,7 +92,8 @@ pub struct Inspection {
 /// Runs the canonical analysis. `table` asks for that many rows of (phi, chi, V).
 pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<Inspection, AnalysisError> {
     let mut ev = model.evaluator();
-    let domain = find_domain(model, &mut ev)?;
+    let mut domain = find_domain(model, &mut ev)?;
+    domain.negative_v = negative_regions(&mut ev, &domain.interval);
     let iv = domain.interval;
     let field = model.field();
     let min_phi = minimum_of_v(&mut ev, &iv);

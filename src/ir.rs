@@ -23,7 +23,7 @@
 
 use crate::diag::{closest, Diagnostic, Span};
 use crate::syntax::{BinOp, Expr, ExprKind};
-use std::collections::HashMap;
+use rustc_hash::FxHashMap as HashMap;
 use std::fmt;
 
 /// A node's index in its [`Graph`].
@@ -335,7 +335,7 @@ impl Graph {
     pub fn new(scope: Scope) -> Graph {
         Graph {
             nodes: Vec::new(),
-            index: HashMap::new(),
+            index: HashMap::default(),
             varying: Vec::new(),
             scope,
         }
@@ -739,7 +739,7 @@ impl Graph {
     /// The symbolic derivative d/d(field), simplified by the same constructors.
     pub fn derivative(&mut self, root: Id) -> Id {
         let order = self.reachable(&[root]);
-        let mut d: HashMap<Id, Id> = HashMap::with_capacity(order.len());
+        let mut d: HashMap<Id, Id> = HashMap::default();
         for id in order {
             let dv = self.derivative_of(id, &d);
             d.insert(id, dv);

@@ -142,9 +142,9 @@ impl Branch {
 pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
     // The field's natural scale is M_p = 1: a logarithmic grid around 0 from 1e-5 to 1e8,
     // plus refinements toward each end of the interval.
-    let mut pts: Vec<f64> = (-60..=96)
+    let mut pts: Vec<f64> = (-30..=48)
         .flat_map(|k| {
-            let x = 10f64.powf(k as f64 / 12.0);
+            let x = 10f64.powf(k as f64 / 6.0);
             [x, -x]
         })
         .collect();
@@ -152,23 +152,23 @@ pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
     match (lo.is_finite(), hi.is_finite()) {
         (true, true) => {
             let w = hi - lo;
-            for k in 4..=52 {
-                let d = w * 10f64.powf(-k as f64 / 4.0);
+            for k in 2..=26 {
+                let d = w * 10f64.powf(-k as f64 / 2.0);
                 pts.push(lo + d);
                 pts.push(hi - d);
             }
-            for i in 1..64 {
-                pts.push(lo + w * i as f64 / 64.0);
+            for i in 1..32 {
+                pts.push(lo + w * i as f64 / 32.0);
             }
         }
         (true, false) | (false, true) => {
             let (end, dir) = if lo.is_finite() { (lo, 1.0) } else { (hi, -1.0) };
             let w = end.abs().max(1.0);
-            for k in 4..=52 {
-                pts.push(end + dir * w * 10f64.powf(-k as f64 / 4.0));
+            for k in 2..=26 {
+                pts.push(end + dir * w * 10f64.powf(-k as f64 / 2.0));
             }
-            for k in 0..=96 {
-                pts.push(end + dir * w * 10f64.powf(-1.0 + k as f64 / 12.0));
+            for k in 0..=48 {
+                pts.push(end + dir * w * 10f64.powf(-1.0 + k as f64 / 6.0));
             }
         }
         (false, false) => {}
@@ -257,6 +257,52 @@ pub fn fail(message: String, hints: &[&str]) -> AnalysisError {
 /// The end of inflation on a branch: the last point, going down toward the bottom, where
 /// eps_V rises through 1 with eps_V < 1 just above it. Errors say why there is none.
 pub fn end_of_inflation(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Result<f64, AnalysisError> {
+    // Fast path: walk up from the bottom to the first point that inflates; the crossing lies
+    // between it and the point below. eps_V needs only first derivatives.
+    let (lo, hi) = b.span();
+    let mut pts = sample_points(lo, hi);
+    if b.direction() > 0.0 {
+        pts.reverse(); // the bottom is at the larger end: start there
+    }
+    let mut below: Option<f64> = None;
+    for &x in &pts {
+        let (v, e) = eps_first_order(ev, x);
+        if !(v.is_finite() && e.is_finite()) {
+            continue;
+        }
+        if v > 0.0 && e < 1.0 {
+            if let Some(xb) = below {
+                let root = brent(
+                    |t| eps_first_order(ev, t).1 - 1.0,
+                    x,
+                    xb,
+                    1e-15 * x.abs().max(1e-300),
+                    300,
+                )?;
+                return Ok(root.value);
+            }
+            break; // inflating right at the bottom: diagnose below
+        }
+        if v <= 0.0 {
+            break; // negative V near the bottom: diagnose below
+        }
+        below = Some(x);
+    }
+    end_of_inflation_walk(ev, b, field)
+}
+
+/// (V, eps_V) from first-order jets.
+fn eps_first_order(ev: &mut Evaluator<'_>, x: f64) -> (f64, f64) {
+    ev.eval_jet(x, 1);
+    let v = ev.jet_output(OUT_V);
+    let (v0, v1) = (v[0], v[1]);
+    let s = ev.jet_output(crate::model::OUT_SQRT_K)[0];
+    let l = v1 / (s * v0);
+    (v0, 0.5 * l * l)
+}
+
+/// The full walk from the top down, with a diagnosis when there is no end.
+fn end_of_inflation_walk(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Result<f64, AnalysisError> {
     let (lo, hi) = b.span();
     // Walk the way the field rolls: from the top to the bottom.
     let mut pts = sample_points(lo, hi);
@@ -354,7 +400,10 @@ pub fn efolds_between(ev: &mut Evaluator<'_>, a: f64, b: f64, config: &Config) -
 }
 
 /// phi_* for each requested N_* (any order), counted from `phi_end` up the branch. Errors
-/// with the maximum available if the branch gives fewer e-folds.
+/// with the maximum available if the branch gives fewer e-folds. The march takes steps that
+/// halve toward a finite top (or double toward an infinite one), each integrated by adaptive
+/// Gauss–Kronrod; inside the step that passes N_*, Newton's method on N(phi) - N_* (with
+/// dN/dphi known exactly) is kept in its bracket by bisection.
 pub fn phi_stars(
     ev: &mut Evaluator<'_>,
     b: &Branch,
@@ -363,50 +412,39 @@ pub fn phi_stars(
     config: &Config,
     field: &str,
 ) -> Result<Vec<f64>, AnalysisError> {
-    let (lo, hi) = b.span();
     let up = -b.direction(); // direction of increasing N
-    let mut pts: Vec<f64> = sample_points(lo, hi)
-        .into_iter()
-        .filter(|&x| (x - phi_end) * up > 0.0)
-        .collect();
-    if up < 0.0 {
-        pts.reverse();
-    }
-    // Also a few points just above phi_end so that the first segment is short.
-    let w = (b.top - phi_end).abs().min(phi_end.abs().max(1.0));
-    let mut near: Vec<f64> = (1..=8).map(|k| phi_end + up * w * 10f64.powi(-k)).collect();
-    near.reverse();
-    let mut path: Vec<f64> = near
-        .into_iter()
-        .filter(|x| pts.first().is_none_or(|p| (p - x) * up > 0.0))
-        .collect();
-    path.extend(pts);
     let need = n_stars.iter().copied().fold(0.0f64, f64::max);
     let mut out = vec![f64::NAN; n_stars.len()];
-    let mut n_prev = 0.0;
-    let mut x_prev = phi_end;
-    for &x in &path {
-        let seg = efolds_between(ev, x_prev, x, config).map_err(|e| {
+    let step_point = |k: i32| -> f64 {
+        if b.top.is_finite() {
+            b.top - (b.top - phi_end) * 0.5f64.powi(k)
+        } else {
+            phi_end + up * 0.25 * phi_end.abs().max(1.0) * 2f64.powi(k - 1)
+        }
+    };
+    let integrate = |ev: &mut Evaluator<'_>, a: f64, x: f64| -> Result<f64, AnalysisError> {
+        efolds_between(ev, a, x, config).map_err(|e| {
             fail(
                 format!(
-                    "e-fold integral failed between {field} = {x_prev} and {x}: {}",
+                    "e-fold integral failed between {field} = {} and {}: {}",
+                    fmt_end(a),
+                    fmt_end(x),
                     e.message
                 ),
                 &["the slow-roll integrand V K / V' must stay finite up the branch"],
             )
-        })?;
-        let n_here = n_prev + seg;
+        })
+    };
+    let (mut x_prev, mut n_prev) = (phi_end, 0.0);
+    for k in 1..=60 {
+        let x = step_point(k);
+        if x == x_prev || !x.is_finite() {
+            break;
+        }
+        let n_here = n_prev + integrate(ev, x_prev, x)?;
         for (i, &target) in n_stars.iter().enumerate() {
             if out[i].is_nan() && n_here >= target {
-                let (base, n_base) = (x_prev, n_prev);
-                let r = brent(
-                    |t| n_base + efolds_between(ev, base, t, config).unwrap_or(f64::NAN) - target,
-                    x_prev,
-                    x,
-                    1e-15 * x.abs().max(1e-300),
-                    300,
-                )?;
-                out[i] = r.value;
+                out[i] = solve_n(ev, (x_prev, n_prev), (x, n_here), target, config)?;
             }
         }
         n_prev = n_here;
@@ -427,4 +465,42 @@ pub fn phi_stars(
         ));
     }
     Ok(out)
+}
+
+/// x in the bracket with N(x) = target, where N(a) <= target <= N(b): Newton steps from the
+/// last point, replaced by bisection when they leave the bracket. Stops at
+/// |N - target| < 1e-13 N or a step below 1e-15 |x|.
+fn solve_n(
+    ev: &mut Evaluator<'_>,
+    (mut a, na): (f64, f64),
+    (mut b, nb): (f64, f64),
+    target: f64,
+    config: &Config,
+) -> Result<f64, AnalysisError> {
+    let mut x = a + (b - a) * ((target - na) / (nb - na)).clamp(0.0, 1.0);
+    let (mut xk, mut nk) = (a, na);
+    for _ in 0..100 {
+        let n = nk + efolds_between(ev, xk, x, config)?;
+        if (n - target).abs() <= 1e-13 * target {
+            return Ok(x);
+        }
+        if n < target {
+            a = x;
+        } else {
+            b = x;
+        }
+        let newton = x - (n - target) / dn_dphi(ev, x);
+        let inside = newton.is_finite() && (newton - a) * (newton - b) < 0.0;
+        let next = if inside { newton } else { 0.5 * (a + b) };
+        if (next - x).abs() <= 1e-15 * x.abs().max(1e-300) {
+            return Ok(next);
+        }
+        xk = x;
+        nk = n;
+        x = next;
+    }
+    Err(fail(
+        format!("finding phi_* for N_* = {target} did not converge"),
+        &["report the model: the e-fold integral is not monotonic on this branch"],
+    ))
 }
