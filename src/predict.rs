@@ -311,8 +311,18 @@ fn run_branch(
     let data = &opts.data;
     let mp = data.units.reduced_planck_mass_gev;
     let v_end_user = ev.eval(phi_end);
+    // Canonical excursions, integrated piecewise in order of distance from the end.
+    let mut order: Vec<usize> = (0..stars.len()).collect();
+    order.sort_by(|&i, &j| (stars[i] - phi_end).abs().total_cmp(&(stars[j] - phi_end).abs()));
+    let mut excursion = vec![0.0; stars.len()];
+    let (mut from, mut acc) = (phi_end, 0.0);
+    for &i in &order {
+        acc += map.between(from, stars[i])?.value.abs();
+        excursion[i] = acc;
+        from = stars[i];
+    }
     let mut out = Vec::new();
-    for (&n_star, &phi_star) in n_stars.iter().zip(&stars) {
+    for (idx, (&n_star, &phi_star)) in n_stars.iter().zip(&stars).enumerate() {
         let sr = SlowRoll::at(ev, phi_star);
         let obs: Observables = if opts.second_order {
             sr.second_order()
@@ -324,7 +334,7 @@ fn run_branch(
         let v_star = scale * sr.v;
         let h_star = (v_star / 3.0).sqrt();
         let v_end = scale * v_end_user;
-        let delta_chi = map.chi(phi_star)?.value.abs();
+        let delta_chi = excursion[idx];
         let pull = (obs.n_s - data.n_s.mean) / data.n_s.sigma;
         let verdict = if pull.abs() > data.verdict.excluded_sigma || obs.r > data.r.upper {
             "excluded"
@@ -336,7 +346,7 @@ fn run_branch(
         // slow roll along the way
         let violated = (1..8).any(|k| {
             let x = phi_end + (phi_star - phi_end) * k as f64 / 8.0;
-            SlowRoll::at(ev, x).eps_v >= 1.0
+            crate::slowroll::eps_first_order(ev, x).1 >= 1.0
         });
         if violated {
             warnings.push(format!(

@@ -292,7 +292,7 @@ pub fn end_of_inflation(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Resu
 }
 
 /// (V, eps_V) from first-order jets.
-fn eps_first_order(ev: &mut Evaluator<'_>, x: f64) -> (f64, f64) {
+pub fn eps_first_order(ev: &mut Evaluator<'_>, x: f64) -> (f64, f64) {
     ev.eval_jet(x, 1);
     let v = ev.jet_output(OUT_V);
     let (v0, v1) = (v[0], v[1]);
