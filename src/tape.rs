@@ -329,8 +329,49 @@ impl Evaluator<'_> {
 /// compiler unroll every recurrence.
 fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize) {
     for (i, op) in body.iter().enumerate() {
-        let v = jet_op(*op, jets, var_reg, N);
-        jets[var_reg + 1 + i] = v;
+        // Operands always precede the destination: split there and write in place.
+        let (src, dst) = jets.split_at_mut(var_reg + 1 + i);
+        let out = &mut dst[0];
+        match *op {
+            Op::Add(a, b) => zip_into::<N>(&src[a as usize], &src[b as usize], out, |x, y| x + y),
+            Op::Sub(a, b) => zip_into::<N>(&src[a as usize], &src[b as usize], out, |x, y| x - y),
+            Op::Mul(a, b) if (a as usize) < var_reg => scale_into::<N>(&src[b as usize], src[a as usize][0], out),
+            Op::Mul(a, b) if (b as usize) < var_reg => scale_into::<N>(&src[a as usize], src[b as usize][0], out),
+            Op::Mul(a, b) => mul_into::<N>(&src[a as usize], &src[b as usize], out),
+            Op::Neg(a) => scale_into::<N>(&src[a as usize], -1.0, out),
+            Op::PowI(a, 2) => {
+                let a = &src[a as usize];
+                for k in 0..=N {
+                    out[k] = square_coefficient(a, k);
+                }
+            }
+            _ => *out = jet_op::<N>(*op, src, var_reg),
+        }
+    }
+}
+
+#[inline(always)]
+fn zip_into<const N: usize>(a: &Jet, b: &Jet, out: &mut Jet, f: impl Fn(f64, f64) -> f64) {
+    for k in 0..=N {
+        out[k] = f(a[k], b[k]);
+    }
+}
+
+#[inline(always)]
+fn scale_into<const N: usize>(a: &Jet, s: f64, out: &mut Jet) {
+    for k in 0..=N {
+        out[k] = a[k] * s;
+    }
+}
+
+#[inline(always)]
+fn mul_into<const N: usize>(a: &Jet, b: &Jet, out: &mut Jet) {
+    for k in 0..=N {
+        let mut s = 0.0;
+        for j in 0..=k {
+            s += a[j] * b[k - j];
+        }
+        out[k] = s;
     }
 }
 
@@ -368,7 +409,8 @@ fn constant(v: f64) -> Jet {
 /// One instruction on jets. Registers below `fixed` hold constants (order 0 only), which lets
 /// products and quotients by them skip the convolution.
 #[inline(always)]
-fn jet_op(op: Op, regs: &[Jet], fixed: usize, n: usize) -> Jet {
+fn jet_op<const N: usize>(op: Op, regs: &[Jet], fixed: usize) -> Jet {
+    let n = N;
     let r = |i: u32| &regs[i as usize];
     match op {
         Op::Add(a, b) => zip(r(a), r(b), n, |x, y| x + y),
@@ -475,12 +517,13 @@ fn integrate(b0: f64, a: &Jet, g: &Jet, n: usize) -> Jet {
 /// exp: b_k = (1/k) sum_{j=1}^{k} j a_j b_{k-j}
 #[inline(always)]
 fn exp_jet(a: &Jet, n: usize) -> Jet {
+    let da = weighted(a, n);
     let mut b = [0.0; JET_LEN];
     b[0] = a[0].exp();
     for k in 1..=n {
         let mut s = 0.0;
         for j in 1..=k {
-            s += j as f64 * a[j] * b[k - j];
+            s += da[j] * b[k - j];
         }
         b[k] = s * INV[k];
     }
@@ -600,6 +643,7 @@ fn sin_cos(a: &Jet, n: usize, hyperbolic: bool) -> (Jet, Jet) {
 /// tan (sign +1) and tanh (sign -1): t' = (1 + sign t^2) a'.
 #[inline(always)]
 fn tan_like(a: &Jet, n: usize, t0: f64, sign: f64) -> Jet {
+    let da = weighted(a, n);
     let mut t = [0.0; JET_LEN];
     let mut u = [0.0; JET_LEN];
     t[0] = t0;
@@ -607,16 +651,38 @@ fn tan_like(a: &Jet, n: usize, t0: f64, sign: f64) -> Jet {
     for k in 1..=n {
         let mut s = 0.0;
         for j in 1..=k {
-            s += j as f64 * a[j] * u[k - j];
+            s += da[j] * u[k - j];
         }
         t[k] = s * INV[k];
-        let mut q = 0.0;
-        for j in 0..=k {
-            q += t[j] * t[k - j];
+        if k < n {
+            u[k] = sign * square_coefficient(&t, k);
         }
-        u[k] = sign * q;
     }
     t
+}
+
+/// j a_j, the coefficients of a' (times the order), shared by the recurrences.
+#[inline(always)]
+fn weighted(a: &Jet, n: usize) -> Jet {
+    let mut d = [0.0; JET_LEN];
+    for j in 1..=n {
+        d[j] = j as f64 * a[j];
+    }
+    d
+}
+
+/// Coefficient k of a^2, using the symmetry of the convolution.
+#[inline(always)]
+fn square_coefficient(a: &Jet, k: usize) -> f64 {
+    let mut s = 0.0;
+    for j in 0..k.div_ceil(2) {
+        s += a[j] * a[k - j];
+    }
+    s *= 2.0;
+    if k % 2 == 0 {
+        s += a[k / 2] * a[k / 2];
+    }
+    s
 }
 
 #[inline(always)]
