@@ -212,13 +212,16 @@ pub struct Domain {
 }
 
 /// Sample points used to survey the real line: 0 and +-10^(k/10) for 1e-5 <= |x| <= 1e6.
-fn survey_grid() -> Vec<f64> {
-    let mut g: Vec<f64> = (-50..=60).map(|k| 10f64.powf(k as f64 / 10.0)).collect();
-    let neg: Vec<f64> = g.iter().map(|x| -x).collect();
-    g.extend(neg);
-    g.push(0.0);
-    g.sort_by(f64::total_cmp);
-    g
+fn survey_grid() -> &'static [f64] {
+    static GRID: std::sync::OnceLock<Vec<f64>> = std::sync::OnceLock::new();
+    GRID.get_or_init(|| {
+        let mut g: Vec<f64> = (-50..=60).map(|k| 10f64.powf(k as f64 / 10.0)).collect();
+        let neg: Vec<f64> = g.iter().map(|x| -x).collect();
+        g.extend(neg);
+        g.push(0.0);
+        g.sort_by(f64::total_cmp);
+        g
+    })
 }
 
 /// Bisects between a point with status `good` and one without, to rounding.
@@ -602,7 +605,7 @@ fn probe_end(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -> EndKi
 
 /// Stretches of the interval where V < 0, located to rounding.
 pub fn negative_regions(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<(f64, f64)> {
-    let mut pts: Vec<f64> = survey_grid().into_iter().filter(|&x| iv.contains(x)).collect();
+    let mut pts: Vec<f64> = survey_grid().iter().copied().filter(|&x| iv.contains(x)).collect();
     // also sample a little inside finite ends
     for (end, dir) in [(iv.lo, 1.0), (iv.hi, -1.0)] {
         if end.is_finite() {
@@ -646,7 +649,7 @@ pub fn negative_regions(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<(f64, f64)
 /// The minimum of V inside the interval (the lowest survey point, refined where V' changes
 /// sign). None if V decreases all the way to an end (a runaway).
 pub fn minimum_of_v(ev: &mut Evaluator<'_>, iv: &Interval) -> Option<f64> {
-    let mut pts: Vec<f64> = survey_grid().into_iter().filter(|&x| iv.contains(x)).collect();
+    let mut pts: Vec<f64> = survey_grid().iter().copied().filter(|&x| iv.contains(x)).collect();
     for (end, dir) in [(iv.lo, 1.0), (iv.hi, -1.0)] {
         if end.is_finite() {
             let w = (iv.hi - iv.lo).min(end.abs().max(1.0));

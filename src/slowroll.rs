@@ -141,21 +141,28 @@ impl Branch {
 /// geometrically toward infinite ones. Ascending.
 pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
     // The field's natural scale is M_p = 1: a logarithmic grid around 0 from 1e-5 to 1e8,
-    // plus refinements toward each end of the interval.
-    let mut pts: Vec<f64> = (-30..=48)
-        .flat_map(|k| {
-            let x = 10f64.powf(k as f64 / 6.0);
-            [x, -x]
-        })
-        .collect();
-    pts.push(0.0);
+    // plus refinements toward each end of the interval (powers of ten precomputed once).
+    static GRID: std::sync::OnceLock<(Vec<f64>, Vec<f64>, Vec<f64>)> = std::sync::OnceLock::new();
+    let (log_grid, near_end, outward) = GRID.get_or_init(|| {
+        let mut g: Vec<f64> = (-30..=48)
+            .flat_map(|k| {
+                let x = 10f64.powf(k as f64 / 6.0);
+                [x, -x]
+            })
+            .collect();
+        g.push(0.0);
+        let near: Vec<f64> = (2..=26).map(|k| 10f64.powf(-k as f64 / 2.0)).collect();
+        let out: Vec<f64> = (0..=48).map(|k| 10f64.powf(-1.0 + k as f64 / 6.0)).collect();
+        (g, near, out)
+    });
+    let mut pts: Vec<f64> = Vec::with_capacity(log_grid.len() + 2 * near_end.len() + outward.len());
+    pts.extend(log_grid.iter().copied().filter(|x| *x > lo && *x < hi));
     match (lo.is_finite(), hi.is_finite()) {
         (true, true) => {
             let w = hi - lo;
-            for k in 2..=26 {
-                let d = w * 10f64.powf(-k as f64 / 2.0);
-                pts.push(lo + d);
-                pts.push(hi - d);
+            for f in near_end {
+                pts.push(lo + w * f);
+                pts.push(hi - w * f);
             }
             for i in 1..32 {
                 pts.push(lo + w * i as f64 / 32.0);
@@ -164,17 +171,14 @@ pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
         (true, false) | (false, true) => {
             let (end, dir) = if lo.is_finite() { (lo, 1.0) } else { (hi, -1.0) };
             let w = end.abs().max(1.0);
-            for k in 2..=26 {
-                pts.push(end + dir * w * 10f64.powf(-k as f64 / 2.0));
-            }
-            for k in 0..=48 {
-                pts.push(end + dir * w * 10f64.powf(-1.0 + k as f64 / 6.0));
+            for f in near_end.iter().chain(outward.iter()) {
+                pts.push(end + dir * w * f);
             }
         }
         (false, false) => {}
     }
     pts.retain(|x| *x > lo && *x < hi && x.is_finite());
-    pts.sort_by(f64::total_cmp);
+    pts.sort_unstable_by(f64::total_cmp);
     pts.dedup();
     pts
 }
@@ -400,10 +404,14 @@ pub fn efolds_between(ev: &mut Evaluator<'_>, a: f64, b: f64, config: &Config) -
 }
 
 /// phi_* for each requested N_* (any order), counted from `phi_end` up the branch. Errors
-/// with the maximum available if the branch gives fewer e-folds. The march takes steps that
-/// halve toward a finite top (or double toward an infinite one), each integrated by adaptive
-/// Gauss–Kronrod; inside the step that passes N_*, Newton's method on N(phi) - N_* (with
-/// dN/dphi known exactly) is kept in its bracket by bisection.
+/// with the maximum available if the branch gives fewer e-folds.
+///
+/// The e-fold integral is taken in a variable that keeps the integrand tame: toward a finite
+/// top (a pole of K, a maximum of V) s = 1/|top - phi|, in which the 1/d^p growth of
+/// V K / V' near a pole of order p becomes a power of s; toward an infinite top, s = phi.
+/// The march doubles s, each step one adaptive Gauss–Kronrod integral; inside the step that
+/// passes N_*, Newton's method on N(s) - N_* (dN/ds known exactly) is kept in its bracket by
+/// bisection.
 pub fn phi_stars(
     ev: &mut Evaluator<'_>,
     b: &Branch,
@@ -412,43 +420,38 @@ pub fn phi_stars(
     config: &Config,
     field: &str,
 ) -> Result<Vec<f64>, AnalysisError> {
-    let up = -b.direction(); // direction of increasing N
+    let coord = Coord::new(b, phi_end);
     let need = n_stars.iter().copied().fold(0.0f64, f64::max);
     let mut out = vec![f64::NAN; n_stars.len()];
-    let step_point = |k: i32| -> f64 {
-        if b.top.is_finite() {
-            b.top - (b.top - phi_end) * 0.5f64.powi(k)
-        } else {
-            phi_end + up * 0.25 * phi_end.abs().max(1.0) * 2f64.powi(k - 1)
-        }
-    };
     let integrate = |ev: &mut Evaluator<'_>, a: f64, x: f64| -> Result<f64, AnalysisError> {
-        efolds_between(ev, a, x, config).map_err(|e| {
+        let r = gauss_kronrod(|s| coord.dn_ds(ev, s), a, x, &config.quad).map_err(|e| {
             fail(
                 format!(
-                    "e-fold integral failed between {field} = {} and {}: {}",
-                    fmt_end(a),
-                    fmt_end(x),
-                    e.message
+                    "e-fold integral failed between {field} = {} and {}: {e}",
+                    fmt_end(coord.phi(a)),
+                    fmt_end(coord.phi(x))
                 ),
                 &["the slow-roll integrand V K / V' must stay finite up the branch"],
             )
-        })
+        })?;
+        Ok(r.value)
     };
-    let (mut x_prev, mut n_prev) = (phi_end, 0.0);
+    let (mut s_prev, mut n_prev) = (coord.s_end, 0.0);
     for k in 1..=60 {
-        let x = step_point(k);
-        if x == x_prev || !x.is_finite() {
+        let s = coord.step(k);
+        let phi = coord.phi(s);
+        if !s.is_finite() || !phi.is_finite() || phi == coord.phi(s_prev) || (phi - b.top) * (phi_end - b.top) <= 0.0 {
             break;
         }
-        let n_here = n_prev + integrate(ev, x_prev, x)?;
+        let n_here = n_prev + integrate(ev, s_prev, s)?;
         for (i, &target) in n_stars.iter().enumerate() {
             if out[i].is_nan() && n_here >= target {
-                out[i] = solve_n(ev, (x_prev, n_prev), (x, n_here), target, config)?;
+                let s_star = solve_n(ev, &coord, (s_prev, n_prev), (s, n_here), target, config)?;
+                out[i] = coord.phi(s_star);
             }
         }
         n_prev = n_here;
-        x_prev = x;
+        s_prev = s;
         if n_here >= need {
             break;
         }
@@ -467,11 +470,66 @@ pub fn phi_stars(
     Ok(out)
 }
 
-/// x in the bracket with N(x) = target, where N(a) <= target <= N(b): Newton steps from the
+/// The integration variable of [`phi_stars`].
+struct Coord {
+    /// The branch top, if finite.
+    top: Option<f64>,
+    /// +1 if N grows with phi.
+    up: f64,
+    phi_end: f64,
+    /// s at the end of inflation.
+    s_end: f64,
+}
+
+impl Coord {
+    fn new(b: &Branch, phi_end: f64) -> Coord {
+        let up = -b.direction();
+        let top = b.top.is_finite().then_some(b.top);
+        let s_end = match top {
+            Some(t) => 1.0 / (t - phi_end).abs(),
+            None => phi_end,
+        };
+        Coord {
+            top,
+            up,
+            phi_end,
+            s_end,
+        }
+    }
+
+    fn phi(&self, s: f64) -> f64 {
+        match self.top {
+            Some(t) => t - self.up / s,
+            None => s,
+        }
+    }
+
+    fn dphi_ds(&self, s: f64) -> f64 {
+        match self.top {
+            Some(_) => self.up / (s * s),
+            None => 1.0,
+        }
+    }
+
+    /// The k-th point of the march.
+    fn step(&self, k: i32) -> f64 {
+        match self.top {
+            Some(_) => self.s_end * 2f64.powi(k),
+            None => self.phi_end + self.up * 0.25 * self.phi_end.abs().max(1.0) * 2f64.powi(k - 1),
+        }
+    }
+
+    fn dn_ds(&self, ev: &mut Evaluator<'_>, s: f64) -> f64 {
+        dn_dphi(ev, self.phi(s)) * self.dphi_ds(s)
+    }
+}
+
+/// s in the bracket with N(s) = target, where N(a) <= target <= N(b): Newton steps from the
 /// last point, replaced by bisection when they leave the bracket. Stops at
-/// |N - target| < 1e-13 N or a step below 1e-15 |x|.
+/// |N - target| < 1e-13 N or a step below 1e-15 |s|.
 fn solve_n(
     ev: &mut Evaluator<'_>,
+    coord: &Coord,
     (mut a, na): (f64, f64),
     (mut b, nb): (f64, f64),
     target: f64,
@@ -480,7 +538,7 @@ fn solve_n(
     let mut x = a + (b - a) * ((target - na) / (nb - na)).clamp(0.0, 1.0);
     let (mut xk, mut nk) = (a, na);
     for _ in 0..100 {
-        let n = nk + efolds_between(ev, xk, x, config)?;
+        let n = nk + gauss_kronrod(|s| coord.dn_ds(ev, s), xk, x, &config.quad)?.value;
         if (n - target).abs() <= 1e-13 * target {
             return Ok(x);
         }
@@ -489,7 +547,7 @@ fn solve_n(
         } else {
             b = x;
         }
-        let newton = x - (n - target) / dn_dphi(ev, x);
+        let newton = x - (n - target) / coord.dn_ds(ev, x);
         let inside = newton.is_finite() && (newton - a) * (newton - b) < 0.0;
         let next = if inside { newton } else { 0.5 * (a + b) };
         if (next - x).abs() <= 1e-15 * x.abs().max(1e-300) {

@@ -273,7 +273,9 @@ fn expected_words(rules: &[Rule]) -> String {
         let w = match r {
             Rule::EOI => "the end of the expression",
             Rule::add_op | Rule::mul_op | Rule::pow_op => "an operator",
-            Rule::number | Rule::ident | Rule::primary | Rule::call | Rule::group => "a number, a name or `(`",
+            Rule::number | Rule::ident | Rule::primary | Rule::name | Rule::args | Rule::group => {
+                "a number, a name or `(`"
+            }
             Rule::sum | Rule::product | Rule::factor | Rule::power | Rule::exponent | Rule::sign => "an operand",
             _ => "something else",
         };
@@ -381,12 +383,12 @@ impl Builder<'_> {
         let mut links: Vec<(Vec<Span>, Expr)> = Vec::new();
         for p in pair.into_inner() {
             match p.as_rule() {
-                Rule::primary => base = Some(self.primary(p)?),
+                Rule::pow_op => {}
                 Rule::exponent => {
                     let (signs, prim) = self.signs(p);
                     links.push((signs, self.primary(prim)?));
                 }
-                _ => {}
+                _ => base = Some(self.primary(p)?),
             }
         }
         let base = base.expect("grammar: power starts with a primary");
@@ -403,8 +405,7 @@ impl Builder<'_> {
         self.binary(BinOp::Pow, base, exp)
     }
 
-    fn primary(&self, pair: Pair<'_, Rule>) -> Result<Expr, SyntaxError> {
-        let inner = pair.into_inner().next().expect("grammar: primary has one child");
+    fn primary(&self, inner: Pair<'_, Rule>) -> Result<Expr, SyntaxError> {
         let span = span_of(&inner);
         match inner.as_rule() {
             Rule::number => {
@@ -417,24 +418,26 @@ impl Builder<'_> {
                 }
                 self.node(ExprKind::Number(v), span)
             }
-            Rule::ident => self.node(ExprKind::Ident(inner.as_str().to_string()), span),
-            Rule::group => {
-                let sum = inner.into_inner().next().expect("grammar: group holds a sum");
-                let mut e = self.sum(sum)?;
-                e.span = span;
-                Ok(e)
-            }
-            Rule::call => {
+            Rule::name => {
                 let mut it = inner.into_inner();
-                let name = it.next().expect("grammar: call starts with a name");
+                let name = it.next().expect("grammar: a name starts with an identifier");
+                let Some(args) = it.next() else {
+                    return self.node(ExprKind::Ident(name.as_str().to_string()), span);
+                };
                 let name_span = span_of(&name);
-                let args = it.map(|a| self.sum(a)).collect::<Result<Vec<_>, _>>()?;
+                let args = args.into_inner().map(|a| self.sum(a)).collect::<Result<Vec<_>, _>>()?;
                 let kind = ExprKind::Call {
                     name: name.as_str().to_string(),
                     name_span,
                     args,
                 };
                 self.node(kind, span)
+            }
+            Rule::group => {
+                let sum = inner.into_inner().next().expect("grammar: group holds a sum");
+                let mut e = self.sum(sum)?;
+                e.span = span;
+                Ok(e)
             }
             r => unreachable!("grammar: unexpected primary {r:?}"),
         }
