@@ -323,7 +323,7 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
     let mut intervals = Vec::new();
     for w in bounds.windows(2) {
         let (lo, hi) = (w[0].0, w[1].0);
-        let probe = interior_probe(lo, hi, &grid);
+        let probe = interior_probe(lo, hi, grid);
         if status(ev, probe) == Status::Good {
             intervals.push(Interval {
                 lo,
