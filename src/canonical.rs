@@ -498,7 +498,7 @@ fn hidden_singularity(ev: &mut Evaluator<'_>, x: [f64; 3], k: [f64; 3]) -> Optio
 }
 
 fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<Domain, AnalysisError> {
-    // Probe the interior densely enough to find a bad stretch: 400 points, evenly spaced in a
+    // Probe the interior densely enough to find a bad stretch: 256 points, evenly spaced in a
     // variable that maps infinite ends to finite ones.
     let map = |u: f64| -> f64 {
         match (lo.is_finite(), hi.is_finite()) {
@@ -508,7 +508,7 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
             (false, false) => (u - 0.5) / (u * (1.0 - u)),
         }
     };
-    let probes: Vec<f64> = (1..400).map(|i| map(i as f64 / 400.0)).collect();
+    let probes: Vec<f64> = (1..256).map(|i| map(i as f64 / 256.0)).collect();
     let ks: Vec<f64> = probes
         .iter()
         .map(|&x| {
