@@ -52,6 +52,16 @@ pub enum Op {
     Pow(u32, u32),
     /// f(r[a])
     Func(Func, u32),
+    /// A polynomial in r[x]: coefficients in registers `poly_regs[first ..= first + degree]`,
+    /// lowest degree first; evaluated by Estrin's scheme in f64 and Horner's rule on jets.
+    Poly {
+        /// The variable's register.
+        x: u32,
+        /// Index of the constant coefficient in the tape's coefficient list.
+        first: u32,
+        /// The degree.
+        degree: u32,
+    },
 }
 
 /// The compiled form of one or more expressions over one scope.
@@ -72,12 +82,19 @@ pub struct Tape {
     body: Vec<Op>,
     outputs: Vec<u32>,
     has_abs: bool,
+    /// Coefficient registers of the polynomial instructions.
+    poly_regs: Vec<u32>,
 }
 
 impl Tape {
     /// Compiles the given roots of a graph (one output each, in order).
     pub fn compile(graph: &Graph, roots: &[Id]) -> Tape {
-        let order = graph.reachable(roots);
+        // Sums of monomials in the field become one polynomial instruction; their combined
+        // coefficients are new parameter-only nodes of a copy of the graph.
+        let mut g = graph.clone();
+        let polys = find_polynomials(&mut g, roots);
+        let graph = &g;
+        let order = reachable_with(graph, roots, &polys);
         let mut reg = vec![u32::MAX; graph.len()];
         let mut next = 0u32;
         let mut tape = Tape {
@@ -91,6 +108,7 @@ impl Tape {
             body: Vec::new(),
             outputs: Vec::new(),
             has_abs: false,
+            poly_regs: Vec::new(),
         };
         // Leaves first: constants and parameters.
         for &id in &order {
@@ -119,6 +137,16 @@ impl Tape {
             let n = graph.node(id);
             if n == Node::Var {
                 reg[id.index()] = tape.var_reg;
+            } else if let Some((x, coeffs)) = polys.get(&id) {
+                let first = tape.poly_regs.len() as u32;
+                tape.poly_regs.extend(coeffs.iter().map(|c| reg[c.index()]));
+                tape.body.push(Op::Poly {
+                    x: reg[x.index()],
+                    first,
+                    degree: coeffs.len() as u32 - 1,
+                });
+                reg[id.index()] = next;
+                next += 1;
             } else if !is_leaf(n) && graph.is_varying(id) {
                 tape.body.push(op_of(n, &reg));
                 reg[id.index()] = next;
@@ -160,10 +188,156 @@ impl Tape {
             tape: self,
             regs: vec![0.0; self.n_regs],
             jets: vec![[0.0; JET_LEN]; self.n_regs],
+            coeffs: vec![0.0; self.poly_regs.len()],
         };
         ev.set_params(params);
         ev
     }
+}
+
+/// Polynomials found in the graph: root -> (variable, coefficient nodes by degree).
+type Polys = rustc_hash::FxHashMap<Id, (Id, Vec<Id>)>;
+
+/// Smallest polynomial worth its own instruction: this many monomial terms, and degree 2.
+const MIN_POLY_TERMS: usize = 3;
+/// Largest degree handled as a polynomial instruction.
+pub const MAX_POLY_DEGREE: usize = 48;
+
+/// Finds maximal sums (Add/Sub/Neg trees) of monomials c x^k in the field x, with c free of
+/// the field, and adds nodes for their combined coefficients.
+fn find_polynomials(g: &mut Graph, roots: &[Id]) -> Polys {
+    let order = g.reachable(roots);
+    // A sum node inside a larger sum is not a root of its own.
+    let mut inner = vec![false; g.len()];
+    for &id in &order {
+        let kids: Vec<Id> = match g.node(id) {
+            Node::Add(a, b) | Node::Sub(a, b) => vec![a, b],
+            Node::Neg(a) => vec![a],
+            _ => continue,
+        };
+        for c in kids {
+            if matches!(g.node(c), Node::Add(..) | Node::Sub(..) | Node::Neg(_)) {
+                inner[c.index()] = true;
+            }
+        }
+    }
+    let mut out = Polys::default();
+    for &id in &order {
+        if inner[id.index()] || !g.is_varying(id) || !matches!(g.node(id), Node::Add(..) | Node::Sub(..)) {
+            continue;
+        }
+        let mut terms: Vec<(usize, bool, Factors)> = Vec::new();
+        if !monomials(g, id, false, &mut terms) || terms.len() < MIN_POLY_TERMS {
+            continue;
+        }
+        let degree = terms.iter().map(|t| t.0).max().unwrap_or(0);
+        if !(2..=MAX_POLY_DEGREE).contains(&degree) {
+            continue;
+        }
+        let x = g.var();
+        let zero = g.constant(0.0);
+        let one = g.constant(1.0);
+        let mut coeffs = vec![zero; degree + 1];
+        let mut set = vec![false; degree + 1];
+        for (k, negative, factors) in terms {
+            let mut c = one;
+            for (f, divide) in factors {
+                c = if divide { g.div(c, f) } else { g.mul(c, f) };
+            }
+            coeffs[k] = match (set[k], negative) {
+                (false, false) => c,
+                (false, true) => g.neg(c),
+                (true, false) => g.add(coeffs[k], c),
+                (true, true) => g.sub(coeffs[k], c),
+            };
+            set[k] = true;
+        }
+        out.insert(id, (x, coeffs));
+    }
+    out
+}
+
+/// A monomial's coefficient: a product of field-free factors, each multiplied or divided.
+type Factors = Vec<(Id, bool)>;
+
+/// Collects the monomials of a sum: (degree, negated, coefficient factors).
+fn monomials(g: &Graph, id: Id, negative: bool, terms: &mut Vec<(usize, bool, Factors)>) -> bool {
+    if !g.is_varying(id) {
+        terms.push((0, negative, vec![(id, false)]));
+        return true;
+    }
+    match g.node(id) {
+        Node::Add(a, b) => monomials(g, a, negative, terms) && monomials(g, b, negative, terms),
+        Node::Sub(a, b) => monomials(g, a, negative, terms) && monomials(g, b, !negative, terms),
+        Node::Neg(a) => monomials(g, a, !negative, terms),
+        _ => match monomial(g, id) {
+            Some((k, factors)) => {
+                terms.push((k, negative, factors));
+                true
+            }
+            None => false,
+        },
+    }
+}
+
+/// c x^k as (k, factors of c), through products and quotients by field-free nodes.
+fn monomial(g: &Graph, id: Id) -> Option<(usize, Factors)> {
+    if let Some(k) = power_of_var(g, id) {
+        return Some((k, Vec::new()));
+    }
+    match g.node(id) {
+        Node::Mul(a, b) => {
+            let (c, m) = if !g.is_varying(a) {
+                (a, b)
+            } else if !g.is_varying(b) {
+                (b, a)
+            } else {
+                return None;
+            };
+            let (k, mut f) = monomial(g, m)?;
+            f.push((c, false));
+            Some((k, f))
+        }
+        Node::Div(m, c) if !g.is_varying(c) => {
+            let (k, mut f) = monomial(g, m)?;
+            f.push((c, true));
+            Some((k, f))
+        }
+        _ => None,
+    }
+}
+
+/// k if the node is the field to a non-negative integer power k.
+fn power_of_var(g: &Graph, id: Id) -> Option<usize> {
+    match g.node(id) {
+        Node::Var => Some(1),
+        Node::PowI(a, k) if k >= 0 && g.node(a) == Node::Var => Some(k as usize),
+        Node::Pow(a, e) if g.node(a) == Node::Var => match g.constant_value(e) {
+            Some(k) if k >= 0.0 && k.fract() == 0.0 && k <= MAX_POLY_DEGREE as f64 => Some(k as usize),
+            _ => None,
+        },
+        _ => None,
+    }
+}
+
+/// Nodes reachable from the roots, a polynomial root reaching only its variable and
+/// coefficients; ascending.
+fn reachable_with(g: &Graph, roots: &[Id], polys: &Polys) -> Vec<Id> {
+    let mut seen = vec![false; g.len()];
+    let mut stack: Vec<Id> = roots.to_vec();
+    while let Some(id) = stack.pop() {
+        if std::mem::replace(&mut seen[id.index()], true) {
+            continue;
+        }
+        match polys.get(&id) {
+            Some((x, coeffs)) => {
+                stack.push(*x);
+                stack.extend(coeffs.iter().copied());
+            }
+            None => stack.extend(g.children(id)),
+        }
+    }
+    (0..g.len()).filter(|&i| seen[i]).map(|i| Id(i as u32)).collect()
 }
 
 fn op_of(n: Node, reg: &[u32]) -> Op {
@@ -185,11 +359,15 @@ fn op_of(n: Node, reg: &[u32]) -> Op {
     }
 }
 
-/// Runs `ops`, the i-th writing register `start + i`.
+/// Runs `ops`, the i-th writing register `start + i`; `coeffs` holds the coefficients of the
+/// polynomial instructions, contiguous.
 #[inline(always)]
-fn run_f64(ops: &[Op], regs: &mut [f64], start: usize) {
+fn run_f64(ops: &[Op], regs: &mut [f64], start: usize, coeffs: &[f64]) {
     for (i, op) in ops.iter().enumerate() {
         let v = match *op {
+            Op::Poly { x, first, degree } => {
+                estrin(regs[x as usize], &coeffs[first as usize..=(first + degree) as usize])
+            }
             Op::Add(a, b) => regs[a as usize] + regs[b as usize],
             Op::Sub(a, b) => regs[a as usize] - regs[b as usize],
             Op::Mul(a, b) => regs[a as usize] * regs[b as usize],
@@ -201,6 +379,39 @@ fn run_f64(ops: &[Op], regs: &mut [f64], start: usize) {
         };
         regs[start + i] = v;
     }
+}
+
+/// Sum of regs[c[k]] x^k by Estrin's scheme: pairs c_2i + c_2i+1 x, then pairs of those with
+/// x^2, x^4, ...: the same number of operations as Horner's rule, in log2(degree) dependent
+/// steps rather than degree.
+#[inline]
+fn estrin(x: f64, c: &[f64]) -> f64 {
+    let n = c.len();
+    let mut b = [0.0f64; MAX_POLY_DEGREE / 2 + 1];
+    let pairs = n / 2;
+    for i in 0..pairs {
+        b[i] = c[2 * i] + c[2 * i + 1] * x;
+    }
+    let mut m = pairs;
+    if n % 2 == 1 {
+        b[m] = c[n - 1];
+        m += 1;
+    }
+    let mut p = x * x;
+    while m > 1 {
+        let half = m / 2;
+        for i in 0..half {
+            b[i] = b[2 * i] + b[2 * i + 1] * p;
+        }
+        if m % 2 == 1 {
+            b[half] = b[m - 1];
+            m = half + 1;
+        } else {
+            m = half;
+        }
+        p *= p;
+    }
+    b[0]
 }
 
 /// x^n for a small integer n; the one definition the folder, the tape and the jets share.
@@ -244,6 +455,8 @@ pub struct Evaluator<'t> {
     tape: &'t Tape,
     regs: Vec<f64>,
     jets: Vec<Jet>,
+    /// Polynomial coefficients, contiguous, refreshed with the parameters.
+    coeffs: Vec<f64>,
 }
 
 impl Evaluator<'_> {
@@ -260,7 +473,10 @@ impl Evaluator<'_> {
         for &(r, i) in &t.params {
             self.regs[r as usize] = params[i as usize];
         }
-        run_f64(&t.prologue, &mut self.regs, t.prologue_start as usize);
+        run_f64(&t.prologue, &mut self.regs, t.prologue_start as usize, &[]);
+        for (c, &r) in self.coeffs.iter_mut().zip(&t.poly_regs) {
+            *c = self.regs[r as usize];
+        }
         for r in 0..t.var_reg as usize {
             let mut j = [0.0; JET_LEN];
             j[0] = self.regs[r];
@@ -273,7 +489,7 @@ impl Evaluator<'_> {
     pub fn eval(&mut self, x: f64) -> f64 {
         let t = self.tape;
         self.regs[t.var_reg as usize] = x;
-        run_f64(&t.body, &mut self.regs, t.var_reg as usize + 1);
+        run_f64(&t.body, &mut self.regs, t.var_reg as usize + 1, &self.coeffs);
         self.regs[t.outputs[0] as usize]
     }
 
@@ -308,7 +524,7 @@ impl Evaluator<'_> {
             7 => run_jets::<7>,
             _ => run_jets::<8>,
         };
-        run(&t.body, &mut self.jets, t.var_reg as usize);
+        run(&t.body, &mut self.jets, t.var_reg as usize, &t.poly_regs);
         &self.jets[t.outputs[0] as usize]
     }
 
@@ -327,7 +543,7 @@ impl Evaluator<'_> {
 
 /// Runs the per-point instructions on jets truncated at order `N`; a constant order lets the
 /// compiler unroll every recurrence.
-fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize) {
+fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize, poly: &[u32]) {
     for (i, op) in body.iter().enumerate() {
         // Operands always precede the destination: split there and write in place.
         let (src, dst) = jets.split_at_mut(var_reg + 1 + i);
@@ -339,6 +555,20 @@ fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize) {
             Op::Mul(a, b) if (b as usize) < var_reg => scale_into::<N>(&src[a as usize], src[b as usize][0], out),
             Op::Mul(a, b) => mul_into::<N>(&src[a as usize], &src[b as usize], out),
             Op::Neg(a) => scale_into::<N>(&src[a as usize], -1.0, out),
+            Op::Poly { x, first, degree } => {
+                // Horner's rule: p = c_n; p = p x + c_k. Coefficients are constants.
+                let c = &poly[first as usize..=(first + degree) as usize];
+                let xj = &src[x as usize];
+                let mut acc = [0.0; JET_LEN];
+                acc[0] = src[c[degree as usize] as usize][0];
+                for k in (0..degree as usize).rev() {
+                    let mut next = [0.0; JET_LEN];
+                    mul_into::<N>(&acc, xj, &mut next);
+                    next[0] += src[c[k] as usize][0];
+                    acc = next;
+                }
+                *out = acc;
+            }
             Op::PowI(a, 2) => {
                 let a = &src[a as usize];
                 for k in 0..=N {
@@ -430,6 +660,7 @@ fn jet_op<const N: usize>(op: Op, regs: &[Jet], fixed: usize) -> Jet {
             exp_jet(&m, n).map_first(a[0].powf(b[0]))
         }
         Op::Func(f, a) => func_jet(f, r(a), n),
+        Op::Poly { .. } => unreachable!("tape: polynomials are evaluated by run_jets"),
     }
 }
 
@@ -747,7 +978,17 @@ impl fmt::Display for Tape {
         writeln!(f, "; per point")?;
         writeln!(f, "r{} = field", self.var_reg)?;
         for (i, op) in self.body.iter().enumerate() {
-            writeln!(f, "r{} = {}", self.var_reg as usize + 1 + i, op_text(op))?;
+            let text = match *op {
+                Op::Poly { x, first, degree } => {
+                    let c: Vec<String> = self.poly_regs[first as usize..=(first + degree) as usize]
+                        .iter()
+                        .map(|r| format!("r{r}"))
+                        .collect();
+                    format!("poly r{x} [{}]  (coefficients from degree 0)", c.join(" "))
+                }
+                _ => op_text(op),
+            };
+            writeln!(f, "r{} = {text}", self.var_reg as usize + 1 + i)?;
         }
         let outs: Vec<String> = self.outputs.iter().map(|r| format!("r{r}")).collect();
         writeln!(f, "outputs: {}", outs.join(", "))
@@ -764,6 +1005,7 @@ fn op_text(op: &Op) -> String {
         Op::PowI(a, n) => format!("powi r{a} {n}"),
         Op::Pow(a, b) => format!("pow r{a} r{b}"),
         Op::Func(func, a) => format!("{} r{a}", func.name()),
+        Op::Poly { x, degree, .. } => format!("poly r{x} degree {degree}"),
     }
 }
 
@@ -776,6 +1018,36 @@ mod tests {
     #[test]
     fn tape_is_send_and_sync() {
         assert_send_sync::<Tape>();
+    }
+
+    #[test]
+    fn sums_of_monomials_become_one_polynomial() {
+        use crate::compile::compile_one;
+        use crate::ir::Scope;
+        let scope = Scope::new("x", &["a"]);
+        let polys = |src: &str| {
+            let c = compile_one(src, &scope).unwrap();
+            c.tape.body.iter().filter(|op| matches!(op, Op::Poly { .. })).count()
+        };
+        assert_eq!(polys("1 + 2*x + 3*x^2"), 1);
+        assert_eq!(polys("x^2/a - a*x^5 + x - 7"), 1);
+        assert_eq!(polys("exp(x) * (1 + x + x^2/2 + x^3/6)"), 1);
+        assert_eq!(polys("x + x^2"), 0, "two terms stay as written");
+        assert_eq!(polys("x + sin(x) + x^2"), 0, "not a polynomial");
+        assert_eq!(polys("x^2 + x^1.5 + 1"), 0, "fractional power");
+        // Estrin (f64) and Horner (jets) agree with the sum written out, to rounding.
+        let src = (0..=30)
+            .map(|k| format!("{}*x^{k}", 1.0 + k as f64 / 7.0))
+            .collect::<Vec<_>>()
+            .join(" + ");
+        let c = compile_one(&src, &scope).unwrap();
+        let mut ev = c.tape.evaluator(&[1.0]);
+        for x in [-1.3f64, -0.4, 0.0, 0.6, 1.1] {
+            let direct: f64 = (0..=30).map(|k| (1.0 + k as f64 / 7.0) * x.powi(k)).sum();
+            let scale: f64 = (0..=30).map(|k| ((1.0 + k as f64 / 7.0) * x.powi(k)).abs()).sum();
+            assert!((ev.eval(x) - direct).abs() <= 1e-14 * scale, "{x}");
+            assert!((ev.derivatives(x, 0)[0] - direct).abs() <= 1e-14 * scale, "{x}");
+        }
     }
 
     /// Handbook check: the Maclaurin series of tanh is x - x^3/3 + 2x^5/15 - 17x^7/315

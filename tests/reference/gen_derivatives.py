@@ -46,6 +46,10 @@ CASES = [
     ("lam*phi^4/(4*(1 + xi*phi^2)^2)", {"lam": "1", "xi": "100"}, "0.3"),
     ("((1 + xi*phi^2) + 6*xi^2*phi^2)/(1 + xi*phi^2)^2", {"xi": "100"}, "0.3"),
     ("1 + cos(phi/f)", {"f": "7"}, "8.45"),
+    # polynomials (compiled to one instruction) and a sum that is not one
+    ("1 + 2*phi - 3*phi^2/alpha + phi^3 + alpha*phi^7 - phi^18", {"alpha": "3/2"}, "0.85"),
+    ("phi^2/2 - c4*phi^4 + phi^6/c6", {"c4": "1/24", "c6": "720"}, "2.5"),
+    ("phi + phi^2 + sin(phi)", {}, "0.4"),
 ]
 
 
