@@ -562,3 +562,37 @@ fn solve_n(
         &["report the model: the e-fold integral is not monotonic on this branch"],
     ))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Power-law inflation, V = exp(-lambda chi): eps_V = lambda^2/2, eta_V = lambda^2,
+    /// xi2_V = lambda^4, and exactly eps_H = eta_H = lambda^2/2, n_s - 1 = n_t = -2/(p-1),
+    /// r = 16/p with p = 2/lambda^2 (Lucchin & Matarrese, Phys. Rev. D 32, 1316 (1985)). The
+    /// second-order expressions must reproduce these to O(lambda^6).
+    #[test]
+    fn second_order_reproduces_power_law() {
+        for lambda in [0.05f64, 0.1, 0.2] {
+            let l2 = lambda * lambda;
+            let sr = SlowRoll {
+                v: 1.0,
+                eps_v: l2 / 2.0,
+                eta_v: l2,
+                xi2_v: l2 * l2,
+                omega3_v: l2 * l2 * l2,
+            };
+            let (e1, e2, e2e3) = sr.hubble_flow();
+            assert!((e1 - l2 / 2.0).abs() < 1e-15 && e2.abs() < 1e-15 && e2e3.abs() < 1e-15);
+            let p = 2.0 / l2;
+            let obs = sr.second_order();
+            let tol = 10.0 * l2.powi(3);
+            assert!((obs.n_s - 1.0 + 2.0 / (p - 1.0)).abs() < tol, "n_s {lambda}");
+            assert!((obs.n_t + 2.0 / (p - 1.0)).abs() < tol, "n_t {lambda}");
+            assert!((obs.r - 16.0 / p).abs() < tol, "r {lambda}");
+            // and first order is off at O(lambda^4)
+            let first = sr.first_order();
+            assert!((first.n_s - 1.0 + 2.0 / (p - 1.0)).abs() > 0.1 * l2 * l2);
+        }
+    }
+}
