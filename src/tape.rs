@@ -36,23 +36,23 @@ pub type Jet = [f64; JET_LEN];
 /// One instruction; operands are register numbers, the destination is implied by position.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Op {
-    /// r[a] + r[b]
+    /// `r[a]` + `r[b]`
     Add(u32, u32),
-    /// r[a] - r[b]
+    /// `r[a]` - `r[b]`
     Sub(u32, u32),
-    /// r[a] * r[b]
+    /// `r[a]` * `r[b]`
     Mul(u32, u32),
-    /// r[a] / r[b]
+    /// `r[a]` / `r[b]`
     Div(u32, u32),
-    /// -r[a]
+    /// -`r[a]`
     Neg(u32),
-    /// r[a]^n
+    /// `r[a]`^n
     PowI(u32, i32),
-    /// r[a]^r[b]
+    /// `r[a]`^`r[b]`
     Pow(u32, u32),
-    /// f(r[a])
+    /// f(`r[a]`)
     Func(Func, u32),
-    /// A polynomial in r[x]: coefficients in registers `poly_regs[first ..= first + degree]`,
+    /// A polynomial in `r[x]`: coefficients in registers `poly_regs[first ..= first + degree]`,
     /// lowest degree first; evaluated by Estrin's scheme in f64 and Horner's rule on jets.
     Poly {
         /// The variable's register.
