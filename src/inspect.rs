@@ -229,18 +229,25 @@ fn make_table(
     Ok(rows)
 }
 
-fn fmt(x: f64) -> String {
+/// A number for the human reports: `decimals` places in fixed notation between 1e-4 and
+/// `10^fixed_below`, 7 significant digits in exponent notation outside, trailing zeros dropped,
+/// infinities as inf / -inf.
+pub fn fmt_number(x: f64, decimals: usize, fixed_below: i32) -> String {
     if x.is_infinite() {
         return if x > 0.0 { "inf".into() } else { "-inf".into() };
     }
     let a = x.abs();
-    if a != 0.0 && !(1e-4..1e6).contains(&a) {
+    if a != 0.0 && !(1e-4..10f64.powi(fixed_below)).contains(&a) {
         format!("{x:.6e}")
     } else {
-        let s = format!("{x:.9}");
+        let s = format!("{x:.decimals$}");
         let s = s.trim_end_matches('0');
         s.trim_end_matches('.').to_string()
     }
+}
+
+fn fmt(x: f64) -> String {
+    fmt_number(x, 9, 6)
 }
 
 /// The aligned human report.

@@ -436,17 +436,7 @@ fn solve_matching(
 }
 
 fn fmt(x: f64) -> String {
-    if x.is_infinite() {
-        return if x > 0.0 { "inf".into() } else { "-inf".into() };
-    }
-    let a = x.abs();
-    if a != 0.0 && !(1e-4..1e5).contains(&a) {
-        format!("{x:.6e}")
-    } else {
-        let s = format!("{x:.8}");
-        let s = s.trim_end_matches('0');
-        s.trim_end_matches('.').to_string()
-    }
+    crate::inspect::fmt_number(x, 8, 5)
 }
 
 /// The human table: one column per N_*, with units.

@@ -1,24 +1,7 @@
 //! The real binary, run as a user would: outputs, rendered errors and exit codes.
 
-use std::process::Command;
-
-struct Run {
-    code: i32,
-    stdout: String,
-    stderr: String,
-}
-
-fn efold(args: &[&str]) -> Run {
-    let out = Command::new(env!("CARGO_BIN_EXE_efold"))
-        .args(args)
-        .output()
-        .expect("the efold binary runs");
-    Run {
-        code: out.status.code().unwrap_or(-1),
-        stdout: String::from_utf8(out.stdout).unwrap(),
-        stderr: String::from_utf8(out.stderr).unwrap(),
-    }
-}
+mod common;
+use common::efold;
 
 #[test]
 fn eval_json_has_value_and_derivatives() {

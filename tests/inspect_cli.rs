@@ -2,22 +2,9 @@
 //! figure, and each kind of bad model input.
 
 use std::path::Path;
-use std::process::Command;
 
-struct Run {
-    code: i32,
-    stdout: String,
-    stderr: String,
-}
-
-fn efold(args: &[&str]) -> Run {
-    let out = Command::new(env!("CARGO_BIN_EXE_efold")).args(args).output().unwrap();
-    Run {
-        code: out.status.code().unwrap_or(-1),
-        stdout: String::from_utf8(out.stdout).unwrap(),
-        stderr: String::from_utf8(out.stderr).unwrap(),
-    }
-}
+mod common;
+use common::efold;
 
 fn shipped_models() -> Vec<String> {
     let mut v: Vec<String> = std::fs::read_dir(Path::new(env!("CARGO_MANIFEST_DIR")).join("models"))
