@@ -658,6 +658,16 @@ fn constant(
     config: &Config,
     what: &str,
 ) -> Result<f64, ModelError> {
+    // A plain number needs no compiler.
+    if let Ok(v) = t.text.trim().parse::<f64>() {
+        if v.is_finite()
+            && t.text
+                .trim()
+                .starts_with(|c: char| c.is_ascii_digit() || c == '.' || c == '-')
+        {
+            return Ok(v);
+        }
+    }
     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
     let mut g = Graph::new(Scope::new(field, &refs));
     let (_, id) =

@@ -151,6 +151,7 @@ pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
             })
             .collect();
         g.push(0.0);
+        g.sort_by(f64::total_cmp);
         let near: Vec<f64> = (2..=26).map(|k| 10f64.powf(-k as f64 / 2.0)).collect();
         let out: Vec<f64> = (0..=48).map(|k| 10f64.powf(-1.0 + k as f64 / 6.0)).collect();
         (g, near, out)
@@ -158,27 +159,25 @@ pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
     let mut pts: Vec<f64> = Vec::with_capacity(log_grid.len() + 2 * near_end.len() + outward.len());
     pts.extend(log_grid.iter().copied().filter(|x| *x > lo && *x < hi));
     match (lo.is_finite(), hi.is_finite()) {
+        // Each run below is pushed in ascending order, so the stable sort only merges runs.
         (true, true) => {
             let w = hi - lo;
-            for f in near_end {
-                pts.push(lo + w * f);
-                pts.push(hi - w * f);
-            }
-            for i in 1..32 {
-                pts.push(lo + w * i as f64 / 32.0);
-            }
+            pts.extend(near_end.iter().rev().map(|f| lo + w * f));
+            pts.extend(near_end.iter().map(|f| hi - w * f));
+            pts.extend((1..32).map(|i| lo + w * i as f64 / 32.0));
         }
-        (true, false) | (false, true) => {
-            let (end, dir) = if lo.is_finite() { (lo, 1.0) } else { (hi, -1.0) };
-            let w = end.abs().max(1.0);
-            for f in near_end.iter().chain(outward.iter()) {
-                pts.push(end + dir * w * f);
-            }
+        (true, false) => {
+            let w = lo.abs().max(1.0);
+            pts.extend(near_end.iter().rev().chain(outward.iter()).map(|f| lo + w * f));
+        }
+        (false, true) => {
+            let w = hi.abs().max(1.0);
+            pts.extend(outward.iter().rev().chain(near_end.iter()).map(|f| hi - w * f));
         }
         (false, false) => {}
     }
     pts.retain(|x| *x > lo && *x < hi && x.is_finite());
-    pts.sort_unstable_by(f64::total_cmp);
+    pts.sort_by(f64::total_cmp);
     pts.dedup();
     pts
 }
