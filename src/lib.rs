@@ -15,6 +15,7 @@ pub mod compile;
 pub mod config;
 pub mod data;
 pub mod diag;
+pub mod exact;
 pub mod inspect;
 pub mod ir;
 pub mod model;
