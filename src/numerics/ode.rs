@@ -140,7 +140,7 @@ pub fn integrate<const D: usize>(
     let dir = if t_end >= t0 { 1.0 } else { -1.0 };
     let (mut t, mut y) = (t0, y0);
     let mut k1 = f(t, &y);
-    let mut h = dir * opts.h_max.min((t_end - t0).abs()).min(1e-3).max(1e-12);
+    let mut h = dir * opts.h_max.min((t_end - t0).abs()).clamp(1e-12, 1e-3);
     let mut g_prev = event(t, &y);
     let (mut steps, mut rejected) = (0, 0);
     while (t_end - t) * dir > 0.0 {
