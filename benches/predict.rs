@@ -19,6 +19,7 @@ fn options() -> Options {
         second_order: false,
         reheating: None,
         data: DataSet::builtin(),
+        exact: None,
     }
 }
 

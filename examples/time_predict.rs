@@ -23,6 +23,7 @@ fn main() {
         second_order: false,
         reheating: None,
         data: DataSet::builtin(),
+        exact: None,
     };
     let mut times = Vec::with_capacity(repeat);
     let mut report = None;

@@ -36,6 +36,41 @@ pub enum Command {
     Inspect(InspectArgs),
     /// Predict n_s, r, the running and the scales of a model, and judge them against data.
     Predict(PredictArgs),
+    /// The exact scalar and tensor power spectra, P_zeta(k) and P_t(k), from the
+    /// Mukhanov–Sasaki equation.
+    Spectrum(SpectrumArgs),
+}
+
+/// `efold spectrum`.
+#[derive(Debug, clap::Args)]
+pub struct SpectrumArgs {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub model: ModelArgs,
+    /// e-folds between the pivot's exit and the end of inflation (eps_H = 1).
+    #[arg(long, default_value_t = 55.0)]
+    pub efolds: f64,
+    /// Smallest k, in Mpc^-1.
+    #[arg(long, default_value_t = 1e-4)]
+    pub k_min: f64,
+    /// Largest k, in Mpc^-1 [default: 1e14, or less if modes would exit too near the end].
+    #[arg(long)]
+    pub k_max: Option<f64>,
+    /// Number of k values, evenly spaced in ln k.
+    #[arg(long, default_value_t = 60)]
+    pub points: usize,
+    /// Use this branch (1-based), as in `predict`.
+    #[arg(long, value_name = "K")]
+    pub branch: Option<usize>,
+    /// A data file of constraints and constants [default: the built-in one].
+    #[arg(long, value_name = "FILE")]
+    pub data: Option<std::path::PathBuf>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = TableFormat::Text)]
+    pub format: TableFormat,
+    /// Write a figure of both spectra, with the slow-roll estimate, to this SVG file.
+    #[arg(long, value_name = "FILE")]
+    pub svg: Option<std::path::PathBuf>,
 }
 
 /// Output formats of `predict`.
@@ -47,6 +82,15 @@ pub enum TableFormat {
     Json,
     /// A header and one row per N_*.
     Csv,
+}
+
+/// How `predict` computes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Method {
+    /// Potential slow roll (first order, or second with --second-order).
+    SlowRoll,
+    /// Exact background and Mukhanov–Sasaki modes.
+    Exact,
 }
 
 /// `efold predict`.
@@ -66,6 +110,10 @@ pub struct PredictArgs {
     /// Second-order slow-roll observables (Hubble-flow expansion).
     #[arg(long)]
     pub second_order: bool,
+    /// How to compute the observables: the slow-roll formulas, or the exact background and
+    /// Mukhanov–Sasaki spectra (N_* then counts from eps_H = 1).
+    #[arg(long, value_enum, default_value_t = Method::SlowRoll)]
+    pub method: Method,
     /// Fix N_* from reheating: `instant` (radiation right after inflation).
     #[arg(long, value_name = "instant")]
     pub reheat: Option<String>,
@@ -270,6 +318,7 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Compile(a) => compile_view(a, &config),
         Command::Inspect(a) => inspect_cmd(a, &config),
         Command::Predict(a) => predict_cmd(a, &config),
+        Command::Spectrum(a) => spectrum_cmd(a, &config),
     }
 }
 
@@ -556,6 +605,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         second_order: a.second_order,
         reheating: reheating_from(a)?,
         data,
+        exact: (a.method == Method::Exact).then(crate::exact::Settings::default),
     };
     let rep = crate::predict::predict(&model, &opts, config)?;
     if let Some(path) = &a.svg {
@@ -574,5 +624,59 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         TableFormat::Json => format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable report")),
         TableFormat::Csv => crate::predict::csv(&rep),
         TableFormat::Text => crate::predict::text(&rep),
+    })
+}
+
+fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
+    let model = load_model(&a.model, config)?;
+    let data = match &a.data {
+        Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
+        None => crate::data::DataSet::builtin(),
+    };
+    let settings = crate::exact::Settings::default();
+    let k_star = data.pivot.k_mpc;
+    // The largest k must still freeze before the end: N_* - ln(k/k_*) > ln(1/k_stop) + 1.
+    let k_limit = k_star * (a.efolds - (1.0 / settings.k_stop).ln() - 1.5).exp();
+    let k_max = a.k_max.unwrap_or_else(|| k_limit.min(1e14));
+    if !(a.k_min > 0.0 && k_max > a.k_min && a.points >= 2 && a.efolds > 0.0) {
+        return Err(Diagnostic::new("the k range is empty or the point count below 2")
+            .with_hint("give 0 < --k-min < --k-max and --points 2 or more")
+            .into());
+    }
+    if k_max > k_limit {
+        return Err(Diagnostic::new(format!(
+            "--k-max {k_max:e} Mpc^-1 exits too close to the end of inflation to freeze (at most {k_limit:.3e} for N_* = {})",
+            a.efolds
+        ))
+        .with_hint("lower --k-max, or raise --efolds")
+        .into());
+    }
+    let needed = a.efolds + (k_star / a.k_min).ln().max(0.0) + settings.k_start.ln() + 5.0;
+    let opts = crate::predict::Options {
+        n_stars: vec![needed],
+        branch: a.branch,
+        data: data.clone(),
+        ..Default::default()
+    };
+    let start = crate::predict::predict(&model, &opts, config)?;
+    let phi_start = start.predictions[0].phi_star;
+    let n = a.points;
+    let ks: Vec<f64> = (0..n)
+        .map(|i| (a.k_min.ln() + (k_max.ln() - a.k_min.ln()) * i as f64 / (n - 1) as f64).exp())
+        .collect();
+    let sp = crate::exact::spectrum(&model, phi_start, a.efolds, &ks, data.a_s(), k_star, &settings)?;
+    if let Some(path) = &a.svg {
+        write_output_file(path, &crate::exact::figure(&sp, &model.spec.name))?;
+    }
+    Ok(match a.format {
+        TableFormat::Json => {
+            let obj = serde_json::json!({
+                "model": crate::inspect::ModelSummary::of(&model),
+                "spectrum": sp,
+            });
+            format!("{}\n", serde_json::to_string_pretty(&obj).expect("serialisable"))
+        }
+        TableFormat::Csv => crate::exact::csv(&sp),
+        TableFormat::Text => crate::exact::text(&sp, &model.spec.name),
     })
 }

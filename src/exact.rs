@@ -35,7 +35,9 @@ use std::f64::consts::PI;
 /// Settings of the exact solver, with their defaults.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Settings {
-    /// Modes start when k/aH reaches this (deep inside the horizon). Default 200.
+    /// Modes start when k/aH reaches this (deep inside the horizon). Default 100; the initial
+    /// conditions carry the first two terms of the Hankel asymptotic series, so the start
+    /// changes P by well under 1e-5 (tested against 1000).
     pub k_start: f64,
     /// Modes stop when k/aH falls to this (far outside). Default 1e-4: the frozen amplitude
     /// is reached up to O((k/aH)^2).
@@ -50,7 +52,7 @@ pub struct Settings {
 impl Default for Settings {
     fn default() -> Self {
         Settings {
-            k_start: 200.0,
+            k_start: 100.0,
             k_stop: 1e-4,
             freeze_tol: 1e-5,
             ode: OdeOptions {
@@ -384,4 +386,314 @@ pub fn tilts(ln_p: &[f64; 5], h: f64) -> (f64, f64) {
     let d1 = (ln_p[0] - 8.0 * ln_p[1] + 8.0 * ln_p[3] - ln_p[4]) / (12.0 * h);
     let d2 = (-ln_p[0] + 16.0 * ln_p[1] - 30.0 * ln_p[2] + 16.0 * ln_p[3] - ln_p[4]) / (12.0 * h * h);
     (d1, d2)
+}
+
+/// What the exact route adds to a prediction at one N_*.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ExactExtras {
+    /// Total e-folds of the exact background from its start to its end.
+    pub n_total: f64,
+    /// phi at eps_V = 1 (the slow-roll end), beside `phi_end` (eps_H = 1).
+    pub phi_end_slow_roll: f64,
+    /// phi_* of the slow-roll route at the same N_*.
+    pub phi_star_slow_roll: f64,
+    /// n_s of the slow-roll route (first order, or second with --second-order).
+    pub n_s_slow_roll: f64,
+    /// r of the slow-roll route.
+    pub r_slow_roll: f64,
+    /// Hubble-flow parameters at the pivot's exit, from the exact background.
+    pub eps_1: f64,
+    /// eps_2 = d ln eps_1 / dN.
+    pub eps_2: f64,
+    /// eps_3 = d ln eps_2 / dN.
+    pub eps_3: f64,
+    /// n_s from the second-order formulas with these eps_i.
+    pub n_s_second_order: f64,
+    /// r from the second-order formulas.
+    pub r_second_order: f64,
+    /// n_t from the second-order formulas.
+    pub n_t_second_order: f64,
+    /// P_R at the pivot for the potential as written.
+    pub p_s_unscaled: f64,
+    /// The largest relative change of P over the last e-fold before the stop (freeze check).
+    pub freeze_drift: f64,
+}
+
+/// The exact observables at one N_*.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ExactPoint {
+    /// N_*.
+    pub n_star: f64,
+    /// phi at the pivot's exit.
+    pub phi_star: f64,
+    /// phi at eps_H = 1.
+    pub phi_end: f64,
+    /// n_s from the spectrum.
+    pub n_s: f64,
+    /// r = P_t / P_R at the pivot.
+    pub r: f64,
+    /// dn_s / dln k.
+    pub alpha_s: f64,
+    /// n_t.
+    pub n_t: f64,
+    /// Extras.
+    pub extras: ExactExtras,
+}
+
+/// Second-order slow-roll observables from Hubble-flow parameters (check-values section 7;
+/// Stewart & Lyth 1993, Schwarz, Terrero-Escalante & Garcia 2001): (n_s, r, n_t).
+pub fn second_order_from_flow(e1: f64, e2: f64, e3: f64) -> (f64, f64, f64) {
+    let c = crate::slowroll::EULER_GAMMA + std::f64::consts::LN_2 - 2.0;
+    (
+        1.0 - 2.0 * e1 - e2 - 2.0 * e1 * e1 - (2.0 * c + 3.0) * e1 * e2 - c * e2 * e3,
+        16.0 * e1 * (1.0 + c * e2),
+        -2.0 * e1 - 2.0 * e1 * e1 - 2.0 * (c + 1.0) * e1 * e2,
+    )
+}
+
+/// Step in ln k of the five-point stencils for the tilts.
+pub const TILT_STEP: f64 = 0.05;
+
+/// Exact observables for each N_*: the background starts on the slow-roll attractor at the
+/// slow-roll field value `phi_start` (enough e-folds before the end for every mode), runs to
+/// eps_H = 1, and the modes around each pivot give the tilts.
+pub fn observe(
+    model: &Model,
+    phi_start: f64,
+    n_stars: &[f64],
+    settings: &Settings,
+) -> Result<(Run, Vec<ExactPoint>), AnalysisError> {
+    let bg = Background::new(model);
+    let start = [phi_start, bg.attractor(phi_start)];
+    let run = run_background(&bg, start, 10_000.0, settings)?;
+    let n_end = run.n_end.ok_or_else(|| {
+        fail(
+            "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
+            &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
+        )
+    })?;
+    let end = *run.checkpoints.last().map(|c| &c.1).expect("a run has checkpoints");
+    let mut out = Vec::new();
+    for &n_star in n_stars {
+        let piv = pivot(&bg, &run, n_star, settings)?;
+        let modes: Vec<ModePower> = (-2..=2)
+            .map(|j| mode(&bg, &run, piv, (j as f64 * TILT_STEP).exp(), settings))
+            .collect::<Result<_, _>>()?;
+        let ln_s: [f64; 5] = std::array::from_fn(|i| modes[i].p_s.ln());
+        let ln_t: [f64; 5] = std::array::from_fn(|i| modes[i].p_t.ln());
+        let (ns1, run_s) = tilts(&ln_s, TILT_STEP);
+        let (nt, _) = tilts(&ln_t, TILT_STEP);
+        let y = state_at(&bg, &run, piv.n, settings)?;
+        let flow = |n: f64| -> Result<(f64, f64), AnalysisError> {
+            let y = state_at(&bg, &run, n, settings)?;
+            let p = bg.point(&y);
+            Ok((p.eps_h, 2.0 * p.dpi / y[1]))
+        };
+        let (e1, e2) = flow(piv.n)?;
+        let d = 1e-3;
+        let (_, e2m) = flow(piv.n - d)?;
+        let (_, e2p) = flow(piv.n + d)?;
+        let e3 = ((e2p.abs()).ln() - (e2m.abs()).ln()) / (2.0 * d);
+        let (ns2, r2, nt2) = second_order_from_flow(e1, e2, e3);
+        out.push(ExactPoint {
+            n_star,
+            phi_star: y[0],
+            phi_end: end[0],
+            n_s: 1.0 + ns1,
+            r: modes[2].p_t / modes[2].p_s,
+            alpha_s: run_s,
+            n_t: nt,
+            extras: ExactExtras {
+                n_total: n_end,
+                phi_end_slow_roll: f64::NAN,
+                phi_star_slow_roll: f64::NAN,
+                n_s_slow_roll: f64::NAN,
+                r_slow_roll: f64::NAN,
+                eps_1: e1,
+                eps_2: e2,
+                eps_3: e3,
+                n_s_second_order: ns2,
+                r_second_order: r2,
+                n_t_second_order: nt2,
+                p_s_unscaled: modes[2].p_s,
+                freeze_drift: modes.iter().map(|m| m.drift).fold(0.0, f64::max),
+            },
+        });
+    }
+    Ok((run, out))
+}
+
+/// One row of a spectrum.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct SpectrumRow {
+    /// k in Mpc^-1.
+    pub k_mpc: f64,
+    /// P_zeta (= P_R), with the potential scaled to the observed A_s at the pivot.
+    pub p_zeta: f64,
+    /// P_t, scaled alike.
+    pub p_t: f64,
+    /// The first-order slow-roll estimate V/(24 pi^2 eps_V) where the mode crosses (k = aH).
+    pub p_zeta_slow_roll: f64,
+    /// e-folds between the mode's crossing and the end of inflation.
+    pub n_before_end: f64,
+    /// Relative change of P over the mode's last e-fold (freeze check).
+    pub drift: f64,
+}
+
+/// A spectrum on a log grid of k, with the pivot `n_star` e-folds before the exact end.
+#[derive(Debug, Clone, Serialize)]
+pub struct Spectrum {
+    /// The pivot's e-folds before the end.
+    pub n_star: f64,
+    /// k_* in Mpc^-1 (from the data file).
+    pub k_star_mpc: f64,
+    /// The factor on the user's V that gives the observed A_s at the pivot.
+    pub potential_scale: f64,
+    /// Total e-folds of the exact background.
+    pub n_total: f64,
+    /// The rows, ascending in k.
+    pub rows: Vec<SpectrumRow>,
+    /// The row with the largest P_zeta.
+    pub peak: SpectrumRow,
+}
+
+/// Computes P_zeta(k) and P_t(k) for `k_mpc` (Mpc^-1), modes in parallel.
+pub fn spectrum(
+    model: &Model,
+    phi_start: f64,
+    n_star: f64,
+    k_mpc: &[f64],
+    a_s: f64,
+    k_star_mpc: f64,
+    settings: &Settings,
+) -> Result<Spectrum, AnalysisError> {
+    use rayon::prelude::*;
+    let bg = Background::new(model);
+    let start = [phi_start, bg.attractor(phi_start)];
+    let run = run_background(&bg, start, 10_000.0, settings)?;
+    let n_end = run.n_end.ok_or_else(|| {
+        fail(
+            "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
+            &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
+        )
+    })?;
+    let piv = pivot(&bg, &run, n_star, settings)?;
+    let pivot_mode = mode(&bg, &run, piv, 1.0, settings)?;
+    let scale = a_s / pivot_mode.p_s;
+    let rows: Vec<SpectrumRow> = k_mpc
+        .par_iter()
+        .map(|&k| {
+            let bg = Background::new(model);
+            let m = mode(&bg, &run, piv, k / k_star_mpc, settings)?;
+            let y = state_at(&bg, &run, m.n_cross, settings)?;
+            let mut ev = model.evaluator();
+            let sr = crate::slowroll::SlowRoll::at(&mut ev, y[0]);
+            Ok(SpectrumRow {
+                k_mpc: k,
+                p_zeta: scale * m.p_s,
+                p_t: scale * m.p_t,
+                p_zeta_slow_roll: scale * sr.v / (24.0 * PI * PI * sr.eps_v),
+                n_before_end: n_end - m.n_cross,
+                drift: m.drift,
+            })
+        })
+        .collect::<Result<_, AnalysisError>>()?;
+    let peak = *rows
+        .iter()
+        .max_by(|a, b| a.p_zeta.total_cmp(&b.p_zeta))
+        .ok_or_else(|| fail("no wavenumbers asked for".to_string(), &["give --points 2 or more"]))?;
+    Ok(Spectrum {
+        n_star,
+        k_star_mpc,
+        potential_scale: scale,
+        n_total: n_end,
+        rows,
+        peak,
+    })
+}
+
+/// The spectrum as an aligned table, with the peak.
+pub fn text(sp: &Spectrum, name: &str) -> String {
+    use std::fmt::Write as _;
+    let mut o = String::new();
+    let _ = writeln!(o, "model    {name}");
+    let _ = writeln!(
+        o,
+        "pivot    k_* = {} Mpc^-1 exits {} e-folds before the end (eps_H = 1); {:.4} e-folds in all",
+        sp.k_star_mpc, sp.n_star, sp.n_total
+    );
+    let _ = writeln!(
+        o,
+        "scale    V multiplied by {:.6e} to give the observed A_s at the pivot\n",
+        sp.potential_scale
+    );
+    let _ = writeln!(
+        o,
+        "{:>12} {:>14} {:>14} {:>16} {:>10}",
+        "k [Mpc^-1]", "P_zeta", "P_t", "slow roll P_zeta", "N to end"
+    );
+    for r in &sp.rows {
+        let _ = writeln!(
+            o,
+            "{:>12.4e} {:>14.6e} {:>14.6e} {:>16.6e} {:>10.4}",
+            r.k_mpc, r.p_zeta, r.p_t, r.p_zeta_slow_roll, r.n_before_end
+        );
+    }
+    let p = &sp.peak;
+    let _ = writeln!(
+        o,
+        "\npeak     P_zeta = {:.4e} at k = {:.4e} Mpc^-1, {:.3} e-folds before the end; slow roll there: {:.4e} (x{:.3})",
+        p.p_zeta,
+        p.k_mpc,
+        p.n_before_end,
+        p.p_zeta_slow_roll,
+        p.p_zeta / p.p_zeta_slow_roll
+    );
+    o
+}
+
+/// The spectrum as CSV: a header and one row per k.
+pub fn csv(sp: &Spectrum) -> String {
+    let mut o = String::from("k_mpc,p_zeta,p_t,p_zeta_slow_roll,n_before_end,drift\n");
+    for r in &sp.rows {
+        o.push_str(&format!(
+            "{:e},{:e},{:e},{:e},{:e},{:e}\n",
+            r.k_mpc, r.p_zeta, r.p_t, r.p_zeta_slow_roll, r.n_before_end, r.drift
+        ));
+    }
+    o
+}
+
+/// Both spectra against log10 k, with the slow-roll estimate dashed.
+pub fn figure(sp: &Spectrum, name: &str) -> String {
+    use crate::plot::{Panel, Series};
+    let pts = |g: &dyn Fn(&SpectrumRow) -> f64| sp.rows.iter().map(|r| (r.k_mpc.log10(), g(r))).collect::<Vec<_>>();
+    let panel = Panel {
+        title: "power spectra".into(),
+        x_label: "log10 k [Mpc^-1]".into(),
+        y_label: "P".into(),
+        log_y: true,
+        series: vec![
+            Series {
+                name: "P_zeta".into(),
+                points: pts(&|r| r.p_zeta),
+                color: "#1f5fa8".into(),
+                dashed: false,
+            },
+            Series {
+                name: "P_t".into(),
+                points: pts(&|r| r.p_t),
+                color: "#b03030".into(),
+                dashed: false,
+            },
+            Series {
+                name: "slow roll".into(),
+                points: pts(&|r| r.p_zeta_slow_roll),
+                color: "#555555".into(),
+                dashed: true,
+            },
+        ],
+        ..Panel::default()
+    };
+    crate::plot::render(name, &[panel])
 }

@@ -27,6 +27,22 @@ pub struct Options {
     pub reheating: Option<Reheating>,
     /// The data to judge against, and the constants for the scales.
     pub data: DataSet,
+    /// Solve the exact background and Mukhanov–Sasaki modes (with these settings) instead of
+    /// using the slow-roll formulas; `None` is slow roll.
+    pub exact: Option<crate::exact::Settings>,
+}
+
+impl Default for Options {
+    fn default() -> Self {
+        Options {
+            n_stars: vec![50.0, 55.0, 60.0],
+            branch: None,
+            second_order: false,
+            reheating: None,
+            data: DataSet::builtin(),
+            exact: None,
+        }
+    }
 }
 
 /// The leading-order prediction of a pole alone, beside the numerical one.
@@ -99,6 +115,9 @@ pub struct Prediction {
     /// How N_* was fixed by reheating, when it was.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub reheating: Option<Matching>,
+    /// What the exact route adds, when it was used.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub exact: Option<crate::exact::ExactExtras>,
 }
 
 /// A branch with its index among all branches.
@@ -118,7 +137,7 @@ pub struct BranchInfo {
 pub struct Report {
     /// The model.
     pub model: ModelSummary,
-    /// "slow-roll".
+    /// "slow-roll" or "exact".
     pub method: &'static str,
     /// 1 or 2.
     pub order: u8,
@@ -218,7 +237,7 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
                 }
                 return Ok(Report {
                     model: ModelSummary::of(model),
-                    method: "slow-roll",
+                    method: if opts.exact.is_some() { "exact" } else { "slow-roll" },
                     order: if opts.second_order { 2 } else { 1 },
                     branch: info(i),
                     other_branches: (0..all.len()).filter(|&j| j != i).map(info).collect(),
@@ -388,10 +407,92 @@ fn run_branch(
                 }
             }),
             reheating: matching,
+            exact: None,
         });
+    }
+    if let Some(settings) = &opts.exact {
+        refine_exact(model, ev, b, phi_end, &mut out, opts, settings, config, field)?;
     }
     warnings.dedup();
     Ok((out, warnings, n_from))
+}
+
+/// Replaces the slow-roll observables by those of the exact background and modes, keeping
+/// the slow-roll values in `exact` for comparison. N_* counts from the exact end (eps_H = 1).
+#[allow(clippy::too_many_arguments)]
+fn refine_exact(
+    model: &Model,
+    ev: &mut Evaluator<'_>,
+    b: &Branch,
+    phi_end: f64,
+    out: &mut [Prediction],
+    opts: &Options,
+    settings: &crate::exact::Settings,
+    config: &Config,
+    field: &str,
+) -> Result<(), AnalysisError> {
+    let n_stars: Vec<f64> = out.iter().map(|p| p.n_star).collect();
+    let deepest = n_stars.iter().copied().fold(0.0f64, f64::max);
+    // Start early enough for the lowest k of the tilt stencil to begin k/aH = k_start inside,
+    // plus a few e-folds for the approach to the attractor.
+    let margin = settings.k_start.ln() + 2.0 * crate::exact::TILT_STEP + 4.0;
+    let phi_start = phi_stars(ev, b, phi_end, &[deepest + margin], config, field).map_err(|e| {
+        fail(
+            format!(
+                "the exact solver needs {:.1} e-folds of slow roll before the end: {}",
+                deepest + margin,
+                e.message
+            ),
+            &["ask for fewer e-folds"],
+        )
+    })?[0];
+    let (_, points) = crate::exact::observe(model, phi_start, &n_stars, settings)?;
+    let data = &opts.data;
+    let mp = data.units.reduced_planck_mass_gev;
+    let mut map = CanonicalMap::new(model, phi_end, config);
+    for (p, e) in out.iter_mut().zip(points) {
+        let sr = SlowRoll::at(ev, e.phi_star);
+        let scale = data.a_s() / e.extras.p_s_unscaled;
+        let v_star = scale * sr.v;
+        let h_star = (v_star / (3.0 - e.extras.eps_1)).sqrt();
+        let v_end = scale * ev.eval(e.phi_end);
+        let mut extras = e.extras;
+        extras.phi_end_slow_roll = p.phi_end;
+        extras.phi_star_slow_roll = p.phi_star;
+        extras.n_s_slow_roll = p.n_s;
+        extras.r_slow_roll = p.r;
+        let pull = (e.n_s - data.n_s.mean) / data.n_s.sigma;
+        p.phi_star = e.phi_star;
+        p.phi_end = e.phi_end;
+        p.n_s = e.n_s;
+        p.r = e.r;
+        p.alpha_s = e.alpha_s;
+        p.n_t = e.n_t;
+        p.eps_v = sr.eps_v;
+        p.eta_v = sr.eta_v;
+        p.xi2_v = sr.xi2_v;
+        p.omega3_v = sr.omega3_v;
+        p.delta_chi = map.between(e.phi_end, e.phi_star)?.value.abs();
+        p.delta_phi = (e.phi_star - e.phi_end).abs();
+        p.lyth_bound = p.n_star * (e.r / 8.0).sqrt();
+        p.a_s_unscaled = e.extras.p_s_unscaled;
+        p.potential_scale = scale;
+        p.v_star_quarter_gev = v_star.powf(0.25) * mp;
+        p.h_star_gev = h_star * mp;
+        p.t_ds_gev = h_star * mp / (2.0 * PI);
+        p.v_end = v_end;
+        p.v_end_quarter_gev = v_end.max(0.0).powf(0.25) * mp;
+        p.n_s_pull = pull;
+        p.verdict = if pull.abs() > data.verdict.excluded_sigma || e.r > data.r.upper {
+            "excluded"
+        } else if pull.abs() > data.verdict.tension_sigma {
+            "tension"
+        } else {
+            "consistent"
+        };
+        p.exact = Some(extras);
+    }
+    Ok(())
 }
 
 /// N_* consistent with a reheating history: V_* (and so H_*) depends on N_*, N_* on H_* and
@@ -475,12 +576,12 @@ pub fn text(rep: &Report) -> String {
             ob.index
         );
     }
-    let _ = writeln!(
-        o,
-        "method   slow roll, {} order; N_* {}",
-        if rep.order == 2 { "second" } else { "first" },
-        rep.n_star_from
-    );
+    let method = if rep.method == "exact" {
+        "exact background and Mukhanov-Sasaki spectra (N_* from eps_H = 1)".to_string()
+    } else {
+        format!("slow roll, {} order", if rep.order == 2 { "second" } else { "first" })
+    };
+    let _ = writeln!(o, "method   {method}; N_* {}", rep.n_star_from);
     let _ = writeln!(o, "data     {} [{}]", rep.data.name, rep.data.source);
     let _ = writeln!(o, "units    reduced Planck units (M_p = 1) unless marked GeV\n");
     let p = &rep.predictions;
@@ -517,6 +618,20 @@ pub fn text(rep: &Report) -> String {
             "pole alone: r",
             col(&|x| x.pole_only.map(|q| fmt(q.r)).unwrap_or_default()),
         );
+    }
+    if p.iter().any(|x| x.exact.is_some()) {
+        let ex = |g: &dyn Fn(&crate::exact::ExactExtras) -> String| {
+            col(&|x: &Prediction| x.exact.as_ref().map(g).unwrap_or_default())
+        };
+        row("slow roll: n_s", ex(&|e| format!("{:.6}", e.n_s_slow_roll)));
+        row("slow roll: r", ex(&|e| fmt(e.r_slow_roll)));
+        row(&format!("slow roll: {f}_end"), ex(&|e| fmt(e.phi_end_slow_roll)));
+        row("eps_1, at exit", ex(&|e| fmt(e.eps_1)));
+        row("eps_2", ex(&|e| fmt(e.eps_2)));
+        row("eps_3", ex(&|e| fmt(e.eps_3)));
+        row("2nd order: n_s", ex(&|e| format!("{:.6}", e.n_s_second_order)));
+        row("2nd order: r", ex(&|e| fmt(e.r_second_order)));
+        row("freeze drift", ex(&|e| format!("{:.1e}", e.freeze_drift)));
     }
     if p.iter().any(|x| x.reheating.is_some()) {
         row("N_reh", col(&|x| x.reheating.map(|m| fmt(m.n_reh)).unwrap_or_default()));

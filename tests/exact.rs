@@ -95,3 +95,102 @@ fn power_law_spectrum() {
         assert!(modes.iter().all(|m| m.drift < 1e-5), "frozen");
     }
 }
+
+fn pole_model() -> Model {
+    let mut spec = ModelSpec::inline("phi^2/(6*alpha)", Some("1/(1 - phi^2/(6*alpha))^2"));
+    spec.set_param("alpha", "1");
+    Model::build(&spec, &Config::default()).unwrap()
+}
+
+fn quadratic() -> Model {
+    let mut spec = ModelSpec::inline("phi^2/2", None);
+    spec.range = Some((
+        efold::model::Text::inline("lo", "0"),
+        efold::model::Text::inline("hi", "inf"),
+    ));
+    Model::build(&spec, &Config::default()).unwrap()
+}
+
+fn exact_report(m: &Model, settings: Settings, n: &[f64]) -> efold::predict::Report {
+    let opts = efold::predict::Options {
+        n_stars: n.to_vec(),
+        exact: Some(settings),
+        ..Default::default()
+    };
+    efold::predict::predict(m, &opts, &Config::default()).unwrap_or_else(|e| panic!("{}", e.message))
+}
+
+/// Exact n_s and r agree with the second-order formulas (check-values section 7, evaluated
+/// with the exact Hubble-flow parameters at the pivot's exit) to the size of the third-order
+/// terms, max(eps_1, eps_2)^3 up to a factor 3; first order is off by second-order terms.
+#[test]
+fn exact_against_second_order() {
+    for m in [pole_model(), quadratic()] {
+        let rep = exact_report(&m, Settings::default(), &[50.0, 60.0]);
+        for p in &rep.predictions {
+            let e = p.exact.unwrap();
+            let third = e.eps_1.abs().max(e.eps_2.abs()).powi(3);
+            assert!(
+                (p.n_s - e.n_s_second_order).abs() < 3.0 * third,
+                "n_s {} vs {} (eps^3 {third:e})",
+                p.n_s,
+                e.n_s_second_order
+            );
+            assert!(
+                ((p.r - e.r_second_order) / p.r).abs() < 3.0 * e.eps_2.abs().powi(2),
+                "r {} vs {}",
+                p.r,
+                e.r_second_order
+            );
+            let second = e.eps_1.abs().max(e.eps_2.abs()).powi(2);
+            assert!((p.n_s - e.n_s_slow_roll).abs() < 10.0 * second);
+            assert!(e.freeze_drift < 1e-5);
+        }
+    }
+}
+
+/// The exact end (eps_H = 1) comes after the slow-roll one (eps_V = 1), by a fraction of an
+/// e-fold: for V = phi^2/2 the field goes from sqrt 2 down to about 1.0 (common practice; the
+/// slow-roll e-folds between them, (phi_a^2 - phi_b^2)/4, are about a quarter).
+#[test]
+fn exact_end_of_inflation() {
+    let rep = exact_report(&quadratic(), Settings::default(), &[55.0]);
+    let p = &rep.predictions[0];
+    let e = p.exact.unwrap();
+    assert!((e.phi_end_slow_roll - 2f64.sqrt()).abs() < 1e-12);
+    assert!(p.phi_end < e.phi_end_slow_roll && p.phi_end > 0.9, "{}", p.phi_end);
+    let dn = (e.phi_end_slow_roll.powi(2) - p.phi_end.powi(2)) / 4.0;
+    assert!(dn > 0.1 && dn < 0.5, "{dn}");
+}
+
+/// Convergence: halving the tolerances moves n_s by less than 1e-7; starting the modes at
+/// k/aH = 1000 instead of 100 and stopping at 1e-4 instead of 1e-3 moves P_zeta by less than
+/// 1e-5 relative.
+#[test]
+fn exact_converges() {
+    let m = pole_model();
+    let base = Settings::default();
+    let tight = Settings {
+        ode: efold::numerics::ode::Options {
+            rtol: base.ode.rtol / 2.0,
+            h_max: base.ode.h_max / 2.0,
+            ..base.ode
+        },
+        ..base
+    };
+    let (a, b) = (exact_report(&m, base, &[55.0]), exact_report(&m, tight, &[55.0]));
+    assert!((a.predictions[0].n_s - b.predictions[0].n_s).abs() < 1e-7);
+    let loose = Settings {
+        k_start: 100.0,
+        k_stop: 1e-3,
+        ..base
+    };
+    let strict = Settings {
+        k_start: 1000.0,
+        k_stop: 1e-4,
+        ..base
+    };
+    let p = |s: Settings| exact_report(&m, s, &[55.0]).predictions[0].exact.unwrap().p_s_unscaled;
+    let (pl, ps) = (p(loose), p(strict));
+    assert!(((pl - ps) / ps).abs() < 1e-5, "{pl:e} vs {ps:e}");
+}

@@ -24,6 +24,7 @@ fn run(m: &Model, n: &[f64]) -> Report {
         second_order: false,
         reheating: None,
         data: DataSet::builtin(),
+        exact: None,
     };
     predict(m, &opts, &Config::default()).unwrap_or_else(|e| panic!("{}", e.message))
 }
@@ -236,6 +237,7 @@ fn quadratic_amplitude() {
         second_order: false,
         reheating: None,
         data,
+        exact: None,
     };
     let rep = predict(&m, &opts, &Config::default()).unwrap();
     let mass = rep.predictions[0].potential_scale.sqrt();
@@ -249,6 +251,7 @@ fn with_reheating(m: &Model, reh: Reheating) -> Prediction {
         second_order: false,
         reheating: Some(reh),
         data: DataSet::builtin(),
+        exact: None,
     };
     predict(m, &opts, &Config::default()).unwrap().predictions.remove(0)
 }
@@ -370,6 +373,7 @@ fn error_of(m: &Model, n: &[f64], branch: Option<usize>) -> String {
         second_order: false,
         reheating: None,
         data: DataSet::builtin(),
+        exact: None,
     };
     predict(m, &opts, &Config::default()).unwrap_err().message
 }
