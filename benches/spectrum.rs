@@ -50,9 +50,8 @@ fn modes(b: Bencher, n: usize) {
         .collect();
     let a_s = DataSet::builtin().a_s();
     b.bench_local(|| {
-        spectrum(&model, phi_start, 55.0, &ks, a_s, 0.05, &s)
-            .unwrap()
-            .rows
-            .len()
+        let bg = Background::new(&model);
+        let run = run_background(&bg, [phi_start, bg.attractor(phi_start)], 1e4, &s).unwrap();
+        spectrum(&model, &run, 55.0, &ks, a_s, 0.05, &s).unwrap().rows.len()
     });
 }

@@ -651,20 +651,22 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         .with_hint("lower --k-max, or raise --efolds")
         .into());
     }
-    let needed = a.efolds + (k_star / a.k_min).ln().max(0.0) + settings.k_start.ln() + 5.0;
-    let opts = crate::predict::Options {
-        n_stars: vec![needed],
-        branch: a.branch,
-        data: data.clone(),
-        ..Default::default()
+    let needed = a.efolds + (k_star / a.k_min).ln().max(0.0) + settings.k_start.ln() + 4.0;
+    let mut phi_at = |n: f64| -> Result<f64, crate::canonical::AnalysisError> {
+        let opts = crate::predict::Options {
+            n_stars: vec![n],
+            branch: a.branch,
+            data: data.clone(),
+            ..Default::default()
+        };
+        Ok(crate::predict::predict(&model, &opts, config)?.predictions[0].phi_star)
     };
-    let start = crate::predict::predict(&model, &opts, config)?;
-    let phi_start = start.predictions[0].phi_star;
+    let (_, run) = crate::exact::start_with_room(&model, needed, &settings, &mut phi_at)?;
     let n = a.points;
     let ks: Vec<f64> = (0..n)
         .map(|i| (a.k_min.ln() + (k_max.ln() - a.k_min.ln()) * i as f64 / (n - 1) as f64).exp())
         .collect();
-    let sp = crate::exact::spectrum(&model, phi_start, a.efolds, &ks, data.a_s(), k_star, &settings)?;
+    let sp = crate::exact::spectrum(&model, &run, a.efolds, &ks, data.a_s(), k_star, &settings)?;
     if let Some(path) = &a.svg {
         write_output_file(path, &crate::exact::figure(&sp, &model.spec.name))?;
     }

@@ -459,13 +459,12 @@ pub const TILT_STEP: f64 = 0.05;
 /// eps_H = 1, and the modes around each pivot give the tilts.
 pub fn observe(
     model: &Model,
-    phi_start: f64,
+    run: &Run,
     n_stars: &[f64],
     settings: &Settings,
-) -> Result<(Run, Vec<ExactPoint>), AnalysisError> {
+) -> Result<Vec<ExactPoint>, AnalysisError> {
     let bg = Background::new(model);
-    let start = [phi_start, bg.attractor(phi_start)];
-    let run = run_background(&bg, start, 10_000.0, settings)?;
+    let run = run.clone();
     let n_end = run.n_end.ok_or_else(|| {
         fail(
             "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
@@ -520,7 +519,7 @@ pub fn observe(
             },
         });
     }
-    Ok((run, out))
+    Ok(out)
 }
 
 /// One row of a spectrum.
@@ -555,12 +554,14 @@ pub struct Spectrum {
     pub rows: Vec<SpectrumRow>,
     /// The row with the largest P_zeta.
     pub peak: SpectrumRow,
+    /// The row with the largest slow-roll estimate (where slow roll puts the peak).
+    pub peak_slow_roll: SpectrumRow,
 }
 
 /// Computes P_zeta(k) and P_t(k) for `k_mpc` (Mpc^-1), modes in parallel.
 pub fn spectrum(
     model: &Model,
-    phi_start: f64,
+    run: &Run,
     n_star: f64,
     k_mpc: &[f64],
     a_s: f64,
@@ -569,23 +570,21 @@ pub fn spectrum(
 ) -> Result<Spectrum, AnalysisError> {
     use rayon::prelude::*;
     let bg = Background::new(model);
-    let start = [phi_start, bg.attractor(phi_start)];
-    let run = run_background(&bg, start, 10_000.0, settings)?;
     let n_end = run.n_end.ok_or_else(|| {
         fail(
             "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
             &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
         )
     })?;
-    let piv = pivot(&bg, &run, n_star, settings)?;
-    let pivot_mode = mode(&bg, &run, piv, 1.0, settings)?;
+    let piv = pivot(&bg, run, n_star, settings)?;
+    let pivot_mode = mode(&bg, run, piv, 1.0, settings)?;
     let scale = a_s / pivot_mode.p_s;
     let rows: Vec<SpectrumRow> = k_mpc
         .par_iter()
         .map(|&k| {
             let bg = Background::new(model);
-            let m = mode(&bg, &run, piv, k / k_star_mpc, settings)?;
-            let y = state_at(&bg, &run, m.n_cross, settings)?;
+            let m = mode(&bg, run, piv, k / k_star_mpc, settings)?;
+            let y = state_at(&bg, run, m.n_cross, settings)?;
             let mut ev = model.evaluator();
             let sr = crate::slowroll::SlowRoll::at(&mut ev, y[0]);
             Ok(SpectrumRow {
@@ -602,6 +601,10 @@ pub fn spectrum(
         .iter()
         .max_by(|a, b| a.p_zeta.total_cmp(&b.p_zeta))
         .ok_or_else(|| fail("no wavenumbers asked for".to_string(), &["give --points 2 or more"]))?;
+    let peak_slow_roll = *rows
+        .iter()
+        .max_by(|a, b| a.p_zeta_slow_roll.total_cmp(&b.p_zeta_slow_roll))
+        .expect("rows are not empty");
     Ok(Spectrum {
         n_star,
         k_star_mpc,
@@ -609,6 +612,7 @@ pub fn spectrum(
         n_total: n_end,
         rows,
         peak,
+        peak_slow_roll,
     })
 }
 
@@ -648,6 +652,12 @@ pub fn text(sp: &Spectrum, name: &str) -> String {
         p.n_before_end,
         p.p_zeta_slow_roll,
         p.p_zeta / p.p_zeta_slow_roll
+    );
+    let q = &sp.peak_slow_roll;
+    let _ = writeln!(
+        o,
+        "         slow roll puts its peak at k = {:.4e} Mpc^-1 ({:.3} e-folds before the end) with P_zeta = {:.4e}; exact there: {:.4e}",
+        q.k_mpc, q.n_before_end, q.p_zeta_slow_roll, q.p_zeta
     );
     o
 }
@@ -696,4 +706,36 @@ pub fn figure(sp: &Spectrum, name: &str) -> String {
         ..Panel::default()
     };
     crate::plot::render(name, &[panel])
+}
+
+/// Starts the exact background on the slow-roll attractor with at least `n_needed` exact
+/// e-folds before its end. `phi_at(N)` gives the slow-roll field value N e-folds before the
+/// slow-roll end; where slow roll overestimates the e-folds (an ultra-slow-roll stretch is
+/// crossed faster than slow roll says), the start moves up by the shortfall and tries again.
+pub fn start_with_room(
+    model: &Model,
+    n_needed: f64,
+    settings: &Settings,
+    phi_at: &mut dyn FnMut(f64) -> Result<f64, AnalysisError>,
+) -> Result<(f64, Run), AnalysisError> {
+    let bg = Background::new(model);
+    let mut ask = n_needed;
+    for _ in 0..6 {
+        let phi_start = phi_at(ask)?;
+        let run = run_background(&bg, [phi_start, bg.attractor(phi_start)], 10_000.0, settings)?;
+        match run.n_end {
+            Some(n) if n >= n_needed => return Ok((phi_start, run)),
+            Some(n) => ask += (n_needed - n) + 2.0,
+            None => {
+                return Err(fail(
+                    "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
+                    &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
+                ))
+            }
+        }
+    }
+    Err(fail(
+        format!("could not start the exact background {n_needed:.1} e-folds before its end"),
+        &["ask for fewer e-folds, or a smaller k range"],
+    ))
 }

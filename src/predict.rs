@@ -436,17 +436,21 @@ fn refine_exact(
     // Start early enough for the lowest k of the tilt stencil to begin k/aH = k_start inside,
     // plus a few e-folds for the approach to the attractor.
     let margin = settings.k_start.ln() + 2.0 * crate::exact::TILT_STEP + 4.0;
-    let phi_start = phi_stars(ev, b, phi_end, &[deepest + margin], config, field).map_err(|e| {
-        fail(
-            format!(
-                "the exact solver needs {:.1} e-folds of slow roll before the end: {}",
-                deepest + margin,
-                e.message
-            ),
-            &["ask for fewer e-folds"],
-        )
-    })?[0];
-    let (_, points) = crate::exact::observe(model, phi_start, &n_stars, settings)?;
+    let mut phi_at = |n: f64| -> Result<f64, AnalysisError> {
+        phi_stars(ev, b, phi_end, &[n], config, field)
+            .map(|v| v[0])
+            .map_err(|e| {
+                fail(
+                    format!(
+                        "the exact solver needs {n:.1} e-folds of slow roll before the end: {}",
+                        e.message
+                    ),
+                    &["ask for fewer e-folds"],
+                )
+            })
+    };
+    let (_, run) = crate::exact::start_with_room(model, deepest + margin, settings, &mut phi_at)?;
+    let points = crate::exact::observe(model, &run, &n_stars, settings)?;
     let data = &opts.data;
     let mp = data.units.reduced_planck_mass_gev;
     let mut map = CanonicalMap::new(model, phi_end, config);

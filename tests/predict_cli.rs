@@ -229,3 +229,63 @@ fn failures_exit_2_with_a_diagnosis() {
         );
     }
 }
+
+#[test]
+fn exact_method_and_spectrum() {
+    let r = efold(&[
+        "predict",
+        &model("pole-order-2-quadratic"),
+        "--method",
+        "exact",
+        "--efolds",
+        "55",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    assert_eq!(v["method"], "exact");
+    let p = &v["predictions"][0];
+    for key in ["n_s", "r", "alpha_s", "n_t", "phi_star", "phi_end", "potential_scale"] {
+        assert!(p[key].is_number(), "{key}");
+    }
+    for key in [
+        "eps_1",
+        "eps_2",
+        "eps_3",
+        "n_s_second_order",
+        "r_second_order",
+        "phi_end_slow_roll",
+        "freeze_drift",
+    ] {
+        assert!(p["exact"][key].is_number(), "exact.{key}");
+    }
+    let r = efold(&[
+        "spectrum",
+        &model("pole-order-2-quadratic"),
+        "--points",
+        "5",
+        "--k-min",
+        "1e-3",
+        "--k-max",
+        "1e3",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    insta::assert_snapshot!("spectrum_pole", r.stdout);
+    let r = efold(&[
+        "spectrum",
+        &model("pole-order-2-quadratic"),
+        "--points",
+        "3",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert_eq!(
+        r.stdout.lines().next().unwrap(),
+        "k_mpc,p_zeta,p_t,p_zeta_slow_roll,n_before_end,drift"
+    );
+    let r = efold(&["spectrum", &model("pole-order-2-quadratic"), "--k-max", "1e30"]);
+    assert_eq!(r.code, 2);
+    insta::assert_snapshot!("spectrum_error_k_max", r.stderr);
+}
