@@ -62,6 +62,12 @@ pub struct SpectrumArgs {
     /// Use this branch (1-based), as in `predict`.
     #[arg(long, value_name = "K")]
     pub branch: Option<usize>,
+    /// Start the background at this field value instead of on the slow-roll attractor.
+    #[arg(long, value_name = "PHI", allow_hyphen_values = true)]
+    pub start_phi: Option<f64>,
+    /// With --start-phi: the initial dphi/dN [default: the slow-roll attractor's].
+    #[arg(long, value_name = "DPHI_DN", allow_hyphen_values = true)]
+    pub start_velocity: Option<f64>,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
     pub data: Option<std::path::PathBuf>,
@@ -114,6 +120,13 @@ pub struct PredictArgs {
     /// Mukhanov–Sasaki spectra (N_* then counts from eps_H = 1).
     #[arg(long, value_enum, default_value_t = Method::SlowRoll)]
     pub method: Method,
+    /// With --method exact: start the background at this field value instead of on the
+    /// slow-roll attractor well before the pivot.
+    #[arg(long, value_name = "PHI", allow_hyphen_values = true)]
+    pub start_phi: Option<f64>,
+    /// With --start-phi: the initial dphi/dN [default: the slow-roll attractor's].
+    #[arg(long, value_name = "DPHI_DN", allow_hyphen_values = true)]
+    pub start_velocity: Option<f64>,
     /// Fix N_* from reheating: `instant` (radiation right after inflation).
     #[arg(long, value_name = "instant")]
     pub reheat: Option<String>,
@@ -605,7 +618,10 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         second_order: a.second_order,
         reheating: reheating_from(a)?,
         data,
-        exact: (a.method == Method::Exact).then(crate::exact::Settings::default),
+        exact: (a.method == Method::Exact).then(|| crate::exact::Settings {
+            start: a.start_phi.map(|p| (p, a.start_velocity)),
+            ..Default::default()
+        }),
     };
     let rep = crate::predict::predict(&model, &opts, config)?;
     if let Some(path) = &a.svg {
@@ -633,7 +649,10 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
         None => crate::data::DataSet::builtin(),
     };
-    let settings = crate::exact::Settings::default();
+    let settings = crate::exact::Settings {
+        start: a.start_phi.map(|p| (p, a.start_velocity)),
+        ..Default::default()
+    };
     let k_star = data.pivot.k_mpc;
     // The largest k must still freeze before the end: N_* - ln(k/k_*) > ln(1/k_stop) + 1.
     let k_limit = k_star * (a.efolds - (1.0 / settings.k_stop).ln() - 1.5).exp();

@@ -47,6 +47,9 @@ pub struct Settings {
     pub freeze_tol: f64,
     /// Integrator tolerances for the modes and the background.
     pub ode: OdeOptions,
+    /// Start the background here, (phi, dphi/dN), instead of on the slow-roll attractor well
+    /// before the pivot; dphi/dN `None` takes the attractor's velocity at phi.
+    pub start: Option<(f64, Option<f64>)>,
 }
 
 impl Default for Settings {
@@ -55,6 +58,7 @@ impl Default for Settings {
             k_start: 100.0,
             k_stop: 1e-4,
             freeze_tol: 1e-5,
+            start: None,
             ode: OdeOptions {
                 rtol: 1e-10,
                 atol: 1e-300,
@@ -351,12 +355,22 @@ pub fn mode(
     };
     let (p_s, p_t) = power(&y_stop);
     let (p_s_prev, _) = power(&y_prev);
+    let drift = ((p_s - p_s_prev) / p_s).abs();
+    if drift > settings.freeze_tol {
+        return Err(fail(
+            format!(
+                "the mode k/k_* = {kappa:e} has not frozen: P changed by {drift:.1e} over its last e-fold (allowed {:.0e})",
+                settings.freeze_tol
+            ),
+            &["stop the modes further outside the horizon (a smaller k/aH at the stop)"],
+        ));
+    }
     Ok(ModePower {
         kappa,
         p_s,
         p_t,
         n_cross,
-        drift: ((p_s - p_s_prev) / p_s).abs(),
+        drift,
         steps,
     })
 }
@@ -719,6 +733,30 @@ pub fn start_with_room(
     phi_at: &mut dyn FnMut(f64) -> Result<f64, AnalysisError>,
 ) -> Result<(f64, Run), AnalysisError> {
     let bg = Background::new(model);
+    if let Some((phi, velocity)) = settings.start {
+        let pi = match velocity {
+            Some(dphi) => {
+                let mut ev = model.evaluator();
+                ev.eval(phi);
+                dphi * ev.output(OUT_SQRT_K)
+            }
+            None => bg.attractor(phi),
+        };
+        let run = run_background(&bg, [phi, pi], 10_000.0, settings)?;
+        return match run.n_end {
+            Some(n) if n >= n_needed => Ok((phi, run)),
+            Some(n) => Err(fail(
+                format!(
+                    "starting at phi = {phi} gives {n:.3} e-folds before the end, fewer than the {n_needed:.1} needed"
+                ),
+                &["start further up the potential, or ask for fewer e-folds or a smaller k range"],
+            )),
+            None => Err(fail(
+                format!("starting at phi = {phi}, inflation does not end (eps_H never reaches 1)"),
+                &["check the start and the potential"],
+            )),
+        };
+    }
     let mut ask = n_needed;
     for _ in 0..6 {
         let phi_start = phi_at(ask)?;

@@ -285,6 +285,47 @@ fn exact_method_and_spectrum() {
         r.stdout.lines().next().unwrap(),
         "k_mpc,p_zeta,p_t,p_zeta_slow_roll,n_before_end,drift"
     );
+    // A start given by hand: far enough up, the attractor forgets the kick; too low, an error.
+    let a = efold(&[
+        "predict",
+        &model("quadratic-monomial"),
+        "--method",
+        "exact",
+        "--efolds",
+        "55",
+        "--format",
+        "json",
+    ]);
+    let b = efold(&[
+        "predict",
+        &model("quadratic-monomial"),
+        "--method",
+        "exact",
+        "--efolds",
+        "55",
+        "--format",
+        "json",
+        "--start-phi",
+        "18",
+        "--start-velocity",
+        "-0.2",
+    ]);
+    let ns = |r: &str| {
+        serde_json::from_str::<serde_json::Value>(r).unwrap()["predictions"][0]["n_s"]
+            .as_f64()
+            .unwrap()
+    };
+    assert!((ns(&a.stdout) - ns(&b.stdout)).abs() < 1e-8);
+    let r = efold(&[
+        "predict",
+        &model("quadratic-monomial"),
+        "--method",
+        "exact",
+        "--start-phi",
+        "12",
+    ]);
+    assert_eq!(r.code, 2);
+    insta::assert_snapshot!("exact_error_start_too_low", r.stderr);
     let r = efold(&["spectrum", &model("pole-order-2-quadratic"), "--k-max", "1e30"]);
     assert_eq!(r.code, 2);
     insta::assert_snapshot!("spectrum_error_k_max", r.stderr);
