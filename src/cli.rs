@@ -39,6 +39,63 @@ pub enum Command {
     /// The exact scalar and tensor power spectra, P_zeta(k) and P_t(k), from the
     /// Mukhanov–Sasaki equation.
     Spectrum(SpectrumArgs),
+    /// Predictions over a grid of one or two parameters and N_*, in parallel.
+    Scan(ScanArgs),
+    /// Join the shards of a scan into the table an unsharded run writes.
+    Merge(MergeArgs),
+}
+
+/// `efold scan`.
+#[derive(Debug, clap::Args)]
+pub struct ScanArgs {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub model: ModelArgs,
+    /// A parameter to vary: NAME=LO:HI:COUNT, `:log` appended for a logarithmic grid, or NAME
+    /// alone for the model file's [scan] range. Once or twice.
+    #[arg(long, value_name = "NAME=LO:HI:COUNT[:log]", required = true)]
+    pub vary: Vec<String>,
+    /// N_* values, comma-separated [default: the model's setting, or 50,55,60].
+    #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
+    pub efolds: Vec<f64>,
+    /// Points for a parameter given by name alone.
+    #[arg(long, default_value_t = 20)]
+    pub points: usize,
+    /// Compute only the K-th of N slices of the grid (for job arrays); join with `efold merge`.
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<String>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = ScanFormat::Csv)]
+    pub format: ScanFormat,
+    /// Write the table to this file (atomically) instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<std::path::PathBuf>,
+    /// Write the n_s-r figure to this SVG file.
+    #[arg(long, value_name = "FILE")]
+    pub svg: Option<std::path::PathBuf>,
+    /// A data file of constraints and constants [default: the built-in one].
+    #[arg(long, value_name = "FILE")]
+    pub data: Option<std::path::PathBuf>,
+}
+
+/// Formats of a scan's table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ScanFormat {
+    /// One row per point and N_*.
+    Csv,
+    /// An array of flat objects, one per point and N_*.
+    Json,
+}
+
+/// `efold merge`.
+#[derive(Debug, clap::Args)]
+pub struct MergeArgs {
+    /// The shard files (all CSV or all JSON).
+    #[arg(required = true)]
+    pub files: Vec<std::path::PathBuf>,
+    /// Write the merged table here (atomically) instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<std::path::PathBuf>,
 }
 
 /// `efold spectrum`.
@@ -332,6 +389,8 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Inspect(a) => inspect_cmd(a, &config),
         Command::Predict(a) => predict_cmd(a, &config),
         Command::Spectrum(a) => spectrum_cmd(a, &config),
+        Command::Scan(a) => scan_cmd(a, &config),
+        Command::Merge(a) => merge_cmd(a),
     }
 }
 
@@ -700,4 +759,86 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         TableFormat::Csv => crate::exact::csv(&sp),
         TableFormat::Text => crate::exact::text(&sp, &model.spec.name),
     })
+}
+
+fn load_data(path: &Option<std::path::PathBuf>) -> Result<crate::data::DataSet, Failure> {
+    match path {
+        Some(p) => crate::data::DataSet::load(p).map_err(Failure::input),
+        None => Ok(crate::data::DataSet::builtin()),
+    }
+}
+
+fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
+    use std::io::IsTerminal;
+    // Compile once up front: a bad model is one error, not one per point.
+    let model = load_model(&a.model, config)?;
+    let spec = model.spec.clone();
+    let data = load_data(&a.data)?;
+    if a.vary.len() > 2 {
+        return Err(Diagnostic::new("at most two parameters can be varied at once")
+            .with_hint("give --vary once or twice")
+            .into());
+    }
+    let axes = a
+        .vary
+        .iter()
+        .map(|v| crate::scan::Axis::parse(v, &spec, a.points))
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(|e| Failure::from(Diagnostic::new(e).with_hint("write `--vary alpha=0.1:10:30:log`")))?;
+    let shard = a
+        .shard
+        .as_deref()
+        .map(crate::scan::Shard::parse)
+        .transpose()
+        .map_err(|e| Failure::from(Diagnostic::new(e)))?;
+    let n_stars = if a.efolds.is_empty() {
+        spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
+    } else {
+        a.efolds.clone()
+    };
+    let progress = std::io::stderr().is_terminal();
+    let rows = crate::scan::run(&spec, &axes, &n_stars, &data, shard, config, progress);
+    let failed = rows.iter().filter(|r| r.result.is_err()).count();
+    if failed > 0 {
+        eprintln!(
+            "efold: warning: {failed} of {} rows failed; they keep their row with the error",
+            rows.len()
+        );
+    }
+    let names: Vec<String> = axes.iter().map(|x| x.name.clone()).collect();
+    let table = match a.format {
+        ScanFormat::Csv => crate::scan::csv(&names, &rows),
+        ScanFormat::Json => crate::scan::json(&rows),
+    };
+    if let Some(path) = &a.svg {
+        write_output_file(path, &crate::scan::figure(&spec.name, &axes, &rows, &data))?;
+    }
+    match &a.out {
+        Some(path) => {
+            write_output_file(path, &table)?;
+            Ok(String::new())
+        }
+        None => Ok(table),
+    }
+}
+
+fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
+    let mut texts = Vec::new();
+    for f in &a.files {
+        let t = std::fs::read_to_string(f).map_err(|e| {
+            Failure::from(
+                Diagnostic::new(format!("cannot read `{}`: {e}", f.display()))
+                    .with_hint("give the shard files written by `efold scan --shard K/N`"),
+            )
+        })?;
+        texts.push((f.display().to_string(), t));
+    }
+    let merged = crate::scan::merge(&texts).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+    match &a.out {
+        Some(path) => {
+            write_output_file(path, &merged)?;
+            Ok(String::new())
+        }
+        None => Ok(merged),
+    }
 }

@@ -27,11 +27,25 @@ impl Default for Limits {
 }
 
 /// Everything configurable, grouped by stage.
-#[derive(Debug, Clone, Default, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Config {
     /// Limits on the expression language.
     pub limits: Limits,
     /// Quadrature tolerance for the canonical map and e-fold integrals (default: relative
     /// 1e-12, at most 2000 subintervals).
     pub quad: crate::numerics::quad::Tolerance,
+    /// When an e-fold integral cannot reach `quad.rel` because its integrand's own rounding is
+    /// larger (close to a pole of K, 1 - phi^2/(6 alpha) keeps only a few digits), its result
+    /// is still used if the estimated relative error is below this. Default 1e-9.
+    pub quad_accept: f64,
+}
+
+impl Default for Config {
+    fn default() -> Self {
+        Config {
+            limits: Limits::default(),
+            quad: crate::numerics::quad::Tolerance::default(),
+            quad_accept: 1e-9,
+        }
+    }
 }

@@ -23,6 +23,7 @@ pub mod numerics;
 pub mod plot;
 pub mod predict;
 pub mod reheating;
+pub mod scan;
 pub mod slowroll;
 pub mod syntax;
 pub mod tape;

@@ -41,6 +41,22 @@ pub struct Marker {
     pub color: String,
 }
 
+/// A shaded rectangle in data coordinates (infinite ends reach the axes); `y: None` spans the
+/// whole height.
+#[derive(Debug, Clone)]
+pub struct Region {
+    /// x extent.
+    pub x: (f64, f64),
+    /// y extent, if not the whole height.
+    pub y: Option<(f64, f64)>,
+    /// A CSS colour.
+    pub color: String,
+    /// Fill opacity.
+    pub opacity: f64,
+    /// Label, drawn at its top left inside the axes.
+    pub label: String,
+}
+
 /// One set of axes.
 #[derive(Debug, Clone, Default)]
 pub struct Panel {
@@ -58,6 +74,8 @@ pub struct Panel {
     pub vlines: Vec<VLine>,
     /// Point markers.
     pub markers: Vec<Marker>,
+    /// Shaded regions, drawn under the series.
+    pub regions: Vec<Region>,
 }
 
 const W: f64 = 460.0;
@@ -148,6 +166,12 @@ fn panel(out: &mut String, p: &Panel) {
         }
     }
     xs.extend(p.vlines.iter().map(|v| v.x).filter(|x| x.is_finite()));
+    for g in &p.regions {
+        xs.extend([g.x.0, g.x.1].into_iter().filter(|x| x.is_finite()));
+        if let Some((lo, hi)) = g.y {
+            ys.extend([ty(lo), ty(hi)].into_iter().filter(|y| y.is_finite()));
+        }
+    }
     let (mut x0, mut x1) = min_max(&xs);
     let (mut y0, mut y1) = min_max(&ys);
     if x1 <= x0 {
@@ -221,6 +245,34 @@ fn panel(out: &mut String, p: &Panel) {
         "<clipPath id=\"clip{}\"><rect x=\"{ML}\" y=\"{MT}\" width=\"{pw}\" height=\"{ph}\"/></clipPath>",
         p.title.len()
     );
+    for (i, g) in p.regions.iter().enumerate() {
+        let cx = |x: f64| sx(x.clamp(x0, x1));
+        let cy = |y: f64| {
+            let t = ty(y);
+            let t = if t.is_nan() { y0 } else { t };
+            sy(t.clamp(y0, y1))
+        };
+        let (xa, xb) = (cx(g.x.0), cx(g.x.1));
+        let (ya, yb) = match g.y {
+            Some((lo, hi)) => (cy(hi), cy(lo)),
+            None => (MT, MT + ph),
+        };
+        if xb <= xa || yb <= ya {
+            continue;
+        }
+        let _ = writeln!(
+            out,
+            "<rect class=\"region\" x=\"{xa:.2}\" y=\"{ya:.2}\" width=\"{:.2}\" height=\"{:.2}\" fill=\"{}\" fill-opacity=\"{}\"/><text x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
+            xb - xa,
+            yb - ya,
+            g.color,
+            g.opacity,
+            xa + 3.0,
+            ya + 12.0 + 11.0 * i as f64,
+            g.color,
+            esc(&g.label)
+        );
+    }
     for s in &p.series {
         let mut d = String::new();
         let mut pen_up = true;

@@ -700,42 +700,46 @@ pub const CSV_KEYS: [&str; 27] = [
     "n_reh",
 ];
 
+/// The values of one prediction in the order of [`CSV_KEYS`].
+pub fn csv_values(p: &Prediction) -> Vec<String> {
+    let opt = |x: Option<f64>| x.map(|v| format!("{v:e}")).unwrap_or_default();
+    vec![
+        format!("{}", p.n_star),
+        format!("{:e}", p.phi_star),
+        format!("{:e}", p.phi_end),
+        format!("{:e}", p.n_s),
+        format!("{:e}", p.r),
+        format!("{:e}", p.alpha_s),
+        format!("{:e}", p.n_t),
+        format!("{:e}", p.eps_v),
+        format!("{:e}", p.eta_v),
+        format!("{:e}", p.xi2_v),
+        format!("{:e}", p.omega3_v),
+        format!("{:e}", p.delta_chi),
+        format!("{:e}", p.delta_phi),
+        format!("{:e}", p.lyth_bound),
+        format!("{:e}", p.a_s_unscaled),
+        format!("{:e}", p.potential_scale),
+        format!("{:e}", p.v_star_quarter_gev),
+        format!("{:e}", p.h_star_gev),
+        format!("{:e}", p.t_ds_gev),
+        format!("{:e}", p.v_end),
+        format!("{:e}", p.v_end_quarter_gev),
+        format!("{:e}", p.n_s_pull),
+        format!("{:e}", p.r_limit),
+        p.verdict.to_string(),
+        opt(p.pole_only.map(|q| q.n_s)),
+        opt(p.pole_only.map(|q| q.r)),
+        opt(p.reheating.map(|m| m.n_reh)),
+    ]
+}
+
 /// One CSV row per N_*, with a header.
 pub fn csv(rep: &Report) -> String {
     let mut o = CSV_KEYS.join(",");
     o.push('\n');
     for p in &rep.predictions {
-        let opt = |x: Option<f64>| x.map(|v| format!("{v:e}")).unwrap_or_default();
-        let vals = [
-            format!("{}", p.n_star),
-            format!("{:e}", p.phi_star),
-            format!("{:e}", p.phi_end),
-            format!("{:e}", p.n_s),
-            format!("{:e}", p.r),
-            format!("{:e}", p.alpha_s),
-            format!("{:e}", p.n_t),
-            format!("{:e}", p.eps_v),
-            format!("{:e}", p.eta_v),
-            format!("{:e}", p.xi2_v),
-            format!("{:e}", p.omega3_v),
-            format!("{:e}", p.delta_chi),
-            format!("{:e}", p.delta_phi),
-            format!("{:e}", p.lyth_bound),
-            format!("{:e}", p.a_s_unscaled),
-            format!("{:e}", p.potential_scale),
-            format!("{:e}", p.v_star_quarter_gev),
-            format!("{:e}", p.h_star_gev),
-            format!("{:e}", p.t_ds_gev),
-            format!("{:e}", p.v_end),
-            format!("{:e}", p.v_end_quarter_gev),
-            format!("{:e}", p.n_s_pull),
-            format!("{:e}", p.r_limit),
-            p.verdict.to_string(),
-            opt(p.pole_only.map(|q| q.n_s)),
-            opt(p.pole_only.map(|q| q.r)),
-            opt(p.reheating.map(|m| m.n_reh)),
-        ];
-        o.push_str(&vals.join(","));
+        o.push_str(&csv_values(p).join(","));
         o.push('\n');
     }
     o

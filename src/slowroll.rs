@@ -18,6 +18,7 @@ use crate::config::Config;
 use crate::model::{OUT_K, OUT_V};
 use crate::numerics::quad::gauss_kronrod;
 use crate::numerics::roots::brent;
+use crate::numerics::NumericError;
 use crate::tape::Evaluator;
 use serde::Serialize;
 
@@ -396,10 +397,22 @@ fn dn_dphi(ev: &mut Evaluator<'_>, x: f64) -> f64 {
     v0 * k / v1
 }
 
+/// The integral's value, also when the quadrature stopped short of its tolerance with an
+/// error estimate still below `config.quad_accept` (relative): the shortfall is then the
+/// integrand's own rounding.
+fn accept(r: Result<crate::numerics::Estimate, NumericError>, config: &Config) -> Result<f64, NumericError> {
+    match r {
+        Ok(e) => Ok(e.value),
+        Err(NumericError::NoConvergence { estimate, error, .. }) if error <= config.quad_accept * estimate.abs() => {
+            Ok(estimate)
+        }
+        Err(e) => Err(e),
+    }
+}
+
 /// N between phi_end and x along the branch (adaptive Gauss–Kronrod, `config.quad`).
 pub fn efolds_between(ev: &mut Evaluator<'_>, a: f64, b: f64, config: &Config) -> Result<f64, AnalysisError> {
-    let r = gauss_kronrod(|x| dn_dphi(ev, x), a, b, &config.quad)?;
-    Ok(r.value)
+    Ok(accept(gauss_kronrod(|x| dn_dphi(ev, x), a, b, &config.quad), config)?)
 }
 
 /// phi_* for each requested N_* (any order), counted from `phi_end` up the branch. Errors
@@ -423,7 +436,7 @@ pub fn phi_stars(
     let need = n_stars.iter().copied().fold(0.0f64, f64::max);
     let mut out = vec![f64::NAN; n_stars.len()];
     let integrate = |ev: &mut Evaluator<'_>, a: f64, x: f64| -> Result<f64, AnalysisError> {
-        let r = gauss_kronrod(|s| coord.dn_ds(ev, s), a, x, &config.quad).map_err(|e| {
+        let r = accept(gauss_kronrod(|s| coord.dn_ds(ev, s), a, x, &config.quad), config).map_err(|e| {
             fail(
                 format!(
                     "e-fold integral failed between {field} = {} and {}: {e}",
@@ -433,7 +446,7 @@ pub fn phi_stars(
                 &["the slow-roll integrand V K / V' must stay finite up the branch"],
             )
         })?;
-        Ok(r.value)
+        Ok(r)
     };
     let (mut s_prev, mut n_prev) = (coord.s_end, 0.0);
     for k in 1..=60 {
@@ -537,7 +550,7 @@ fn solve_n(
     let mut x = a + (b - a) * ((target - na) / (nb - na)).clamp(0.0, 1.0);
     let (mut xk, mut nk) = (a, na);
     for _ in 0..100 {
-        let n = nk + gauss_kronrod(|s| coord.dn_ds(ev, s), xk, x, &config.quad)?.value;
+        let n = nk + accept(gauss_kronrod(|s| coord.dn_ds(ev, s), xk, x, &config.quad), config)?;
         if (n - target).abs() <= 1e-13 * target {
             return Ok(x);
         }

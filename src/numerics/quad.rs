@@ -63,9 +63,9 @@ const WG: [f64; 4] = [
     0.417_959_183_673_469_4,
 ];
 
-/// One 15-point Kronrod panel on [a, b]: (integral, error estimate), or the first non-finite
-/// integrand value.
-fn kronrod_panel(f: &mut impl FnMut(f64) -> f64, a: f64, b: f64) -> Result<(f64, f64), NumericError> {
+/// One 15-point Kronrod panel on [a, b]: (integral, error estimate, rounding floor of that
+/// estimate), or the first non-finite integrand value.
+fn kronrod_panel(f: &mut impl FnMut(f64) -> f64, a: f64, b: f64) -> Result<(f64, f64, f64), NumericError> {
     let c = 0.5 * (a + b);
     let h = 0.5 * (b - a);
     let mut eval = |x: f64| {
@@ -102,21 +102,26 @@ fn kronrod_panel(f: &mut impl FnMut(f64) -> f64, a: f64, b: f64) -> Result<(f64,
         err = asc * (200.0 * diff / asc).powf(1.5).min(1.0);
     }
     // Not below what rounding allows.
-    err = err.max(50.0 * f64::EPSILON * k.abs());
-    Ok((k, err))
+    let floor = 50.0 * f64::EPSILON * asc.max(k.abs());
+    err = err.max(floor);
+    Ok((k, err, floor))
 }
 
 /// Adaptive Gauss–Kronrod: bisects the panel with the largest error until the total error
-/// estimate meets the tolerance. Requires a finite interval and a finite integrand on it.
+/// estimate meets the tolerance, or until every panel's error is at the level of rounding in
+/// its integrand (then the tolerance asked for is below what double precision can deliver
+/// for this integrand, and the rounding-limited error estimate is returned). Requires a
+/// finite interval and a finite integrand on it.
 pub fn gauss_kronrod(mut f: impl FnMut(f64) -> f64, a: f64, b: f64, tol: &Tolerance) -> Result<Estimate, NumericError> {
     if a == b {
         return Ok(Estimate { value: 0.0, error: 0.0 });
     }
-    let (v, e) = kronrod_panel(&mut f, a, b)?;
-    let mut panels: Vec<(f64, f64, f64, f64)> = vec![(a, b, v, e)];
+    let (v, e, fl) = kronrod_panel(&mut f, a, b)?;
+    let mut panels: Vec<(f64, f64, f64, f64, f64)> = vec![(a, b, v, e, fl)];
     let (mut total, mut err) = (v, e);
     let mut steps = 1;
-    while err > tol.abs.max(tol.rel * total.abs()) {
+    let at_rounding = |panels: &[(f64, f64, f64, f64, f64)]| panels.iter().all(|p| p.3 <= p.4);
+    while err > tol.abs.max(tol.rel * total.abs()) && !at_rounding(&panels) {
         if steps >= tol.max_steps {
             return Err(NumericError::NoConvergence {
                 what: "adaptive quadrature",
@@ -130,7 +135,7 @@ pub fn gauss_kronrod(mut f: impl FnMut(f64) -> f64, a: f64, b: f64, tol: &Tolera
             .enumerate()
             .max_by(|x, y| x.1 .3.total_cmp(&y.1 .3))
             .expect("at least one panel");
-        let (pa, pb, pv, pe) = panels.swap_remove(i);
+        let (pa, pb, pv, pe, _) = panels.swap_remove(i);
         let m = 0.5 * (pa + pb);
         if m <= pa.min(pb) || m >= pa.max(pb) {
             // The panel cannot be split further in double precision.
@@ -141,12 +146,12 @@ pub fn gauss_kronrod(mut f: impl FnMut(f64) -> f64, a: f64, b: f64, tol: &Tolera
                 iterations: steps,
             });
         }
-        let (v1, e1) = kronrod_panel(&mut f, pa, m)?;
-        let (v2, e2) = kronrod_panel(&mut f, m, pb)?;
+        let (v1, e1, f1) = kronrod_panel(&mut f, pa, m)?;
+        let (v2, e2, f2) = kronrod_panel(&mut f, m, pb)?;
         total += v1 + v2 - pv;
         err += e1 + e2 - pe;
-        panels.push((pa, m, v1, e1));
-        panels.push((m, pb, v2, e2));
+        panels.push((pa, m, v1, e1, f1));
+        panels.push((m, pb, v2, e2, f2));
         steps += 1;
     }
     // Re-sum to shed the drift of the running totals.
@@ -254,7 +259,7 @@ mod tests {
     #[test]
     fn constants_integrate_polynomials_exactly() {
         for deg in 0..=22 {
-            let (k, _) = kronrod_panel(&mut |x: f64| x.powi(deg), -1.0, 1.0).unwrap();
+            let (k, _, _) = kronrod_panel(&mut |x: f64| x.powi(deg), -1.0, 1.0).unwrap();
             let exact = if deg % 2 == 1 { 0.0 } else { 2.0 / (deg as f64 + 1.0) };
             assert!((k - exact).abs() < 1e-15, "degree {deg}: {k} vs {exact}");
         }
