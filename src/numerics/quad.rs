@@ -117,41 +117,51 @@ pub fn gauss_kronrod(mut f: impl FnMut(f64) -> f64, a: f64, b: f64, tol: &Tolera
         return Ok(Estimate { value: 0.0, error: 0.0 });
     }
     let (v, e, fl) = kronrod_panel(&mut f, a, b)?;
-    let mut panels: Vec<(f64, f64, f64, f64, f64)> = vec![(a, b, v, e, fl)];
+    // (a, b, value, error, rounding floor, stalled): a small-error panel whose halves together
+    // were no better than it is stalled on the integrand's own rounding noise and is not
+    // split again.
+    let mut panels: Vec<(f64, f64, f64, f64, f64, bool)> = vec![(a, b, v, e, fl, false)];
     let (mut total, mut err) = (v, e);
     let mut steps = 1;
-    let at_rounding = |panels: &[(f64, f64, f64, f64, f64)]| panels.iter().all(|p| p.3 <= p.4);
-    while err > tol.abs.max(tol.rel * total.abs()) && !at_rounding(&panels) {
-        if steps >= tol.max_steps {
-            return Err(NumericError::NoConvergence {
-                what: "adaptive quadrature",
-                estimate: total,
-                error: err,
-                iterations: steps,
-            });
+    loop {
+        if err <= tol.abs.max(tol.rel * total.abs()) || panels.iter().all(|p| p.3 <= p.4) {
+            break;
         }
-        let (i, _) = panels
+        let pick = panels
             .iter()
             .enumerate()
+            .filter(|p| !p.1 .5)
             .max_by(|x, y| x.1 .3.total_cmp(&y.1 .3))
-            .expect("at least one panel");
-        let (pa, pb, pv, pe, _) = panels.swap_remove(i);
+            .map(|p| p.0);
+        let Some(i) = pick.filter(|_| steps < tol.max_steps) else {
+            // Every panel left to split is stalled (or the cap is reached): the tolerance is
+            // below what this integrand's rounding allows.
+            let value: f64 = panels.iter().map(|p| p.2).sum();
+            let error: f64 = panels.iter().map(|p| p.3).sum();
+            return Err(NumericError::NoConvergence {
+                what: "adaptive quadrature",
+                estimate: value,
+                error,
+                iterations: steps,
+            });
+        };
+        let (pa, pb, pv, pe, _, _) = panels.swap_remove(i);
         let m = 0.5 * (pa + pb);
         if m <= pa.min(pb) || m >= pa.max(pb) {
             // The panel cannot be split further in double precision.
-            return Err(NumericError::NoConvergence {
-                what: "adaptive quadrature (panel at rounding size)",
-                estimate: total,
-                error: err,
-                iterations: steps,
-            });
+            panels.push((pa, pb, pv, pe, 0.0, true));
+            continue;
         }
         let (v1, e1, f1) = kronrod_panel(&mut f, pa, m)?;
         let (v2, e2, f2) = kronrod_panel(&mut f, m, pb)?;
+        // No progress on a panel whose error is already tiny beside the integral: noise.
+        // (An under-resolved feature can also fail to improve at first, but its error is
+        // large then, so it keeps being split.)
+        let stalled = e1 + e2 >= 0.99 * pe && pe <= 1e-9 * total.abs();
         total += v1 + v2 - pv;
         err += e1 + e2 - pe;
-        panels.push((pa, m, v1, e1, f1));
-        panels.push((m, pb, v2, e2, f2));
+        panels.push((pa, m, v1, e1, f1, stalled));
+        panels.push((m, pb, v2, e2, f2, stalled));
         steps += 1;
     }
     // Re-sum to shed the drift of the running totals.
