@@ -43,6 +43,37 @@ pub enum Command {
     Scan(ScanArgs),
     /// Join the shards of a scan into the table an unsharded run writes.
     Merge(MergeArgs),
+    /// Solve for parameter values that reproduce target observables.
+    Fit(FitArgs),
+}
+
+/// `efold fit`.
+#[derive(Debug, clap::Args)]
+pub struct FitArgs {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub model: ModelArgs,
+    /// A parameter to solve for (repeatable; at most as many as targets). Its value in the
+    /// model (or --param) is the starting point.
+    #[arg(long = "free", value_name = "NAME", required = true)]
+    pub free: Vec<String>,
+    /// A target, NAME=VALUE with NAME one of n_s, r, alpha_s, A_s (repeatable).
+    #[arg(
+        long = "target",
+        value_name = "NAME=VALUE",
+        required = true,
+        allow_hyphen_values = true
+    )]
+    pub targets: Vec<String>,
+    /// e-folds between the pivot's exit and the end of inflation.
+    #[arg(long, default_value_t = 55.0)]
+    pub efolds: f64,
+    /// A data file of constraints and constants [default: the built-in one].
+    #[arg(long, value_name = "FILE")]
+    pub data: Option<std::path::PathBuf>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
 }
 
 /// `efold scan`.
@@ -391,6 +422,7 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Spectrum(a) => spectrum_cmd(a, &config),
         Command::Scan(a) => scan_cmd(a, &config),
         Command::Merge(a) => merge_cmd(a),
+        Command::Fit(a) => fit_cmd(a, &config),
     }
 }
 
@@ -841,4 +873,28 @@ fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
         }
         None => Ok(merged),
     }
+}
+
+fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
+    let model = load_model(&a.model, config)?;
+    let data = load_data(&a.data)?;
+    let targets = a
+        .targets
+        .iter()
+        .map(|t| crate::fit::Target::parse(t))
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(|e| Failure::from(Diagnostic::new(e)))?;
+    let f = crate::fit::fit(
+        &model.spec,
+        &a.free,
+        &targets,
+        a.efolds,
+        &data,
+        config,
+        &Default::default(),
+    )?;
+    Ok(match a.format {
+        Format::Json => format!("{}\n", serde_json::to_string_pretty(&f).expect("serialisable")),
+        Format::Text => crate::fit::text(&f),
+    })
 }

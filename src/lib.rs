@@ -16,6 +16,7 @@ pub mod config;
 pub mod data;
 pub mod diag;
 pub mod exact;
+pub mod fit;
 pub mod inspect;
 pub mod ir;
 pub mod model;
