@@ -45,6 +45,55 @@ pub enum Command {
     Merge(MergeArgs),
     /// Solve for parameter values that reproduce target observables.
     Fit(FitArgs),
+    /// Golden predictions for a directory of models: write them, or check that nothing drifted.
+    Golden(GoldenArgs),
+    /// Re-predict a model file or a directory whenever a file changes, and print what moved.
+    Watch(WatchArgs),
+}
+
+/// `efold golden`.
+#[derive(Debug, clap::Args)]
+pub struct GoldenArgs {
+    /// What to do.
+    #[command(subcommand)]
+    pub action: GoldenAction,
+}
+
+/// `efold golden write|check`.
+#[derive(Debug, Subcommand)]
+pub enum GoldenAction {
+    /// Predict every model file under DIR and write NAME.predictions.json beside it (atomically).
+    Write {
+        /// The directory of model files.
+        dir: std::path::PathBuf,
+        /// A data file [default: the built-in one].
+        #[arg(long, value_name = "FILE")]
+        data: Option<std::path::PathBuf>,
+    },
+    /// Recompute and report every prediction that moved beyond the tolerance; exit code 1 if any.
+    Check {
+        /// The directory of model files.
+        dir: std::path::PathBuf,
+        /// Relative tolerance.
+        #[arg(long, default_value_t = 1e-8)]
+        tolerance: f64,
+        /// A data file [default: the built-in one].
+        #[arg(long, value_name = "FILE")]
+        data: Option<std::path::PathBuf>,
+    },
+}
+
+/// `efold watch`.
+#[derive(Debug, clap::Args)]
+pub struct WatchArgs {
+    /// A model file, or a directory of them.
+    pub path: std::path::PathBuf,
+    /// Report changes beyond this relative size.
+    #[arg(long, default_value_t = 1e-10)]
+    pub tolerance: f64,
+    /// Stop after this many rounds of changes (for scripts; default: run until interrupted).
+    #[arg(long, value_name = "N")]
+    pub exit_after: Option<usize>,
 }
 
 /// `efold fit`.
@@ -361,6 +410,11 @@ pub struct Failure {
 }
 
 impl Failure {
+    /// Predictions drifted from their golden values: exit code 1.
+    pub fn drifted(message: String) -> Failure {
+        Failure { message, code: 1 }
+    }
+
     /// Bad input or a numerical failure: exit code 2.
     pub fn input(message: String) -> Failure {
         Failure { message, code: 2 }
@@ -423,6 +477,8 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Scan(a) => scan_cmd(a, &config),
         Command::Merge(a) => merge_cmd(a),
         Command::Fit(a) => fit_cmd(a, &config),
+        Command::Golden(a) => golden_cmd(a, &config),
+        Command::Watch(a) => watch_cmd(a, &config),
     }
 }
 
@@ -897,4 +953,171 @@ fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
         Format::Json => format!("{}\n", serde_json::to_string_pretty(&f).expect("serialisable")),
         Format::Text => crate::fit::text(&f),
     })
+}
+
+fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
+    use crate::golden::{compare, golden_path, model_files, predict_file};
+    use std::fmt::Write as _;
+    let (dir, data) = match &a.action {
+        GoldenAction::Write { dir, data } | GoldenAction::Check { dir, data, .. } => (dir, data),
+    };
+    let base = crate::predict::Options {
+        data: load_data(data)?,
+        ..Default::default()
+    };
+    let files = model_files(dir).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+    if files.is_empty() {
+        return Err(Diagnostic::new(format!("no model files (*.toml) under `{}`", dir.display())).into());
+    }
+    let mut out = String::new();
+    match &a.action {
+        GoldenAction::Write { .. } => {
+            for f in &files {
+                let rep =
+                    predict_file(f, &base, config).map_err(|e| Failure::input(format!("{}: {e}", f.display())))?;
+                let text = format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable"));
+                write_output_file(&golden_path(f), &text)?;
+                let _ = writeln!(out, "wrote {}", golden_path(f).display());
+            }
+            Ok(out)
+        }
+        GoldenAction::Check { tolerance, .. } => {
+            let mut drifted = 0;
+            for f in &files {
+                let g = golden_path(f);
+                let old = match std::fs::read_to_string(&g) {
+                    Ok(t) => serde_json::from_str::<serde_json::Value>(&t).ok(),
+                    Err(_) => None,
+                };
+                let Some(old) = old else {
+                    drifted += 1;
+                    let _ = writeln!(
+                        out,
+                        "{}: no readable golden file {} (run `efold golden write`)",
+                        f.display(),
+                        g.display()
+                    );
+                    continue;
+                };
+                match predict_file(f, &base, config) {
+                    Err(e) => {
+                        drifted += 1;
+                        let _ = writeln!(out, "{}: now fails to predict:\n{e}", f.display());
+                    }
+                    Ok(rep) => {
+                        let new = serde_json::to_value(&rep).expect("serialisable");
+                        let d = compare(&old, &new, *tolerance);
+                        if d.is_empty() {
+                            let _ = writeln!(out, "{}: unchanged", f.display());
+                        } else {
+                            drifted += 1;
+                            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.len());
+                            for x in d {
+                                let _ = writeln!(out, "{x}");
+                            }
+                        }
+                    }
+                }
+            }
+            if drifted > 0 {
+                return Err(Failure::drifted(format!(
+                    "{drifted} of {} model(s) drifted beyond {tolerance:e}\n{out}",
+                    files.len()
+                )));
+            }
+            Ok(out)
+        }
+    }
+}
+
+fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
+    use crate::golden::{compare, model_files, predict_file};
+    use notify::{RecursiveMode, Watcher};
+    use std::io::Write as _;
+    let base = crate::predict::Options::default();
+    let files = || -> Result<Vec<std::path::PathBuf>, Failure> {
+        if a.path.is_dir() {
+            model_files(&a.path).map_err(|e| Failure::from(Diagnostic::new(e)))
+        } else {
+            Ok(vec![a.path.clone()])
+        }
+    };
+    let mut last: std::collections::BTreeMap<std::path::PathBuf, Result<serde_json::Value, String>> =
+        Default::default();
+    let round = |last: &mut std::collections::BTreeMap<_, _>, first: bool| -> Result<(), Failure> {
+        for f in files()? {
+            let now = predict_file(&f, &base, config).map(|r| serde_json::to_value(&r).expect("serialisable"));
+            let line = match (last.get(&f), &now) {
+                (_, Err(e)) => format!("{}: fails to predict\n{e}", f.display()),
+                (Some(Ok(old)), Ok(new)) => {
+                    let d = compare(old, new, a.tolerance);
+                    if d.is_empty() {
+                        if first {
+                            format!("{}: predicted", f.display())
+                        } else {
+                            continue;
+                        }
+                    } else {
+                        let mut s = format!("{}: {} value(s) changed", f.display(), d.len());
+                        for x in d {
+                            s.push_str(&format!("\n{x}"));
+                        }
+                        s
+                    }
+                }
+                (_, Ok(new)) => {
+                    let p = &new["predictions"];
+                    let summary: Vec<String> = p
+                        .as_array()
+                        .into_iter()
+                        .flatten()
+                        .map(|x| {
+                            format!(
+                                "N_* = {}: n_s = {:.6}, r = {:.4e}",
+                                x["n_star"],
+                                x["n_s"].as_f64().unwrap_or(f64::NAN),
+                                x["r"].as_f64().unwrap_or(f64::NAN)
+                            )
+                        })
+                        .collect();
+                    format!("{}: {}", f.display(), summary.join("; "))
+                }
+            };
+            let mut stdout = std::io::stdout();
+            let _ = writeln!(stdout, "{line}");
+            let _ = stdout.flush();
+            last.insert(f, now);
+        }
+        Ok(())
+    };
+    round(&mut last, true)?;
+    let (tx, rx) = std::sync::mpsc::channel();
+    let mut watcher = notify::recommended_watcher(move |ev: notify::Result<notify::Event>| {
+        let _ = tx.send(ev);
+    })
+    .map_err(|e| Failure::from(Diagnostic::new(format!("cannot watch `{}`: {e}", a.path.display()))))?;
+    watcher
+        .watch(&a.path, RecursiveMode::Recursive)
+        .map_err(|e| Failure::from(Diagnostic::new(format!("cannot watch `{}`: {e}", a.path.display()))))?;
+    let mut stdout = std::io::stdout();
+    let _ = writeln!(stdout, "watching {} (interrupt to stop)", a.path.display());
+    let _ = stdout.flush();
+    let mut rounds = 0;
+    while let Ok(ev) = rx.recv() {
+        let relevant = ev
+            .map(|e| e.paths.iter().any(|p| p.extension().is_some_and(|x| x == "toml")))
+            .unwrap_or(false);
+        if !relevant {
+            continue;
+        }
+        // let a burst of events (an editor's save) settle
+        std::thread::sleep(std::time::Duration::from_millis(150));
+        while rx.try_recv().is_ok() {}
+        round(&mut last, false)?;
+        rounds += 1;
+        if a.exit_after.is_some_and(|n| rounds >= n) {
+            break;
+        }
+    }
+    Ok(String::new())
 }

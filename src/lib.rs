@@ -17,6 +17,7 @@ pub mod data;
 pub mod diag;
 pub mod exact;
 pub mod fit;
+pub mod golden;
 pub mod inspect;
 pub mod ir;
 pub mod model;
