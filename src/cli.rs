@@ -5,6 +5,7 @@
 //! | code | meaning |
 //! |------|---------|
 //! | 0 | success |
+//! | 1 | `golden check`: predictions drifted beyond the tolerance |
 //! | 2 | bad input (an expression, a flag, a file) or a numerical failure |
 
 use crate::compile::{compile, lower_into, ExprError};
