@@ -133,7 +133,7 @@ pub struct ScanArgs {
     #[allow(missing_docs)]
     pub model: ModelArgs,
     /// A parameter to vary: NAME=LO:HI:COUNT, `:log` appended for a logarithmic grid, or NAME
-    /// alone for the model file's [scan] range. Once or twice.
+    /// alone for the model file's `[scan]` range. Once or twice.
     #[arg(long, value_name = "NAME=LO:HI:COUNT[:log]", required = true)]
     pub vary: Vec<String>,
     /// N_* values, comma-separated [default: the model's setting, or 50,55,60].
