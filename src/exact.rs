@@ -454,17 +454,6 @@ pub struct ExactPoint {
     pub extras: ExactExtras,
 }
 
-/// Second-order slow-roll observables from Hubble-flow parameters (check-values section 7;
-/// Stewart & Lyth 1993, Schwarz, Terrero-Escalante & Garcia 2001): (n_s, r, n_t).
-pub fn second_order_from_flow(e1: f64, e2: f64, e3: f64) -> (f64, f64, f64) {
-    let c = crate::slowroll::EULER_GAMMA + std::f64::consts::LN_2 - 2.0;
-    (
-        1.0 - 2.0 * e1 - e2 - 2.0 * e1 * e1 - (2.0 * c + 3.0) * e1 * e2 - c * e2 * e3,
-        16.0 * e1 * (1.0 + c * e2),
-        -2.0 * e1 - 2.0 * e1 * e1 - 2.0 * (c + 1.0) * e1 * e2,
-    )
-}
-
 /// Step in ln k of the five-point stencils for the tilts.
 pub const TILT_STEP: f64 = 0.05;
 
@@ -507,7 +496,8 @@ pub fn observe(
         let (_, e2m) = flow(piv.n - d)?;
         let (_, e2p) = flow(piv.n + d)?;
         let e3 = ((e2p.abs()).ln() - (e2m.abs()).ln()) / (2.0 * d);
-        let (ns2, r2, nt2) = second_order_from_flow(e1, e2, e3);
+        let second = crate::slowroll::second_order_from_flow(e1, e2, e2 * e3);
+        let (ns2, r2, nt2) = (second.n_s, second.r, second.n_t);
         out.push(ExactPoint {
             n_star,
             phi_star: y[0],

@@ -83,14 +83,20 @@ impl SlowRoll {
     /// C e2 e3, r = 16 e1 (1 + C e2), n_t = -2 e1 - 2 e1^2 - 2 (C + 1) e1 e2. The running keeps its
     /// leading order, alpha_s = -2 e1 e2 - e2 e3.
     pub fn second_order(&self) -> Observables {
-        let c = EULER_GAMMA + std::f64::consts::LN_2 - 2.0;
         let (e1, e2, e2e3) = self.hubble_flow();
-        Observables {
-            n_s: 1.0 - 2.0 * e1 - e2 - 2.0 * e1 * e1 - (2.0 * c + 3.0) * e1 * e2 - c * e2e3,
-            r: 16.0 * e1 * (1.0 + c * e2),
-            n_t: -2.0 * e1 - 2.0 * e1 * e1 - 2.0 * (c + 1.0) * e1 * e2,
-            alpha_s: -2.0 * e1 * e2 - e2e3,
-        }
+        second_order_from_flow(e1, e2, e2e3)
+    }
+}
+
+/// The second-order observables from Hubble-flow parameters eps_1, eps_2 and the product
+/// eps_2 eps_3 (formulas and sources at [`SlowRoll::second_order`]).
+pub fn second_order_from_flow(e1: f64, e2: f64, e2e3: f64) -> Observables {
+    let c = EULER_GAMMA + std::f64::consts::LN_2 - 2.0;
+    Observables {
+        n_s: 1.0 - 2.0 * e1 - e2 - 2.0 * e1 * e1 - (2.0 * c + 3.0) * e1 * e2 - c * e2e3,
+        r: 16.0 * e1 * (1.0 + c * e2),
+        n_t: -2.0 * e1 - 2.0 * e1 * e1 - 2.0 * (c + 1.0) * e1 * e2,
+        alpha_s: -2.0 * e1 * e2 - e2e3,
     }
 }
 
