@@ -543,7 +543,7 @@ fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize, poly:
             }
             Op::PowI(a, 2) => {
                 let a = &src[a as usize];
-                for k in 0..=N {
+                for k in 0..N + 1 {
                     out[k] = square_coefficient(a, k);
                 }
             }
@@ -554,23 +554,23 @@ fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize, poly:
 
 #[inline(always)]
 fn zip_into<const N: usize>(a: &Jet, b: &Jet, out: &mut Jet, f: impl Fn(f64, f64) -> f64) {
-    for k in 0..=N {
+    for k in 0..N + 1 {
         out[k] = f(a[k], b[k]);
     }
 }
 
 #[inline(always)]
 fn scale_into<const N: usize>(a: &Jet, s: f64, out: &mut Jet) {
-    for k in 0..=N {
+    for k in 0..N + 1 {
         out[k] = a[k] * s;
     }
 }
 
 #[inline(always)]
 fn mul_into<const N: usize>(a: &Jet, b: &Jet, out: &mut Jet) {
-    for k in 0..=N {
+    for k in 0..N + 1 {
         let mut s = 0.0;
-        for j in 0..=k {
+        for j in 0..k + 1 {
             s += a[j] * b[k - j];
         }
         out[k] = s;
@@ -652,7 +652,7 @@ impl MapFirst for Jet {
 #[inline(always)]
 fn zip(a: &Jet, b: &Jet, n: usize, f: impl Fn(f64, f64) -> f64) -> Jet {
     let mut c = [0.0; JET_LEN];
-    for k in 0..=n {
+    for k in 0..n + 1 {
         c[k] = f(a[k], b[k]);
     }
     c
@@ -661,7 +661,7 @@ fn zip(a: &Jet, b: &Jet, n: usize, f: impl Fn(f64, f64) -> f64) -> Jet {
 #[inline(always)]
 fn scale(a: &Jet, s: f64, n: usize) -> Jet {
     let mut c = [0.0; JET_LEN];
-    for k in 0..=n {
+    for k in 0..n + 1 {
         c[k] = a[k] * s;
     }
     c
@@ -671,9 +671,9 @@ fn scale(a: &Jet, s: f64, n: usize) -> Jet {
 #[inline(always)]
 fn mul(a: &Jet, b: &Jet, n: usize) -> Jet {
     let mut c = [0.0; JET_LEN];
-    for k in 0..=n {
+    for k in 0..n + 1 {
         let mut s = 0.0;
-        for j in 0..=k {
+        for j in 0..k + 1 {
             s += a[j] * b[k - j];
         }
         c[k] = s;
@@ -686,7 +686,7 @@ fn mul(a: &Jet, b: &Jet, n: usize) -> Jet {
 fn div(a: &Jet, b: &Jet, n: usize) -> Jet {
     let mut c = [0.0; JET_LEN];
     c[0] = a[0] / b[0];
-    for k in 1..=n {
+    for k in 1..n + 1 {
         let mut s = a[k];
         for j in 0..k {
             s -= c[j] * b[k - j];
@@ -707,9 +707,9 @@ fn recip(b: &Jet, n: usize) -> Jet {
 fn integrate(b0: f64, a: &Jet, g: &Jet, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = b0;
-    for k in 1..=n {
+    for k in 1..n + 1 {
         let mut s = 0.0;
-        for j in 1..=k {
+        for j in 1..k + 1 {
             s += j as f64 * a[j] * g[k - j];
         }
         b[k] = s * INV[k];
@@ -723,9 +723,9 @@ fn exp_jet(a: &Jet, n: usize) -> Jet {
     let da = weighted(a, n);
     let mut b = [0.0; JET_LEN];
     b[0] = a[0].exp();
-    for k in 1..=n {
+    for k in 1..n + 1 {
         let mut s = 0.0;
-        for j in 1..=k {
+        for j in 1..k + 1 {
             s += da[j] * b[k - j];
         }
         b[k] = s * INV[k];
@@ -738,7 +738,7 @@ fn exp_jet(a: &Jet, n: usize) -> Jet {
 fn log_jet(a: &Jet, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = a[0].ln();
-    for k in 1..=n {
+    for k in 1..n + 1 {
         let mut s = 0.0;
         for j in 1..k {
             s += j as f64 * b[j] * a[k - j];
@@ -753,7 +753,7 @@ fn log_jet(a: &Jet, n: usize) -> Jet {
 fn sqrt_jet(a: &Jet, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = a[0].sqrt();
-    for k in 1..=n {
+    for k in 1..n + 1 {
         let mut s = a[k];
         for j in 1..k {
             s -= b[j] * b[k - j];
@@ -768,7 +768,7 @@ fn sqrt_jet(a: &Jet, n: usize) -> Jet {
 fn powc_recurrence(a: &Jet, r: f64, b0: f64, n: usize) -> Jet {
     let mut b = [0.0; JET_LEN];
     b[0] = b0;
-    for k in 1..=n {
+    for k in 1..n + 1 {
         let mut s = 0.0;
         for j in 0..k {
             s += (r * (k - j) as f64 - j as f64) * a[k - j] * b[j];
@@ -830,9 +830,9 @@ fn sin_cos(a: &Jet, n: usize, hyperbolic: bool) -> (Jet, Jet) {
     } else {
         (s[0], c[0]) = a[0].sin_cos();
     }
-    for k in 1..=n {
+    for k in 1..n + 1 {
         let (mut ss, mut cc) = (0.0, 0.0);
-        for j in 1..=k {
+        for j in 1..k + 1 {
             let ja = j as f64 * a[j];
             ss += ja * c[k - j];
             cc += ja * s[k - j];
@@ -851,9 +851,9 @@ fn tan_like(a: &Jet, n: usize, t0: f64, sign: f64) -> Jet {
     let mut u = [0.0; JET_LEN];
     t[0] = t0;
     u[0] = 1.0 + sign * t0 * t0;
-    for k in 1..=n {
+    for k in 1..n + 1 {
         let mut s = 0.0;
-        for j in 1..=k {
+        for j in 1..k + 1 {
             s += da[j] * u[k - j];
         }
         t[k] = s * INV[k];
@@ -868,7 +868,7 @@ fn tan_like(a: &Jet, n: usize, t0: f64, sign: f64) -> Jet {
 #[inline(always)]
 fn weighted(a: &Jet, n: usize) -> Jet {
     let mut d = [0.0; JET_LEN];
-    for j in 1..=n {
+    for j in 1..n + 1 {
         d[j] = j as f64 * a[j];
     }
     d
@@ -1030,7 +1030,7 @@ mod tests {
         a[1] = 1.0;
         let t = tan_like(&a, MAX_ORDER, 0.0, -1.0);
         let want = [0.0, 1.0, 0.0, -1.0 / 3.0, 0.0, 2.0 / 15.0, 0.0, -17.0 / 315.0, 0.0];
-        for k in 0..=MAX_ORDER {
+        for k in 0..MAX_ORDER + 1 {
             assert!((t[k] - want[k]).abs() < 1e-15, "order {k}: {} vs {}", t[k], want[k]);
         }
     }
