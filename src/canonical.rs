@@ -28,15 +28,15 @@ pub fn chain_rule(v: &Jet, s: &Jet, order: usize) -> [f64; 5] {
     let mut out = [0.0; 5];
     let mut w = *v;
     out[0] = w[0];
-    for k in 1..=order.min(4) {
+    for k in 1..order.min(4) + 1 {
         let n = order - k; // orders left after this derivative
         let mut d = [0.0; JET_LEN];
-        for j in 0..=n {
+        for j in 0..n + 1 {
             d[j] = (j + 1) as f64 * w[j + 1];
         }
         // divide by s, truncated at order n
         let mut q = [0.0; JET_LEN];
-        for j in 0..=n {
+        for j in 0..n + 1 {
             let mut acc = d[j];
             for i in 0..j {
                 acc -= q[i] * s[j - i];
