@@ -509,13 +509,14 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         }
     };
     let probes: Vec<f64> = (1..256).map(|i| map(i as f64 / 256.0)).collect();
-    let ks: Vec<f64> = probes
+    let vk: Vec<(f64, f64)> = probes
         .iter()
         .map(|&x| {
-            ev.eval(x);
-            ev.output(OUT_K)
+            let v = ev.eval(x);
+            (v, ev.output(OUT_K))
         })
         .collect();
+    let ks: Vec<f64> = vk.iter().map(|p| p.1).collect();
     for i in 1..probes.len() - 1 {
         let (x3, k3) = ([probes[i - 1], probes[i], probes[i + 1]], [ks[i - 1], ks[i], ks[i + 1]]);
         if k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
@@ -537,8 +538,8 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
             });
         }
     }
-    for &x in &probes {
-        match status(ev, x) {
+    for (&x, &(v, k)) in probes.iter().zip(&vk) {
+        match classify_status(v, k) {
             Status::Good => {}
             s => {
                 ev.eval(x);
