@@ -4,7 +4,6 @@
 
 use divan::{black_box, Bencher};
 use efold::config::Config;
-use efold::data::DataSet;
 use efold::model::{Model, ModelSpec};
 use efold::predict::{predict, Options};
 
@@ -12,15 +11,9 @@ fn main() {
     divan::main();
 }
 
+/// Three N_* (50, 55, 60), slow roll, the built-in data set: the defaults.
 fn options() -> Options {
-    Options {
-        n_stars: vec![50.0, 55.0, 60.0],
-        branch: None,
-        second_order: false,
-        reheating: None,
-        data: DataSet::builtin(),
-        exact: None,
-    }
+    Options::default()
 }
 
 fn spec(name: &str) -> ModelSpec {

@@ -3,7 +3,6 @@
 //! Used by `benches/side_by_side.py` and for profiling (`valgrind --tool=callgrind`).
 
 use efold::config::Config;
-use efold::data::DataSet;
 use efold::model::{Model, ModelSpec};
 use efold::predict::{predict, Options};
 use std::time::Instant;
@@ -17,14 +16,8 @@ fn main() {
     let repeat: usize = args.get(2).and_then(|r| r.parse().ok()).unwrap_or(2000);
     let spec = ModelSpec::load(std::path::Path::new(path)).expect("a model file");
     let config = Config::default();
-    let opts = Options {
-        n_stars: vec![50.0, 55.0, 60.0],
-        branch: None,
-        second_order: false,
-        reheating: None,
-        data: DataSet::builtin(),
-        exact: None,
-    };
+    // Three N_* (50, 55, 60), slow roll, the built-in data set.
+    let opts = Options::default();
     let mut times = Vec::with_capacity(repeat);
     let mut report = None;
     for _ in 0..repeat.max(1) {
