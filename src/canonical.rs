@@ -5,7 +5,7 @@
 
 use crate::config::Config;
 use crate::model::{Model, OUT_K, OUT_SQRT_K, OUT_V};
-use crate::numerics::quad::{gauss_kronrod, tanh_sinh};
+use crate::numerics::quad::{gauss_kronrod_batch, tanh_sinh};
 use crate::numerics::roots::{brent, safeguarded_newton};
 use crate::numerics::{Estimate, NumericError};
 use crate::tape::{Evaluator, Jet, JET_LEN};
@@ -272,6 +272,12 @@ fn bisect_sign(mut g: impl FnMut(f64) -> f64, mut a: f64, mut b: f64) -> Option<
     Some(if a * b <= 0.0 { 0.0 } else { 0.5 * (a + b) })
 }
 
+/// sqrt(K) at up to [`crate::tape::BATCH`] points: the integrand of chi(phi).
+fn sqrt_k_batch(ev: &mut Evaluator<'_>, xs: &[f64], out: &mut [f64]) {
+    ev.eval_batch(xs);
+    out[..xs.len()].copy_from_slice(ev.batch_output(OUT_SQRT_K));
+}
+
 /// Finds the domain. With a user range, checks it; otherwise surveys the real line.
 pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, AnalysisError> {
     let field = model.field().to_string();
@@ -279,13 +285,8 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
         return check_range(ev, lo, hi, &field);
     }
     let grid = survey_grid();
-    let samples: Vec<(f64, f64)> = grid
-        .iter()
-        .map(|&x| {
-            let v = ev.eval(x);
-            (v, ev.output(OUT_K))
-        })
-        .collect();
+    let mut samples = vec![(0.0, 0.0); grid.len()];
+    ev.eval_each(grid, |i, out| samples[i] = (out[OUT_V], out[OUT_K]));
     let st: Vec<Status> = samples.iter().map(|&(v, k)| classify_status(v, k)).collect();
     // Cut points: transitions of status, and hidden poles or zeros of K between good samples.
     let mut cuts: Vec<(f64, EndKind)> = Vec::new();
@@ -509,13 +510,8 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         }
     };
     let probes: Vec<f64> = (1..256).map(|i| map(i as f64 / 256.0)).collect();
-    let vk: Vec<(f64, f64)> = probes
-        .iter()
-        .map(|&x| {
-            let v = ev.eval(x);
-            (v, ev.output(OUT_K))
-        })
-        .collect();
+    let mut vk = vec![(0.0, 0.0); probes.len()];
+    ev.eval_each(&probes, |i, out| vk[i] = (out[OUT_V], out[OUT_K]));
     let ks: Vec<f64> = vk.iter().map(|p| p.1).collect();
     for i in 1..probes.len() - 1 {
         let (x3, k3) = ([probes[i - 1], probes[i], probes[i + 1]], [ks[i - 1], ks[i], ks[i + 1]]);
@@ -733,15 +729,7 @@ impl<'m> CanonicalMap<'m> {
     /// `config.quad.rel`), with its error estimate.
     pub fn between(&mut self, a: f64, b: f64) -> Result<Estimate, NumericError> {
         let ev = &mut self.ev;
-        gauss_kronrod(
-            |x| {
-                ev.eval(x);
-                ev.output(OUT_SQRT_K)
-            },
-            a,
-            b,
-            &self.tol,
-        )
+        gauss_kronrod_batch(|xs, ys| sqrt_k_batch(ev, xs, ys), a, b, &self.tol)
     }
 
     /// chi(phi), measured from `phi_ref`.
@@ -806,15 +794,7 @@ impl<'m> CanonicalMap<'m> {
         let tol = self.tol;
         let ev = &mut self.ev;
         let mut chi_at = |x: f64| {
-            let r = gauss_kronrod(
-                |t| {
-                    ev.eval(t);
-                    ev.output(OUT_SQRT_K)
-                },
-                base,
-                x,
-                &tol,
-            );
+            let r = gauss_kronrod_batch(|ts, ys| sqrt_k_batch(ev, ts, ys), base, x, &tol);
             let c = r.map(|e| e.value).unwrap_or(f64::NAN);
             ev.eval(x);
             (chi_base + c - target, ev.output(OUT_SQRT_K))

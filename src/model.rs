@@ -1,5 +1,5 @@
 //! Stage 4: a model: field name, parameters, V(phi), K(phi) and an optional field range, read
-//! from a TOML file or given inline, then compiled to one tape with outputs V, K and sqrt(K).
+//! from a TOML file or given inline, then compiled to one tape with outputs V, K, sqrt(K) and dV/dphi.
 //!
 //! The file format (all keys but `potential` optional):
 //!
@@ -518,7 +518,7 @@ fn toml_error(e: toml::de::Error, text: &str, file: &str) -> ModelError {
     )
 }
 
-/// A compiled model: one tape with outputs V, K and sqrt(K), and the parameter values.
+/// A compiled model: one tape with outputs V, K, sqrt(K) and dV/dphi, and the parameter values.
 #[derive(Debug, Clone)]
 pub struct Model {
     /// The model as written.
@@ -527,7 +527,7 @@ pub struct Model {
     pub scope: Scope,
     /// Parameter values, in scope order.
     pub params: Vec<f64>,
-    /// The compiled expressions: roots V, K, sqrt(K).
+    /// The compiled expressions: roots V, K, sqrt(K), dV/dphi.
     pub compiled: Compiled,
     /// The field interval given by the user, if any (infinite ends allowed).
     pub range: Option<(f64, f64)>,
@@ -539,6 +539,9 @@ pub const OUT_V: usize = 0;
 pub const OUT_K: usize = 1;
 /// Output index of sqrt(K).
 pub const OUT_SQRT_K: usize = 2;
+/// Output index of dV/dphi (the symbolic derivative), so that plain and batch f64 evaluation
+/// give the slope without jets.
+pub const OUT_DV: usize = 3;
 
 impl Model {
     /// Compiles a model: parameters first (each an expression of `pi` and earlier ones), then V
@@ -588,7 +591,8 @@ impl Model {
         )
         .map_err(|e| ModelError::from_expr(e, &spec.kinetic.origin))?;
         let sqrt_k = graph.func(Func::Sqrt, k);
-        let roots = vec![v, k, sqrt_k];
+        let dv = graph.derivative(v);
+        let roots = vec![v, k, sqrt_k, dv];
         let tape = Tape::compile(&graph, &roots);
         let range = match &spec.range {
             None => None,
@@ -619,7 +623,7 @@ impl Model {
     }
 
     /// An evaluator bound to the model's parameters: `eval(phi)` returns V, `output(1)` K,
-    /// `output(2)` sqrt(K).
+    /// `output(2)` sqrt(K), `output(3)` dV/dphi.
     pub fn evaluator(&self) -> Evaluator<'_> {
         self.compiled.tape.evaluator(&self.params)
     }

@@ -15,11 +15,12 @@
 
 use crate::canonical::{chi_derivatives, AnalysisError, Interval};
 use crate::config::Config;
-use crate::model::{OUT_K, OUT_V};
-use crate::numerics::quad::gauss_kronrod;
+use crate::model::{OUT_DV, OUT_K, OUT_SQRT_K, OUT_V};
+use crate::numerics::quad::gauss_kronrod_batch;
 use crate::numerics::roots::brent;
 use crate::numerics::NumericError;
 use crate::tape::Evaluator;
+use crate::tape::BATCH;
 use serde::Serialize;
 
 /// The potential slow-roll parameters at one field value.
@@ -193,22 +194,21 @@ pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
 /// in ascending order of position.
 pub fn branches(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<Branch> {
     let pts = sample_points(iv.lo, iv.hi);
-    let mut dv = |x: f64| {
-        ev.eval_jet(x, 1);
-        let j = ev.jet_output(OUT_V);
-        (j[0], j[1])
-    };
     // The sign of V' where it is significant: a slope below rounding of V over the scale of x
     // (V' |x| < 1e-10 |V|) is numerical noise on a plateau, not a direction. 0 marks "none".
-    let mut sign = |x: f64| -> f64 {
-        let (v, d) = dv(x);
+    let sign = |x: f64, v: f64, d: f64| -> f64 {
         if !(v.is_finite() && d.is_finite()) || d.abs() * x.abs().max(1.0) <= 1e-10 * v.abs() {
             0.0
         } else {
             d.signum()
         }
     };
-    let signs: Vec<f64> = pts.iter().map(|&x| sign(x)).collect();
+    let mut signs = vec![0.0; pts.len()];
+    ev.eval_each(&pts, |i, out| signs[i] = sign(pts[i], out[OUT_V], out[OUT_DV]));
+    let mut dv = |x: f64| {
+        ev.eval(x);
+        ev.output(OUT_DV)
+    };
     // Sign changes between consecutive significant samples, refined by Brent on V'.
     let mut stationary = Vec::new();
     let mut prev: Option<usize> = None;
@@ -219,7 +219,7 @@ pub fn branches(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<Branch> {
         if let Some(j) = prev {
             if signs[j] != signs[i] {
                 let r = brent(
-                    |x| dv(x).1,
+                    &mut dv,
                     pts[j],
                     pts[i],
                     1e-15 * pts[j].abs().max(pts[i].abs()).max(1e-300),
@@ -275,8 +275,16 @@ pub fn end_of_inflation(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Resu
         pts.reverse(); // the bottom is at the larger end: start there
     }
     let mut below: Option<f64> = None;
-    for &x in &pts {
-        let (v, e) = eps_first_order(ev, x);
+    // (V, eps_V) at the points, a batch at a time: the walk usually stops in the first few.
+    let mut vals = Vec::with_capacity(BATCH);
+    for (i, &x) in pts.iter().enumerate() {
+        if i % BATCH == 0 {
+            vals.clear();
+            ev.eval_each(&pts[i..(i + BATCH).min(pts.len())], |_, out| {
+                vals.push(eps_from_outputs(out[OUT_V], out[OUT_DV], out[OUT_SQRT_K]))
+            });
+        }
+        let (v, e) = vals[i % BATCH];
         if !(v.is_finite() && e.is_finite()) {
             continue;
         }
@@ -301,14 +309,16 @@ pub fn end_of_inflation(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Resu
     end_of_inflation_walk(ev, b, field)
 }
 
-/// (V, eps_V) from first-order jets.
+/// (V, eps_V) at `x`, from V, dV/dphi and sqrt(K).
 pub fn eps_first_order(ev: &mut Evaluator<'_>, x: f64) -> (f64, f64) {
-    ev.eval_jet(x, 1);
-    let v = ev.jet_output(OUT_V);
-    let (v0, v1) = (v[0], v[1]);
-    let s = ev.jet_output(crate::model::OUT_SQRT_K)[0];
-    let l = v1 / (s * v0);
-    (v0, 0.5 * l * l)
+    let v = ev.eval(x);
+    eps_from_outputs(v, ev.output(OUT_DV), ev.output(OUT_SQRT_K))
+}
+
+/// (V, eps_V) from V, dV/dphi and sqrt(K): eps_V = (V_phi / (sqrt(K) V))^2 / 2.
+fn eps_from_outputs(v: f64, dv: f64, sqrt_k: f64) -> (f64, f64) {
+    let l = dv / (sqrt_k * v);
+    (v, 0.5 * l * l)
 }
 
 /// The full walk from the top down, with a diagnosis when there is no end.
@@ -396,11 +406,18 @@ fn fmt_end(x: f64) -> String {
 
 /// dN/dphi = V K / V_phi (positive uphill).
 fn dn_dphi(ev: &mut Evaluator<'_>, x: f64) -> f64 {
-    ev.eval_jet(x, 1);
-    let v = ev.jet_output(OUT_V);
-    let (v0, v1) = (v[0], v[1]);
-    let k = ev.jet_output(OUT_K)[0];
-    v0 * k / v1
+    let v = ev.eval(x);
+    v * ev.output(OUT_K) / ev.output(OUT_DV)
+}
+
+/// [`dn_dphi`] at up to [`BATCH`] points (the 15 nodes of a quadrature panel), with the
+/// same operations point by point.
+fn dn_dphi_batch(ev: &mut Evaluator<'_>, xs: &[f64], out: &mut [f64]) {
+    ev.eval_batch(xs);
+    let (v, k, dv) = (ev.batch_output(OUT_V), ev.batch_output(OUT_K), ev.batch_output(OUT_DV));
+    for j in 0..xs.len() {
+        out[j] = v[j] * k[j] / dv[j];
+    }
 }
 
 /// The integral's value, also when the quadrature stopped short of its tolerance with an
@@ -418,7 +435,10 @@ fn accept(r: Result<crate::numerics::Estimate, NumericError>, config: &Config) -
 
 /// N between phi_end and x along the branch (adaptive Gauss–Kronrod, `config.quad`).
 pub fn efolds_between(ev: &mut Evaluator<'_>, a: f64, b: f64, config: &Config) -> Result<f64, AnalysisError> {
-    Ok(accept(gauss_kronrod(|x| dn_dphi(ev, x), a, b, &config.quad), config)?)
+    Ok(accept(
+        gauss_kronrod_batch(|xs, ys| dn_dphi_batch(ev, xs, ys), a, b, &config.quad),
+        config,
+    )?)
 }
 
 /// phi_* for each requested N_* (any order), counted from `phi_end` up the branch. Errors
@@ -442,7 +462,11 @@ pub fn phi_stars(
     let need = n_stars.iter().copied().fold(0.0f64, f64::max);
     let mut out = vec![f64::NAN; n_stars.len()];
     let integrate = |ev: &mut Evaluator<'_>, a: f64, x: f64| -> Result<f64, AnalysisError> {
-        let r = accept(gauss_kronrod(|s| coord.dn_ds(ev, s), a, x, &config.quad), config).map_err(|e| {
+        let r = accept(
+            gauss_kronrod_batch(|ss, ys| coord.dn_ds_batch(ev, ss, ys), a, x, &config.quad),
+            config,
+        )
+        .map_err(|e| {
             fail(
                 format!(
                     "e-fold integral failed between {field} = {} and {}: {e}",
@@ -540,6 +564,18 @@ impl Coord {
     fn dn_ds(&self, ev: &mut Evaluator<'_>, s: f64) -> f64 {
         dn_dphi(ev, self.phi(s)) * self.dphi_ds(s)
     }
+
+    /// [`Coord::dn_ds`] at up to [`BATCH`] points.
+    fn dn_ds_batch(&self, ev: &mut Evaluator<'_>, ss: &[f64], out: &mut [f64]) {
+        let mut phis = [0.0; BATCH];
+        for (p, &s) in phis.iter_mut().zip(ss) {
+            *p = self.phi(s);
+        }
+        dn_dphi_batch(ev, &phis[..ss.len()], out);
+        for (o, &s) in out.iter_mut().zip(ss) {
+            *o *= self.dphi_ds(s);
+        }
+    }
 }
 
 /// s in the bracket with N(s) = target, where N(a) <= target <= N(b): Newton steps from the
@@ -556,7 +592,11 @@ fn solve_n(
     let mut x = a + (b - a) * ((target - na) / (nb - na)).clamp(0.0, 1.0);
     let (mut xk, mut nk) = (a, na);
     for _ in 0..100 {
-        let n = nk + accept(gauss_kronrod(|s| coord.dn_ds(ev, s), xk, x, &config.quad), config)?;
+        let n = nk
+            + accept(
+                gauss_kronrod_batch(|ss, ys| coord.dn_ds_batch(ev, ss, ys), xk, x, &config.quad),
+                config,
+            )?;
         if (n - target).abs() <= 1e-13 * target {
             return Ok(x);
         }

@@ -64,25 +64,31 @@ const WG: [f64; 4] = [
 ];
 
 /// One 15-point Kronrod panel on [a, b]: (integral, error estimate, rounding floor of that
-/// estimate), or the first non-finite integrand value.
-fn kronrod_panel(f: &mut impl FnMut(f64) -> f64, a: f64, b: f64) -> Result<(f64, f64, f64), NumericError> {
+/// estimate), or the first non-finite integrand value. The integrand is called once, on all 15
+/// nodes: the centre, then the pairs c - dx, c + dx from the outermost in.
+fn kronrod_panel(f: &mut impl FnMut(&[f64], &mut [f64]), a: f64, b: f64) -> Result<(f64, f64, f64), NumericError> {
     let c = 0.5 * (a + b);
     let h = 0.5 * (b - a);
-    let mut eval = |x: f64| {
-        let v = f(x);
-        if v.is_finite() {
-            Ok(v)
-        } else {
-            Err(NumericError::NotFinite { at: x, value: v })
-        }
-    };
-    let fc = eval(c)?;
+    let mut xs = [c; 15];
+    for j in 0..7 {
+        let dx = h * XGK[j];
+        xs[1 + 2 * j] = c - dx;
+        xs[2 + 2 * j] = c + dx;
+    }
+    let mut ys = [0.0; 15];
+    f(&xs, &mut ys);
+    if let Some(i) = ys.iter().position(|v| !v.is_finite()) {
+        return Err(NumericError::NotFinite {
+            at: xs[i],
+            value: ys[i],
+        });
+    }
+    let fc = ys[0];
     let mut k = WGK[7] * fc;
     let mut g = WG[3] * fc;
     let mut fv = [(0.0, 0.0); 7];
     for j in 0..7 {
-        let dx = h * XGK[j];
-        let (f1, f2) = (eval(c - dx)?, eval(c + dx)?);
+        let (f1, f2) = (ys[1 + 2 * j], ys[2 + 2 * j]);
         fv[j] = (f1, f2);
         k += WGK[j] * (f1 + f2);
         if j % 2 == 1 {
@@ -113,6 +119,39 @@ fn kronrod_panel(f: &mut impl FnMut(f64) -> f64, a: f64, b: f64) -> Result<(f64,
 /// for this integrand, and the rounding-limited error estimate is returned). Requires a
 /// finite interval and a finite integrand on it.
 pub fn gauss_kronrod(mut f: impl FnMut(f64) -> f64, a: f64, b: f64, tol: &Tolerance) -> Result<Estimate, NumericError> {
+    gauss_kronrod_batch(
+        |xs, ys| {
+            for (x, y) in xs.iter().zip(ys.iter_mut()) {
+                *y = f(*x);
+            }
+        },
+        a,
+        b,
+        tol,
+    )
+}
+
+/// [`gauss_kronrod`] with an integrand that takes the 15 nodes of a panel at once,
+/// `f(xs, ys)` writing `ys[i] = f(xs[i])`: for integrands evaluated in batches
+/// ([`crate::tape::Evaluator::eval_batch`]).
+///
+/// ```
+/// use efold::numerics::quad::{gauss_kronrod_batch, Tolerance};
+/// let est = gauss_kronrod_batch(
+///     |xs, ys| xs.iter().zip(ys.iter_mut()).for_each(|(x, y)| *y = x.exp()),
+///     0.0,
+///     1.0,
+///     &Tolerance::default(),
+/// )?;
+/// assert!((est.value - (1f64.exp() - 1.0)).abs() < 1e-14);
+/// # Ok::<(), efold::numerics::NumericError>(())
+/// ```
+pub fn gauss_kronrod_batch(
+    mut f: impl FnMut(&[f64], &mut [f64]),
+    a: f64,
+    b: f64,
+    tol: &Tolerance,
+) -> Result<Estimate, NumericError> {
     if a == b {
         return Ok(Estimate { value: 0.0, error: 0.0 });
     }
@@ -269,7 +308,12 @@ mod tests {
     #[test]
     fn constants_integrate_polynomials_exactly() {
         for deg in 0..=22 {
-            let (k, _, _) = kronrod_panel(&mut |x: f64| x.powi(deg), -1.0, 1.0).unwrap();
+            let (k, _, _) = kronrod_panel(
+                &mut |xs: &[f64], ys: &mut [f64]| xs.iter().zip(ys.iter_mut()).for_each(|(x, y)| *y = x.powi(deg)),
+                -1.0,
+                1.0,
+            )
+            .unwrap();
             let exact = if deg % 2 == 1 { 0.0 } else { 2.0 / (deg as f64 + 1.0) };
             assert!((k - exact).abs() < 1e-15, "degree {deg}: {k} vs {exact}");
         }
