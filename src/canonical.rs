@@ -512,12 +512,14 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
     let probes: Vec<f64> = (1..256).map(|i| map(i as f64 / 256.0)).collect();
     let mut vk = vec![(0.0, 0.0); probes.len()];
     ev.eval_each(&probes, |i, out| vk[i] = (out[OUT_V], out[OUT_K]));
-    let ks: Vec<f64> = vk.iter().map(|p| p.1).collect();
     for i in 1..probes.len() - 1 {
-        let (x3, k3) = ([probes[i - 1], probes[i], probes[i + 1]], [ks[i - 1], ks[i], ks[i + 1]]);
-        if k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
+        let k3 = [vk[i - 1].1, vk[i].1, vk[i + 1].1];
+        // Only a strict extremum of K among three good samples can hide a pole or a zero.
+        let extreme = (k3[1] > k3[0] && k3[1] > k3[2]) || (k3[1] < k3[0] && k3[1] < k3[2]);
+        if !extreme || k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
             continue;
         }
+        let x3 = [probes[i - 1], probes[i], probes[i + 1]];
         if let Some((x, kind)) = hidden_singularity(ev, x3, k3) {
             let what = if kind == EndKind::Pole {
                 "K has a pole"

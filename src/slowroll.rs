@@ -166,12 +166,16 @@ pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
     });
     let mut pts: Vec<f64> = Vec::with_capacity(log_grid.len() + 2 * near_end.len() + outward.len());
     pts.extend(log_grid.iter().copied().filter(|x| *x > lo && *x < hi));
+    // Each run below is pushed in ascending order; `runs` marks where each starts, and the
+    // runs are merged at the end (cheaper than sorting).
+    let mut runs = vec![0, pts.len()];
     match (lo.is_finite(), hi.is_finite()) {
-        // Each run below is pushed in ascending order, so the stable sort only merges runs.
         (true, true) => {
             let w = hi - lo;
             pts.extend(near_end.iter().rev().map(|f| lo + w * f));
+            runs.push(pts.len());
             pts.extend(near_end.iter().map(|f| hi - w * f));
+            runs.push(pts.len());
             pts.extend((1..32).map(|i| lo + w * i as f64 / 32.0));
         }
         (true, false) => {
@@ -184,10 +188,33 @@ pub fn sample_points(lo: f64, hi: f64) -> Vec<f64> {
         }
         (false, false) => {}
     }
+    runs.push(pts.len());
+    let mut merged = Vec::with_capacity(pts.len());
+    for r in 1..runs.len() - 1 {
+        merged.clear();
+        merge_ascending(&pts[..runs[r]], &pts[runs[r]..runs[r + 1]], &mut merged);
+        pts[..runs[r + 1]].copy_from_slice(&merged);
+    }
+    debug_assert!(pts.is_sorted_by(|a, b| a.total_cmp(b).is_le()));
     pts.retain(|x| *x > lo && *x < hi && x.is_finite());
-    pts.sort_by(f64::total_cmp);
     pts.dedup();
     pts
+}
+
+/// Merges two ascending runs (by `f64::total_cmp`) into `out`.
+fn merge_ascending(a: &[f64], b: &[f64], out: &mut Vec<f64>) {
+    let (mut i, mut j) = (0, 0);
+    while i < a.len() && j < b.len() {
+        if b[j].total_cmp(&a[i]).is_lt() {
+            out.push(b[j]);
+            j += 1;
+        } else {
+            out.push(a[i]);
+            i += 1;
+        }
+    }
+    out.extend_from_slice(&a[i..]);
+    out.extend_from_slice(&b[j..]);
 }
 
 /// The branches of the interval: stretches between stationary points of V (and the ends),
