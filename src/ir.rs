@@ -22,6 +22,7 @@
 //! ```
 
 use crate::diag::{closest, Diagnostic, Span};
+use crate::numerics::elementary;
 use crate::syntax::{BinOp, Expr, ExprKind};
 use rustc_hash::FxHashMap as HashMap;
 use std::fmt;
@@ -113,12 +114,15 @@ impl Func {
         Func::ALL.into_iter().find(|f| f.name() == name)
     }
 
-    /// The function's value in f64. The tape and the constant folder both call this, so a folded
-    /// constant is bit-for-bit what the evaluator would have computed.
+    /// The function's value in f64. The tape (single points and batches), the jets and the
+    /// constant folder all call this, so a folded constant is bit-for-bit what the evaluator
+    /// would have computed. exp and tanh are efold's own branch-free kernels
+    /// ([`crate::numerics::elementary`]), which vectorise in batches; the rest are the
+    /// platform's.
     #[inline]
     pub fn apply(self, x: f64) -> f64 {
         match self {
-            Func::Exp => x.exp(),
+            Func::Exp => elementary::exp(x),
             Func::Log => x.ln(),
             Func::Sqrt => x.sqrt(),
             Func::Sin => x.sin(),
@@ -129,7 +133,7 @@ impl Func {
             Func::Atan => x.atan(),
             Func::Sinh => x.sinh(),
             Func::Cosh => x.cosh(),
-            Func::Tanh => x.tanh(),
+            Func::Tanh => elementary::tanh(x),
             Func::Sech => 1.0 / x.cosh(),
             Func::Asinh => x.asinh(),
             Func::Acosh => x.acosh(),
@@ -942,6 +946,7 @@ pub fn format_number(v: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
     use crate::config::Limits;
     use crate::syntax::parse;
 

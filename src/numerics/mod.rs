@@ -2,6 +2,7 @@
 //! functions without the compiler. Every routine states its tolerance, returns an error
 //! estimate, and fails loudly with [`NumericError`] rather than returning a silent NaN.
 
+pub mod elementary;
 pub mod ode;
 pub mod quad;
 pub mod roots;
