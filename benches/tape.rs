@@ -154,6 +154,75 @@ mod f64_eval {
     }
 }
 
+/// Sixteen points per call, the batch evaluator's width ([`efold::tape::BATCH`]): the native
+/// closures and meval in a loop over the points, the tape in one batch. Divide the times by 16
+/// for the cost per point (divan also prints the rate in points per second).
+mod f64_batch_of_16 {
+    use super::*;
+    use divan::counter::ItemsCount;
+    use efold::tape::BATCH;
+
+    fn points() -> [f64; BATCH] {
+        std::array::from_fn(|j| X + 0.01 * j as f64)
+    }
+
+    #[divan::bench]
+    fn plateau_native(b: Bencher) {
+        let xs = points();
+        b.counter(ItemsCount::new(BATCH)).bench_local(|| {
+            let xs = black_box(&xs);
+            xs.map(|x| native_plateau(x, black_box(ALPHA)))
+        });
+    }
+
+    #[divan::bench]
+    fn plateau_tape(b: Bencher) {
+        let c = compile_one(PLATEAU, &Scope::new("phi", &["alpha"])).unwrap();
+        let mut ev = c.tape.evaluator(&[ALPHA]);
+        let xs = points();
+        b.counter(ItemsCount::new(BATCH)).bench_local(|| {
+            ev.eval_batch(black_box(&xs));
+            ev.batch_output(0)[BATCH - 1]
+        });
+    }
+
+    #[divan::bench]
+    fn plateau_meval(b: Bencher) {
+        let mut ctx = meval::Context::new();
+        ctx.var("alpha", ALPHA);
+        let e: meval::Expr = PLATEAU.parse().unwrap();
+        let f = e.bind_with_context(ctx, "phi").unwrap();
+        let xs = points();
+        b.counter(ItemsCount::new(BATCH)).bench_local(|| black_box(&xs).map(&f));
+    }
+
+    #[divan::bench]
+    fn polynomial_native(b: Bencher) {
+        let xs = points();
+        b.counter(ItemsCount::new(BATCH))
+            .bench_local(|| black_box(&xs).map(native_polynomial));
+    }
+
+    #[divan::bench]
+    fn polynomial_tape(b: Bencher) {
+        let c = compile_one(&polynomial_text(), &Scope::new("phi", &[])).unwrap();
+        let mut ev = c.tape.evaluator(&[]);
+        let xs = points();
+        b.counter(ItemsCount::new(BATCH)).bench_local(|| {
+            ev.eval_batch(black_box(&xs));
+            ev.batch_output(0)[BATCH - 1]
+        });
+    }
+
+    #[divan::bench]
+    fn polynomial_meval(b: Bencher) {
+        let e: meval::Expr = polynomial_text().parse().unwrap();
+        let f = e.bind("phi").unwrap();
+        let xs = points();
+        b.counter(ItemsCount::new(BATCH)).bench_local(|| black_box(&xs).map(&f));
+    }
+}
+
 mod derivatives {
     use super::*;
 
