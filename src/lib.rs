@@ -9,6 +9,11 @@
 // Numerical recurrences read best with explicit indices (c[k] = sum a[j] b[k-j]).
 #![allow(clippy::needless_range_loop)]
 
+// The parser generated from grammar/expr.pest names `alloc` (pest is built without its `std`
+// feature, which only adds a native-stack probe on every rule; efold bounds nesting before the
+// parser runs).
+extern crate alloc;
+
 pub mod canonical;
 pub mod cli;
 pub mod compile;
