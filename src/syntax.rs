@@ -176,6 +176,63 @@ impl std::error::Error for SyntaxError {}
 /// Parses one expression.
 pub fn parse(src: &str, limits: &Limits) -> Result<Expr, SyntaxError> {
     prescan(src, limits)?;
+    if let Some(e) = bare_number(src, limits) {
+        return Ok(e);
+    }
+    parse_with_grammar(src, limits)
+}
+
+/// A whole expression that is one number literal (the usual kinetic term `1`, a parameter's
+/// value) becomes the tree the grammar would give, without running the parser. Anything else,
+/// including a literal that overflows (an error the grammar path reports), returns `None`.
+fn bare_number(src: &str, limits: &Limits) -> Option<Expr> {
+    let t = src.trim_start_matches([' ', '\t', '\r', '\n']);
+    let start = src.len() - t.len();
+    let t = t.trim_end_matches([' ', '\t', '\r', '\n']);
+    if !is_number_literal(t) {
+        return None;
+    }
+    let v: f64 = t.parse().ok().filter(|v: &f64| v.is_finite())?;
+    Builder { limits }
+        .node(ExprKind::Number(v), Span::new(start, start + t.len()))
+        .ok()
+}
+
+/// The grammar's `number` rule: `digits+ ("." digits*)? | "." digits+`, then an optional
+/// exponent `e [+-] digits+` (either case of e).
+fn is_number_literal(t: &str) -> bool {
+    let b = t.as_bytes();
+    let mut i = 0;
+    let digits = |i: &mut usize| {
+        let s = *i;
+        while *i < b.len() && b[*i].is_ascii_digit() {
+            *i += 1;
+        }
+        *i - s
+    };
+    let int = digits(&mut i);
+    let mut frac = 0;
+    if i < b.len() && b[i] == b'.' {
+        i += 1;
+        frac = digits(&mut i);
+    }
+    if int == 0 && frac == 0 {
+        return false;
+    }
+    if i < b.len() && (b[i] == b'e' || b[i] == b'E') {
+        i += 1;
+        if i < b.len() && (b[i] == b'+' || b[i] == b'-') {
+            i += 1;
+        }
+        if digits(&mut i) == 0 {
+            return false;
+        }
+    }
+    i == b.len()
+}
+
+/// [`parse`] through the pest grammar.
+fn parse_with_grammar(src: &str, limits: &Limits) -> Result<Expr, SyntaxError> {
     let mut pairs = ExprParser::parse(Rule::input, src).map_err(|e| from_pest(src, e))?;
     let input = pairs.next().expect("grammar: input has one pair");
     let sum = input.into_inner().next().expect("grammar: input holds a sum");
@@ -509,6 +566,34 @@ mod tests {
 
     fn err(s: &str) -> SyntaxErrorKind {
         parse(s, &Limits::default()).unwrap_err().kind
+    }
+
+    /// The bare-number shortcut gives exactly the grammar's tree (value, span, depth), and
+    /// leaves everything that is not one plain literal to the grammar.
+    #[test]
+    fn bare_numbers_match_the_grammar() {
+        let l = Limits::default();
+        for src in [
+            "1",
+            "  1 ",
+            "0.5",
+            "\t.5\n",
+            "1.",
+            "6e-6",
+            "2.5E+4",
+            "007",
+            "1.e3",
+            "123456789.125",
+        ] {
+            let fast = bare_number(src, &l).unwrap_or_else(|| panic!("{src:?} is a literal"));
+            assert_eq!(fast, parse_with_grammar(src, &l).unwrap(), "{src:?}");
+        }
+        for src in [
+            "-1", "1 2", ".", "e5", "1e", "1e+", "1..2", "1e999", "pi", "1+1", "+1", "0x10",
+        ] {
+            assert!(bare_number(src, &l).is_none(), "{src:?} is not a plain literal");
+        }
+        assert_eq!(err("1e999"), SyntaxErrorKind::BadNumber);
     }
 
     #[test]
