@@ -1,5 +1,6 @@
 //! Stage 4: a model: field name, parameters, V(phi), K(phi) and an optional field range, read
-//! from a TOML file or given inline, then compiled to one tape with outputs V, K, sqrt(K) and dV/dphi.
+//! from a TOML file or given inline, then compiled to one tape with outputs V, K, sqrt(K) and
+//! dV/dphi.
 //!
 //! The file format (all keys but `potential` optional):
 //!
