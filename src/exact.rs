@@ -25,7 +25,7 @@
 //! so kappa = k / k_*.
 
 use crate::canonical::AnalysisError;
-use crate::model::{Model, OUT_SQRT_K, OUT_V};
+use crate::model::{Model, OUT_DV, OUT_SQRT_K};
 use crate::numerics::ode::{integrate, Options as OdeOptions};
 use crate::slowroll::fail;
 use crate::tape::Evaluator;
@@ -103,12 +103,8 @@ impl<'m> Background<'m> {
     /// V, eps_H, H and the derivatives at a state.
     pub fn point(&self, y: &State) -> Point {
         let mut ev = self.ev.borrow_mut();
-        ev.eval_jet(y[0], 1);
-        let (v, v1) = {
-            let j = ev.jet_output(OUT_V);
-            (j[0], j[1])
-        };
-        let s = ev.jet_output(OUT_SQRT_K)[0];
+        let v = ev.eval(y[0]);
+        let (v1, s) = (ev.output(OUT_DV), ev.output(OUT_SQRT_K));
         let pi = y[1];
         let eps = 0.5 * pi * pi;
         let v_chi = v1 / s;
@@ -124,10 +120,8 @@ impl<'m> Background<'m> {
     /// The slow-roll attractor's velocity at phi: pi = -V_chi / V.
     pub fn attractor(&self, phi: f64) -> f64 {
         let mut ev = self.ev.borrow_mut();
-        ev.eval_jet(phi, 1);
-        let j = ev.jet_output(OUT_V);
-        let s = ev.jet_output(OUT_SQRT_K)[0];
-        -j[1] / (s * j[0])
+        let v = ev.eval(phi);
+        -ev.output(OUT_DV) / (ev.output(OUT_SQRT_K) * v)
     }
 }
 
