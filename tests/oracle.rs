@@ -170,6 +170,25 @@ proptest! {
     }
 }
 
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 500, ..ProptestConfig::default() })]
+
+    /// The batch evaluator (vectorised, with its own path for exp and tanh) gives the single-point
+    /// evaluator's bits on the same random expressions, NaN where it gives NaN.
+    #[test]
+    fn batches_give_the_single_point_bits(p in expr(), xs in proptest::collection::vec(-3.0f64..3.0, 1..=16)) {
+        let c = compile_one(&p.efold, &Scope::new("x", &[])).unwrap();
+        let mut one = c.tape.evaluator(&[]);
+        let mut batch = c.tape.evaluator(&[]);
+        batch.eval_batch(&xs);
+        for (j, &x) in xs.iter().enumerate() {
+            let (a, b) = (one.eval(x), batch.batch_output(0)[j]);
+            prop_assert!(a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()),
+                "{} at {x}: one point {a}, batch {b}", p.efold);
+        }
+    }
+}
+
 /// The operator conventions the language documents, pinned against meval: unary minus binds
 /// looser than power, power is right-associative and takes a signed exponent.
 #[test]
