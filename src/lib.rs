@@ -3,7 +3,8 @@
 //!
 //! The pipeline, one stage a module:
 //! [`syntax`] (text → spanned tree) → [`ir`] (hash-consed DAG, symbolic d/dphi) →
-//! [`tape`] (compiled evaluator: f64 and Taylor jets) → the commands in [`cli`].
+//! [`tape`] (compiled evaluator: f64 at one point or in batches, and Taylor jets) →
+//! the commands in [`cli`].
 //! Errors of every stage become a [`diag::Diagnostic`], drawn by one renderer.
 #![warn(missing_docs)]
 // Numerical recurrences read best with explicit indices (c[k] = sum a[j] b[k-j]).

@@ -7,10 +7,11 @@
 //! them costs one pass over the parameter-only part and no recompilation (see the benchmark
 //! `bind` in `benches/tape.rs` for the measurement behind this choice).
 //!
-//! Two evaluators share the tape: plain f64 ([`Evaluator::eval`]) and truncated Taylor series
-//! ([`Evaluator::eval_jet`]) up to order [`MAX_ORDER`], giving the function and its derivatives
-//! in one pass by the Taylor-mode recurrences of Griewank & Walther, *Evaluating Derivatives*,
-//! 2nd ed. (SIAM 2008), ch. 13. A [`Tape`] is immutable, `Send` and `Sync`; each thread makes
+//! Two evaluators share the tape: plain f64, at one point ([`Evaluator::eval`]) or at up to
+//! [`BATCH`] points at once ([`Evaluator::eval_batch`], the same bits, vectorised), and
+//! truncated Taylor series ([`Evaluator::eval_jet`]) up to order [`MAX_ORDER`], giving the
+//! function and its derivatives in one pass by the Taylor-mode recurrences of Griewank &
+//! Walther, *Evaluating Derivatives*, 2nd ed. (SIAM 2008), ch. 13. A [`Tape`] is immutable, `Send` and `Sync`; each thread makes
 //! its own [`Evaluator`], which owns the registers, so no evaluation allocates.
 //!
 //! ```
