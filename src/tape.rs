@@ -644,7 +644,10 @@ impl Evaluator<'_> {
     }
 
     /// Evaluates at every point of `xs`, in batches of [`BATCH`], calling `each(i, outputs)`
-    /// with the point's index in `xs` and the values of every output there (at most eight).
+    /// with the point's index in `xs` and the values of every output there.
+    ///
+    /// # Panics
+    /// If the tape has more than eight outputs (a model's tape has four).
     ///
     /// ```
     /// use efold::{compile::compile_one, ir::Scope};
