@@ -514,9 +514,7 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
     ev.eval_each(&probes, |i, out| vk[i] = (out[OUT_V], out[OUT_K]));
     for i in 1..probes.len() - 1 {
         let k3 = [vk[i - 1].1, vk[i].1, vk[i + 1].1];
-        // Only a strict extremum of K among three good samples can hide a pole or a zero.
-        let extreme = (k3[1] > k3[0] && k3[1] > k3[2]) || (k3[1] < k3[0] && k3[1] < k3[2]);
-        if !extreme || k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
+        if k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
             continue;
         }
         let x3 = [probes[i - 1], probes[i], probes[i + 1]];
