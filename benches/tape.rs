@@ -28,6 +28,14 @@ fn polynomial_text() -> String {
         .join(" + ")
 }
 
+/// meval's bound closure for the plateau expression, alpha set.
+fn meval_plateau() -> impl Fn(f64) -> f64 {
+    let mut ctx = meval::Context::new();
+    ctx.var("alpha", ALPHA);
+    let e: meval::Expr = PLATEAU.parse().unwrap();
+    e.bind_with_context(ctx, "phi").unwrap()
+}
+
 #[inline(never)]
 fn native_plateau(x: f64, alpha: f64) -> f64 {
     let t = (x / (6.0 * alpha).sqrt()).tanh();
@@ -126,10 +134,7 @@ mod f64_eval {
 
     #[divan::bench]
     fn plateau_meval(b: Bencher) {
-        let mut ctx = meval::Context::new();
-        ctx.var("alpha", ALPHA);
-        let e: meval::Expr = PLATEAU.parse().unwrap();
-        let f = e.bind_with_context(ctx, "phi").unwrap();
+        let f = meval_plateau();
         b.bench_local(|| f(black_box(X)));
     }
 
@@ -194,10 +199,7 @@ mod f64_batch_of_16 {
 
     #[divan::bench]
     fn plateau_meval(b: Bencher) {
-        let mut ctx = meval::Context::new();
-        ctx.var("alpha", ALPHA);
-        let e: meval::Expr = PLATEAU.parse().unwrap();
-        let f = e.bind_with_context(ctx, "phi").unwrap();
+        let f = meval_plateau();
         let xs = points();
         b.counter(ItemsCount::new(BATCH)).bench_local(|| black_box(&xs).map(&f));
     }
