@@ -4,7 +4,7 @@
 //! Units: reduced Planck units throughout (M_p = 1).
 
 use crate::config::Config;
-use crate::model::{Model, OUT_K, OUT_SQRT_K, OUT_V};
+use crate::model::{Model, OUT_DV, OUT_K, OUT_SQRT_K, OUT_V};
 use crate::numerics::quad::{gauss_kronrod_batch, tanh_sinh};
 use crate::numerics::roots::{brent, safeguarded_newton};
 use crate::numerics::{Estimate, NumericError};
@@ -643,8 +643,14 @@ pub fn negative_regions(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<(f64, f64)
     out
 }
 
-/// The minimum of V inside the interval (the lowest survey point, refined where V' changes
-/// sign). None if V decreases all the way to an end (a runaway).
+/// The minimum of V inside the interval: the lowest of the local minima, found where V'
+/// changes sign from negative to positive between survey points (so a degenerate minimum, V''
+/// = 0 as for phi^4, is found as well as an ordinary one), refined by Brent's method on the
+/// compiled dV/dphi. A finite end of a given range where V is lowest (a range chosen to end at
+/// the minimum) also counts. Only points where V is resolved count: V finite and below
+/// [`V_RESOLVED`] in size, so the point where V overflows double precision is never a minimum.
+/// Minima whose V agree to rounding are ranked by distance from phi = 0, then by position.
+/// None if V only falls toward an end (a runaway).
 pub fn minimum_of_v(ev: &mut Evaluator<'_>, iv: &Interval) -> Option<f64> {
     let mut pts: Vec<f64> = survey_grid().iter().copied().filter(|&x| iv.contains(x)).collect();
     for (end, dir) in [(iv.lo, 1.0), (iv.hi, -1.0)] {
@@ -656,56 +662,116 @@ pub fn minimum_of_v(ev: &mut Evaluator<'_>, iv: &Interval) -> Option<f64> {
         }
     }
     pts.sort_by(f64::total_cmp);
+    pts.dedup();
     if pts.len() < 3 {
         let m = interior_probe(iv.lo, iv.hi, &pts);
         pts = vec![iv.lo.max(m - 1.0), m, iv.hi.min(m + 1.0)];
+        pts.retain(|x| iv.contains(*x));
     }
-    let vals: Vec<f64> = pts.iter().map(|&x| ev.eval(x)).collect();
-    let (i, _) = vals.iter().enumerate().min_by(|a, b| a.1.total_cmp(b.1))?;
-    if i == 0 || i == pts.len() - 1 {
-        // Lowest at a finite end where V is finite: the minimum sits on the boundary (a range
-        // chosen to end at the minimum). Toward an infinite end: a runaway, no minimum.
-        let end = if i == 0 { iv.lo } else { iv.hi };
-        let v_end = ev.eval(end);
-        return (end.is_finite() && v_end.is_finite() && v_end <= vals[i]).then_some(end);
-    }
-    let dv = |ev: &mut Evaluator<'_>, x: f64| {
-        ev.eval_jet(x, 2);
-        let j = ev.jet_output(OUT_V);
-        // A V that has underflowed to zero (flat to second order) has no slope to speak of.
-        if j[0].abs() < 1e-280 && j[1] == 0.0 && j[2] == 0.0 {
-            f64::NAN
+    let mut vd = vec![(f64::NAN, f64::NAN); pts.len()];
+    ev.eval_each(&pts, |i, out| vd[i] = (out[OUT_V], out[OUT_DV]));
+    let resolved = |v: f64, d: f64| v.is_finite() && v.abs() < V_RESOLVED && d.is_finite();
+    // The sign of V' where it is significant against the rounding of V (as for branches).
+    let sign = |x: f64, v: f64, d: f64| -> f64 {
+        if !resolved(v, d) || d.abs() * x.abs().max(1.0) <= 1e-10 * v.abs() {
+            0.0
         } else {
-            j[1]
+            d.signum()
         }
     };
-    // Candidates: where V' changes sign next to the lowest sample, a finite end next to it,
-    // and the sample itself; the lowest V wins, earlier candidates on ties.
+    let signs: Vec<f64> = pts.iter().zip(&vd).map(|(&x, &(v, d))| sign(x, v, d)).collect();
+    let mut dv = |x: f64| {
+        ev.eval(x);
+        ev.output(OUT_DV)
+    };
     let mut cands: Vec<f64> = Vec::new();
-    for (a, b) in [(pts[i - 1], pts[i]), (pts[i], pts[i + 1])] {
-        let tol = 1e-16 * a.abs().max(b.abs());
-        if let Ok(r) = brent(|x| dv(ev, x), a, b, tol, 200) {
-            cands.push(if r.value.abs() < 1e-12 * (b - a).abs() {
-                0.0
-            } else {
-                r.value
-            });
+    let mut prev: Option<usize> = None;
+    for i in 0..pts.len() {
+        if signs[i] == 0.0 {
+            continue;
+        }
+        if let Some(j) = prev {
+            if signs[j] < 0.0 && signs[i] > 0.0 {
+                // A sample between them where V' is exactly zero is the stationary point.
+                if let Some(k) = (j + 1..i).find(|&k| vd[k].1 == 0.0 && resolved(vd[k].0, 0.0)) {
+                    cands.push(pts[k]);
+                } else {
+                    let (a, b) = (pts[j], pts[i]);
+                    let tol = 1e-16 * a.abs().max(b.abs());
+                    let x = brent(&mut dv, a, b, tol, 200).map(|r| r.value).unwrap_or(0.5 * (a + b));
+                    // a minimum at the origin, found to rounding (M_p = 1 sets the scale)
+                    cands.push(if x.abs() < 1e-12 { 0.0 } else { x });
+                }
+            }
+        }
+        prev = Some(i);
+    }
+    // A finite end of a given range, where V falls toward the end (or is flat there): the
+    // minimum on the boundary. Ends that are poles, zeros of K or overflows are not places
+    // where the field can sit.
+    let first = signs.iter().position(|s| *s != 0.0);
+    let last = signs.iter().rposition(|s| *s != 0.0);
+    for (end, kind, falls) in [
+        (iv.lo, iv.lo_kind, first.is_none_or(|i| signs[i] > 0.0)),
+        (iv.hi, iv.hi_kind, last.is_none_or(|i| signs[i] < 0.0)),
+    ] {
+        if end.is_finite() && kind == EndKind::Range && falls {
+            cands.push(end);
         }
     }
-    cands.extend([iv.lo, iv.hi].into_iter().filter(|e| e.is_finite()));
-    // No sign change of V' and no finite end: V only levels off numerically (an underflowing
-    // runaway), which is not a minimum.
-    let mut best = None;
-    let mut best_v = f64::INFINITY;
+    let mut best: Option<(f64, f64)> = None;
     for x in cands {
         let v = ev.eval(x);
-        if v.is_finite() && v < best_v {
-            best = Some(x);
-            best_v = v;
+        if !resolved(v, 0.0) {
+            continue;
+        }
+        best = match best {
+            None => Some((x, v)),
+            Some((bx, bv)) => {
+                let tie = (v - bv).abs() <= 1e-12 * v.abs().max(bv.abs());
+                let closer = x.abs() < bx.abs() || (x.abs() == bx.abs() && x < bx);
+                if (tie && closer) || (!tie && v < bv) {
+                    Some((x, v))
+                } else {
+                    Some((bx, bv))
+                }
+            }
+        };
+    }
+    best.map(|(x, _)| x)
+}
+
+/// V at the minimum `phi_min` when it is positive beyond rounding: above 1e-12 of the
+/// largest |V| at phi_min +- 1 and +- 10 (inside the interval). A positive vacuum energy means
+/// the field settles where V > 0: inflation resumes there, or never really ends.
+pub fn positive_minimum(ev: &mut Evaluator<'_>, iv: &Interval, phi_min: f64) -> Option<f64> {
+    let v_min = ev.eval(phi_min);
+    if !(v_min > 0.0 && v_min.is_finite()) {
+        return None;
+    }
+    let mut scale: f64 = 0.0;
+    for d in [-10.0, -1.0, 1.0, 10.0] {
+        let x = phi_min + d;
+        let x = if iv.contains(x) {
+            x
+        } else if d < 0.0 && iv.lo.is_finite() {
+            0.5 * (iv.lo + phi_min)
+        } else if d > 0.0 && iv.hi.is_finite() {
+            0.5 * (iv.hi + phi_min)
+        } else {
+            continue;
+        };
+        let v = ev.eval(x);
+        if v.is_finite() && v.abs() < V_RESOLVED {
+            scale = scale.max(v.abs());
         }
     }
-    best
+    (v_min > 1e-12 * scale).then_some(v_min)
 }
+
+/// Values of V at or beyond this size are not resolved: the potential is about to overflow
+/// double precision, and such a point is an end of field space in effect, never a minimum.
+pub const V_RESOLVED: f64 = 1e300;
 
 /// The canonical map: chi(phi) = integral of sqrt(K) from a reference point.
 pub struct CanonicalMap<'m> {
@@ -827,30 +893,83 @@ pub struct Pole {
     pub infinite_distance: bool,
     /// The leading-order predictions of the pole alone, if they exist.
     pub leading_order: Option<PoleLeadingOrder>,
+    /// Why there is no leading-order prediction, when there is none.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub no_leading_order: Option<NoLeadingOrder>,
 }
 
-/// Leading order in 1/N from a pole of order p > 1 with V regular and nonzero there, and
-/// falling away from it: V = V_p (1 - c rho + ...), K = a_p / rho^p, rho = |phi - phi_p|.
-/// Then N = a_p rho^(1-p) / (c (p-1)), and
-/// n_s = 1 - p / ((p-1) N),  r = 8 c^((p-2)/(p-1)) a_p^(1/(p-1)) / ((p-1) N)^(p/(p-1)).
-/// For p = 2: n_s = 1 - 2/N, r = 8 a_2 / N^2, whatever the potential.
+/// Why a pole of K gives no leading-order prediction of its own.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum NoLeadingOrder {
+    /// V grows without bound toward the pole: in the canonical field there is no plateau.
+    VUnbounded,
+    /// V decreases toward the pole: the field rolls into it instead of away from it.
+    VFallsToward,
+    /// V is zero or negative at the pole.
+    VNotPositive,
+    /// p + m <= 2: the e-folds near the pole do not grow as a power of 1/rho.
+    TooWeak,
+    /// The approach of V to its value at the pole could not be measured.
+    Unresolved,
+}
+
+impl NoLeadingOrder {
+    /// Why, in words for people.
+    pub fn words(self) -> &'static str {
+        match self {
+            NoLeadingOrder::VUnbounded => {
+                "V grows without bound toward the pole, so there is no plateau in the canonical field"
+            }
+            NoLeadingOrder::VFallsToward => {
+                "V decreases toward the pole, so the field rolls into it instead of away from it"
+            }
+            NoLeadingOrder::VNotPositive => "V is not positive at the pole",
+            NoLeadingOrder::TooWeak => "the pole is too weak (order p plus the power m of V's approach is at most 2)",
+            NoLeadingOrder::Unresolved => "the approach of V to the pole could not be resolved",
+        }
+    }
+}
+
+/// Leading order in 1/N from a pole of K, K = a_p / rho^p (rho = |phi - phi_p|), with V finite
+/// and positive there and falling away from it as V = V_p (1 - c rho^m + ...), m > 0 the
+/// power of the first term that does not vanish (m = 1 for a V with a slope at the pole; m = 2
+/// where V is flat there). For p + m > 2 (derived in DEVELOPERS.md, "The pole of order p
+/// alone"):
+///
+/// ```text
+/// N = a_p rho^(2-p-m) / (m c (p+m-2)),   eps_V = m^2 c^2 rho^(2m-2+p) / (2 a_p),
+/// n_s = 1 - (2m + p - 2) / ((p + m - 2) N),
+/// r = 8 m^2 c^2 rho_*^(2m-2+p) / a_p   with   rho_*^(p+m-2) = a_p / (m c (p+m-2) N).
+/// ```
+///
+/// For m = 1 and p = 2: n_s = 1 - 2/N, r = 8 a_2 / N^2, whatever the potential; for m = 2 and
+/// p = 2: n_s = 1 - 2/N, r = 2 a_2 / N^2.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct PoleLeadingOrder {
-    /// c = -(dV/drho)/V at the pole.
+    /// c in V = V_p (1 - c rho^m).
     pub slope: f64,
-    /// The pole order used.
+    /// The pole order p used.
     pub order: f64,
-    /// The residue used.
+    /// The residue a_p used.
     pub residue: f64,
+    /// m: the power of rho in the first term of V - V_p that does not vanish.
+    pub flatness: f64,
 }
 
 impl PoleLeadingOrder {
     /// (n_s, r) at N e-folds.
     pub fn predict(&self, n: f64) -> (f64, f64) {
-        let p = self.order;
-        let ns = 1.0 - p / ((p - 1.0) * n);
-        let r = 8.0 * self.slope.powf((p - 2.0) / (p - 1.0)) * self.residue.powf(1.0 / (p - 1.0))
-            / ((p - 1.0) * n).powf(p / (p - 1.0));
+        let (p, m, a, c) = (self.order, self.flatness, self.residue, self.slope);
+        if m == 1.0 {
+            let ns = 1.0 - p / ((p - 1.0) * n);
+            let r = 8.0 * c.powf((p - 2.0) / (p - 1.0)) * a.powf(1.0 / (p - 1.0)) / ((p - 1.0) * n).powf(p / (p - 1.0));
+            return (ns, r);
+        }
+        let q = p + m - 2.0;
+        let ns = 1.0 - (2.0 * m + p - 2.0) / (q * n);
+        let rho = (a / (m * c * q * n)).powf(1.0 / q);
+        let r = 8.0 * m * m * c * c * rho.powf(2.0 * m - 2.0 + p) / a;
         (ns, r)
     }
 }
@@ -860,25 +979,87 @@ fn extrapolate(f1: f64, f2: f64, f4: f64) -> f64 {
     (8.0 * f1 - 6.0 * f2 + f4) / 3.0
 }
 
+/// Rounds to a multiple of 1/2 when within 1e-6 of one.
+fn round_half(x: f64) -> f64 {
+    let rounded = (2.0 * x).round() / 2.0;
+    if (x - rounded).abs() < 1e-6 {
+        rounded
+    } else {
+        x
+    }
+}
+
+/// How V approaches its value at a pole of K: V = V_p (1 - c rho^m), as (m, c, V_p).
+///
+/// Where V is analytic at the pole (its jet there is finite), m is the order of the first
+/// Taylor coefficient above rounding (relative 1e-10 on the scale `w`) and c is read off it;
+/// for m = 1, c comes from the slope a hair inside (as it always has). Otherwise m is measured
+/// as the local power m(rho) = 1 + rho V_rhorho / V_rho, extrapolated to rho = 0 (a negative
+/// m: V grows without bound toward the pole).
+fn flatness_at_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, w: f64) -> Option<(f64, f64, f64)> {
+    ev.eval_jet(end, crate::tape::MAX_ORDER);
+    let jet = *ev.jet_output(OUT_V);
+    let v_p = jet[0];
+    if jet.iter().all(|c| c.is_finite()) && v_p != 0.0 {
+        let scale: f64 = (1..jet.len())
+            .map(|k| (jet[k] * w.powi(k as i32)).abs())
+            .fold(0.0, f64::max);
+        let first = (1..jet.len()).find(|&k| (jet[k] * w.powi(k as i32)).abs() > 1e-10 * scale.max(1e-300));
+        if let Some(m) = first {
+            let c = if m == 1 {
+                ev.eval_jet(end + inward * 1e-9 * w, 1);
+                let v = ev.jet_output(OUT_V);
+                -inward * v[1] / v[0]
+            } else {
+                -jet[m] * inward.powi(m as i32) / v_p
+            };
+            return Some((m as f64, c, v_p));
+        }
+        return None;
+    }
+    // Not analytic at the pole: measure the local power, and V_p = V - rho V_rho / m.
+    let local = |ev: &mut Evaluator<'_>, d: f64| {
+        ev.eval_jet(end + inward * d, 2);
+        let j = ev.jet_output(OUT_V);
+        let (v, v1, v2) = (j[0], inward * j[1], 2.0 * j[2]);
+        (1.0 + d * v2 / v1, v, v1)
+    };
+    let est = |ev: &mut Evaluator<'_>, d: f64| {
+        let (m1, _, _) = local(ev, d);
+        let (m2, _, _) = local(ev, 2.0 * d);
+        let (m4, _, _) = local(ev, 4.0 * d);
+        extrapolate(m1, m2, m4)
+    };
+    let d = 1e-4 * w;
+    let m = round_half(est(ev, d));
+    if !m.is_finite() {
+        return None;
+    }
+    let (_, v, v1) = local(ev, d);
+    if m <= 0.0 {
+        return Some((m, f64::NAN, f64::INFINITY));
+    }
+    let v_p = v - d * v1 / m;
+    let c = -v1 / (m * v_p * d.powf(m - 1.0));
+    Some((m, c, v_p))
+}
+
 /// Order and residue of a pole of K at `end`, approached from the side `inward` (+1: the
-/// interior lies above the pole).
+/// interior lies above the pole), and the leading order of the pole alone where V has a
+/// plateau there.
 pub fn analyse_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -> Option<Pole> {
     let w = width.min(end.abs().max(1.0));
     let at = |ev: &mut Evaluator<'_>, d: f64| {
         let x = end + inward * d;
         ev.eval_jet(x, 1);
-        let (k0, k1) = {
-            let j = ev.jet_output(OUT_K);
-            (j[0], j[1])
-        };
-        let v = *ev.jet_output(OUT_V);
+        let j = ev.jet_output(OUT_K);
         // local order -dlnK/dln(rho), rho = inward (x - end)
-        (-inward * d * k1 / k0, k0, v)
+        (-inward * d * j[1] / j[0], j[0])
     };
     let est = |ev: &mut Evaluator<'_>, d: f64| {
-        let (p1, _, _) = at(ev, d);
-        let (p2, _, _) = at(ev, 2.0 * d);
-        let (p4, _, _) = at(ev, 4.0 * d);
+        let (p1, _) = at(ev, d);
+        let (p2, _) = at(ev, 2.0 * d);
+        let (p4, _) = at(ev, 4.0 * d);
         extrapolate(p1, p2, p4)
     };
     let (pa, pb) = (est(ev, 1e-4 * w), est(ev, 3e-4 * w));
@@ -886,8 +1067,7 @@ pub fn analyse_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -
         return None;
     }
     let measured = pa;
-    let rounded = (2.0 * pa).round() / 2.0;
-    let order = if (pa - rounded).abs() < 1e-6 { rounded } else { pa };
+    let order = round_half(pa);
     let residue_at = |ev: &mut Evaluator<'_>, d: f64| {
         let f = |ev: &mut Evaluator<'_>, d: f64| at(ev, d).1 * d.powf(order);
         extrapolate(f(ev, d), f(ev, 2.0 * d), f(ev, 4.0 * d))
@@ -895,17 +1075,23 @@ pub fn analyse_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -
     let (ra, rb) = (residue_at(ev, 1e-4 * w), residue_at(ev, 3e-4 * w));
     let residue = ra;
     let residue_uncertainty = ((ra - rb) / ra).abs();
-    // Leading order needs V(end) > 0 finite and V falling away from the pole.
-    let (v0, v1) = {
-        let (_, _, v) = at(ev, 1e-9 * w);
-        (v[0], v[1])
+    let (leading_order, no_leading_order) = match flatness_at_pole(ev, end, inward, w) {
+        None => (None, Some(NoLeadingOrder::Unresolved)),
+        Some((m, _, _)) if m <= 0.0 => (None, Some(NoLeadingOrder::VUnbounded)),
+        Some((_, _, v_p)) if !v_p.is_finite() => (None, Some(NoLeadingOrder::VUnbounded)),
+        Some((_, _, v_p)) if v_p <= 0.0 => (None, Some(NoLeadingOrder::VNotPositive)),
+        Some((_, c, _)) if c.is_nan() || c <= 0.0 => (None, Some(NoLeadingOrder::VFallsToward)),
+        Some((m, _, _)) if order + m <= 2.0 => (None, Some(NoLeadingOrder::TooWeak)),
+        Some((m, c, _)) => (
+            Some(PoleLeadingOrder {
+                slope: c,
+                order,
+                residue,
+                flatness: m,
+            }),
+            None,
+        ),
     };
-    let slope = -inward * v1 / v0;
-    let leading_order = (order > 1.0 && v0.is_finite() && v0 > 0.0 && slope > 0.0).then_some(PoleLeadingOrder {
-        slope,
-        order,
-        residue,
-    });
     Some(Pole {
         phi: end,
         order,
@@ -914,6 +1100,7 @@ pub fn analyse_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -
         residue_uncertainty,
         infinite_distance: order >= 2.0,
         leading_order,
+        no_leading_order,
     })
 }
 

@@ -3,8 +3,8 @@
 //! of (phi, chi, V), and a figure of V against phi and against chi.
 
 use crate::canonical::{
-    analyse_pole, asymptote, find_domain, minimum_of_v, negative_regions, ser_f64, AnalysisError, Asymptote,
-    CanonicalMap, Domain, EndKind, Pole,
+    analyse_pole, asymptote, find_domain, minimum_of_v, negative_regions, positive_minimum, ser_f64, AnalysisError,
+    Asymptote, CanonicalMap, Domain, EndKind, Pole,
 };
 use crate::config::Config;
 use crate::ir::format_number;
@@ -102,6 +102,9 @@ pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<I
     let mut poles = Vec::new();
     let mut zeros = Vec::new();
     let mut warnings = Vec::new();
+    if let Some(v) = min_phi.and_then(|phi| positive_minimum(&mut ev, &iv, phi)) {
+        warnings.push(positive_minimum_warning(field, min_phi.unwrap_or_default(), v, &iv));
+    }
     let width = iv.hi - iv.lo;
     for (end, kind, inward) in [(iv.lo, iv.lo_kind, 1.0), (iv.hi, iv.hi_kind, -1.0)] {
         match kind {
@@ -160,6 +163,24 @@ pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<I
         table,
         warnings,
     })
+}
+
+/// The warning for a minimum of V above zero (at an end of the given range: the range cuts
+/// V off before it reaches its minimum).
+pub fn positive_minimum_warning(field: &str, phi: f64, v: f64, iv: &crate::canonical::Interval) -> String {
+    if phi == iv.lo || phi == iv.hi {
+        format!(
+            "V = {} > 0 at the end of the given range ({field} = {}), where V is lowest: the range ends before V reaches a minimum, so after inflation the field would leave the range",
+            fmt(v),
+            fmt(phi)
+        )
+    } else {
+        format!(
+            "V = {} > 0 at its minimum ({field} = {}): the field settles where V is positive, so inflation resumes in the vacuum (or never really ends) unless this vacuum energy is negligible",
+            fmt(v),
+            fmt(phi)
+        )
+    }
 }
 
 fn default_origin(iv: &crate::canonical::Interval) -> f64 {
@@ -303,27 +324,29 @@ pub fn text(ins: &Inspection) -> String {
         match &p.leading_order {
             Some(lo) => {
                 let (ns, r) = lo.predict(55.0);
-                let formula = if p.order == 2.0 {
+                let (pp, m) = (lo.order, lo.flatness);
+                let formula = if pp == 2.0 && m == 1.0 {
                     format!("n_s = 1 - 2/N, r = 8 a_2/N^2 = {}/N^2", fmt(8.0 * p.residue))
+                } else if pp == 2.0 && m == 2.0 {
+                    format!("n_s = 1 - 2/N, r = 2 a_2/N^2 = {}/N^2", fmt(2.0 * p.residue))
                 } else {
                     format!(
                         "n_s = 1 - {}/N, r from a_p and c = {} (see docs)",
-                        fmt(p.order / (p.order - 1.0)),
+                        fmt((2.0 * m + pp - 2.0) / (pp + m - 2.0)),
                         fmt(lo.slope)
                     )
                 };
                 let _ = writeln!(
                     o,
-                    "    pole alone, leading order: {formula}; at N = 55: n_s = {:.6}, r = {}",
+                    "    pole alone, leading order (V = V_p (1 - c rho^m) with m = {}): {formula}; at N = 55: n_s = {:.6}, r = {}",
+                    fmt(m),
                     ns,
                     fmt(r)
                 );
             }
             None => {
-                let _ = writeln!(
-                    o,
-                    "    no leading-order prediction: needs order > 1 and V > 0 falling away from the pole"
-                );
+                let why = p.no_leading_order.map_or("", |w| w.words());
+                let _ = writeln!(o, "    no leading-order prediction of the pole alone: {why}");
             }
         }
     }

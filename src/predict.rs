@@ -56,6 +56,9 @@ pub struct PoleOnly {
     pub n_s: f64,
     /// r at leading order in 1/N.
     pub r: f64,
+    /// m in V = V_p (1 - c rho^m) near the pole: 1 where V has a slope there, 2 where it is
+    /// flat.
+    pub flatness: f64,
 }
 
 /// The predictions at one N_*.
@@ -228,6 +231,11 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
                     branch: all[j],
                 };
                 let mut warnings = warnings;
+                if let Some(phi) = minimum_of_v(&mut ev, &iv) {
+                    if let Some(v) = crate::canonical::positive_minimum(&mut ev, &iv, phi) {
+                        warnings.push(crate::inspect::positive_minimum_warning(&field, phi, v, &iv));
+                    }
+                }
                 if order.len() > 1 && i != order[0] {
                     warnings.push(format!(
                         "branch {} was the first choice but does not give the requested e-folds; branch {} was used",
@@ -311,13 +319,21 @@ fn run_branch(
     } else {
         None
     };
+    let mut warnings = Vec::new();
     let pole = if top_kind == Some(EndKind::Pole) {
         let inward = if b.top == iv.lo { 1.0 } else { -1.0 };
-        analyse_pole(ev, b.top, inward, iv.hi - iv.lo).and_then(|p| p.leading_order.map(|lo| (p.order, p.residue, lo)))
+        let p = analyse_pole(ev, b.top, inward, iv.hi - iv.lo);
+        if let Some(why) = p.as_ref().and_then(|p| p.no_leading_order) {
+            warnings.push(format!(
+                "no pole-alone prediction from the pole of K at {field} = {} at the top of the branch: {}",
+                fmt(b.top),
+                why.words()
+            ));
+        }
+        p.and_then(|p| p.leading_order.map(|lo| (p.order, p.residue, lo)))
     } else {
         None
     };
-    let mut warnings = Vec::new();
     let (n_stars, matching, n_from) = match &opts.reheating {
         None => (n_wanted.to_vec(), None, "given".to_string()),
         Some(reh) => {
@@ -404,6 +420,7 @@ fn run_branch(
                     residue: *residue,
                     n_s,
                     r,
+                    flatness: lo.flatness,
                 }
             }),
             reheating: matching,
@@ -658,9 +675,10 @@ pub fn text(rep: &Report) -> String {
     if let Some(q) = p.iter().find_map(|x| x.pole_only) {
         let _ = writeln!(
             o,
-            "\npole alone: leading order in 1/N from the pole of order {} with residue {} at the top of the branch",
+            "\npole alone: leading order in 1/N from the pole of order {} with residue {} at the top of the branch, where V = V_p (1 - c rho^m) with m = {}",
             fmt(q.order),
-            fmt(q.residue)
+            fmt(q.residue),
+            fmt(q.flatness)
         );
     }
     for w in &rep.warnings {

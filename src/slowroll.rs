@@ -217,27 +217,105 @@ fn merge_ascending(a: &[f64], b: &[f64], out: &mut Vec<f64>) {
     out.extend_from_slice(&b[j..]);
 }
 
+/// The branches of an interval, and how far the survey could resolve V.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BranchSurvey {
+    /// The branches, in ascending order of position.
+    pub branches: Vec<Branch>,
+    /// Where the survey stopped because V varies faster than its samples (below, above): the
+    /// ends of the interval when it did not stop.
+    pub resolved: (f64, f64),
+    /// The period of V, when its stationary points repeat with one period and the same values;
+    /// then only the branches of the period around phi = 0 are kept.
+    pub period: Option<f64>,
+}
+
 /// The branches of the interval: stretches between stationary points of V (and the ends),
 /// in ascending order of position.
 pub fn branches(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<Branch> {
-    let pts = sample_points(iv.lo, iv.hi);
-    // The sign of V' where it is significant: a slope below rounding of V over the scale of x
-    // (V' |x| < 1e-10 |V|) is numerical noise on a plateau, not a direction. 0 marks "none".
-    let sign = |x: f64, v: f64, d: f64| -> f64 {
-        if !(v.is_finite() && d.is_finite()) || d.abs() * x.abs().max(1.0) <= 1e-10 * v.abs() {
-            0.0
-        } else {
-            d.signum()
-        }
-    };
+    branch_survey(ev, iv).branches
+}
+
+/// The sign of V' where it is significant: a slope below rounding of V over the scale of x
+/// (V' |x| < 1e-10 |V|) is numerical noise on a plateau, not a direction. 0 marks "none".
+fn slope_sign(x: f64, v: f64, d: f64) -> f64 {
+    if !(v.is_finite() && d.is_finite()) || d.abs() * x.abs().max(1.0) <= 1e-10 * v.abs() {
+        0.0
+    } else {
+        d.signum()
+    }
+}
+
+/// Samples (indices into `signs`, significant ones only) where V' changes sign on both sides:
+/// stationary points in two neighbouring sample intervals, closer together than the samples
+/// can tell apart reliably.
+fn crowded(signs: &[f64]) -> Vec<usize> {
+    let sig: Vec<usize> = (0..signs.len()).filter(|&i| signs[i] != 0.0).collect();
+    sig.windows(3)
+        .filter(|w| signs[w[0]] != signs[w[1]] && signs[w[1]] != signs[w[2]])
+        .map(|w| w[1])
+        .collect()
+}
+
+/// The branches of the interval, surveyed only where the samples resolve V.
+///
+/// Samples are those of [`sample_points`]. Where V' changes sign in two neighbouring sample
+/// intervals, the stationary points are closer than the samples resolve; both intervals are
+/// halved, up to three times. Where they are still crowded, V varies faster than the samples
+/// can follow (an oscillating potential far from the origin): the survey stops at the first
+/// such sample on either side of phi = 0, the branches beyond are not listed, and the pieces
+/// cut off at the stopping points are dropped. When the stationary points found repeat with
+/// one period P and the same values of V, only the branches whose middle lies within P/2 of
+/// phi = 0 are kept.
+pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
+    let mut pts = sample_points(iv.lo, iv.hi);
     let mut signs = vec![0.0; pts.len()];
-    ev.eval_each(&pts, |i, out| signs[i] = sign(pts[i], out[OUT_V], out[OUT_DV]));
+    ev.eval_each(&pts, |i, out| signs[i] = slope_sign(pts[i], out[OUT_V], out[OUT_DV]));
+    let mut hidden = crowded(&signs);
+    for _ in 0..3 {
+        if hidden.is_empty() {
+            break;
+        }
+        let mut mids: Vec<f64> = Vec::new();
+        for &i in &hidden {
+            for (a, b) in [(i.saturating_sub(1), i), (i, (i + 1).min(pts.len() - 1))] {
+                let m = 0.5 * (pts[a] + pts[b]);
+                if m > pts[a] && m < pts[b] && mids.last() != Some(&m) {
+                    mids.push(m);
+                }
+            }
+        }
+        mids.sort_by(f64::total_cmp);
+        mids.dedup();
+        let mut ms = vec![0.0; mids.len()];
+        ev.eval_each(&mids, |i, out| ms[i] = slope_sign(mids[i], out[OUT_V], out[OUT_DV]));
+        let mut merged: Vec<(f64, f64)> = Vec::with_capacity(pts.len() + mids.len());
+        let (mut i, mut j) = (0, 0);
+        while i < pts.len() || j < mids.len() {
+            if j >= mids.len() || (i < pts.len() && pts[i] < mids[j]) {
+                merged.push((pts[i], signs[i]));
+                i += 1;
+            } else {
+                merged.push((mids[j], ms[j]));
+                j += 1;
+            }
+        }
+        pts = merged.iter().map(|p| p.0).collect();
+        signs = merged.iter().map(|p| p.1).collect();
+        hidden = crowded(&signs);
+    }
+    let centre = if iv.contains(0.0) {
+        0.0
+    } else {
+        0.5 * (pts[0] + pts[pts.len() - 1])
+    };
     let mut dv = |x: f64| {
         ev.eval(x);
         ev.output(OUT_DV)
     };
-    // Sign changes between consecutive significant samples, refined by Brent on V'.
-    let mut stationary = Vec::new();
+    // Sign changes between consecutive significant samples, refined by Brent on V'; with the
+    // half-width of the samples around each.
+    let mut stationary: Vec<(f64, f64)> = Vec::new();
     let mut prev: Option<usize> = None;
     for i in 0..pts.len() {
         if signs[i] == 0.0 {
@@ -255,14 +333,42 @@ pub fn branches(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<Branch> {
                 let x = r.map(|r| r.value).unwrap_or(0.5 * (pts[j] + pts[i]));
                 // a stationary point at the origin, found to rounding (M_p = 1 sets the scale)
                 let x = if x.abs() < 1e-12 { 0.0 } else { x };
-                stationary.push(x);
+                stationary.push((x, pts[i] - pts[j]));
             }
         }
         prev = Some(i);
     }
-    let mut edges = vec![iv.lo];
-    edges.extend(stationary);
-    edges.push(iv.hi);
+    // Outward from the centre, the survey stops at the first stationary point closer to its
+    // inner neighbour than twice the sample spacing around it: beyond, the samples no longer
+    // resolve V.
+    let split = stationary.partition_point(|s| s.0 < centre);
+    let mut hi_cut = f64::INFINITY;
+    for k in split.max(1)..stationary.len() {
+        if stationary[k].0 - stationary[k - 1].0 < 2.0 * stationary[k].1 {
+            hi_cut = stationary[k].0;
+            break;
+        }
+    }
+    let mut lo_cut = f64::NEG_INFINITY;
+    for k in (0..split.min(stationary.len().saturating_sub(1))).rev() {
+        if stationary[k + 1].0 - stationary[k].0 < 2.0 * stationary[k].1 {
+            lo_cut = stationary[k].0;
+            break;
+        }
+    }
+    let stationary: Vec<f64> = stationary
+        .iter()
+        .map(|s| s.0)
+        .filter(|&x| x > lo_cut && x < hi_cut)
+        .collect();
+    let mut edges = Vec::new();
+    if lo_cut == f64::NEG_INFINITY {
+        edges.push(iv.lo);
+    }
+    edges.extend(stationary.iter().copied());
+    if hi_cut == f64::INFINITY {
+        edges.push(iv.hi);
+    }
     let mut out = Vec::new();
     for w in edges.windows(2) {
         let (a, b) = (w[0], w[1]);
@@ -280,7 +386,31 @@ pub fn branches(ev: &mut Evaluator<'_>, iv: &Interval) -> Vec<Branch> {
             Branch { top: a, bottom: b }
         });
     }
-    out
+    let period = period_of(ev, &stationary);
+    if let Some(p) = period {
+        out.retain(|b| (0.5 * (b.top + b.bottom) - centre).abs() <= 0.5 * p);
+    }
+    BranchSurvey {
+        branches: out,
+        resolved: (lo_cut.max(iv.lo), hi_cut.min(iv.hi)),
+        period,
+    }
+}
+
+/// The period of V from its stationary points: at least five, every second one P apart
+/// (relative 1e-6), with V equal at every second one (1e-9 of the range of V). None otherwise.
+fn period_of(ev: &mut Evaluator<'_>, s: &[f64]) -> Option<f64> {
+    if s.len() < 5 {
+        return None;
+    }
+    let p = s[2] - s[0];
+    if p.is_nan() || p <= 0.0 || s.windows(3).any(|w| ((w[2] - w[0]) - p).abs() > 1e-6 * p) {
+        return None;
+    }
+    let vs: Vec<f64> = s.iter().map(|&x| ev.eval(x)).collect();
+    let range = vs.iter().copied().fold(f64::NEG_INFINITY, f64::max) - vs.iter().copied().fold(f64::INFINITY, f64::min);
+    let same = vs.windows(3).all(|w| (w[2] - w[0]).abs() <= 1e-9 * range);
+    same.then_some(p)
 }
 
 /// Why the slow-roll computation failed on a branch.
@@ -366,7 +496,14 @@ fn end_of_inflation_walk(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Res
             continue;
         }
         if sr.v <= 0.0 {
-            if last.is_some() {
+            if let Some((xa, _)) = last {
+                // V falls through zero after an inflating stretch: eps_V grows without bound
+                // as V -> 0+, so inflation ends before V turns negative, between the last
+                // inflating sample and the zero of V. The negative region beyond is not the
+                // field's concern.
+                if let Some(end) = end_before_zero_of_v(ev, xa, x) {
+                    return Ok(end);
+                }
                 return Err(fail(
                     format!("V becomes negative at {field} = {} before eps_V reaches 1", fmt_end(x)),
                     &["inflation would end in a region of negative potential energy: check the potential's minimum"],
@@ -421,6 +558,43 @@ fn end_of_inflation_walk(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Res
         300,
     )?;
     Ok(root.value)
+}
+
+/// The end of inflation between `xa` (V > 0, eps_V < 1) and `xb` (V <= 0): the zero x0 of V
+/// between them, then the eps_V = 1 crossing between `xa` and a point just short of x0 where
+/// eps_V >= 1. None if V' vanishes with V (eps_V stays finite) or nothing brackets.
+fn end_before_zero_of_v(ev: &mut Evaluator<'_>, xa: f64, xb: f64) -> Option<f64> {
+    let x0 = brent(
+        |t| {
+            ev.eval(t);
+            ev.output(OUT_V)
+        },
+        xa,
+        xb,
+        1e-15 * xa.abs().max(xb.abs()).max(1e-300),
+        300,
+    )
+    .ok()?
+    .value;
+    let mut y = None;
+    for k in 1..60 {
+        let t = x0 - (x0 - xa) * 0.5f64.powi(k);
+        let (v, e) = eps_first_order(ev, t);
+        if v > 0.0 && e.is_finite() && e >= 1.0 {
+            y = Some(t);
+            break;
+        }
+    }
+    let y = y?;
+    brent(
+        |t| eps_first_order(ev, t).1 - 1.0,
+        xa,
+        y,
+        1e-15 * xa.abs().max(y.abs()).max(1e-300),
+        300,
+    )
+    .ok()
+    .map(|r| r.value)
 }
 
 fn fmt_end(x: f64) -> String {
