@@ -1238,7 +1238,9 @@ pub fn asymptote(
         let w = (iv.hi - iv.lo).min(end.abs().max(1.0));
         (4..=36).map(|j| end - tau * w * 10f64.powf(-j as f64 / 4.0)).collect()
     } else {
-        let base = if phi_ref.is_finite() { phi_ref } else { 0.0 };
+        // Sampled outward from phi = 0 where the interval holds it, so that a potential symmetric
+        // under phi -> -phi is sampled at mirror points whatever its reference point.
+        let base = if iv.contains(0.0) || !phi_ref.is_finite() { 0.0 } else { phi_ref };
         (0..=28).map(|j| base + tau * 10f64.powf(j as f64 / 4.0)).collect()
     };
     let mut map = CanonicalMap::new(model, phi_ref, config);
@@ -1313,8 +1315,9 @@ fn classify(end: f64, s: &[Sample], unbounded: bool) -> Asymptote {
         set(&mut out, AsymptoteKind::Negative, 0.0);
         return out;
     }
-    // Oscillation: the slope changes sign at least twice.
-    let flips = s
+    // Oscillation: the slope changes sign at least twice in the last three decades of the
+    // approach (stationary points nearer the reference point are features, not the asymptote).
+    let flips = s[s.len().saturating_sub(13)..]
         .windows(2)
         .filter(|w| w[0].vt.signum() != w[1].vt.signum() && w[1].vt != 0.0)
         .count();

@@ -38,6 +38,11 @@ pub struct Config {
     /// larger (close to a pole of K, 1 - phi^2/(6 alpha) keeps only a few digits), its result
     /// is still used if the estimated relative error is below this. Default 1e-9.
     pub quad_accept: f64,
+    /// Beyond `quad_accept`, an e-fold or canonical-distance integral held back by its
+    /// integrand's rounding is still used if its estimated relative error is below this, and
+    /// the report says so with the accuracy reached (a pivot within a hair of a pole of K, where
+    /// K itself keeps only a few digits). Default 1e-6.
+    pub quad_rounding_limit: f64,
 }
 
 impl Default for Config {
@@ -46,6 +51,7 @@ impl Default for Config {
             limits: Limits::default(),
             quad: crate::numerics::quad::Tolerance::default(),
             quad_accept: 1e-9,
+            quad_rounding_limit: 1e-6,
         }
     }
 }

@@ -341,7 +341,17 @@ fn run_branch(
             (vec![n], Some(m), format!("reheating: {}", reh.describe()))
         }
     };
-    let stars = phi_stars(ev, b, phi_end, &n_stars, config, field)?;
+    let (stars, n_error) = crate::slowroll::phi_stars_with_accuracy(ev, b, phi_end, &n_stars, config, field)?;
+    if n_error > 0.0 {
+        let nearest = stars
+            .iter()
+            .map(|x| (x - b.top).abs())
+            .fold(f64::INFINITY, f64::min);
+        warnings.push(format!(
+            "rounding in V K / V' limits the e-fold integral to a relative accuracy of {n_error:.1e} (the pivot lies {nearest:.1e} from {field} = {}, where the integrand loses digits); phi_* and the observables are good to about that",
+            fmt(b.top)
+        ));
+    }
     let mut map = CanonicalMap::new(model, phi_end, config);
     let data = &opts.data;
     let mp = data.units.reduced_planck_mass_gev;
@@ -351,8 +361,10 @@ fn run_branch(
     order.sort_by(|&i, &j| (stars[i] - phi_end).abs().total_cmp(&(stars[j] - phi_end).abs()));
     let mut excursion = vec![0.0; stars.len()];
     let (mut from, mut acc) = (phi_end, 0.0);
+    let limit = config.quad_rounding_limit.max(config.quad_accept);
     for &i in &order {
-        acc += map.between(from, stars[i])?.value.abs();
+        let (d, _) = crate::slowroll::accept_within(map.between(from, stars[i]), limit)?;
+        acc += d.abs();
         excursion[i] = acc;
         from = stars[i];
     }

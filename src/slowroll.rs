@@ -625,10 +625,19 @@ fn dn_dphi_batch(ev: &mut Evaluator<'_>, xs: &[f64], out: &mut [f64]) {
 /// error estimate still below `config.quad_accept` (relative): the shortfall is then the
 /// integrand's own rounding.
 fn accept(r: Result<crate::numerics::Estimate, NumericError>, config: &Config) -> Result<f64, NumericError> {
+    accept_within(r, config.quad_accept).map(|(v, _)| v)
+}
+
+/// [`accept`] with the limit `limit` on the relative error: (value, relative error reached
+/// when the tolerance was not).
+pub fn accept_within(
+    r: Result<crate::numerics::Estimate, NumericError>,
+    limit: f64,
+) -> Result<(f64, f64), NumericError> {
     match r {
-        Ok(e) => Ok(e.value),
-        Err(NumericError::NoConvergence { estimate, error, .. }) if error <= config.quad_accept * estimate.abs() => {
-            Ok(estimate)
+        Ok(e) => Ok((e.value, 0.0)),
+        Err(NumericError::NoConvergence { estimate, error, .. }) if error <= limit * estimate.abs() => {
+            Ok((estimate, error / estimate.abs()))
         }
         Err(e) => Err(e),
     }
@@ -659,23 +668,61 @@ pub fn phi_stars(
     config: &Config,
     field: &str,
 ) -> Result<Vec<f64>, AnalysisError> {
+    phi_stars_with_accuracy(ev, b, phi_end, n_stars, config, field).map(|(v, _)| v)
+}
+
+/// [`phi_stars`], also where rounding in the integrand (a pivot a hair from a pole of K) keeps
+/// the e-fold integral from its tolerance but within `config.quad_rounding_limit`; returns the
+/// largest relative error of N so accepted (0 when every integral met its tolerance).
+pub fn phi_stars_with_accuracy(
+    ev: &mut Evaluator<'_>,
+    b: &Branch,
+    phi_end: f64,
+    n_stars: &[f64],
+    config: &Config,
+    field: &str,
+) -> Result<(Vec<f64>, f64), AnalysisError> {
     let coord = Coord::new(b, phi_end);
     let need = n_stars.iter().copied().fold(0.0f64, f64::max);
     let mut out = vec![f64::NAN; n_stars.len()];
+    let worst = std::cell::Cell::new(0.0f64);
+    let limit = config.quad_rounding_limit.max(config.quad_accept);
     let integrate = |ev: &mut Evaluator<'_>, a: f64, x: f64| -> Result<f64, AnalysisError> {
-        let r = accept(
+        let r = accept_within(
             gauss_kronrod_batch(|ss, ys| coord.dn_ds_batch(ev, ss, ys), a, x, &config.quad),
-            config,
+            limit,
         )
-        .map_err(|e| {
-            fail(
+        .map(|(v, e)| {
+            if e > config.quad_accept {
+                worst.set(worst.get().max(e));
+            }
+            v
+        })
+        .map_err(|e| match (&e, coord.top) {
+            (NumericError::NoConvergence { estimate, error, .. }, Some(top)) => {
+                let (pa, px) = (coord.phi(a), coord.phi(x));
+                let d = (pa - top).abs().min((px - top).abs());
+                fail(
+                    format!(
+                        "the e-fold integral cannot be resolved in double precision within {d:.1e} of {field} = {}: rounding in V K / V' there leaves a relative error of {:.1e} (allowed {:.0e}), and the pivot lies that close",
+                        fmt_end(top),
+                        error / estimate.abs(),
+                        limit
+                    ),
+                    &[
+                        "write the model in a variable in which the top of the branch is not so close (the distance to a pole, or the canonical field)",
+                        "or ask for fewer e-folds with --efolds",
+                    ],
+                )
+            }
+            _ => fail(
                 format!(
                     "e-fold integral failed between {field} = {} and {}: {e}",
                     fmt_end(coord.phi(a)),
                     fmt_end(coord.phi(x))
                 ),
                 &["the slow-roll integrand V K / V' must stay finite up the branch"],
-            )
+            ),
         })?;
         Ok(r)
     };
@@ -689,7 +736,8 @@ pub fn phi_stars(
         let n_here = n_prev + integrate(ev, s_prev, s)?;
         for (i, &target) in n_stars.iter().enumerate() {
             if out[i].is_nan() && n_here >= target {
-                let s_star = solve_n(ev, &coord, (s_prev, n_prev), (s, n_here), target, config)?;
+                let (s_star, e) = solve_n(ev, &coord, (s_prev, n_prev), (s, n_here), target, config)?;
+                worst.set(worst.get().max(e));
                 out[i] = coord.phi(s_star);
             }
         }
@@ -710,7 +758,7 @@ pub fn phi_stars(
             &["ask for fewer e-folds with --efolds, or choose another branch or parameters"],
         ));
     }
-    Ok(out)
+    Ok((out, worst.get()))
 }
 
 /// The integration variable of [`phi_stars`].
@@ -789,17 +837,22 @@ fn solve_n(
     (mut b, nb): (f64, f64),
     target: f64,
     config: &Config,
-) -> Result<f64, AnalysisError> {
+) -> Result<(f64, f64), AnalysisError> {
     let mut x = a + (b - a) * ((target - na) / (nb - na)).clamp(0.0, 1.0);
     let (mut xk, mut nk) = (a, na);
+    let limit = config.quad_rounding_limit.max(config.quad_accept);
+    let mut worst = 0.0f64;
     for _ in 0..100 {
-        let n = nk
-            + accept(
-                gauss_kronrod_batch(|ss, ys| coord.dn_ds_batch(ev, ss, ys), xk, x, &config.quad),
-                config,
-            )?;
+        let (dn, e) = accept_within(
+            gauss_kronrod_batch(|ss, ys| coord.dn_ds_batch(ev, ss, ys), xk, x, &config.quad),
+            limit,
+        )?;
+        if e > config.quad_accept {
+            worst = worst.max(e);
+        }
+        let n = nk + dn;
         if (n - target).abs() <= 1e-13 * target {
-            return Ok(x);
+            return Ok((x, worst));
         }
         if n < target {
             a = x;
@@ -810,7 +863,7 @@ fn solve_n(
         let inside = newton.is_finite() && (newton - a) * (newton - b) < 0.0;
         let next = if inside { newton } else { 0.5 * (a + b) };
         if (next - x).abs() <= 1e-15 * x.abs().max(1e-300) {
-            return Ok(next);
+            return Ok((next, worst));
         }
         xk = x;
         nk = n;
