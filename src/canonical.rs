@@ -1240,7 +1240,11 @@ pub fn asymptote(
     } else {
         // Sampled outward from phi = 0 where the interval holds it, so that a potential symmetric
         // under phi -> -phi is sampled at mirror points whatever its reference point.
-        let base = if iv.contains(0.0) || !phi_ref.is_finite() { 0.0 } else { phi_ref };
+        let base = if iv.contains(0.0) || !phi_ref.is_finite() {
+            0.0
+        } else {
+            phi_ref
+        };
         (0..=28).map(|j| base + tau * 10f64.powf(j as f64 / 4.0)).collect()
     };
     let mut map = CanonicalMap::new(model, phi_ref, config);

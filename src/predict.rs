@@ -343,10 +343,7 @@ fn run_branch(
     };
     let (stars, n_error) = crate::slowroll::phi_stars_with_accuracy(ev, b, phi_end, &n_stars, config, field)?;
     if n_error > 0.0 {
-        let nearest = stars
-            .iter()
-            .map(|x| (x - b.top).abs())
-            .fold(f64::INFINITY, f64::min);
+        let nearest = stars.iter().map(|x| (x - b.top).abs()).fold(f64::INFINITY, f64::min);
         warnings.push(format!(
             "rounding in V K / V' limits the e-fold integral to a relative accuracy of {n_error:.1e} (the pivot lies {nearest:.1e} from {field} = {}, where the integrand loses digits); phi_* and the observables are good to about that",
             fmt(b.top)
