@@ -957,7 +957,7 @@ fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
-    use crate::golden::{compare, golden_path, model_files, predict_file};
+    use crate::golden::{diff, golden_path, model_files, predict_file};
     use std::fmt::Write as _;
     let (dir, data) = match &a.action {
         GoldenAction::Write { dir, data } | GoldenAction::Check { dir, data, .. } => (dir, data),
@@ -1007,14 +1007,14 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
                     }
                     Ok(rep) => {
                         let new = serde_json::to_value(&rep).expect("serialisable");
-                        let d = compare(&old, &new, *tolerance);
+                        let d = diff(&old, &new, *tolerance);
                         if d.is_empty() {
                             let _ = writeln!(out, "{}: unchanged", f.display());
                         } else {
                             drifted += 1;
-                            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.len());
-                            for x in d {
-                                let _ = writeln!(out, "{x}");
+                            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.drifts.len());
+                            for line in d.lines() {
+                                let _ = writeln!(out, "{line}");
                             }
                         }
                     }
@@ -1032,7 +1032,7 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
-    use crate::golden::{compare, model_files, predict_file};
+    use crate::golden::{diff, model_files, predict_file};
     use notify::{RecursiveMode, Watcher};
     use std::io::Write as _;
     let base = crate::predict::Options::default();
@@ -1051,7 +1051,7 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
             let line = match (last.get(&f), &now) {
                 (_, Err(e)) => format!("{}: fails to predict\n{e}", f.display()),
                 (Some(Ok(old)), Ok(new)) => {
-                    let d = compare(old, new, a.tolerance);
+                    let d = diff(old, new, a.tolerance);
                     if d.is_empty() {
                         if first {
                             format!("{}: predicted", f.display())
@@ -1059,9 +1059,10 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
                             continue;
                         }
                     } else {
-                        let mut s = format!("{}: {} value(s) changed", f.display(), d.len());
-                        for x in d {
-                            s.push_str(&format!("\n{x}"));
+                        let mut s = format!("{}: {} value(s) changed", f.display(), d.drifts.len());
+                        for line in d.lines() {
+                            s.push('\n');
+                            s.push_str(&line);
                         }
                         s
                     }
