@@ -76,7 +76,7 @@ pub enum GoldenAction {
         /// The directory of model files.
         dir: std::path::PathBuf,
         /// Relative tolerance.
-        #[arg(long, default_value_t = 1e-8)]
+        #[arg(long, default_value = "1e-8")]
         tolerance: f64,
         /// A data file [default: the built-in one].
         #[arg(long, value_name = "FILE")]
@@ -90,7 +90,7 @@ pub struct WatchArgs {
     /// A model file, or a directory of them.
     pub path: std::path::PathBuf,
     /// Report changes beyond this relative size.
-    #[arg(long, default_value_t = 1e-10)]
+    #[arg(long, default_value = "1e-10")]
     pub tolerance: f64,
     /// Stop after this many rounds of changes (for scripts; default: run until interrupted).
     #[arg(long, value_name = "N")]
@@ -189,7 +189,7 @@ pub struct SpectrumArgs {
     #[arg(long, default_value_t = 55.0)]
     pub efolds: f64,
     /// Smallest k, in Mpc^-1.
-    #[arg(long, default_value_t = 1e-4)]
+    #[arg(long, default_value = "1e-4")]
     pub k_min: f64,
     /// Largest k, in Mpc^-1 [default: 1e14, or less if modes would exit too near the end].
     #[arg(long)]
@@ -210,11 +210,22 @@ pub struct SpectrumArgs {
     #[arg(long, value_name = "FILE")]
     pub data: Option<std::path::PathBuf>,
     /// Output format.
-    #[arg(long, value_enum, default_value_t = TableFormat::Text)]
-    pub format: TableFormat,
+    #[arg(long, value_enum, default_value_t = SpectrumFormat::Text)]
+    pub format: SpectrumFormat,
     /// Write a figure of both spectra, with the slow-roll estimate, to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+}
+
+/// Output formats of `spectrum`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SpectrumFormat {
+    /// Aligned text for people.
+    Text,
+    /// One JSON object.
+    Json,
+    /// A header and one row per k.
+    Csv,
 }
 
 /// Output formats of `predict`.
@@ -341,7 +352,7 @@ pub enum Format {
     Json,
 }
 
-/// Flags naming the field and binding parameters, shared by the commands that take expressions.
+/// Flags naming the field and binding parameters for `eval`.
 #[derive(Debug, clap::Args)]
 pub struct ScopeArgs {
     /// A parameter, NAME=VALUE; VALUE may be an expression of `pi` and earlier parameters
@@ -396,9 +407,13 @@ pub struct CompileArgs {
     /// Highest symbolic derivative to show.
     #[arg(long, default_value_t = 2)]
     pub order: usize,
-    #[command(flatten)]
-    #[allow(missing_docs)]
-    pub scope: ScopeArgs,
+    /// A parameter, NAME=VALUE (repeatable). The views are symbolic, so the value is only
+    /// checked; names used in EXPR but not given here are shown as parameters too.
+    #[arg(long = "param", value_name = "NAME=VALUE")]
+    pub params: Vec<String>,
+    /// The field variable's name, the variable of the derivatives [default: phi].
+    #[arg(long, value_name = "NAME")]
+    pub field: Option<String>,
 }
 
 /// A command's failure: what to print on stderr, and the exit code.
@@ -634,9 +649,30 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     })
 }
 
+/// The names of `expr` that are neither the field, a declared parameter, a constant nor a
+/// function: `compile` shows them as symbolic parameters. A syntax error is left to `compile`.
+fn undeclared_names(expr: &str, field: &str, declared: &[String], config: &Config) -> Vec<String> {
+    let Ok(ast) = crate::syntax::parse(expr, &config.limits) else {
+        return Vec::new();
+    };
+    ast.names()
+        .into_iter()
+        .filter(|n| {
+            *n != field
+                && !declared.iter().any(|d| d == n)
+                && !crate::ir::CONSTANTS.iter().any(|(c, _)| c == n)
+                && crate::ir::Func::from_name(n).is_none()
+                && *n != "pow"
+        })
+        .map(str::to_string)
+        .collect()
+}
+
 fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
-    let field = a.scope.field.clone().unwrap_or_else(|| "phi".to_string());
-    let (names, _) = bind_params(&a.scope.params, &field, config)?;
+    let field = a.field.clone().unwrap_or_else(|| "phi".to_string());
+    let (mut names, _) = bind_params(&a.params, &field, config)?;
+    let symbolic = undeclared_names(&a.expr, &field, &names, config);
+    names.extend(symbolic.iter().cloned());
     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
     let scope = Scope::new(&field, &refs);
     let mut c = compile(&[("expression", &a.expr)], &scope, &config.limits)?;
@@ -646,6 +682,20 @@ fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
         a.emit.clone()
     };
     let mut out = String::new();
+    if !symbolic.is_empty() {
+        let list: Vec<String> = symbolic.iter().map(|n| format!("`{n}`")).collect();
+        let (verb, what) = if symbolic.len() == 1 {
+            ("is", "a symbolic parameter")
+        } else {
+            ("are", "symbolic parameters")
+        };
+        let _ = writeln!(
+            out,
+            "note: {} {verb} not declared, shown as {what}; `efold eval` needs values (`--param {}=VALUE`)",
+            list.join(", "),
+            symbolic[0]
+        );
+    }
     for e in emit {
         match e {
             Emit::Ast => {
@@ -676,14 +726,16 @@ fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
 }
 
 /// Builds the model from a file and/or the inline flags (flags override the file).
-pub fn load_model(a: &ModelArgs, config: &Config) -> Result<crate::model::Model, Failure> {
+/// `example` is the command line suggested when no model is given, e.g.
+/// `efold predict models/pole-order-2-quadratic.toml`.
+pub fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<crate::model::Model, Failure> {
     use crate::model::{ModelSpec, Text};
     let mut spec = match (&a.model, &a.potential) {
         (Some(path), _) => ModelSpec::load(path)?,
         (None, Some(v)) => ModelSpec::inline(v, None),
         (None, None) => {
             return Err(Diagnostic::new("no model given")
-                .with_hint("give a model file, e.g. `efold inspect models/pole-order-2-quadratic.toml`")
+                .with_hint(format!("give a model file, e.g. `{example}`"))
                 .with_hint("or the model inline: `--potential 'phi^2/2' [--kinetic EXPR] [--param NAME=VALUE]`")
                 .into())
         }
@@ -719,7 +771,7 @@ fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failu
 }
 
 fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
-    let model = load_model(&a.model, config)?;
+    let model = load_model(&a.model, "efold inspect models/pole-order-2-quadratic.toml", config)?;
     let ins = crate::inspect::inspect(&model, config, a.table)?;
     if let Some(path) = &a.svg {
         let svg = crate::inspect::figure(&model, &ins, &Default::default(), config)?;
@@ -750,7 +802,7 @@ fn reheating_from(a: &PredictArgs) -> Result<Option<crate::reheating::Reheating>
 }
 
 fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
-    let model = load_model(&a.model, config)?;
+    let model = load_model(&a.model, "efold predict models/pole-order-2-quadratic.toml", config)?;
     let data = match &a.data {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
         None => crate::data::DataSet::builtin(),
@@ -792,7 +844,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
-    let model = load_model(&a.model, config)?;
+    let model = load_model(&a.model, "efold spectrum models/pole-order-2-quadratic.toml", config)?;
     let data = match &a.data {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
         None => crate::data::DataSet::builtin(),
@@ -838,15 +890,15 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         write_output_file(path, &crate::exact::figure(&sp, &model.spec.name))?;
     }
     Ok(match a.format {
-        TableFormat::Json => {
+        SpectrumFormat::Json => {
             let obj = serde_json::json!({
                 "model": crate::inspect::ModelSummary::of(&model),
                 "spectrum": sp,
             });
             format!("{}\n", serde_json::to_string_pretty(&obj).expect("serialisable"))
         }
-        TableFormat::Csv => crate::exact::csv(&sp),
-        TableFormat::Text => crate::exact::text(&sp, &model.spec.name),
+        SpectrumFormat::Csv => crate::exact::csv(&sp),
+        SpectrumFormat::Text => crate::exact::text(&sp, &model.spec.name),
     })
 }
 
@@ -860,7 +912,11 @@ fn load_data(path: &Option<std::path::PathBuf>) -> Result<crate::data::DataSet, 
 fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     use std::io::IsTerminal;
     // Compile once up front: a bad model is one error, not one per point.
-    let model = load_model(&a.model, config)?;
+    let model = load_model(
+        &a.model,
+        "efold scan models/pole-order-2-quadratic.toml --vary alpha=0.1:10:30:log",
+        config,
+    )?;
     let spec = model.spec.clone();
     let data = load_data(&a.data)?;
     if a.vary.len() > 2 {
@@ -933,7 +989,11 @@ fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
 }
 
 fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
-    let model = load_model(&a.model, config)?;
+    let model = load_model(
+        &a.model,
+        "efold fit models/pole-order-2-quadratic.toml --free alpha --target r=0.01",
+        config,
+    )?;
     let data = load_data(&a.data)?;
     let targets = a
         .targets
@@ -957,7 +1017,7 @@ fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
-    use crate::golden::{compare, golden_path, model_files, predict_file};
+    use crate::golden::{diff, golden_path, model_files, predict_file};
     use std::fmt::Write as _;
     let (dir, data) = match &a.action {
         GoldenAction::Write { dir, data } | GoldenAction::Check { dir, data, .. } => (dir, data),
@@ -1007,14 +1067,14 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
                     }
                     Ok(rep) => {
                         let new = serde_json::to_value(&rep).expect("serialisable");
-                        let d = compare(&old, &new, *tolerance);
+                        let d = diff(&old, &new, *tolerance);
                         if d.is_empty() {
                             let _ = writeln!(out, "{}: unchanged", f.display());
                         } else {
                             drifted += 1;
-                            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.len());
-                            for x in d {
-                                let _ = writeln!(out, "{x}");
+                            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.drifts.len());
+                            for line in d.lines() {
+                                let _ = writeln!(out, "{line}");
                             }
                         }
                     }
@@ -1032,7 +1092,7 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
-    use crate::golden::{compare, model_files, predict_file};
+    use crate::golden::{diff, model_files, predict_file};
     use notify::{RecursiveMode, Watcher};
     use std::io::Write as _;
     let base = crate::predict::Options::default();
@@ -1051,7 +1111,7 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
             let line = match (last.get(&f), &now) {
                 (_, Err(e)) => format!("{}: fails to predict\n{e}", f.display()),
                 (Some(Ok(old)), Ok(new)) => {
-                    let d = compare(old, new, a.tolerance);
+                    let d = diff(old, new, a.tolerance);
                     if d.is_empty() {
                         if first {
                             format!("{}: predicted", f.display())
@@ -1059,9 +1119,10 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
                             continue;
                         }
                     } else {
-                        let mut s = format!("{}: {} value(s) changed", f.display(), d.len());
-                        for x in d {
-                            s.push_str(&format!("\n{x}"));
+                        let mut s = format!("{}: {} value(s) changed", f.display(), d.drifts.len());
+                        for line in d.lines() {
+                            s.push('\n');
+                            s.push_str(&line);
                         }
                         s
                     }

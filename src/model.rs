@@ -257,6 +257,43 @@ fn key_span(file: &str, section: Option<&str>, key: &str) -> Option<Span> {
     None
 }
 
+/// Byte range of the last of `path` (`["settings"]`, `["settings", "x"]`) in a table header
+/// `[settings]`, `[settings.x]` or `[[settings]]` that starts with that path.
+fn header_span(file: &str, path: &[&str]) -> Option<Span> {
+    let mut offset = 0;
+    for line in file.split_inclusive('\n') {
+        let lead = line.len() - line.trim_start().len();
+        let trimmed = &line[lead..];
+        let open = if trimmed.starts_with("[[") { 2 } else { 1 };
+        if trimmed.starts_with('[') {
+            let inner = &trimmed[open..];
+            let inner = &inner[..inner.find(']').unwrap_or(inner.len())];
+            let mut at = offset + lead + open;
+            let mut segments = inner.split('.');
+            let mut matched = None;
+            for want in path {
+                let Some(seg) = segments.next() else {
+                    matched = None;
+                    break;
+                };
+                let start = at + (seg.len() - seg.trim_start().len());
+                let name = seg.trim().trim_matches(|c| c == '"' || c == '\'');
+                let quote = usize::from(seg.trim() != name);
+                matched = (name == *want).then(|| Span::new(start + quote, start + quote + name.len()));
+                if matched.is_none() {
+                    break;
+                }
+                at += seg.len() + 1;
+            }
+            if matched.is_some() {
+                return matched;
+            }
+        }
+        offset += line.len();
+    }
+    None
+}
+
 impl ModelSpec {
     /// Reads a model file.
     pub fn load(path: &Path) -> Result<ModelSpec, ModelError> {
@@ -465,6 +502,9 @@ fn check_identifier(name: &str, text: &str, file: &str, section: Option<&str>) -
     ))
 }
 
+/// The top-level keys that are tables, written `[name]`.
+const TABLE_KEYS: [&str; 3] = ["params", "scan", "settings"];
+
 fn check_keys(table: &toml::Table, text: &str, file: &str) -> Result<(), ModelError> {
     let unknown = |key: &str, section: Option<&str>, known: &[&str]| {
         let span = key_span(text, section, key).unwrap_or_default();
@@ -482,15 +522,50 @@ fn check_keys(table: &toml::Table, text: &str, file: &str) -> Result<(), ModelEr
             text,
         )
     };
-    for key in table.keys() {
+    // A table written as a header `[name]`: the error points at the header's own line.
+    let unknown_table = |key: &str, span: Span| {
+        let mut d = Diagnostic::new(format!("unknown table `[{key}]`")).with_span(span, "not a model table");
+        if let Some(s) = closest(key, TABLE_KEYS) {
+            d = d.with_hint(format!("did you mean `[{s}]`?"));
+        } else if let Some(s) = closest(key, TOP_KEYS) {
+            d = d.with_hint(format!("did you mean `{s}`?"));
+        }
+        let tables: Vec<String> = TABLE_KEYS.iter().map(|t| format!("[{t}]")).collect();
+        ModelError::in_file(
+            d.with_hint(format!("the tables are: {}", tables.join(", "))),
+            file,
+            text,
+        )
+    };
+    let unknown_setting = |key: &str, span: Span| {
+        let mut d = Diagnostic::new(format!("unknown setting `{key}`")).with_span(span, "not a setting");
+        if let Some(s) = closest(key, SETTINGS_KEYS) {
+            d = d.with_hint(format!("did you mean `{s}`?"));
+        }
+        ModelError::in_file(
+            d.with_hint(format!("the settings are: {}", SETTINGS_KEYS.join(", "))),
+            file,
+            text,
+        )
+    };
+    for (key, value) in table {
         if !TOP_KEYS.contains(&key.as_str()) {
-            return Err(unknown(key, None, &TOP_KEYS));
+            let header = matches!(value, toml::Value::Table(_) | toml::Value::Array(_))
+                .then(|| header_span(text, &[key]))
+                .flatten();
+            return Err(match header {
+                Some(span) if key_span(text, None, key).is_none() => unknown_table(key, span),
+                _ => unknown(key, None, &TOP_KEYS),
+            });
         }
     }
     if let Some(toml::Value::Table(s)) = table.get("settings") {
         for key in s.keys() {
             if !SETTINGS_KEYS.contains(&key.as_str()) {
-                return Err(unknown(key, Some("settings"), &SETTINGS_KEYS));
+                let span = key_span(text, Some("settings"), key)
+                    .or_else(|| header_span(text, &["settings", key]))
+                    .unwrap_or_default();
+                return Err(unknown_setting(key, span));
             }
         }
     }
@@ -736,6 +811,29 @@ efolds = [50, 60]
         assert_eq!(spec.params[0].scan, Some((0.1, 10.0, true)));
         assert_eq!(spec.start, Some(Side::Above));
         assert_eq!(spec.efolds, Some(vec![50.0, 60.0]));
+    }
+
+    #[test]
+    fn header_spans_cover_the_name_in_the_header() {
+        let text = "potential = \"phi^2\"\n[setings]\n  [[ zzz ]]\n[ \"settings\" . foo ]\n";
+        let at = |path: &[&str]| header_span(text, path).map(|s| &text[s.start..s.end]);
+        assert_eq!(at(&["setings"]), Some("setings"));
+        assert_eq!(header_span(text, &["setings"]), Some(Span::new(21, 28)));
+        assert_eq!(at(&["zzz"]), Some("zzz"));
+        assert_eq!(at(&["settings", "foo"]), Some("foo"));
+        assert_eq!(at(&["settings"]), Some("settings"));
+        assert_eq!(at(&["potential"]), None);
+        let e = err("potential = \"phi^2\"\n[param]\nalpha = 1\n");
+        assert!(
+            e.contains("unknown table `[param]`") && e.contains("--> m.toml:2:2"),
+            "{e}"
+        );
+        assert!(e.contains("did you mean `[params]`?"), "{e}");
+        let e = err("potential = \"phi^2\"\n[settings]\nrnge = [\"0\", \"1\"]\n");
+        assert!(
+            e.contains("unknown setting `rnge`") && e.contains("did you mean `range`?"),
+            "{e}"
+        );
     }
 
     #[test]

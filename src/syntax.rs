@@ -524,6 +524,26 @@ impl fmt::Display for Expr {
 }
 
 impl Expr {
+    /// The names used as values (not called as functions), each once, in the order they first
+    /// appear in the source.
+    pub fn names(&self) -> Vec<&str> {
+        let mut out: Vec<&str> = Vec::new();
+        let mut stack: Vec<&Expr> = vec![self];
+        while let Some(e) = stack.pop() {
+            match &e.kind {
+                ExprKind::Ident(n) if !out.contains(&n.as_str()) => out.push(n),
+                ExprKind::Neg(a) => stack.push(a),
+                ExprKind::Binary(_, a, b) => {
+                    stack.push(b);
+                    stack.push(a);
+                }
+                ExprKind::Call { args, .. } => stack.extend(args.iter().rev()),
+                _ => {}
+            }
+        }
+        out
+    }
+
     /// An indented tree, one node a line, with spans: the `--emit ast` view.
     pub fn tree(&self) -> String {
         let mut out = String::new();
@@ -562,6 +582,13 @@ mod tests {
 
     fn p(s: &str) -> String {
         parse(s, &Limits::default()).unwrap().to_string()
+    }
+
+    #[test]
+    fn names_in_order_of_first_use_without_function_names() {
+        let e = parse("beta*sin(phi/f) + phi^2*alpha - beta", &Limits::default()).unwrap();
+        assert_eq!(e.names(), ["beta", "phi", "f", "alpha"]);
+        assert!(parse("2 + 3", &Limits::default()).unwrap().names().is_empty());
     }
 
     fn err(s: &str) -> SyntaxErrorKind {

@@ -109,3 +109,124 @@ fn hostile_nesting_from_a_file_sized_argument() {
     assert_eq!(r.code, 2);
     assert!(r.stderr.contains("over the limit"), "{}", r.stderr);
 }
+
+/// `compile` shows an expression whose names are not all declared, with the undeclared ones
+/// as symbolic parameters; `eval` still needs their values.
+#[test]
+fn compile_treats_undeclared_names_as_symbolic_parameters() {
+    let r = efold(&["compile", "phi^2*alpha"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    // d/dphi (alpha phi^2) = 2 alpha phi, d^2 = 2 alpha (calculus)
+    assert!(r.stdout.contains("d^1/dphi^1 = alpha*(2*phi)"), "{}", r.stdout);
+    assert!(r.stdout.contains("d^2/dphi^2 = 2*alpha"), "{}", r.stdout);
+    insta::assert_snapshot!(r.stdout);
+    let e = efold(&["eval", "phi^2*alpha", "--at", "phi=1"]);
+    assert_eq!(e.code, 2);
+    assert!(e.stderr.contains("unknown name `alpha`"), "{}", e.stderr);
+    // a function used as a value is still an error, not a parameter
+    let f = efold(&["compile", "phi^2*sin"]);
+    assert_eq!(f.code, 2);
+    assert!(f.stderr.contains("`sin` is a function"), "{}", f.stderr);
+}
+
+fn help(command: &[&str]) -> String {
+    let mut args = command.to_vec();
+    args.push("--help");
+    let r = efold(&args);
+    assert_eq!(r.code, 0, "{command:?}: {}", r.stderr);
+    r.stdout
+}
+
+/// The paragraph of one option in a --help text (up to the next option).
+fn option_help(text: &str, flag: &str) -> String {
+    let start = text
+        .find(&format!("      {flag} "))
+        .unwrap_or_else(|| panic!("{flag} in {text}"));
+    let rest = &text[start + 6..];
+    let end = rest.find("\n  -").unwrap_or(rest.len());
+    rest[..end].to_string()
+}
+
+#[test]
+fn compile_and_spectrum_have_their_own_option_docs() {
+    let compile = option_help(&help(&["compile"]), "--field");
+    assert!(!compile.contains("--at"), "{compile}");
+    assert!(compile.contains("[default: phi]"), "{compile}");
+    assert!(option_help(&help(&["eval"]), "--field").contains("--at"));
+    let spectrum = option_help(&help(&["spectrum"]), "--format");
+    assert!(
+        spectrum.contains("one row per k") && !spectrum.contains("N_*"),
+        "{spectrum}"
+    );
+    assert!(option_help(&help(&["predict"]), "--format").contains("one row per N_*"));
+}
+
+const MODEL_COMMANDS: [&str; 5] = ["inspect", "predict", "spectrum", "scan", "fit"];
+
+#[test]
+fn no_model_suggests_an_example_of_the_same_command() {
+    for cmd in MODEL_COMMANDS {
+        let mut args = vec![cmd];
+        // the flags each command requires, so that the missing model is the only error
+        match cmd {
+            "scan" => args.extend(["--vary", "alpha=0.1:10:3"]),
+            "fit" => args.extend(["--free", "alpha", "--target", "r=0.01"]),
+            _ => {}
+        }
+        let r = efold(&args);
+        assert_eq!(r.code, 2, "{cmd}: {}", r.stderr);
+        assert!(r.stderr.contains("no model given"), "{cmd}: {}", r.stderr);
+        let hint = format!("hint: give a model file, e.g. `efold {cmd} models/pole-order-2-quadratic.toml");
+        assert!(r.stderr.contains(&hint), "{cmd}: {}", r.stderr);
+    }
+}
+
+#[test]
+fn the_usage_after_a_bad_flag_shows_the_model_as_optional() {
+    for cmd in MODEL_COMMANDS {
+        let r = efold(&[cmd, "--bogus"]);
+        assert_eq!(r.code, 2, "{cmd}: {}", r.stderr);
+        let usage = r
+            .stderr
+            .lines()
+            .find(|l| l.starts_with("Usage: "))
+            .unwrap_or_else(|| panic!("{cmd}: {}", r.stderr));
+        assert!(
+            usage.starts_with(&format!("Usage: efold {cmd} ")) && usage.ends_with(" [MODEL.toml]"),
+            "{usage}"
+        );
+    }
+}
+
+/// Every numeric default in every --help is written as a person would: `1e-8`, not
+/// `0.00000001`; the ones that matter are pinned.
+#[test]
+fn numeric_defaults_print_in_short_form() {
+    let commands: [&[&str]; 12] = [
+        &[],
+        &["eval"],
+        &["compile"],
+        &["inspect"],
+        &["predict"],
+        &["spectrum"],
+        &["scan"],
+        &["merge"],
+        &["fit"],
+        &["golden", "write"],
+        &["golden", "check"],
+        &["watch"],
+    ];
+    for c in commands {
+        let text = help(c);
+        for d in text.split("[default: ").skip(1) {
+            let value = &d[..d.find(']').unwrap()];
+            if let Ok(x) = value.parse::<f64>() {
+                let short = x == 0.0 || x.abs() >= 1e-3 || value.contains('e');
+                assert!(short, "{c:?}: [default: {value}]");
+            }
+        }
+    }
+    assert!(option_help(&help(&["golden", "check"]), "--tolerance").contains("[default: 1e-8]"));
+    assert!(option_help(&help(&["watch"]), "--tolerance").contains("[default: 1e-10]"));
+    assert!(option_help(&help(&["spectrum"]), "--k-min").contains("[default: 1e-4]"));
+}

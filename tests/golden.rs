@@ -94,7 +94,7 @@ fn watch_reports_what_changed() {
         .unwrap()
         .replace("alpha = 1", "alpha = 2");
     std::fs::write(&pole, text).unwrap();
-    while !lines.iter().any(|l| l.contains("changed")) {
+    while !lines.iter().any(|l| l.starts_with("  N_* = 55: n_s ")) {
         let left = deadline.saturating_duration_since(std::time::Instant::now());
         match rx.recv_timeout(left) {
             Ok(l) => lines.push(l),
@@ -105,5 +105,136 @@ fn watch_reports_what_changed() {
     let _ = child.wait();
     let all = lines.join("\n");
     assert!(all.contains("value(s) changed") && all.contains("n_s"), "{all}");
+    let summary = lines
+        .iter()
+        .find(|l| l.starts_with("  N_* = 55: n_s "))
+        .expect("a summary line");
+    assert!(summary.ends_with("; input changed: params.alpha 1 -> 2"), "{all}");
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+fn prediction_at(report: &serde_json::Value, n_star: f64) -> &serde_json::Value {
+    report["predictions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| p["n_star"].as_f64() == Some(n_star))
+        .unwrap()
+}
+
+/// alpha 1 -> 1.01 on the order-2 pole moves the pole-alone r = 8 a_2 / N^2 (a_2 = 3 alpha / 2),
+/// a nested key: the check names it by its path `pole_only.r`, leads with one summary line per
+/// N_* (n_s and r before and after, and the parameter that changed), and lists n_s, r, alpha_s
+/// and the amplitude before the other keys.
+#[test]
+fn a_nested_change_is_reported_by_path_after_a_summary() {
+    let dir = temp_dir("golden-nested");
+    let pole = copy_model("pole-order-2-quadratic", &dir);
+    let d = dir.to_str().unwrap();
+    assert_eq!(efold(&["golden", "write", d]).code, 0);
+    let golden: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("pole-order-2-quadratic.predictions.json")).unwrap())
+            .unwrap();
+    let text = std::fs::read_to_string(&pole).unwrap();
+    assert!(text.contains("\nalpha = 1\n"));
+    std::fs::write(&pole, text.replace("\nalpha = 1\n", "\nalpha = 1.01\n")).unwrap();
+    let now = efold(&["predict", pole.to_str().unwrap(), "--format", "json"]);
+    assert_eq!(now.code, 0, "{}", now.stderr);
+    let now: serde_json::Value = serde_json::from_str(&now.stdout).unwrap();
+    let c = efold(&["golden", "check", d]);
+    assert_eq!(c.code, 1, "{}", c.stderr);
+    let lines: Vec<&str> = c.stderr.lines().collect();
+    let heading = lines.iter().position(|l| l.contains("value(s) drifted")).unwrap();
+    // one summary line per N_*, first; numbers in shortest round-trip form (Rust's `{}` of f64)
+    for (i, n) in [50.0, 55.0, 60.0].into_iter().enumerate() {
+        let (o, p) = (prediction_at(&golden, n), prediction_at(&now, n));
+        let f = |v: &serde_json::Value, k: &str| format!("{}", v[k].as_f64().unwrap());
+        assert_eq!(
+            lines[heading + 1 + i],
+            format!(
+                "  N_* = {n}: n_s {} -> {}, r {} -> {}; input changed: params.alpha 1 -> 1.01",
+                f(o, "n_s"),
+                f(p, "n_s"),
+                f(o, "r"),
+                f(p, "r")
+            )
+        );
+    }
+    // the nested key, by path, with its values: 8 a_2 / N^2 with a_2 = 3/2 alpha (the pole's
+    // residue, DEVELOPERS.md "The pole of order p alone", own derivation), N = 55
+    let nested = lines
+        .iter()
+        .find(|l| l.starts_with("  N_* = 55: pole_only.r "))
+        .unwrap_or_else(|| panic!("{}", c.stderr));
+    let (old_r, new_r) = (8.0 * 1.5 / 55f64.powi(2), 8.0 * 1.515 / 55f64.powi(2));
+    let nums: Vec<f64> = nested.split_whitespace().filter_map(|w| w.parse().ok()).collect();
+    assert!(
+        (nums[0] - old_r).abs() < 1e-9 && (nums[1] - new_r).abs() < 1e-9,
+        "{nested}"
+    );
+    // the order within one N_*: n_s, r, alpha_s, the amplitude, then the report's own order
+    let keys: Vec<&str> = lines
+        .iter()
+        .filter_map(|l| l.strip_prefix("  N_* = 50: "))
+        .filter(|l| !l.starts_with("n_s ") || l.contains("(relative"))
+        .map(|l| l.split_whitespace().next().unwrap())
+        .collect();
+    assert_eq!(
+        keys[..8],
+        [
+            "n_s",
+            "r",
+            "alpha_s",
+            "a_s_unscaled",
+            "potential_scale",
+            "phi_star",
+            "phi_end",
+            "n_t"
+        ],
+        "{keys:?}"
+    );
+    assert_eq!(keys[keys.len() - 2..], ["pole_only.r", "pole_only.residue"], "{keys:?}");
+    // the branch's top sqrt(6 alpha) moved too: reported with the report, after the predictions
+    let top = lines
+        .iter()
+        .position(|l| l.starts_with("  report: branch.top "))
+        .unwrap();
+    assert!(lines[top..].iter().all(|l| !l.contains("N_* =")), "{}", c.stderr);
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn a_changed_list_of_n_star_reads_as_requests() {
+    let dir = temp_dir("golden-nstar");
+    let pole = copy_model("pole-order-2-quadratic", &dir);
+    let text = std::fs::read_to_string(&pole).unwrap();
+    std::fs::write(&pole, format!("{text}\n[settings]\nefolds = [50, 55, 60]\n")).unwrap();
+    let d = dir.to_str().unwrap();
+    assert_eq!(efold(&["golden", "write", d]).code, 0);
+    std::fs::write(&pole, format!("{text}\n[settings]\nefolds = [50, 55, 65]\n")).unwrap();
+    let c = efold(&["golden", "check", d]);
+    assert_eq!(c.code, 1, "{}", c.stderr);
+    // 50 and 55 are matched to themselves and unchanged; 60 and 65 are the only differences
+    assert!(
+        c.stderr.contains("pole-order-2-quadratic.toml: 2 value(s) drifted"),
+        "{}",
+        c.stderr
+    );
+    let diff: Vec<&str> = c.stderr.lines().filter(|l| l.starts_with("  ")).collect();
+    assert!(
+        diff[0].starts_with("  N_* = 60 no longer requested (was n_s 0.966885"),
+        "{diff:?}"
+    );
+    // n_s near 1 - 2/65 = 0.9692 (the pole alone, DEVELOPERS.md, own derivation)
+    assert!(diff[1].starts_with("  N_* = 65 newly requested (n_s 0.969"), "{diff:?}");
+    assert_eq!(
+        diff[2..],
+        ["  N_* = 60 no longer requested", "  N_* = 65 newly requested"]
+    );
+    assert!(
+        !c.stderr.contains("(prediction)") && !c.stderr.contains("null"),
+        "{}",
+        c.stderr
+    );
     std::fs::remove_dir_all(&dir).unwrap();
 }

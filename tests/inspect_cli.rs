@@ -148,3 +148,32 @@ fn bad_models() {
     }
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+/// A misspelt table header is reported at its own line, with the table it resembles; an
+/// unknown key inside [settings] is an unknown setting, with the list of settings.
+#[test]
+fn misspelt_tables_and_settings() {
+    let dir = std::env::temp_dir().join(format!("efold-tables-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let cases = [
+        (
+            "setings",
+            "potential = \"phi^2/(6*alpha)\"\n\n[params]\nalpha = 1\n\n[setings]\nefolds = [50, 60]\n",
+        ),
+        ("param", "potential = \"phi^2/(6*alpha)\"\n\n[param]\nalpha = 1\n"),
+        (
+            "unknown_setting",
+            "potential = \"phi^2\"\n\n[settings]\nefolds = [50, 60]\nefold = [55]\n",
+        ),
+    ];
+    for (name, text) in cases {
+        let p = dir.join(format!("{name}.toml"));
+        std::fs::write(&p, text).unwrap();
+        let r = efold(&["inspect", p.to_str().unwrap()]);
+        assert_eq!(r.code, 2, "{name}: {}", r.stderr);
+        assert!(r.stdout.is_empty(), "{name}");
+        let stderr = r.stderr.replace(&dir.display().to_string(), "TMP");
+        insta::assert_snapshot!(format!("inspect_error_table_{name}"), stderr);
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
