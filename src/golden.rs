@@ -181,7 +181,7 @@ const NESTED_ORDER: [(&str, &[&str]); 7] = [
         "model",
         &["name", "description", "field", "potential", "kinetic", "params"],
     ),
-    ("pole_only", &["n_s", "r", "order", "residue"]),
+    ("pole_only", &["n_s", "r", "order", "residue", "flatness"]),
     (
         "reheating",
         &["n_star", "n_reh", "t_reh_gev", "w", "g_star", "rho_end_gev4"],
