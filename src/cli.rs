@@ -543,6 +543,9 @@ fn constant_expr(origin: &str, text: &str, scope: &Scope, params: &[f64], config
     Ok(v)
 }
 
+/// Significant digits of `eval`'s text output (a value checked by hand wants more than a table).
+const EVAL_DIGITS: usize = 10;
+
 fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     if a.order > MAX_ORDER {
         return Err(Diagnostic::new(format!(
@@ -621,13 +624,15 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
             for w in &warnings {
                 let _ = writeln!(out, "warning: {w}");
             }
-            let _ = writeln!(out, "at {field} = {x}");
-            for (k, v) in derivs.iter().enumerate() {
+            let _ = writeln!(out, "at {field} = {}", crate::numfmt::typed(x));
+            // The value and its derivatives are one column: one style, decimal points aligned.
+            let cells = crate::numfmt::row(&derivs, EVAL_DIGITS);
+            for (k, v) in cells.iter().enumerate() {
                 let label = match k {
                     0 => "value".to_string(),
                     _ => format!("d^{k}/d{field}^{k}"),
                 };
-                let _ = writeln!(out, "  {label:<16} {:>24}", crate::ir::format_number(*v));
+                let _ = writeln!(out, "  {label:<16} {v:>24}");
             }
             out
         }
@@ -812,8 +817,10 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
     }
     if k_max > k_limit {
         return Err(Diagnostic::new(format!(
-            "--k-max {k_max:e} Mpc^-1 exits too close to the end of inflation to freeze (at most {k_limit:.3e} for N_* = {})",
-            a.efolds
+            "--k-max {} Mpc^-1 exits too close to the end of inflation to freeze (at most {} for N_* = {})",
+            crate::numfmt::typed(k_max),
+            crate::numfmt::number(k_limit),
+            crate::numfmt::typed(a.efolds)
         ))
         .with_hint("lower --k-max, or raise --efolds")
         .into());
@@ -1022,8 +1029,9 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
             }
             if drifted > 0 {
                 return Err(Failure::drifted(format!(
-                    "{drifted} of {} model(s) drifted beyond {tolerance:e}\n{out}",
-                    files.len()
+                    "{drifted} of {} model(s) drifted beyond {}\n{out}",
+                    files.len(),
+                    crate::numfmt::typed(*tolerance)
                 )));
             }
             Ok(out)
@@ -1074,10 +1082,10 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
                         .flatten()
                         .map(|x| {
                             format!(
-                                "N_* = {}: n_s = {:.6}, r = {:.4e}",
-                                x["n_star"],
-                                x["n_s"].as_f64().unwrap_or(f64::NAN),
-                                x["r"].as_f64().unwrap_or(f64::NAN)
+                                "N_* = {}: n_s = {}, r = {}",
+                                crate::numfmt::typed(x["n_star"].as_f64().unwrap_or(f64::NAN)),
+                                crate::numfmt::number(x["n_s"].as_f64().unwrap_or(f64::NAN)),
+                                crate::numfmt::number(x["r"].as_f64().unwrap_or(f64::NAN))
                             )
                         })
                         .collect();

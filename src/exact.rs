@@ -246,13 +246,21 @@ pub fn mode(
         let idx = run.checkpoints.iter().position(|(n, y)| k_over_ah(*n, y) < target);
         let Some(j) = idx else {
             return Err(fail(
-                format!("the mode k/k_* = {kappa:e} never reaches k/aH = {target:e} before the end of inflation"),
+                format!(
+                    "the mode k/k_* = {} never reaches k/aH = {} before the end of inflation",
+                    crate::numfmt::number(kappa),
+                    crate::numfmt::typed(target)
+                ),
                 &["ask for a smaller k, or fewer e-folds"],
             ));
         };
         if j == 0 {
             return Err(fail(
-                format!("the background starts too late for k/k_* = {kappa:e} (k/aH is already below {target:e})"),
+                format!(
+                    "the background starts too late for k/k_* = {} (k/aH is already below {})",
+                    crate::numfmt::number(kappa),
+                    crate::numfmt::typed(target)
+                ),
                 &["ask for a larger k, or start the background earlier"],
             ));
         }
@@ -331,10 +339,14 @@ pub fn mode(
         let sol = integrate(rhs, n0, y0, n_hi + 10.0, &settings.ode, |n, y| {
             Some(k_over_ah(n, &[y[0], y[1]]) - target)
         })
-        .map_err(|e| fail(format!("the mode k/k_* = {kappa:e} failed to integrate: {e}"), &[]))?;
+        .map_err(|e| fail(format!("the mode k/k_* = {} failed to integrate: {e}", crate::numfmt::number(kappa)), &[]))?;
         if !sol.event {
             return Err(fail(
-                format!("the mode k/k_* = {kappa:e} does not reach k/aH = {target:e} before inflation ends"),
+                format!(
+                    "the mode k/k_* = {} does not reach k/aH = {} before inflation ends",
+                    crate::numfmt::number(kappa),
+                    crate::numfmt::typed(target)
+                ),
                 &["the mode exits too close to the end of inflation: ask for smaller k"],
             ));
         }
@@ -353,8 +365,10 @@ pub fn mode(
     if drift > settings.freeze_tol {
         return Err(fail(
             format!(
-                "the mode k/k_* = {kappa:e} has not frozen: P changed by {drift:.1e} over its last e-fold (allowed {:.0e})",
-                settings.freeze_tol
+                "the mode k/k_* = {} has not frozen: P changed by {} over its last e-fold (allowed {})",
+                crate::numfmt::number(kappa),
+                crate::numfmt::scientific(drift, 2),
+                crate::numfmt::typed(settings.freeze_tol)
             ),
             &["stop the modes further outside the horizon (a smaller k/aH at the stop)"],
         ));
@@ -380,7 +394,10 @@ pub fn pivot(bg: &Background<'_>, run: &Run, n_star: f64, settings: &Settings) -
     let n = n_end - n_star;
     if n <= 0.0 {
         return Err(fail(
-            format!("the exact background gives only {n_end:.3} e-folds from its start, fewer than N_* = {n_star}"),
+            format!("the exact background gives only {} e-folds from its start, fewer than N_* = {}",
+                crate::numfmt::number(n_end),
+                crate::numfmt::typed(n_star)
+            ),
             &["start the background earlier"],
         ));
     }
@@ -614,49 +631,114 @@ pub fn spectrum(
     })
 }
 
-/// The spectrum as an aligned table, with the peak.
+/// Where a row with the largest value sits in the grid: `Some("lower")` or `Some("upper")` when
+/// it is the first or last row (the true maximum may lie outside the grid), `None` inside.
+fn grid_end(rows: &[SpectrumRow], at: &SpectrumRow) -> Option<&'static str> {
+    if rows.len() < 2 {
+        return None;
+    }
+    if rows.first().is_some_and(|r| r.k_mpc == at.k_mpc) {
+        Some("lower")
+    } else if rows.last().is_some_and(|r| r.k_mpc == at.k_mpc) {
+        Some("upper")
+    } else {
+        None
+    }
+}
+
+/// What to say when the largest value is at an end of the k grid.
+fn at_grid_end(what: &str, end: &str, row: &SpectrumRow, value: f64) -> String {
+    use crate::numfmt::number;
+    let side = if end == "upper" {
+        "beyond k_max; raise --k-max"
+    } else {
+        "below k_min; lower --k-min"
+    };
+    format!(
+        "the largest {what} ({}) is at the {end} end of the k grid (k = {} Mpc^-1, {} e-folds before the end): the true peak may lie {side}",
+        number(value),
+        number(row.k_mpc),
+        number(row.n_before_end)
+    )
+}
+
+/// The spectrum as an aligned table, with the peak (or a warning that the largest value is at
+/// an end of the grid).
 pub fn text(sp: &Spectrum, name: &str) -> String {
+    use crate::numfmt::{self, number, typed};
     use std::fmt::Write as _;
     let mut o = String::new();
     let _ = writeln!(o, "model    {name}");
     let _ = writeln!(
         o,
-        "pivot    k_* = {} Mpc^-1 exits {} e-folds before the end (eps_H = 1); {:.4} e-folds in all",
-        sp.k_star_mpc, sp.n_star, sp.n_total
+        "pivot    k_* = {} Mpc^-1 exits {} e-folds before the end (eps_H = 1); {} e-folds in all",
+        typed(sp.k_star_mpc),
+        typed(sp.n_star),
+        number(sp.n_total)
     );
     let _ = writeln!(
         o,
-        "scale    V multiplied by {:.6e} to give the observed A_s at the pivot\n",
-        sp.potential_scale
+        "scale    V multiplied by {} to give the observed A_s at the pivot\n",
+        number(sp.potential_scale)
     );
-    let _ = writeln!(
-        o,
-        "{:>12} {:>14} {:>14} {:>16} {:>10}",
-        "k [Mpc^-1]", "P_zeta", "P_t", "slow roll P_zeta", "N to end"
-    );
-    for r in &sp.rows {
-        let _ = writeln!(
-            o,
-            "{:>12.4e} {:>14.6e} {:>14.6e} {:>16.6e} {:>10.4}",
-            r.k_mpc, r.p_zeta, r.p_t, r.p_zeta_slow_roll, r.n_before_end
-        );
+    // One style per column, right-aligned under its title.
+    let d = numfmt::DEFAULT_DIGITS;
+    let column = |g: &dyn Fn(&SpectrumRow) -> f64| numfmt::row(&sp.rows.iter().map(g).collect::<Vec<_>>(), d);
+    let cols = [
+        ("k [Mpc^-1]", column(&|r| r.k_mpc)),
+        ("P_zeta", column(&|r| r.p_zeta)),
+        ("P_t", column(&|r| r.p_t)),
+        ("P_zeta (slow roll)", column(&|r| r.p_zeta_slow_roll)),
+        ("N to end [e-folds]", column(&|r| r.n_before_end)),
+    ];
+    let widths: Vec<usize> = cols
+        .iter()
+        .map(|(h, c)| c.iter().map(String::len).chain([h.len()]).max().unwrap_or(0))
+        .collect();
+    let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
+    let _ = writeln!(o, "{}", header.join("  "));
+    for i in 0..sp.rows.len() {
+        let cells: Vec<String> = cols.iter().zip(&widths).map(|((_, c), w)| format!("{:>w$}", c[i])).collect();
+        let _ = writeln!(o, "{}", cells.join("  "));
     }
     let p = &sp.peak;
-    let _ = writeln!(
-        o,
-        "\npeak     P_zeta = {:.4e} at k = {:.4e} Mpc^-1, {:.3} e-folds before the end; slow roll there: {:.4e} (x{:.3})",
-        p.p_zeta,
-        p.k_mpc,
-        p.n_before_end,
-        p.p_zeta_slow_roll,
-        p.p_zeta / p.p_zeta_slow_roll
-    );
+    let _ = writeln!(o);
+    match grid_end(&sp.rows, p) {
+        Some(end) => {
+            let _ = writeln!(o, "maximum  {}", at_grid_end("P_zeta", end, p, p.p_zeta));
+        }
+        None => {
+            let _ = writeln!(
+                o,
+                "peak     P_zeta = {} at k = {} Mpc^-1, {} e-folds before the end; slow roll there: {} (x{})",
+                number(p.p_zeta),
+                number(p.k_mpc),
+                number(p.n_before_end),
+                number(p.p_zeta_slow_roll),
+                number(p.p_zeta / p.p_zeta_slow_roll)
+            );
+        }
+    }
     let q = &sp.peak_slow_roll;
-    let _ = writeln!(
-        o,
-        "         slow roll puts its peak at k = {:.4e} Mpc^-1 ({:.3} e-folds before the end) with P_zeta = {:.4e}; exact there: {:.4e}",
-        q.k_mpc, q.n_before_end, q.p_zeta_slow_roll, q.p_zeta
-    );
+    match grid_end(&sp.rows, q) {
+        Some(end) => {
+            let _ = writeln!(
+                o,
+                "         slow roll: {}",
+                at_grid_end("slow-roll P_zeta", end, q, q.p_zeta_slow_roll)
+            );
+        }
+        None => {
+            let _ = writeln!(
+                o,
+                "         slow roll puts its peak at k = {} Mpc^-1 ({} e-folds before the end) with P_zeta = {}; exact there: {}",
+                number(q.k_mpc),
+                number(q.n_before_end),
+                number(q.p_zeta_slow_roll),
+                number(q.p_zeta)
+            );
+        }
+    }
     o
 }
 

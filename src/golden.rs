@@ -59,14 +59,25 @@ pub struct Drift {
 
 impl std::fmt::Display for Drift {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        let rel = match (self.old.as_f64(), self.new.as_f64()) {
-            (Some(a), Some(b)) if a != 0.0 => format!("  (relative {:.1e})", ((b - a) / a).abs()),
-            _ => String::new(),
+        use crate::numfmt;
+        // Old and new as one row, with digits enough to see them differ.
+        let (old, new, rel) = match (self.old.as_f64(), self.new.as_f64()) {
+            (Some(a), Some(b)) => {
+                let cells = numfmt::row(&[a, b], numfmt::digits_to_resolve(a, b));
+                let rel = if a != 0.0 {
+                    format!("  (relative {})", numfmt::scientific(((b - a) / a).abs(), 2))
+                } else {
+                    String::new()
+                };
+                (cells[0].clone(), cells[1].clone(), rel)
+            }
+            _ => (self.old.to_string(), self.new.to_string(), String::new()),
         };
         write!(
             f,
-            "  N_* = {}: {:<20} {} -> {}{rel}",
-            self.n_star, self.key, self.old, self.new
+            "  N_* = {}: {:<20} {old} -> {new}{rel}",
+            numfmt::typed(self.n_star),
+            self.key
         )
     }
 }

@@ -424,11 +424,7 @@ fn end_of_inflation_walk(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Res
 }
 
 fn fmt_end(x: f64) -> String {
-    if x.is_infinite() {
-        if x > 0.0 { "inf" } else { "-inf" }.to_string()
-    } else {
-        crate::ir::format_number(x)
-    }
+    crate::numfmt::number(x)
 }
 
 /// dN/dphi = V K / V_phi (positive uphill).
@@ -528,8 +524,8 @@ pub fn phi_stars(
     if out.iter().any(|x| x.is_nan()) {
         return Err(fail(
             format!(
-                "the branch gives only {:.3} e-folds between the end of inflation at {field} = {} and {field} = {}, fewer than the {need} asked",
-                n_prev,
+                "the branch gives only {} e-folds between the end of inflation at {field} = {} and {field} = {}, fewer than the {need} asked",
+                crate::numfmt::number(n_prev),
                 fmt_end(phi_end),
                 fmt_end(b.top)
             ),
