@@ -721,6 +721,13 @@ pub fn text(sp: &Spectrum, name: &str) -> String {
     }
     let q = &sp.peak_slow_roll;
     match grid_end(&sp.rows, q) {
+        Some(end) if grid_end(&sp.rows, p) == Some(end) => {
+            let _ = writeln!(
+                o,
+                "         slow roll: its largest P_zeta ({}) is at the {end} end too",
+                number(q.p_zeta_slow_roll)
+            );
+        }
         Some(end) => {
             let _ = writeln!(
                 o,
@@ -842,4 +849,62 @@ pub fn start_with_room(
         format!("could not start the exact background {n_needed:.1} e-folds before its end"),
         &["ask for fewer e-folds, or a smaller k range"],
     ))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A made-up spectrum on a grid k = 1, 10, 100 whose P_zeta values are given.
+    fn spectrum_with(p_zeta: [f64; 3], p_slow: [f64; 3]) -> Spectrum {
+        let rows: Vec<SpectrumRow> = (0..3)
+            .map(|i| SpectrumRow {
+                k_mpc: 10f64.powi(i as i32),
+                p_zeta: p_zeta[i],
+                p_t: 1e-11,
+                p_zeta_slow_roll: p_slow[i],
+                n_before_end: 50.0 - 2.0 * i as f64,
+                drift: 1e-9,
+            })
+            .collect();
+        let top = |g: &dyn Fn(&SpectrumRow) -> f64| *rows.iter().max_by(|a, b| g(a).total_cmp(&g(b))).unwrap();
+        Spectrum {
+            n_star: 55.0,
+            k_star_mpc: 0.05,
+            potential_scale: 1.2e-10,
+            n_total: 70.0,
+            peak: top(&|r| r.p_zeta),
+            peak_slow_roll: top(&|r| r.p_zeta_slow_roll),
+            rows,
+        }
+    }
+
+    #[test]
+    fn a_peak_inside_the_grid_is_called_a_peak() {
+        let t = text(&spectrum_with([1e-9, 3e-9, 2e-9], [1e-9, 2e-9, 4e-9]), "m");
+        assert!(t.contains("\npeak     P_zeta = 3e-9 at k = 10 Mpc^-1"), "{t}");
+        // slow roll's largest value is at the last row: no peak claimed there
+        assert!(t.contains("largest slow-roll P_zeta (4e-9) is at the upper end of the k grid"), "{t}");
+        assert!(t.contains("raise --k-max"), "{t}");
+    }
+
+    #[test]
+    fn a_maximum_at_an_end_of_the_grid_is_not_called_a_peak() {
+        let t = text(&spectrum_with([1e-9, 2e-9, 3e-9], [1e-9, 2e-9, 3e-9]), "m");
+        assert!(!t.contains("\npeak"), "{t}");
+        assert!(t.contains("the largest P_zeta (3e-9) is at the upper end of the k grid"), "{t}");
+        assert!(t.contains("the true peak may lie beyond k_max; raise --k-max"), "{t}");
+        assert!(t.contains("slow roll: its largest P_zeta (3e-9) is at the upper end too"), "{t}");
+        let t = text(&spectrum_with([3e-9, 2e-9, 1e-9], [1e-9, 3e-9, 2e-9]), "m");
+        assert!(t.contains("at the lower end of the k grid") && t.contains("lower --k-min"), "{t}");
+        assert!(t.contains("slow roll puts its peak at k = 10 Mpc^-1"), "{t}");
+    }
+
+    #[test]
+    fn every_spectrum_column_has_its_own_title() {
+        let t = text(&spectrum_with([1e-9, 3e-9, 2e-9], [1e-9, 2e-9, 4e-9]), "m");
+        let header = t.lines().find(|l| l.contains("k [Mpc^-1]")).unwrap();
+        let titles: Vec<&str> = header.split("  ").map(str::trim).filter(|s| !s.is_empty()).collect();
+        assert_eq!(titles, ["k [Mpc^-1]", "P_zeta", "P_t", "P_zeta (slow roll)", "N to end [e-folds]"]);
+    }
 }

@@ -411,14 +411,16 @@ pub fn text(f: &FitResult) -> String {
             w2 = w[2]
         );
     }
+    // computed values at the default digits, trailing zeros kept (they are not targets)
+    let value = |x: f64| numfmt::row(&[x], numfmt::DEFAULT_DIGITS).remove(0);
     let _ = writeln!(o, "Jacobian condition number {}", numfmt::number(f.condition_number));
     let _ = writeln!(
         o,
         "at the solution: n_s = {}, r = {}, alpha_s = {}; scale on V for the observed A_s: {}",
-        numfmt::number(f.prediction.n_s),
-        numfmt::number(f.prediction.r),
-        numfmt::number(f.prediction.alpha_s),
-        numfmt::number(f.prediction.potential_scale)
+        value(f.prediction.n_s),
+        value(f.prediction.r),
+        value(f.prediction.alpha_s),
+        value(f.prediction.potential_scale)
     );
     o
 }

@@ -259,6 +259,9 @@ fn columns(lines: &[Vec<String>], indent: &str) -> String {
     for l in lines {
         let mut line = indent.to_string();
         for (j, c) in l.iter().enumerate() {
+            if widths[j] == 0 {
+                continue; // a column empty on every line takes no room
+            }
             if j + 1 < l.len() {
                 let _ = write!(line, "{c:<w$}  ", w = widths[j]);
             } else {
