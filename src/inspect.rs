@@ -28,6 +28,9 @@ pub struct ModelSummary {
     pub kinetic: String,
     /// Parameter values.
     pub params: indexmap::IndexMap<String, f64>,
+    /// Which parameter values were written as plain numbers (the others are expressions).
+    #[serde(skip)]
+    pub params_typed: Vec<bool>,
 }
 
 impl ModelSummary {
@@ -40,7 +43,30 @@ impl ModelSummary {
             potential: model.spec.potential.text.clone(),
             kinetic: model.spec.kinetic.text.clone(),
             params: model.param_pairs().map(|(n, v)| (n.to_string(), v)).collect(),
+            params_typed: model
+                .param_pairs()
+                .map(|(n, _)| {
+                    let spec = model.spec.params.iter().find(|p| p.name == n);
+                    spec.is_some_and(|p| p.value.text.trim().parse::<f64>().is_ok())
+                })
+                .collect(),
         }
+    }
+
+    /// The parameters for people, `name = value`: a value written as a plain number as typed,
+    /// one computed from an expression to the default significant digits.
+    pub fn params_text(&self) -> Vec<String> {
+        self.params
+            .iter()
+            .enumerate()
+            .map(|(i, (k, v))| {
+                if self.params_typed.get(i).copied().unwrap_or(false) {
+                    format!("{k} = {}", numfmt::typed(*v))
+                } else {
+                    format!("{k} = {}", numfmt::number(*v))
+                }
+            })
+            .collect()
     }
 }
 
@@ -294,8 +320,7 @@ pub fn text(ins: &Inspection) -> String {
     line(&mut o, &v_label, &m.potential);
     line(&mut o, &k_label, &m.kinetic);
     if !m.params.is_empty() {
-        let ps: Vec<String> = m.params.iter().map(|(k, v)| format!("{k} = {}", numfmt::typed(*v))).collect();
-        line(&mut o, "parameters", &ps.join(", "));
+        line(&mut o, "parameters", &m.params_text().join(", "));
     }
     let iv = &ins.domain.interval;
     o.push('\n');

@@ -550,7 +550,7 @@ pub fn text(rep: &Report) -> String {
     let mut o = String::new();
     let m = &rep.model;
     let f = &m.field;
-    let params: Vec<String> = m.params.iter().map(|(k, v)| format!("{k} = {}", numfmt::typed(*v))).collect();
+    let params = m.params_text();
     let _ = writeln!(
         o,
         "model    {}{}",
