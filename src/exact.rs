@@ -339,7 +339,15 @@ pub fn mode(
         let sol = integrate(rhs, n0, y0, n_hi + 10.0, &settings.ode, |n, y| {
             Some(k_over_ah(n, &[y[0], y[1]]) - target)
         })
-        .map_err(|e| fail(format!("the mode k/k_* = {} failed to integrate: {e}", crate::numfmt::number(kappa)), &[]))?;
+        .map_err(|e| {
+            fail(
+                format!(
+                    "the mode k/k_* = {} failed to integrate: {e}",
+                    crate::numfmt::number(kappa)
+                ),
+                &[],
+            )
+        })?;
         if !sol.event {
             return Err(fail(
                 format!(
@@ -394,7 +402,8 @@ pub fn pivot(bg: &Background<'_>, run: &Run, n_star: f64, settings: &Settings) -
     let n = n_end - n_star;
     if n <= 0.0 {
         return Err(fail(
-            format!("the exact background gives only {} e-folds from its start, fewer than N_* = {}",
+            format!(
+                "the exact background gives only {} e-folds from its start, fewer than N_* = {}",
                 crate::numfmt::number(n_end),
                 crate::numfmt::typed(n_star)
             ),
@@ -698,7 +707,11 @@ pub fn text(sp: &Spectrum, name: &str) -> String {
     let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
     let _ = writeln!(o, "{}", header.join("  "));
     for i in 0..sp.rows.len() {
-        let cells: Vec<String> = cols.iter().zip(&widths).map(|((_, c), w)| format!("{:>w$}", c[i])).collect();
+        let cells: Vec<String> = cols
+            .iter()
+            .zip(&widths)
+            .map(|((_, c), w)| format!("{:>w$}", c[i]))
+            .collect();
         let _ = writeln!(o, "{}", cells.join("  "));
     }
     let p = &sp.peak;
@@ -820,12 +833,18 @@ pub fn start_with_room(
             Some(n) if n >= n_needed => Ok((phi, run)),
             Some(n) => Err(fail(
                 format!(
-                    "starting at phi = {phi} gives {n:.3} e-folds before the end, fewer than the {n_needed:.1} needed"
+                    "starting at phi = {} gives {} e-folds before the end, fewer than the {} needed",
+                    crate::numfmt::typed(phi),
+                    crate::numfmt::number(n),
+                    crate::numfmt::number(n_needed)
                 ),
                 &["start further up the potential, or ask for fewer e-folds or a smaller k range"],
             )),
             None => Err(fail(
-                format!("starting at phi = {phi}, inflation does not end (eps_H never reaches 1)"),
+                format!(
+                    "starting at phi = {}, inflation does not end (eps_H never reaches 1)",
+                    crate::numfmt::typed(phi)
+                ),
                 &["check the start and the potential"],
             )),
         };
@@ -846,7 +865,10 @@ pub fn start_with_room(
         }
     }
     Err(fail(
-        format!("could not start the exact background {n_needed:.1} e-folds before its end"),
+        format!(
+            "could not start the exact background {} e-folds before its end",
+            crate::numfmt::number(n_needed)
+        ),
         &["ask for fewer e-folds, or a smaller k range"],
     ))
 }
@@ -884,7 +906,10 @@ mod tests {
         let t = text(&spectrum_with([1e-9, 3e-9, 2e-9], [1e-9, 2e-9, 4e-9]), "m");
         assert!(t.contains("\npeak     P_zeta = 3e-9 at k = 10 Mpc^-1"), "{t}");
         // slow roll's largest value is at the last row: no peak claimed there
-        assert!(t.contains("largest slow-roll P_zeta (4e-9) is at the upper end of the k grid"), "{t}");
+        assert!(
+            t.contains("largest slow-roll P_zeta (4e-9) is at the upper end of the k grid"),
+            "{t}"
+        );
         assert!(t.contains("raise --k-max"), "{t}");
     }
 
@@ -892,11 +917,20 @@ mod tests {
     fn a_maximum_at_an_end_of_the_grid_is_not_called_a_peak() {
         let t = text(&spectrum_with([1e-9, 2e-9, 3e-9], [1e-9, 2e-9, 3e-9]), "m");
         assert!(!t.contains("\npeak"), "{t}");
-        assert!(t.contains("the largest P_zeta (3e-9) is at the upper end of the k grid"), "{t}");
+        assert!(
+            t.contains("the largest P_zeta (3e-9) is at the upper end of the k grid"),
+            "{t}"
+        );
         assert!(t.contains("the true peak may lie beyond k_max; raise --k-max"), "{t}");
-        assert!(t.contains("slow roll: its largest P_zeta (3e-9) is at the upper end too"), "{t}");
+        assert!(
+            t.contains("slow roll: its largest P_zeta (3e-9) is at the upper end too"),
+            "{t}"
+        );
         let t = text(&spectrum_with([3e-9, 2e-9, 1e-9], [1e-9, 3e-9, 2e-9]), "m");
-        assert!(t.contains("at the lower end of the k grid") && t.contains("lower --k-min"), "{t}");
+        assert!(
+            t.contains("at the lower end of the k grid") && t.contains("lower --k-min"),
+            "{t}"
+        );
         assert!(t.contains("slow roll puts its peak at k = 10 Mpc^-1"), "{t}");
     }
 
@@ -905,6 +939,15 @@ mod tests {
         let t = text(&spectrum_with([1e-9, 3e-9, 2e-9], [1e-9, 2e-9, 4e-9]), "m");
         let header = t.lines().find(|l| l.contains("k [Mpc^-1]")).unwrap();
         let titles: Vec<&str> = header.split("  ").map(str::trim).filter(|s| !s.is_empty()).collect();
-        assert_eq!(titles, ["k [Mpc^-1]", "P_zeta", "P_t", "P_zeta (slow roll)", "N to end [e-folds]"]);
+        assert_eq!(
+            titles,
+            [
+                "k [Mpc^-1]",
+                "P_zeta",
+                "P_t",
+                "P_zeta (slow roll)",
+                "N to end [e-folds]"
+            ]
+        );
     }
 }

@@ -377,12 +377,17 @@ pub fn fit(
 /// Significant digits of fitted parameter values in human output.
 const PARAM_DIGITS: usize = 12;
 
-/// The fit as text: parameters to [`PARAM_DIGITS`] digits, targets as typed, reached values with
+/// The fit as text: parameters to `PARAM_DIGITS` (12) significant digits, targets as typed, reached values with
 /// enough digits to show how far they are from the target, residuals in scientific notation.
 pub fn text(f: &FitResult) -> String {
     use std::fmt::Write as _;
     let mut o = String::new();
-    let _ = writeln!(o, "fit at N_* = {} in {} iterations", numfmt::typed(f.n_star), f.iterations);
+    let _ = writeln!(
+        o,
+        "fit at N_* = {} in {} iterations",
+        numfmt::typed(f.n_star),
+        f.iterations
+    );
     for (k, v) in &f.parameters {
         let _ = writeln!(o, "  {k:<12} = {}", numfmt::number_digits(*v, PARAM_DIGITS));
     }
@@ -401,7 +406,16 @@ pub fn text(f: &FitResult) -> String {
             ]
         })
         .collect();
-    let w: Vec<usize> = (0..3).map(|j| cells.iter().map(|c| c[j].len()).max().unwrap_or(0).max(if j == 0 { 12 } else { 0 })).collect();
+    let w: Vec<usize> = (0..3)
+        .map(|j| {
+            cells
+                .iter()
+                .map(|c| c[j].len())
+                .max()
+                .unwrap_or(0)
+                .max(if j == 0 { 12 } else { 0 })
+        })
+        .collect();
     for [k, want, got, res] in &cells {
         let _ = writeln!(
             o,

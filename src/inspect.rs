@@ -155,11 +155,7 @@ pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<I
         }
     }
     for (a, b) in &domain.negative_v {
-        warnings.push(format!(
-            "V < 0 for {} < {field} < {}",
-            fmt(*a),
-            fmt(*b)
-        ));
+        warnings.push(format!("V < 0 for {} < {field} < {}", fmt(*a), fmt(*b)));
     }
     if !domain.others.is_empty() {
         warnings.push(format!(
@@ -279,7 +275,14 @@ fn end_sentence(kind: EndKind, field: &str, end: f64) -> String {
 fn columns(lines: &[Vec<String>], indent: &str) -> String {
     let n = lines.iter().map(Vec::len).max().unwrap_or(0);
     let widths: Vec<usize> = (0..n)
-        .map(|j| lines.iter().filter_map(|l| l.get(j)).map(|c| c.chars().count()).max().unwrap_or(0))
+        .map(|j| {
+            lines
+                .iter()
+                .filter_map(|l| l.get(j))
+                .map(|c| c.chars().count())
+                .max()
+                .unwrap_or(0)
+        })
         .collect();
     let mut o = String::new();
     for l in lines {
@@ -328,7 +331,11 @@ pub fn text(ins: &Inspection) -> String {
     let _ = writeln!(o, "  lower end: {}", end_sentence(iv.lo_kind, f, iv.lo));
     let _ = writeln!(o, "  upper end: {}", end_sentence(iv.hi_kind, f, iv.hi));
     match &ins.minimum {
-        Some(mn) => line(&mut o, "minimum", &format!("V = {} at {f} = {}", fmt(mn.v), fmt(mn.phi))),
+        Some(mn) => line(
+            &mut o,
+            "minimum",
+            &format!("V = {} at {f} = {}", fmt(mn.v), fmt(mn.phi)),
+        ),
         None => line(&mut o, "minimum", "none inside the domain (V falls toward an end)"),
     }
     line(
@@ -414,7 +421,10 @@ pub fn text(ins: &Inspection) -> String {
         // One style per column, right-aligned, so that decimal points line up.
         let d = numfmt::DEFAULT_DIGITS;
         let cols = [
-            (f.as_str(), numfmt::row(&rows.iter().map(|r| r.phi).collect::<Vec<_>>(), d)),
+            (
+                f.as_str(),
+                numfmt::row(&rows.iter().map(|r| r.phi).collect::<Vec<_>>(), d),
+            ),
             ("chi", numfmt::row(&rows.iter().map(|r| r.chi).collect::<Vec<_>>(), d)),
             ("V", numfmt::row(&rows.iter().map(|r| r.v).collect::<Vec<_>>(), d)),
         ];
@@ -426,7 +436,11 @@ pub fn text(ins: &Inspection) -> String {
         let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
         let _ = writeln!(o, "  {}", header.join("  "));
         for i in 0..rows.len() {
-            let cells: Vec<String> = cols.iter().zip(&widths).map(|((_, c), w)| format!("{:>w$}", c[i])).collect();
+            let cells: Vec<String> = cols
+                .iter()
+                .zip(&widths)
+                .map(|((_, c), w)| format!("{:>w$}", c[i]))
+                .collect();
             let _ = writeln!(o, "  {}", cells.join("  "));
         }
     }

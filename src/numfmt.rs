@@ -144,7 +144,10 @@ pub fn row(values: &[f64], digits: usize) -> Vec<String> {
 pub fn row_opt(values: &[Option<f64>], digits: usize) -> Vec<String> {
     let present: Vec<f64> = values.iter().flatten().copied().collect();
     let style = Style::for_row(&present, digits);
-    values.iter().map(|v| v.map(|x| style.format(x)).unwrap_or_default()).collect()
+    values
+        .iter()
+        .map(|v| v.map(|x| style.format(x)).unwrap_or_default())
+        .collect()
 }
 
 /// A lone value in running text, with [`DEFAULT_DIGITS`] significant digits and trailing zeros
@@ -263,8 +266,16 @@ mod tests {
         // (values, digits, expected)
         let cases: [(&[f64], usize, &[&str]); 9] = [
             // all in range: fixed, decimals for 6 digits of the smallest
-            (&[0.00458836, 0.00380738, 0.00321008], 6, &["0.00458836", "0.00380738", "0.00321008"]),
-            (&[-0.00078749, -0.00065175, -0.0005483], 6, &["-0.000787490", "-0.000651750", "-0.000548300"]),
+            (
+                &[0.00458836, 0.00380738, 0.00321008],
+                6,
+                &["0.00458836", "0.00380738", "0.00321008"],
+            ),
+            (
+                &[-0.00078749, -0.00065175, -0.0005483],
+                6,
+                &["-0.000787490", "-0.000651750", "-0.000548300"],
+            ),
             // mixed magnitudes, one outside the range: scientific for all
             (&[1.0, 2.0e-5], 6, &["1.00000e0", "2.00000e-5"]),
             (&[8.4141e15, 8.0307e15], 6, &["8.41410e15", "8.03070e15"]),
@@ -324,7 +335,12 @@ mod tests {
             }
         }
         // arbitrary doubles read back exactly
-        for x in [1.0 / 3.0, 2.0f64.sqrt() * 1e-7, std::f64::consts::PI * 1e9, 0.00012345678901234] {
+        for x in [
+            1.0 / 3.0,
+            2.0f64.sqrt() * 1e-7,
+            std::f64::consts::PI * 1e9,
+            0.00012345678901234,
+        ] {
             assert_eq!(typed(x).parse::<f64>().unwrap(), x);
         }
     }
@@ -348,6 +364,27 @@ mod tests {
         assert_eq!(number(1.0e-10), "1e-10");
         assert_eq!(number(-2.449489742783178), "-2.44949");
         assert_eq!(number(1234567.0), "1.23457e6");
+    }
+
+    #[test]
+    fn drift_lines_show_old_and_new_apart() {
+        let d = crate::golden::Drift {
+            n_star: 55.0,
+            key: "n_s".into(),
+            old: serde_json::json!(0.9638961170),
+            new: serde_json::json!(0.9638961181),
+        };
+        let line = d.to_string();
+        assert!(line.starts_with("  N_* = 55: n_s "), "{line}");
+        // digits enough to tell them apart, both in one style
+        assert!(line.contains("0.9638961170 -> 0.9638961181"), "{line}");
+        assert!(line.ends_with("(relative 1.1e-9)"), "{line}");
+        let d = crate::golden::Drift {
+            old: serde_json::json!("consistent"),
+            new: serde_json::json!("excluded"),
+            ..d
+        };
+        assert!(d.to_string().contains("\"consistent\" -> \"excluded\""));
     }
 
     #[test]

@@ -7,12 +7,12 @@ use crate::config::Config;
 use crate::data::DataSet;
 use crate::inspect::ModelSummary;
 use crate::model::{Model, Side};
+use crate::numfmt;
 use crate::reheating::{Matching, Reheating};
 use crate::slowroll::{branches, end_of_inflation, fail, phi_stars, Branch, Observables, SlowRoll};
 use crate::tape::Evaluator;
 use serde::Serialize;
 use std::f64::consts::PI;
-use crate::numfmt;
 use std::fmt::Write as _;
 
 /// What to compute.
@@ -443,7 +443,8 @@ fn refine_exact(
             .map_err(|e| {
                 fail(
                     format!(
-                        "the exact solver needs {n:.1} e-folds of slow roll before the end: {}",
+                        "the exact solver needs {} e-folds of slow roll before the end: {}",
+                        numfmt::number(n),
                         e.message
                     ),
                     &["ask for fewer e-folds"],
@@ -640,7 +641,12 @@ pub fn text(rep: &Report) -> String {
         // a tolerance-like number: two digits, always scientific
         row(
             "freeze drift",
-            col(&|x| x.exact.as_ref().map(|e| numfmt::scientific(e.freeze_drift, 2)).unwrap_or_default()),
+            col(&|x| {
+                x.exact
+                    .as_ref()
+                    .map(|e| numfmt::scientific(e.freeze_drift, 2))
+                    .unwrap_or_default()
+            }),
         );
     }
     if p.iter().any(|x| x.reheating.is_some()) {

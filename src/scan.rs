@@ -418,7 +418,12 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> S
             let name = if s.is_nan() {
                 format!("N = {}", crate::numfmt::typed(n))
             } else {
-                format!("N = {}, {} = {}", crate::numfmt::typed(n), axes[1].name, crate::numfmt::typed(s))
+                format!(
+                    "N = {}, {} = {}",
+                    crate::numfmt::typed(n),
+                    axes[1].name,
+                    crate::numfmt::typed(s)
+                )
             };
             series.push(Series {
                 name,

@@ -174,7 +174,10 @@ fn table_columns_align_on_the_decimal_point() {
     let r = efold(&["inspect", &m, "--table", "5"]);
     assert_eq!(r.code, 0, "{}", r.stderr);
     let lines: Vec<&str> = r.stdout.lines().collect();
-    let head = lines.iter().position(|l| l.split_whitespace().eq(["phi", "chi", "V"])).unwrap();
+    let head = lines
+        .iter()
+        .position(|l| l.split_whitespace().eq(["phi", "chi", "V"]))
+        .unwrap();
     let rows = &lines[head + 1..head + 6];
     let first = point_columns(rows[0]);
     assert_eq!(first.len(), 3, "{}", r.stdout);
@@ -192,7 +195,10 @@ fn labels_align_whatever_the_field_name() {
     assert_eq!(r.code, 0, "{}", r.stderr);
     let text = &r.stdout;
     let value_column = |label: &str| {
-        let l = text.lines().find(|l| l.starts_with(label)).unwrap_or_else(|| panic!("{label}\n{text}"));
+        let l = text
+            .lines()
+            .find(|l| l.starts_with(label))
+            .unwrap_or_else(|| panic!("{label}\n{text}"));
         label.len() + (l[label.len()..].len() - l[label.len()..].trim_start().len())
     };
     let col = value_column("model");
@@ -209,7 +215,15 @@ fn labels_align_whatever_the_field_name() {
 #[test]
 fn asymptotics_lines_are_columns() {
     // ends of different lengths (-inf, a pole at a finite value) on the two lines
-    let r = efold(&["inspect", "--potential", "x^2", "--kinetic", "1/(1 - x)^2", "--field", "x"]);
+    let r = efold(&[
+        "inspect",
+        "--potential",
+        "x^2",
+        "--kinetic",
+        "1/(1 - x)^2",
+        "--field",
+        "x",
+    ]);
     assert_eq!(r.code, 0, "{}", r.stderr);
     let lines: Vec<&str> = r
         .stdout
@@ -225,7 +239,10 @@ fn asymptotics_lines_are_columns() {
         let end_start = a + (l[a..].len() - l[a..].trim_start().len());
         let end_len = l[end_start..].find(' ').unwrap();
         let after = &l[end_start + end_len..];
-        (end_start + end_len + (after.len() - after.trim_start().len()), l.find('[').unwrap())
+        (
+            end_start + end_len + (after.len() - after.trim_start().len()),
+            l.find('[').unwrap(),
+        )
     };
     assert_eq!(starts(lines[0]), starts(lines[1]), "{}", r.stdout);
 }

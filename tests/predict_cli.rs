@@ -367,7 +367,10 @@ fn table_rows_keep_one_style() {
         }
         let pull = r.stdout.lines().find(|l| l.starts_with("n_s pull")).unwrap();
         for c in pull.split_whitespace().skip(3) {
-            assert!(c.starts_with(['+', '-']) && c.len() - c.find('.').unwrap() == 3, "{pull}");
+            assert!(
+                c.starts_with(['+', '-']) && c.len() - c.find('.').unwrap() == 3,
+                "{pull}"
+            );
         }
     }
 }
