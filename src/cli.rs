@@ -538,7 +538,12 @@ fn constant_expr(origin: &str, text: &str, scope: &Scope, params: &[f64], config
     let tape = crate::tape::Tape::compile(&g, &[id]);
     let v = tape.evaluator(params).eval(0.0);
     if !v.is_finite() {
-        return Err(Diagnostic::new(format!("{origin}: `{}` is not a finite number ({v})", text.trim())).into());
+        return Err(Diagnostic::new(format!(
+            "{origin}: `{}` is not a finite number ({})",
+            text.trim(),
+            crate::numfmt::number(v)
+        ))
+        .into());
     }
     Ok(v)
 }
@@ -588,7 +593,11 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
         } else {
             format!("derivative {k}")
         };
-        let mut d = Diagnostic::new(format!("{what} of the expression is {v} at {field} = {x}"));
+        let mut d = Diagnostic::new(format!(
+            "{what} of the expression is {} at {field} = {}",
+            crate::numfmt::number(*v),
+            crate::numfmt::typed(x)
+        ));
         if let Some((id, bad)) = c.graph.first_non_finite(c.roots[0], x, &values) {
             d = d.with_hint(format!("`{}` is {bad} there", c.graph.print(id)));
         } else if c.tape.has_abs() {
@@ -784,7 +793,9 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
             marks.points.push((p.phi_end, "end".to_string()));
         }
         for p in &rep.predictions {
-            marks.points.push((p.phi_star, format!("N={}", p.n_star)));
+            marks
+                .points
+                .push((p.phi_star, format!("N={}", crate::numfmt::typed(p.n_star))));
         }
         let svg = crate::inspect::figure(&model, &ins, &marks, config)?;
         write_output_file(path, &svg)?;
