@@ -80,8 +80,8 @@ impl EndKind {
             EndKind::ZeroOfK => "zero of K (strong coupling)",
             EndKind::KSignChange => "K changes sign (ghost beyond)",
             EndKind::VSingular => "pole of V",
-            EndKind::VOverflow => "V exceeds double precision beyond (effectively unbounded)",
-            EndKind::VNotReal => "V is not real beyond (log or sqrt of a negative number?)",
+            EndKind::VOverflow => "V exceeds double precision (effectively unbounded)",
+            EndKind::VNotReal => "V is not real (log or sqrt of a negative number?)",
             EndKind::Range => "end of the given range",
         }
     }
@@ -525,7 +525,7 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
                 "K vanishes"
             };
             return Err(AnalysisError {
-                message: format!("{what} at {field} = {} inside the range", crate::ir::format_number(x)),
+                message: format!("{what} at {field} = {} inside the range", crate::numfmt::number(x)),
                 hints: vec![
                     "the kinetic term must be positive and finite inside the range".to_string(),
                     "end the range at this point with --range, or leave it out to let efold find the domain"

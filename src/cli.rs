@@ -553,10 +553,18 @@ fn constant_expr(origin: &str, text: &str, scope: &Scope, params: &[f64], config
     let tape = crate::tape::Tape::compile(&g, &[id]);
     let v = tape.evaluator(params).eval(0.0);
     if !v.is_finite() {
-        return Err(Diagnostic::new(format!("{origin}: `{}` is not a finite number ({v})", text.trim())).into());
+        return Err(Diagnostic::new(format!(
+            "{origin}: `{}` is not a finite number ({})",
+            text.trim(),
+            crate::numfmt::number(v)
+        ))
+        .into());
     }
     Ok(v)
 }
+
+/// Significant digits of `eval`'s text output (a value checked by hand wants more than a table).
+const EVAL_DIGITS: usize = 10;
 
 fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     if a.order > MAX_ORDER {
@@ -600,7 +608,11 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
         } else {
             format!("derivative {k}")
         };
-        let mut d = Diagnostic::new(format!("{what} of the expression is {v} at {field} = {x}"));
+        let mut d = Diagnostic::new(format!(
+            "{what} of the expression is {} at {field} = {}",
+            crate::numfmt::number(*v),
+            crate::numfmt::typed(x)
+        ));
         if let Some((id, bad)) = c.graph.first_non_finite(c.roots[0], x, &values) {
             d = d.with_hint(format!("`{}` is {bad} there", c.graph.print(id)));
         } else if c.tape.has_abs() {
@@ -636,13 +648,15 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
             for w in &warnings {
                 let _ = writeln!(out, "warning: {w}");
             }
-            let _ = writeln!(out, "at {field} = {x}");
-            for (k, v) in derivs.iter().enumerate() {
+            let _ = writeln!(out, "at {field} = {}", crate::numfmt::typed(x));
+            // The value and its derivatives are one column: one style, decimal points aligned.
+            let cells = crate::numfmt::row(&derivs, EVAL_DIGITS);
+            for (k, v) in cells.iter().enumerate() {
                 let label = match k {
                     0 => "value".to_string(),
                     _ => format!("d^{k}/d{field}^{k}"),
                 };
-                let _ = writeln!(out, "  {label:<16} {:>24}", crate::ir::format_number(*v));
+                let _ = writeln!(out, "  {label:<16} {v:>24}");
             }
             out
         }
@@ -831,7 +845,9 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
             marks.points.push((p.phi_end, "end".to_string()));
         }
         for p in &rep.predictions {
-            marks.points.push((p.phi_star, format!("N={}", p.n_star)));
+            marks
+                .points
+                .push((p.phi_star, format!("N={}", crate::numfmt::typed(p.n_star))));
         }
         let svg = crate::inspect::figure(&model, &ins, &marks, config)?;
         write_output_file(path, &svg)?;
@@ -864,8 +880,10 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
     }
     if k_max > k_limit {
         return Err(Diagnostic::new(format!(
-            "--k-max {k_max:e} Mpc^-1 exits too close to the end of inflation to freeze (at most {k_limit:.3e} for N_* = {})",
-            a.efolds
+            "--k-max {} Mpc^-1 exits too close to the end of inflation to freeze (at most {} for N_* = {})",
+            crate::numfmt::typed(k_max),
+            crate::numfmt::number(k_limit),
+            crate::numfmt::typed(a.efolds)
         ))
         .with_hint("lower --k-max, or raise --efolds")
         .into());
@@ -1082,8 +1100,9 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
             }
             if drifted > 0 {
                 return Err(Failure::drifted(format!(
-                    "{drifted} of {} model(s) drifted beyond {tolerance:e}\n{out}",
-                    files.len()
+                    "{drifted} of {} model(s) drifted beyond {}\n{out}",
+                    files.len(),
+                    crate::numfmt::typed(*tolerance)
                 )));
             }
             Ok(out)
@@ -1135,10 +1154,10 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
                         .flatten()
                         .map(|x| {
                             format!(
-                                "N_* = {}: n_s = {:.6}, r = {:.4e}",
-                                x["n_star"],
-                                x["n_s"].as_f64().unwrap_or(f64::NAN),
-                                x["r"].as_f64().unwrap_or(f64::NAN)
+                                "N_* = {}: n_s = {}, r = {}",
+                                crate::numfmt::typed(x["n_star"].as_f64().unwrap_or(f64::NAN)),
+                                crate::numfmt::number(x["n_s"].as_f64().unwrap_or(f64::NAN)),
+                                crate::numfmt::number(x["r"].as_f64().unwrap_or(f64::NAN))
                             )
                         })
                         .collect();

@@ -246,13 +246,21 @@ pub fn mode(
         let idx = run.checkpoints.iter().position(|(n, y)| k_over_ah(*n, y) < target);
         let Some(j) = idx else {
             return Err(fail(
-                format!("the mode k/k_* = {kappa:e} never reaches k/aH = {target:e} before the end of inflation"),
+                format!(
+                    "the mode k/k_* = {} never reaches k/aH = {} before the end of inflation",
+                    crate::numfmt::number(kappa),
+                    crate::numfmt::typed(target)
+                ),
                 &["ask for a smaller k, or fewer e-folds"],
             ));
         };
         if j == 0 {
             return Err(fail(
-                format!("the background starts too late for k/k_* = {kappa:e} (k/aH is already below {target:e})"),
+                format!(
+                    "the background starts too late for k/k_* = {} (k/aH is already below {})",
+                    crate::numfmt::number(kappa),
+                    crate::numfmt::typed(target)
+                ),
                 &["ask for a larger k, or start the background earlier"],
             ));
         }
@@ -331,10 +339,22 @@ pub fn mode(
         let sol = integrate(rhs, n0, y0, n_hi + 10.0, &settings.ode, |n, y| {
             Some(k_over_ah(n, &[y[0], y[1]]) - target)
         })
-        .map_err(|e| fail(format!("the mode k/k_* = {kappa:e} failed to integrate: {e}"), &[]))?;
+        .map_err(|e| {
+            fail(
+                format!(
+                    "the mode k/k_* = {} failed to integrate: {e}",
+                    crate::numfmt::number(kappa)
+                ),
+                &[],
+            )
+        })?;
         if !sol.event {
             return Err(fail(
-                format!("the mode k/k_* = {kappa:e} does not reach k/aH = {target:e} before inflation ends"),
+                format!(
+                    "the mode k/k_* = {} does not reach k/aH = {} before inflation ends",
+                    crate::numfmt::number(kappa),
+                    crate::numfmt::typed(target)
+                ),
                 &["the mode exits too close to the end of inflation: ask for smaller k"],
             ));
         }
@@ -353,8 +373,10 @@ pub fn mode(
     if drift > settings.freeze_tol {
         return Err(fail(
             format!(
-                "the mode k/k_* = {kappa:e} has not frozen: P changed by {drift:.1e} over its last e-fold (allowed {:.0e})",
-                settings.freeze_tol
+                "the mode k/k_* = {} has not frozen: P changed by {} over its last e-fold (allowed {})",
+                crate::numfmt::number(kappa),
+                crate::numfmt::scientific(drift, 2),
+                crate::numfmt::typed(settings.freeze_tol)
             ),
             &["stop the modes further outside the horizon (a smaller k/aH at the stop)"],
         ));
@@ -380,7 +402,11 @@ pub fn pivot(bg: &Background<'_>, run: &Run, n_star: f64, settings: &Settings) -
     let n = n_end - n_star;
     if n <= 0.0 {
         return Err(fail(
-            format!("the exact background gives only {n_end:.3} e-folds from its start, fewer than N_* = {n_star}"),
+            format!(
+                "the exact background gives only {} e-folds from its start, fewer than N_* = {}",
+                crate::numfmt::number(n_end),
+                crate::numfmt::typed(n_star)
+            ),
             &["start the background earlier"],
         ));
     }
@@ -614,49 +640,125 @@ pub fn spectrum(
     })
 }
 
-/// The spectrum as an aligned table, with the peak.
+/// Where a row with the largest value sits in the grid: `Some("lower")` or `Some("upper")` when
+/// it is the first or last row (the true maximum may lie outside the grid), `None` inside.
+fn grid_end(rows: &[SpectrumRow], at: &SpectrumRow) -> Option<&'static str> {
+    if rows.len() < 2 {
+        return None;
+    }
+    if rows.first().is_some_and(|r| r.k_mpc == at.k_mpc) {
+        Some("lower")
+    } else if rows.last().is_some_and(|r| r.k_mpc == at.k_mpc) {
+        Some("upper")
+    } else {
+        None
+    }
+}
+
+/// What to say when the largest value is at an end of the k grid.
+fn at_grid_end(what: &str, end: &str, row: &SpectrumRow, value: f64) -> String {
+    use crate::numfmt::number;
+    let side = if end == "upper" {
+        "beyond k_max; raise --k-max"
+    } else {
+        "below k_min; lower --k-min"
+    };
+    format!(
+        "the largest {what} ({}) is at the {end} end of the k grid (k = {} Mpc^-1, {} e-folds before the end): the true peak may lie {side}",
+        number(value),
+        number(row.k_mpc),
+        number(row.n_before_end)
+    )
+}
+
+/// The spectrum as an aligned table, with the peak (or a warning that the largest value is at
+/// an end of the grid).
 pub fn text(sp: &Spectrum, name: &str) -> String {
+    use crate::numfmt::{self, number, typed};
     use std::fmt::Write as _;
     let mut o = String::new();
     let _ = writeln!(o, "model    {name}");
     let _ = writeln!(
         o,
-        "pivot    k_* = {} Mpc^-1 exits {} e-folds before the end (eps_H = 1); {:.4} e-folds in all",
-        sp.k_star_mpc, sp.n_star, sp.n_total
+        "pivot    k_* = {} Mpc^-1 exits {} e-folds before the end (eps_H = 1); {} e-folds in all",
+        typed(sp.k_star_mpc),
+        typed(sp.n_star),
+        number(sp.n_total)
     );
     let _ = writeln!(
         o,
-        "scale    V multiplied by {:.6e} to give the observed A_s at the pivot\n",
-        sp.potential_scale
+        "scale    V multiplied by {} to give the observed A_s at the pivot\n",
+        number(sp.potential_scale)
     );
-    let _ = writeln!(
-        o,
-        "{:>12} {:>14} {:>14} {:>16} {:>10}",
-        "k [Mpc^-1]", "P_zeta", "P_t", "slow roll P_zeta", "N to end"
-    );
-    for r in &sp.rows {
-        let _ = writeln!(
-            o,
-            "{:>12.4e} {:>14.6e} {:>14.6e} {:>16.6e} {:>10.4}",
-            r.k_mpc, r.p_zeta, r.p_t, r.p_zeta_slow_roll, r.n_before_end
-        );
+    // One style per column, right-aligned under its title.
+    let d = numfmt::DEFAULT_DIGITS;
+    let column = |g: &dyn Fn(&SpectrumRow) -> f64| numfmt::row(&sp.rows.iter().map(g).collect::<Vec<_>>(), d);
+    let cols = [
+        ("k [Mpc^-1]", column(&|r| r.k_mpc)),
+        ("P_zeta", column(&|r| r.p_zeta)),
+        ("P_t", column(&|r| r.p_t)),
+        ("P_zeta (slow roll)", column(&|r| r.p_zeta_slow_roll)),
+        ("N to end [e-folds]", column(&|r| r.n_before_end)),
+    ];
+    let widths: Vec<usize> = cols
+        .iter()
+        .map(|(h, c)| c.iter().map(String::len).chain([h.len()]).max().unwrap_or(0))
+        .collect();
+    let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
+    let _ = writeln!(o, "{}", header.join("  "));
+    for i in 0..sp.rows.len() {
+        let cells: Vec<String> = cols
+            .iter()
+            .zip(&widths)
+            .map(|((_, c), w)| format!("{:>w$}", c[i]))
+            .collect();
+        let _ = writeln!(o, "{}", cells.join("  "));
     }
     let p = &sp.peak;
-    let _ = writeln!(
-        o,
-        "\npeak     P_zeta = {:.4e} at k = {:.4e} Mpc^-1, {:.3} e-folds before the end; slow roll there: {:.4e} (x{:.3})",
-        p.p_zeta,
-        p.k_mpc,
-        p.n_before_end,
-        p.p_zeta_slow_roll,
-        p.p_zeta / p.p_zeta_slow_roll
-    );
+    let _ = writeln!(o);
+    match grid_end(&sp.rows, p) {
+        Some(end) => {
+            let _ = writeln!(o, "maximum  {}", at_grid_end("P_zeta", end, p, p.p_zeta));
+        }
+        None => {
+            let _ = writeln!(
+                o,
+                "peak     P_zeta = {} at k = {} Mpc^-1, {} e-folds before the end; slow roll there: {} (x{})",
+                number(p.p_zeta),
+                number(p.k_mpc),
+                number(p.n_before_end),
+                number(p.p_zeta_slow_roll),
+                number(p.p_zeta / p.p_zeta_slow_roll)
+            );
+        }
+    }
     let q = &sp.peak_slow_roll;
-    let _ = writeln!(
-        o,
-        "         slow roll puts its peak at k = {:.4e} Mpc^-1 ({:.3} e-folds before the end) with P_zeta = {:.4e}; exact there: {:.4e}",
-        q.k_mpc, q.n_before_end, q.p_zeta_slow_roll, q.p_zeta
-    );
+    match grid_end(&sp.rows, q) {
+        Some(end) if grid_end(&sp.rows, p) == Some(end) => {
+            let _ = writeln!(
+                o,
+                "         slow roll: its largest P_zeta ({}) is at the {end} end too",
+                number(q.p_zeta_slow_roll)
+            );
+        }
+        Some(end) => {
+            let _ = writeln!(
+                o,
+                "         slow roll: {}",
+                at_grid_end("slow-roll P_zeta", end, q, q.p_zeta_slow_roll)
+            );
+        }
+        None => {
+            let _ = writeln!(
+                o,
+                "         slow roll puts its peak at k = {} Mpc^-1 ({} e-folds before the end) with P_zeta = {}; exact there: {}",
+                number(q.k_mpc),
+                number(q.n_before_end),
+                number(q.p_zeta_slow_roll),
+                number(q.p_zeta)
+            );
+        }
+    }
     o
 }
 
@@ -731,12 +833,18 @@ pub fn start_with_room(
             Some(n) if n >= n_needed => Ok((phi, run)),
             Some(n) => Err(fail(
                 format!(
-                    "starting at phi = {phi} gives {n:.3} e-folds before the end, fewer than the {n_needed:.1} needed"
+                    "starting at phi = {} gives {} e-folds before the end, fewer than the {} needed",
+                    crate::numfmt::typed(phi),
+                    crate::numfmt::number(n),
+                    crate::numfmt::number(n_needed)
                 ),
                 &["start further up the potential, or ask for fewer e-folds or a smaller k range"],
             )),
             None => Err(fail(
-                format!("starting at phi = {phi}, inflation does not end (eps_H never reaches 1)"),
+                format!(
+                    "starting at phi = {}, inflation does not end (eps_H never reaches 1)",
+                    crate::numfmt::typed(phi)
+                ),
                 &["check the start and the potential"],
             )),
         };
@@ -757,7 +865,89 @@ pub fn start_with_room(
         }
     }
     Err(fail(
-        format!("could not start the exact background {n_needed:.1} e-folds before its end"),
+        format!(
+            "could not start the exact background {} e-folds before its end",
+            crate::numfmt::number(n_needed)
+        ),
         &["ask for fewer e-folds, or a smaller k range"],
     ))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A made-up spectrum on a grid k = 1, 10, 100 whose P_zeta values are given.
+    fn spectrum_with(p_zeta: [f64; 3], p_slow: [f64; 3]) -> Spectrum {
+        let rows: Vec<SpectrumRow> = (0..3)
+            .map(|i| SpectrumRow {
+                k_mpc: 10f64.powi(i as i32),
+                p_zeta: p_zeta[i],
+                p_t: 1e-11,
+                p_zeta_slow_roll: p_slow[i],
+                n_before_end: 50.0 - 2.0 * i as f64,
+                drift: 1e-9,
+            })
+            .collect();
+        let top = |g: &dyn Fn(&SpectrumRow) -> f64| *rows.iter().max_by(|a, b| g(a).total_cmp(&g(b))).unwrap();
+        Spectrum {
+            n_star: 55.0,
+            k_star_mpc: 0.05,
+            potential_scale: 1.2e-10,
+            n_total: 70.0,
+            peak: top(&|r| r.p_zeta),
+            peak_slow_roll: top(&|r| r.p_zeta_slow_roll),
+            rows,
+        }
+    }
+
+    #[test]
+    fn a_peak_inside_the_grid_is_called_a_peak() {
+        let t = text(&spectrum_with([1e-9, 3e-9, 2e-9], [1e-9, 2e-9, 4e-9]), "m");
+        assert!(t.contains("\npeak     P_zeta = 3e-9 at k = 10 Mpc^-1"), "{t}");
+        // slow roll's largest value is at the last row: no peak claimed there
+        assert!(
+            t.contains("largest slow-roll P_zeta (4e-9) is at the upper end of the k grid"),
+            "{t}"
+        );
+        assert!(t.contains("raise --k-max"), "{t}");
+    }
+
+    #[test]
+    fn a_maximum_at_an_end_of_the_grid_is_not_called_a_peak() {
+        let t = text(&spectrum_with([1e-9, 2e-9, 3e-9], [1e-9, 2e-9, 3e-9]), "m");
+        assert!(!t.contains("\npeak"), "{t}");
+        assert!(
+            t.contains("the largest P_zeta (3e-9) is at the upper end of the k grid"),
+            "{t}"
+        );
+        assert!(t.contains("the true peak may lie beyond k_max; raise --k-max"), "{t}");
+        assert!(
+            t.contains("slow roll: its largest P_zeta (3e-9) is at the upper end too"),
+            "{t}"
+        );
+        let t = text(&spectrum_with([3e-9, 2e-9, 1e-9], [1e-9, 3e-9, 2e-9]), "m");
+        assert!(
+            t.contains("at the lower end of the k grid") && t.contains("lower --k-min"),
+            "{t}"
+        );
+        assert!(t.contains("slow roll puts its peak at k = 10 Mpc^-1"), "{t}");
+    }
+
+    #[test]
+    fn every_spectrum_column_has_its_own_title() {
+        let t = text(&spectrum_with([1e-9, 3e-9, 2e-9], [1e-9, 2e-9, 4e-9]), "m");
+        let header = t.lines().find(|l| l.contains("k [Mpc^-1]")).unwrap();
+        let titles: Vec<&str> = header.split("  ").map(str::trim).filter(|s| !s.is_empty()).collect();
+        assert_eq!(
+            titles,
+            [
+                "k [Mpc^-1]",
+                "P_zeta",
+                "P_t",
+                "P_zeta (slow roll)",
+                "N to end [e-folds]"
+            ]
+        );
+    }
 }

@@ -10,6 +10,7 @@ use crate::canonical::AnalysisError;
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::model::{Model, ModelSpec};
+use crate::numfmt;
 use crate::predict::{predict, Options, Prediction};
 use crate::slowroll::fail;
 use indexmap::IndexMap;
@@ -324,14 +325,18 @@ pub fn fit(
             .zip(r.iter())
             .map(|(t, x)| {
                 format!(
-                    "{} = {} (wanted {}, scaled residual {x:.2e})",
+                    "{} = {} (wanted {}, scaled residual {})",
                     t.observable.name(),
-                    t.observable.value(&pred),
-                    t.value
+                    numfmt::number(t.observable.value(&pred)),
+                    numfmt::typed(t.value),
+                    numfmt::scientific(*x, 3)
                 )
             })
             .collect();
-        let at: Vec<String> = named(&values).iter().map(|(k, v)| format!("{k} = {v:e}")).collect();
+        let at: Vec<String> = named(&values)
+            .iter()
+            .map(|(k, v)| format!("{k} = {}", numfmt::number_digits(*v, PARAM_DIGITS)))
+            .collect();
         return Err(fail(
             format!(
                 "no parameter values reproduce the targets: the best found, at {}, gives {}",
@@ -369,27 +374,67 @@ pub fn fit(
     })
 }
 
-/// The fit as text.
+/// Significant digits of fitted parameter values in human output.
+const PARAM_DIGITS: usize = 12;
+
+/// The fit as text: parameters to `PARAM_DIGITS` (12) significant digits, targets as typed, reached values with
+/// enough digits to show how far they are from the target, residuals in scientific notation.
 pub fn text(f: &FitResult) -> String {
     use std::fmt::Write as _;
     let mut o = String::new();
-    let _ = writeln!(o, "fit at N_* = {} in {} iterations", f.n_star, f.iterations);
-    for (k, v) in &f.parameters {
-        let _ = writeln!(o, "  {k:<12} = {v:.12e}");
-    }
-    let _ = writeln!(o, "targets");
-    for (k, want) in &f.targets {
-        let _ = writeln!(
-            o,
-            "  {k:<12} wanted {want:<14e} reached {:<22e} scaled residual {:.2e}",
-            f.achieved[k], f.residuals[k]
-        );
-    }
-    let _ = writeln!(o, "Jacobian condition number {:.3e}", f.condition_number);
     let _ = writeln!(
         o,
-        "at the solution: n_s = {:.6}, r = {:.6e}, alpha_s = {:.6e}; scale on V for the observed A_s: {:.6e}",
-        f.prediction.n_s, f.prediction.r, f.prediction.alpha_s, f.prediction.potential_scale
+        "fit at N_* = {} in {} iterations",
+        numfmt::typed(f.n_star),
+        f.iterations
+    );
+    for (k, v) in &f.parameters {
+        let _ = writeln!(o, "  {k:<12} = {}", numfmt::number_digits(*v, PARAM_DIGITS));
+    }
+    let _ = writeln!(o, "targets");
+    let cells: Vec<[String; 4]> = f
+        .targets
+        .iter()
+        .map(|(k, want)| {
+            let got = f.achieved[k];
+            let digits = numfmt::digits_to_resolve(*want, got);
+            [
+                k.clone(),
+                numfmt::typed(*want),
+                numfmt::row(&[got], digits).remove(0),
+                numfmt::scientific(f.residuals[k], 3),
+            ]
+        })
+        .collect();
+    let w: Vec<usize> = (0..3)
+        .map(|j| {
+            cells
+                .iter()
+                .map(|c| c[j].len())
+                .max()
+                .unwrap_or(0)
+                .max(if j == 0 { 12 } else { 0 })
+        })
+        .collect();
+    for [k, want, got, res] in &cells {
+        let _ = writeln!(
+            o,
+            "  {k:<w0$} wanted {want:<w1$}  reached {got:<w2$}  scaled residual {res}",
+            w0 = w[0],
+            w1 = w[1],
+            w2 = w[2]
+        );
+    }
+    // computed values at the default digits, trailing zeros kept (they are not targets)
+    let value = |x: f64| numfmt::row(&[x], numfmt::DEFAULT_DIGITS).remove(0);
+    let _ = writeln!(o, "Jacobian condition number {}", numfmt::number(f.condition_number));
+    let _ = writeln!(
+        o,
+        "at the solution: n_s = {}, r = {}, alpha_s = {}; scale on V for the observed A_s: {}",
+        value(f.prediction.n_s),
+        value(f.prediction.r),
+        value(f.prediction.alpha_s),
+        value(f.prediction.potential_scale)
     );
     o
 }

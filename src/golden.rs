@@ -81,14 +81,10 @@ pub enum Drift {
     Requested(f64),
 }
 
-/// A number in shortest round-trip form: `1`, `1.01`, `0.0048`, `1.468e-10`.
+/// A number in shortest round-trip form: `1`, `1.01`, `0.0048`, `1.468e-10`
+/// ([`crate::numfmt::typed`]).
 pub fn number(x: f64) -> String {
-    let a = x.abs();
-    if a == 0.0 || (1e-4..1e16).contains(&a) {
-        format!("{x}")
-    } else {
-        format!("{x:e}")
-    }
+    crate::numfmt::typed(x)
 }
 
 /// A JSON value for people: numbers by [`number`], everything else as JSON.
@@ -114,13 +110,22 @@ impl std::fmt::Display for Drift {
             Drift::Leaf { at, path, old, new } => {
                 let at = where_(*at);
                 match (old, new) {
-                    (Some(a), Some(b)) => {
-                        let rel = match (a.as_f64(), b.as_f64()) {
-                            (Some(x), Some(y)) if x != 0.0 => format!("  (relative {:.1e})", ((y - x) / x).abs()),
-                            _ => String::new(),
-                        };
-                        write!(f, "  {at}: {path:<20} {} -> {}{rel}", value(a), value(b))
-                    }
+                    (Some(a), Some(b)) => match (
+                        a.as_f64().filter(|_| a.is_number()),
+                        b.as_f64().filter(|_| b.is_number()),
+                    ) {
+                        (Some(x), Some(y)) => {
+                            // Old and new as one row, with digits enough to see them differ.
+                            let cells = crate::numfmt::row(&[x, y], crate::numfmt::digits_to_resolve(x, y));
+                            let rel = if x != 0.0 {
+                                format!("  (relative {})", crate::numfmt::scientific(((y - x) / x).abs(), 2))
+                            } else {
+                                String::new()
+                            };
+                            write!(f, "  {at}: {path:<20} {} -> {}{rel}", cells[0], cells[1])
+                        }
+                        _ => write!(f, "  {at}: {path:<20} {} -> {}", value(a), value(b)),
+                    },
                     (None, Some(b)) => write!(f, "  {at}: {path:<20} added: {}", value(b)),
                     (Some(a), None) => write!(f, "  {at}: {path:<20} removed (was {})", value(a)),
                     (None, None) => write!(f, "  {at}: {path}"),
@@ -715,7 +720,7 @@ mod tests {
         assert_eq!(d.lines()[0], d.summary[0]);
         assert_eq!(
             d.lines()[1],
-            "  N_* = 55: r                    0.0038 -> 0.00384  (relative 1.1e-2)"
+            "  N_* = 55: r                    0.00380000 -> 0.00384000  (relative 1.1e-2)"
         );
         // an edit of the input alone, with no prediction moving, is no drift
         let mut c = a.clone();

@@ -7,8 +7,8 @@ use crate::canonical::{
     Asymptote, CanonicalMap, Domain, EndKind, Pole,
 };
 use crate::config::Config;
-use crate::ir::format_number;
 use crate::model::Model;
+use crate::numfmt;
 use crate::plot::{self, Marker, Panel, Series, VLine};
 use serde::Serialize;
 use std::fmt::Write as _;
@@ -28,6 +28,9 @@ pub struct ModelSummary {
     pub kinetic: String,
     /// Parameter values.
     pub params: indexmap::IndexMap<String, f64>,
+    /// Which parameter values were written as plain numbers (the others are expressions).
+    #[serde(skip)]
+    pub params_typed: Vec<bool>,
 }
 
 impl ModelSummary {
@@ -40,7 +43,30 @@ impl ModelSummary {
             potential: model.spec.potential.text.clone(),
             kinetic: model.spec.kinetic.text.clone(),
             params: model.param_pairs().map(|(n, v)| (n.to_string(), v)).collect(),
+            params_typed: model
+                .param_pairs()
+                .map(|(n, _)| {
+                    let spec = model.spec.params.iter().find(|p| p.name == n);
+                    spec.is_some_and(|p| p.value.text.trim().parse::<f64>().is_ok())
+                })
+                .collect(),
         }
+    }
+
+    /// The parameters for people, `name = value`: a value written as a plain number as typed,
+    /// one computed from an expression to the default significant digits.
+    pub fn params_text(&self) -> Vec<String> {
+        self.params
+            .iter()
+            .enumerate()
+            .map(|(i, (k, v))| {
+                if self.params_typed.get(i).copied().unwrap_or(false) {
+                    format!("{k} = {}", numfmt::typed(*v))
+                } else {
+                    format!("{k} = {}", numfmt::number(*v))
+                }
+            })
+            .collect()
     }
 }
 
@@ -117,26 +143,22 @@ pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<I
                 zeros.push(end);
                 warnings.push(format!(
                     "K vanishes at {field} = {} (strong coupling): the kinetic term degenerates at this end",
-                    format_number(end)
+                    fmt(end)
                 ));
             }
             EndKind::VNotReal => warnings.push(format!(
                 "V is not a real number beyond {field} = {}: the domain stops there",
-                format_number(end)
+                fmt(end)
             )),
             EndKind::KSignChange => warnings.push(format!(
                 "K changes sign at {field} = {}: beyond it the field is a ghost",
-                format_number(end)
+                fmt(end)
             )),
             _ => {}
         }
     }
     for (a, b) in &domain.negative_v {
-        warnings.push(format!(
-            "V < 0 for {} < {field} < {}",
-            format_number(*a),
-            format_number(*b)
-        ));
+        warnings.push(format!("V < 0 for {} < {field} < {}", fmt(*a), fmt(*b)));
     }
     if !domain.others.is_empty() {
         warnings.push(format!(
@@ -250,25 +272,55 @@ fn make_table(
     Ok(rows)
 }
 
-/// A number for the human reports: `decimals` places in fixed notation between 1e-4 and
-/// `10^fixed_below`, 7 significant digits in exponent notation outside, trailing zeros dropped,
-/// infinities as inf / -inf.
-pub fn fmt_number(x: f64, decimals: usize, fixed_below: i32) -> String {
-    if x.is_infinite() {
-        return if x > 0.0 { "inf".into() } else { "-inf".into() };
-    }
-    let a = x.abs();
-    if a != 0.0 && !(1e-4..10f64.powi(fixed_below)).contains(&a) {
-        format!("{x:.6e}")
-    } else {
-        let s = format!("{x:.decimals$}");
-        let s = s.trim_end_matches('0');
-        s.trim_end_matches('.').to_string()
+fn fmt(x: f64) -> String {
+    numfmt::number(x)
+}
+
+/// How an end of the domain comes about, as a sentence (the field value where it helps).
+fn end_sentence(kind: EndKind, field: &str, end: f64) -> String {
+    match kind {
+        EndKind::VOverflow => format!(
+            "V exceeds double precision beyond {field} = {} (effectively unbounded)",
+            fmt(end)
+        ),
+        EndKind::VNotReal => format!(
+            "V is not real beyond {field} = {} (log or sqrt of a negative number?)",
+            fmt(end)
+        ),
+        k => k.words().to_string(),
     }
 }
 
-fn fmt(x: f64) -> String {
-    fmt_number(x, 9, 6)
+/// Lines of cells as columns: every column but the last padded to its widest cell, two spaces
+/// between columns.
+fn columns(lines: &[Vec<String>], indent: &str) -> String {
+    let n = lines.iter().map(Vec::len).max().unwrap_or(0);
+    let widths: Vec<usize> = (0..n)
+        .map(|j| {
+            lines
+                .iter()
+                .filter_map(|l| l.get(j))
+                .map(|c| c.chars().count())
+                .max()
+                .unwrap_or(0)
+        })
+        .collect();
+    let mut o = String::new();
+    for l in lines {
+        let mut line = indent.to_string();
+        for (j, c) in l.iter().enumerate() {
+            if widths[j] == 0 {
+                continue; // a column empty on every line takes no room
+            }
+            if j + 1 < l.len() {
+                let _ = write!(line, "{c:<w$}  ", w = widths[j]);
+            } else {
+                line.push_str(c);
+            }
+        }
+        let _ = writeln!(o, "{}", line.trim_end());
+    }
+    o
 }
 
 /// The aligned human report.
@@ -276,36 +328,41 @@ pub fn text(ins: &Inspection) -> String {
     let mut o = String::new();
     let m = &ins.model;
     let f = &m.field;
-    let _ = writeln!(
-        o,
-        "model       {}",
-        if m.name.is_empty() { "(unnamed)" } else { &m.name }
-    );
+    let (v_label, k_label) = (format!("V({f})"), format!("K({f})"));
+    let w = ["chi = 0 at", v_label.as_str(), k_label.as_str()]
+        .iter()
+        .map(|l| l.chars().count())
+        .max()
+        .unwrap_or(0);
+    let line = |o: &mut String, label: &str, rest: &str| {
+        let _ = writeln!(o, "{label:<w$}  {rest}");
+    };
+    line(&mut o, "model", if m.name.is_empty() { "(unnamed)" } else { &m.name });
     if !m.description.is_empty() {
-        let _ = writeln!(o, "            {}", m.description);
+        line(&mut o, "", &m.description);
     }
-    let _ = writeln!(o, "V({f})      {}", m.potential);
-    let _ = writeln!(o, "K({f})      {}", m.kinetic);
+    line(&mut o, &v_label, &m.potential);
+    line(&mut o, &k_label, &m.kinetic);
     if !m.params.is_empty() {
-        let ps: Vec<String> = m.params.iter().map(|(k, v)| format!("{k} = {}", fmt(*v))).collect();
-        let _ = writeln!(o, "parameters  {}", ps.join(", "));
+        line(&mut o, "parameters", &m.params_text().join(", "));
     }
     let iv = &ins.domain.interval;
-    let _ = writeln!(o, "\ndomain      {} < {f} < {}", fmt(iv.lo), fmt(iv.hi));
-    let _ = writeln!(o, "  lower end {}", iv.lo_kind.words());
-    let _ = writeln!(o, "  upper end {}", iv.hi_kind.words());
+    o.push('\n');
+    line(&mut o, "domain", &format!("{} < {f} < {}", fmt(iv.lo), fmt(iv.hi)));
+    let _ = writeln!(o, "  lower end: {}", end_sentence(iv.lo_kind, f, iv.lo));
+    let _ = writeln!(o, "  upper end: {}", end_sentence(iv.hi_kind, f, iv.hi));
     match &ins.minimum {
-        Some(mn) => {
-            let _ = writeln!(o, "minimum     V = {} at {f} = {}", fmt(mn.v), fmt(mn.phi));
-        }
-        None => {
-            let _ = writeln!(o, "minimum     none inside the domain (V falls toward an end)");
-        }
+        Some(mn) => line(
+            &mut o,
+            "minimum",
+            &format!("V = {} at {f} = {}", fmt(mn.v), fmt(mn.phi)),
+        ),
+        None => line(&mut o, "minimum", "none inside the domain (V falls toward an end)"),
     }
-    let _ = writeln!(
-        o,
-        "chi = 0 at  {f} = {}   (chi = integral of sqrt(K) d{f})",
-        fmt(ins.chi_origin)
+    line(
+        &mut o,
+        "chi = 0 at",
+        &format!("{f} = {}   (chi = integral of sqrt(K) d{f})", fmt(ins.chi_origin)),
     );
     let _ = writeln!(o, "\npoles of K");
     if ins.poles.is_empty() {
@@ -314,11 +371,11 @@ pub fn text(ins: &Inspection) -> String {
     for p in &ins.poles {
         let _ = writeln!(
             o,
-            "  at {f} = {}: order {}, residue a_p = {} (+- {:.0e} rel), canonical distance {}",
+            "  at {f} = {}: order {}, residue a_p = {} (+- {} rel), canonical distance {}",
             fmt(p.phi),
             fmt(p.order),
             fmt(p.residue),
-            p.residue_uncertainty.max(1e-16),
+            numfmt::scientific(p.residue_uncertainty.max(1e-16), 1),
             if p.infinite_distance { "infinite" } else { "finite" }
         );
         match &p.leading_order {
@@ -338,9 +395,9 @@ pub fn text(ins: &Inspection) -> String {
                 };
                 let _ = writeln!(
                     o,
-                    "    pole alone, leading order (V = V_p (1 - c rho^m) with m = {}): {formula}; at N = 55: n_s = {:.6}, r = {}",
+                    "    pole alone, leading order (V = V_p (1 - c rho^m) with m = {}): {formula}; at N = 55: n_s = {}, r = {}",
                     fmt(m),
-                    ns,
+                    fmt(ns),
                     fmt(r)
                 );
             }
@@ -351,39 +408,63 @@ pub fn text(ins: &Inspection) -> String {
         }
     }
     let _ = writeln!(o, "\nV(chi) toward each end");
-    for a in &ins.asymptotics {
-        let mut details = Vec::new();
-        if let Some(h) = a.height {
-            details.push(format!("height {}", fmt(h)));
-        }
-        if let Some(s) = a.scale {
-            details.push(format!("M = {}", fmt(s)));
-        }
-        if let Some(al) = a.alpha {
-            details.push(format!("alpha = 2M^2/3 = {}", fmt(al)));
-        }
-        if let Some(p) = a.power {
-            details.push(format!("power {}", fmt(p)));
-        }
-        if let Some(r) = a.rate {
-            details.push(format!("rate {}", fmt(r)));
-        }
-        if let Some(d) = a.chi_distance {
-            details.push(format!("distance {}", fmt(d)));
-        }
-        let _ = writeln!(
-            o,
-            "  {f} -> {:<12} {:<20} {}  [{} confidence]",
-            fmt(a.end),
-            a.kind.word(),
-            details.join(", "),
-            a.confidence
-        );
-    }
+    let lines: Vec<Vec<String>> = ins
+        .asymptotics
+        .iter()
+        .map(|a| {
+            let mut details = Vec::new();
+            if let Some(h) = a.height {
+                details.push(format!("height {}", fmt(h)));
+            }
+            if let Some(s) = a.scale {
+                details.push(format!("M = {}", fmt(s)));
+            }
+            if let Some(al) = a.alpha {
+                details.push(format!("alpha = 2M^2/3 = {}", fmt(al)));
+            }
+            if let Some(p) = a.power {
+                details.push(format!("power {}", fmt(p)));
+            }
+            if let Some(r) = a.rate {
+                details.push(format!("rate {}", fmt(r)));
+            }
+            if let Some(d) = a.chi_distance {
+                details.push(format!("distance {}", fmt(d)));
+            }
+            vec![
+                format!("{f} -> {}", fmt(a.end)),
+                a.kind.word().to_string(),
+                details.join(", "),
+                format!("[{} confidence]", a.confidence),
+            ]
+        })
+        .collect();
+    o.push_str(&columns(&lines, "  "));
     if let Some(rows) = &ins.table {
-        let _ = writeln!(o, "\n{:>18} {:>18} {:>18}", f, "chi", "V");
-        for r in rows {
-            let _ = writeln!(o, "{:>18} {:>18} {:>18}", fmt(r.phi), fmt(r.chi), fmt(r.v));
+        // One style per column, right-aligned, so that decimal points line up.
+        let d = numfmt::DEFAULT_DIGITS;
+        let cols = [
+            (
+                f.as_str(),
+                numfmt::row(&rows.iter().map(|r| r.phi).collect::<Vec<_>>(), d),
+            ),
+            ("chi", numfmt::row(&rows.iter().map(|r| r.chi).collect::<Vec<_>>(), d)),
+            ("V", numfmt::row(&rows.iter().map(|r| r.v).collect::<Vec<_>>(), d)),
+        ];
+        let widths: Vec<usize> = cols
+            .iter()
+            .map(|(h, c)| c.iter().map(String::len).chain([h.chars().count()]).max().unwrap_or(0))
+            .collect();
+        let _ = writeln!(o);
+        let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
+        let _ = writeln!(o, "  {}", header.join("  "));
+        for i in 0..rows.len() {
+            let cells: Vec<String> = cols
+                .iter()
+                .zip(&widths)
+                .map(|((_, c), w)| format!("{:>w$}", c[i]))
+                .collect();
+            let _ = writeln!(o, "  {}", cells.join("  "));
         }
     }
     if !ins.warnings.is_empty() {

@@ -7,6 +7,7 @@ use crate::config::Config;
 use crate::data::DataSet;
 use crate::inspect::ModelSummary;
 use crate::model::{Model, Side};
+use crate::numfmt;
 use crate::reheating::{Matching, Reheating};
 use crate::slowroll::{branches, end_of_inflation, fail, phi_stars, Branch, Observables, SlowRoll};
 use crate::tape::Evaluator;
@@ -468,7 +469,8 @@ fn refine_exact(
             .map_err(|e| {
                 fail(
                     format!(
-                        "the exact solver needs {n:.1} e-folds of slow roll before the end: {}",
+                        "the exact solver needs {} e-folds of slow roll before the end: {}",
+                        numfmt::number(n),
                         e.message
                     ),
                     &["ask for fewer e-folds"],
@@ -567,7 +569,7 @@ fn solve_matching(
 }
 
 fn fmt(x: f64) -> String {
-    crate::inspect::fmt_number(x, 8, 5)
+    numfmt::number(x)
 }
 
 /// The human table: one column per N_*, with units.
@@ -575,7 +577,7 @@ pub fn text(rep: &Report) -> String {
     let mut o = String::new();
     let m = &rep.model;
     let f = &m.field;
-    let params: Vec<String> = m.params.iter().map(|(k, v)| format!("{k} = {}", fmt(*v))).collect();
+    let params = m.params_text();
     let _ = writeln!(
         o,
         "model    {}{}",
@@ -615,60 +617,67 @@ pub fn text(rep: &Report) -> String {
     let _ = writeln!(o, "data     {} [{}]", rep.data.name, rep.data.source);
     let _ = writeln!(o, "units    reduced Planck units (M_p = 1) unless marked GeV\n");
     let p = &rep.predictions;
+    let d = numfmt::DEFAULT_DIGITS;
     let mut rows: Vec<(String, Vec<String>)> = Vec::new();
     let mut row = |label: &str, vals: Vec<String>| rows.push((label.to_string(), vals));
+    // Each row is one style across its N_* columns (numfmt's rule).
+    let num = |g: &dyn Fn(&Prediction) -> f64| numfmt::row(&p.iter().map(g).collect::<Vec<_>>(), d);
+    let opt = |g: &dyn Fn(&Prediction) -> Option<f64>| numfmt::row_opt(&p.iter().map(g).collect::<Vec<_>>(), d);
     let col = |g: &dyn Fn(&Prediction) -> String| p.iter().map(g).collect::<Vec<_>>();
-    row("N_*", col(&|x| fmt(x.n_star)));
-    row(&format!("{f}_*"), col(&|x| fmt(x.phi_star)));
-    row(&format!("{f}_end"), col(&|x| fmt(x.phi_end)));
-    row("n_s", col(&|x| format!("{:.6}", x.n_s)));
-    row("r", col(&|x| fmt(x.r)));
-    row("alpha_s", col(&|x| fmt(x.alpha_s)));
-    row("n_t", col(&|x| fmt(x.n_t)));
-    row("eps_V", col(&|x| fmt(x.eps_v)));
-    row("eta_V", col(&|x| fmt(x.eta_v)));
-    row("xi2_V", col(&|x| fmt(x.xi2_v)));
-    row("delta chi", col(&|x| fmt(x.delta_chi)));
-    row(&format!("delta {f}"), col(&|x| fmt(x.delta_phi)));
-    row("N_* sqrt(r/8)", col(&|x| fmt(x.lyth_bound)));
-    row("scale on V", col(&|x| fmt(x.potential_scale)));
-    row("V_*^1/4 [GeV]", col(&|x| format!("{:.4e}", x.v_star_quarter_gev)));
-    row("H_* [GeV]", col(&|x| format!("{:.4e}", x.h_star_gev)));
-    row("H_*/2pi [GeV]", col(&|x| format!("{:.4e}", x.t_ds_gev)));
-    row("V_end^1/4 [GeV]", col(&|x| format!("{:.4e}", x.v_end_quarter_gev)));
-    row("n_s pull [sigma]", col(&|x| format!("{:+.2}", x.n_s_pull)));
-    row("r limit", col(&|x| format!("< {}", fmt(x.r_limit))));
+    if rep.n_star_from == "given" {
+        row("N_*", col(&|x| numfmt::typed(x.n_star)));
+    } else {
+        row("N_*", num(&|x| x.n_star));
+    }
+    row(&format!("{f}_*"), num(&|x| x.phi_star));
+    row(&format!("{f}_end"), num(&|x| x.phi_end));
+    row("n_s", num(&|x| x.n_s));
+    row("r", num(&|x| x.r));
+    row("alpha_s", num(&|x| x.alpha_s));
+    row("n_t", num(&|x| x.n_t));
+    row("eps_V", num(&|x| x.eps_v));
+    row("eta_V", num(&|x| x.eta_v));
+    row("xi2_V", num(&|x| x.xi2_v));
+    row("delta chi", num(&|x| x.delta_chi));
+    row(&format!("delta {f}"), num(&|x| x.delta_phi));
+    row("N_* sqrt(r/8)", num(&|x| x.lyth_bound));
+    row("scale on V", num(&|x| x.potential_scale));
+    row("V_*^1/4 [GeV]", num(&|x| x.v_star_quarter_gev));
+    row("H_* [GeV]", num(&|x| x.h_star_gev));
+    row("H_*/2pi [GeV]", num(&|x| x.t_ds_gev));
+    row("V_end^1/4 [GeV]", num(&|x| x.v_end_quarter_gev));
+    // A pull is read to an absolute 0.01 sigma, not to significant digits.
+    row("n_s pull [sigma]", col(&|x| numfmt::signed_fixed(x.n_s_pull, 2)));
+    row("r limit", col(&|x| format!("< {}", numfmt::typed(x.r_limit))));
     row("verdict", col(&|x| x.verdict.to_string()));
     if p.iter().any(|x| x.pole_only.is_some()) {
-        row(
-            "pole alone: n_s",
-            col(&|x| x.pole_only.map(|q| format!("{:.6}", q.n_s)).unwrap_or_default()),
-        );
-        row(
-            "pole alone: r",
-            col(&|x| x.pole_only.map(|q| fmt(q.r)).unwrap_or_default()),
-        );
+        row("pole alone: n_s", opt(&|x| x.pole_only.map(|q| q.n_s)));
+        row("pole alone: r", opt(&|x| x.pole_only.map(|q| q.r)));
     }
     if p.iter().any(|x| x.exact.is_some()) {
-        let ex = |g: &dyn Fn(&crate::exact::ExactExtras) -> String| {
-            col(&|x: &Prediction| x.exact.as_ref().map(g).unwrap_or_default())
-        };
-        row("slow roll: n_s", ex(&|e| format!("{:.6}", e.n_s_slow_roll)));
-        row("slow roll: r", ex(&|e| fmt(e.r_slow_roll)));
-        row(&format!("slow roll: {f}_end"), ex(&|e| fmt(e.phi_end_slow_roll)));
-        row("eps_1, at exit", ex(&|e| fmt(e.eps_1)));
-        row("eps_2", ex(&|e| fmt(e.eps_2)));
-        row("eps_3", ex(&|e| fmt(e.eps_3)));
-        row("2nd order: n_s", ex(&|e| format!("{:.6}", e.n_s_second_order)));
-        row("2nd order: r", ex(&|e| fmt(e.r_second_order)));
-        row("freeze drift", ex(&|e| format!("{:.1e}", e.freeze_drift)));
+        let ex = |g: &dyn Fn(&crate::exact::ExactExtras) -> f64| opt(&|x: &Prediction| x.exact.as_ref().map(g));
+        row("slow roll: n_s", ex(&|e| e.n_s_slow_roll));
+        row("slow roll: r", ex(&|e| e.r_slow_roll));
+        row(&format!("slow roll: {f}_end"), ex(&|e| e.phi_end_slow_roll));
+        row("eps_1, at exit", ex(&|e| e.eps_1));
+        row("eps_2", ex(&|e| e.eps_2));
+        row("eps_3", ex(&|e| e.eps_3));
+        row("2nd order: n_s", ex(&|e| e.n_s_second_order));
+        row("2nd order: r", ex(&|e| e.r_second_order));
+        // a tolerance-like number: two digits, always scientific
+        row(
+            "freeze drift",
+            col(&|x| {
+                x.exact
+                    .as_ref()
+                    .map(|e| numfmt::scientific(e.freeze_drift, 2))
+                    .unwrap_or_default()
+            }),
+        );
     }
     if p.iter().any(|x| x.reheating.is_some()) {
-        row("N_reh", col(&|x| x.reheating.map(|m| fmt(m.n_reh)).unwrap_or_default()));
-        row(
-            "T_reh [GeV]",
-            col(&|x| x.reheating.map(|m| format!("{:.4e}", m.t_reh_gev)).unwrap_or_default()),
-        );
+        row("N_reh", opt(&|x| x.reheating.map(|m| m.n_reh)));
+        row("T_reh [GeV]", opt(&|x| x.reheating.map(|m| m.t_reh_gev)));
     }
     let w0 = rows.iter().map(|r| r.0.len()).max().unwrap_or(0);
     let wc: Vec<usize> = (0..p.len())

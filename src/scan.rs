@@ -416,9 +416,14 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> S
                 continue;
             }
             let name = if s.is_nan() {
-                format!("N = {n}")
+                format!("N = {}", crate::numfmt::typed(n))
             } else {
-                format!("N = {n}, {} = {}", axes[1].name, crate::ir::format_number(s))
+                format!(
+                    "N = {}, {} = {}",
+                    crate::numfmt::typed(n),
+                    axes[1].name,
+                    crate::numfmt::typed(s)
+                )
             };
             series.push(Series {
                 name,

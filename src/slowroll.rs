@@ -598,11 +598,7 @@ fn end_before_zero_of_v(ev: &mut Evaluator<'_>, xa: f64, xb: f64) -> Option<f64>
 }
 
 fn fmt_end(x: f64) -> String {
-    if x.is_infinite() {
-        if x > 0.0 { "inf" } else { "-inf" }.to_string()
-    } else {
-        crate::ir::format_number(x)
-    }
+    crate::numfmt::number(x)
 }
 
 /// dN/dphi = V K / V_phi (positive uphill).
@@ -750,8 +746,8 @@ pub fn phi_stars_with_accuracy(
     if out.iter().any(|x| x.is_nan()) {
         return Err(fail(
             format!(
-                "the branch gives only {:.3} e-folds between the end of inflation at {field} = {} and {field} = {}, fewer than the {need} asked",
-                n_prev,
+                "the branch gives only {} e-folds between the end of inflation at {field} = {} and {field} = {}, fewer than the {need} asked",
+                crate::numfmt::number(n_prev),
                 fmt_end(phi_end),
                 fmt_end(b.top)
             ),

@@ -177,3 +177,101 @@ fn misspelt_tables_and_settings() {
     }
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+/// The character columns of the decimal points in one line's whitespace-separated numbers.
+fn point_columns(line: &str) -> Vec<usize> {
+    let mut out = Vec::new();
+    let mut start = None;
+    for (i, c) in line.char_indices().chain([(line.len(), ' ')]) {
+        match (c.is_whitespace(), start) {
+            (false, None) => start = Some(i),
+            (true, Some(s)) => {
+                let cell = &line[s..i];
+                out.push(cell.find('.').map_or(i, |p| s + p));
+                start = None;
+            }
+            _ => {}
+        }
+    }
+    out
+}
+
+#[test]
+fn table_columns_align_on_the_decimal_point() {
+    let m = format!("{}/models/pole-order-2-quadratic.toml", env!("CARGO_MANIFEST_DIR"));
+    // five rows: the middle one is the minimum, where phi, chi and V are exactly 0
+    let r = efold(&["inspect", &m, "--table", "5"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let lines: Vec<&str> = r.stdout.lines().collect();
+    let head = lines
+        .iter()
+        .position(|l| l.split_whitespace().eq(["phi", "chi", "V"]))
+        .unwrap();
+    let rows = &lines[head + 1..head + 6];
+    let first = point_columns(rows[0]);
+    assert_eq!(first.len(), 3, "{}", r.stdout);
+    for row in rows {
+        assert!(!row.contains('e'), "this table is in the fixed range: {row}");
+        assert_eq!(point_columns(row), first, "decimal points move in\n{}", r.stdout);
+    }
+}
+
+#[test]
+fn labels_align_whatever_the_field_name() {
+    // V = exp(inflaton^2) - 1 overflows a double beyond |inflaton| = sqrt(ln(f64::MAX)) = 26.64
+    // (from the largest double, 1.797e308: ln = 709.78).
+    let r = efold(&["inspect", "--potential", "exp(inflaton^2) - 1", "--field", "inflaton"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let text = &r.stdout;
+    let value_column = |label: &str| {
+        let l = text
+            .lines()
+            .find(|l| l.starts_with(label))
+            .unwrap_or_else(|| panic!("{label}\n{text}"));
+        label.len() + (l[label.len()..].len() - l[label.len()..].trim_start().len())
+    };
+    let col = value_column("model");
+    for label in ["V(inflaton)", "K(inflaton)", "domain", "minimum", "chi = 0 at"] {
+        assert_eq!(value_column(label), col, "{label} in\n{text}");
+    }
+    assert!(
+        text.contains("  upper end: V exceeds double precision beyond inflaton = 26.6417"),
+        "{text}"
+    );
+    assert!(text.contains("  lower end: V exceeds double precision beyond inflaton = -26.6417"));
+}
+
+#[test]
+fn asymptotics_lines_are_columns() {
+    // ends of different lengths (-inf, a pole at a finite value) on the two lines
+    let r = efold(&[
+        "inspect",
+        "--potential",
+        "x^2",
+        "--kinetic",
+        "1/(1 - x)^2",
+        "--field",
+        "x",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let lines: Vec<&str> = r
+        .stdout
+        .lines()
+        .skip_while(|l| !l.starts_with("V(chi) toward each end"))
+        .skip(1)
+        .take_while(|l| !l.is_empty())
+        .collect();
+    assert_eq!(lines.len(), 2, "{}", r.stdout);
+    // where the kind and the confidence start on a line
+    let starts = |l: &str| {
+        let a = l.find("->").unwrap() + 2;
+        let end_start = a + (l[a..].len() - l[a..].trim_start().len());
+        let end_len = l[end_start..].find(' ').unwrap();
+        let after = &l[end_start + end_len..];
+        (
+            end_start + end_len + (after.len() - after.trim_start().len()),
+            l.find('[').unwrap(),
+        )
+    };
+    assert_eq!(starts(lines[0]), starts(lines[1]), "{}", r.stdout);
+}

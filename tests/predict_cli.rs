@@ -330,3 +330,47 @@ fn exact_method_and_spectrum() {
     assert_eq!(r.code, 2);
     insta::assert_snapshot!("spectrum_error_k_max", r.stderr);
 }
+
+/// Every row of the predict table is one style across its N_* columns: in fixed style each
+/// value has the same number of decimals, so the right-aligned columns put every value's
+/// decimal point the same distance from the column's right edge; in scientific style every
+/// value has the same mantissa length.
+#[test]
+fn table_rows_keep_one_style() {
+    for name in ["pole-order-2-quadratic", "quadratic-monomial", "nonminimal-quartic"] {
+        let r = efold(&["predict", &model(name)]);
+        assert_eq!(r.code, 0, "{name}: {}", r.stderr);
+        let table = r.stdout.lines().skip_while(|l| !l.starts_with("N_*")).skip(1);
+        let mut checked = 0;
+        for line in table.take_while(|l| !l.is_empty()) {
+            let cells: Vec<&str> = line.split_whitespace().rev().take(3).collect();
+            let numeric = cells.iter().all(|c| c.parse::<f64>().is_ok());
+            if !numeric || line.starts_with("n_s pull") {
+                continue; // words, `< 0.036`, and the pull (two decimals by design, checked below)
+            }
+            let shape = |c: &str| match c.split_once('e') {
+                Some((m, _)) => ('e', m.len() - m.find('.').unwrap_or(m.len())),
+                None => ('f', c.len() - c.find('.').unwrap_or(c.len())),
+            };
+            let s0 = shape(cells[0]);
+            for c in &cells {
+                assert_eq!(shape(c), s0, "{name}: mixed styles in `{line}`");
+            }
+            checked += 1;
+        }
+        assert!(checked >= 15, "{name}: only {checked} rows\n{}", r.stdout);
+        // n_s: fixed, six significant digits of a value near 0.96 (common practice: n_s is
+        // quoted to 1e-6 or coarser)
+        let ns = r.stdout.lines().find(|l| l.starts_with("n_s ")).unwrap();
+        for c in ns.split_whitespace().skip(1) {
+            assert_eq!(c.len(), "0.960314".len(), "{name}: {ns}");
+        }
+        let pull = r.stdout.lines().find(|l| l.starts_with("n_s pull")).unwrap();
+        for c in pull.split_whitespace().skip(3) {
+            assert!(
+                c.starts_with(['+', '-']) && c.len() - c.find('.').unwrap() == 3,
+                "{pull}"
+            );
+        }
+    }
+}
