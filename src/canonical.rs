@@ -22,6 +22,23 @@ pub fn chi_derivatives(ev: &mut Evaluator<'_>, phi: f64, order: usize) -> [f64; 
     chain_rule(&v, &s, order)
 }
 
+/// [`chi_derivatives`] of V scaled by the exact power of two that brings V at `phi` to [1, 2)
+/// ([`crate::numerics::pow2_normaliser`]), and that factor. The chain rule is linear in V, so
+/// the scaled derivatives are the unscaled ones times the factor, bit for bit wherever those
+/// are normal numbers; ratios such as V_chi / V keep their bits, and products such as
+/// V_chi V_chichichi no longer underflow or overflow when V itself is tiny or huge.
+pub fn chi_derivatives_normalised(ev: &mut Evaluator<'_>, phi: f64, order: usize) -> ([f64; 5], f64) {
+    let order = order.min(4);
+    ev.eval_jet(phi, order);
+    let mut v = *ev.jet_output(OUT_V);
+    let s = *ev.jet_output(OUT_SQRT_K);
+    let factor = crate::numerics::pow2_normaliser(v[0]);
+    for c in v.iter_mut() {
+        *c *= factor;
+    }
+    (chain_rule(&v, &s, order), factor)
+}
+
 /// The chain rule on truncated Taylor series: W_0 = V, W_{k+1} = (d W_k / d phi) / s, each
 /// step losing one order.
 pub fn chain_rule(v: &Jet, s: &Jet, order: usize) -> [f64; 5] {

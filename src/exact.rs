@@ -121,7 +121,10 @@ impl<'m> Background<'m> {
     pub fn attractor(&self, phi: f64) -> f64 {
         let mut ev = self.ev.borrow_mut();
         let v = ev.eval(phi);
-        -ev.output(OUT_DV) / (ev.output(OUT_SQRT_K) * v)
+        // V and V_phi scaled by the same exact power of two: the same bits, and no underflow
+        // of sqrt(K) V for a tiny V.
+        let f = crate::numerics::pow2_normaliser(v);
+        -(ev.output(OUT_DV) * f) / (ev.output(OUT_SQRT_K) * (v * f))
     }
 }
 
@@ -343,9 +346,18 @@ pub fn mode(
     let (n_prev, y_prev, steps_a) = leg(n_i, start, settings.k_stop * std::f64::consts::E)?;
     let (_, y_stop, steps_b) = leg(n_prev, y_prev, settings.k_stop)?;
     let steps = steps_a + steps_b;
+    // k scales as sqrt(V): for a tiny or huge overall scale of V, k^3 underflows or overflows
+    // while k^3 |R|^2 (which scales as V) does not. Then k |R|^2 is formed first.
+    let c = k.powi(3) / (2.0 * PI * PI);
+    let c_normal = c.is_normal();
     let power = |y: &[f64; 10]| {
-        let c = k.powi(3) / (2.0 * PI * PI);
-        (c * (y[2] * y[2] + y[3] * y[3]), 2.0 * c * (y[6] * y[6] + y[7] * y[7]))
+        let (rs, rt) = (y[2] * y[2] + y[3] * y[3], y[6] * y[6] + y[7] * y[7]);
+        if c_normal {
+            (c * rs, 2.0 * c * rt)
+        } else {
+            let kk = k * k / (2.0 * PI * PI);
+            ((k * rs) * kk, 2.0 * (k * rt) * kk)
+        }
     };
     let (p_s, p_t) = power(&y_stop);
     let (p_s_prev, _) = power(&y_prev);
