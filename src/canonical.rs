@@ -962,6 +962,8 @@ pub struct Asymptote {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub chi_distance: Option<f64>,
     /// Relative change of the main number between the two best sample points: how certain.
+    /// Infinite (`"inf"` in JSON) when there was no estimate to compare.
+    #[serde(serialize_with = "ser_f64")]
     pub uncertainty: f64,
     /// "high" (uncertainty < 1e-6), "medium" (< 1e-3) or "low".
     pub confidence: &'static str,

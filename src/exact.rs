@@ -607,6 +607,7 @@ pub fn spectrum(
             })
         })
         .collect::<Result<_, AnalysisError>>()?;
+    check_rows(&rows, scale)?;
     let peak = *rows
         .iter()
         .max_by(|a, b| a.p_zeta.total_cmp(&b.p_zeta))
@@ -624,6 +625,37 @@ pub fn spectrum(
         peak,
         peak_slow_roll,
     })
+}
+
+/// The last check on a spectrum: every number of every row, and the scale, must be finite (a
+/// NaN or an overflow is an error naming the quantity and the mode, never a `null`).
+fn check_rows(rows: &[SpectrumRow], scale: f64) -> Result<(), AnalysisError> {
+    if !scale.is_finite() {
+        return Err(fail(
+            format!("the factor on V that gives the observed A_s is not a finite number ({scale})"),
+            &["P_zeta at the pivot is zero or not finite: check the potential"],
+        ));
+    }
+    for r in rows {
+        let numbers = [
+            ("p_zeta", r.p_zeta),
+            ("p_t", r.p_t),
+            ("p_zeta_slow_roll", r.p_zeta_slow_roll),
+            ("n_before_end", r.n_before_end),
+            ("drift", r.drift),
+        ];
+        if let Some((key, x)) = numbers.into_iter().find(|(_, x)| !x.is_finite()) {
+            return Err(fail(
+                format!(
+                    "{key} is not a finite number ({x}) for the mode k = {} Mpc^-1, {} e-folds before the end",
+                    crate::ir::format_number(r.k_mpc),
+                    crate::ir::format_number(r.n_before_end)
+                ),
+                &["V or K is not smooth enough where this mode crosses the horizon, or the numbers leave double precision"],
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// The spectrum as an aligned table, with the peak.
@@ -772,4 +804,34 @@ pub fn start_with_room(
         format!("could not start the exact background {n_needed:.1} e-folds before its end"),
         &["ask for fewer e-folds, or a smaller k range"],
     ))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_non_finite_spectrum_row_is_an_error() {
+        let row = SpectrumRow {
+            k_mpc: 0.05,
+            p_zeta: 2.1e-9,
+            p_t: 1e-11,
+            p_zeta_slow_roll: 2.0e-9,
+            n_before_end: 55.0,
+            drift: 1e-7,
+        };
+        assert!(check_rows(&[row], 1e-10).is_ok());
+        let bad = SpectrumRow {
+            p_zeta_slow_roll: f64::INFINITY,
+            ..row
+        };
+        let e = check_rows(&[row, bad], 1e-10).unwrap_err();
+        assert!(
+            e.message
+                .starts_with("p_zeta_slow_roll is not a finite number (inf) for the mode k = 0.05"),
+            "{}",
+            e.message
+        );
+        assert!(check_rows(&[row], f64::NAN).is_err());
+    }
 }

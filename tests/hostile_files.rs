@@ -110,3 +110,26 @@ fn the_scale_of_v_does_not_matter_to_the_exact_route() {
         );
     }
 }
+
+/// A wiggle of amplitude 1e-250 and frequency 1e80 leaves V, V' and V'' as they are but makes
+/// the fourth derivative overflow: omega3_V is then not a number, and that is an error naming
+/// it and N_*, not a `null` in the JSON.
+#[test]
+fn a_non_finite_prediction_is_an_error() {
+    let wiggle = "phi^2 + 1e-250*sin(1e80*phi)";
+    for format in ["json", "csv", "text"] {
+        let r = efold(&["predict", "--potential", wiggle, "--format", format]);
+        assert_eq!(r.code, 2, "{format}: {}", r.stdout);
+        assert!(r.stdout.is_empty(), "{format}: {}", r.stdout);
+        assert!(r.stderr.contains("omega3_v is not a finite number"), "{}", r.stderr);
+    }
+    let r = efold(&["predict", "--potential", wiggle]);
+    insta::assert_snapshot!("hostile_non_finite_prediction", r.stderr);
+    let r = efold(&["predict", "--potential", wiggle, "--method", "exact", "--efolds", "55"]);
+    assert_eq!(r.code, 2, "{}", r.stdout);
+    assert!(
+        r.stderr.contains("omega3_v is not a finite number") && r.stderr.contains("N_* = 55"),
+        "{}",
+        r.stderr
+    );
+}
