@@ -211,14 +211,71 @@ struct RawModel {
 struct RawSettings {
     range: Option<toml::Spanned<Vec<toml::Spanned<RawValue>>>>,
     start: Option<toml::Spanned<String>>,
-    efolds: Option<toml::Spanned<Vec<f64>>>,
+    efolds: Option<toml::Spanned<Vec<toml::Spanned<f64>>>>,
 }
 
-#[derive(Deserialize, Clone, Debug)]
-#[serde(untagged)]
+/// A value in [params], [scan] or `range`: a number, or a string holding an expression.
+#[derive(Clone, Debug)]
 enum RawValue {
     Number(f64),
     Text(String),
+}
+
+impl<'de> Deserialize<'de> for RawValue {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<RawValue, D::Error> {
+        struct Visitor;
+        impl serde::de::Visitor<'_> for Visitor {
+            type Value = RawValue;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("a number or a string expression")
+            }
+            fn visit_f64<E>(self, x: f64) -> Result<RawValue, E> {
+                Ok(RawValue::Number(x))
+            }
+            fn visit_i64<E>(self, x: i64) -> Result<RawValue, E> {
+                Ok(RawValue::Number(x as f64))
+            }
+            fn visit_u64<E>(self, x: u64) -> Result<RawValue, E> {
+                Ok(RawValue::Number(x as f64))
+            }
+            fn visit_str<E>(self, s: &str) -> Result<RawValue, E> {
+                Ok(RawValue::Text(s.to_string()))
+            }
+        }
+        d.deserialize_any(Visitor)
+    }
+}
+
+/// A number written in the file (`nan`, `inf` are TOML numbers) that must be finite: an error
+/// at its place otherwise. `what` names the key.
+fn finite_number(
+    x: f64,
+    span: std::ops::Range<usize>,
+    what: &str,
+    hint: &str,
+    text: &str,
+    file: &str,
+) -> Result<(), ModelError> {
+    if x.is_finite() {
+        return Ok(());
+    }
+    let shown = if x.is_nan() {
+        "nan"
+    } else if x > 0.0 {
+        "inf"
+    } else {
+        "-inf"
+    };
+    Err(ModelError::in_file(
+        Diagnostic::new(format!("{what}: `{shown}` is not a finite number"))
+            .with_span(
+                Span::new(span.start, span.end.max(span.start + 1)),
+                "not a finite number",
+            )
+            .with_hint(hint),
+        file,
+        text,
+    ))
 }
 
 /// The span of a quoted TOML string's contents, if the contents appear verbatim in the file
@@ -259,13 +316,20 @@ fn key_span(file: &str, section: Option<&str>, key: &str) -> Option<Span> {
 
 impl ModelSpec {
     /// Reads a model file.
+    /// Reads a model file of at most the default [`crate::config::Limits::max_file_bytes`].
     pub fn load(path: &Path) -> Result<ModelSpec, ModelError> {
+        ModelSpec::load_with(path, &crate::config::Limits::default())
+    }
+
+    /// Reads a model file of at most `limits.max_file_bytes` bytes (no more is read).
+    pub fn load_with(path: &Path, limits: &crate::config::Limits) -> Result<ModelSpec, ModelError> {
         let name = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            ModelError::plain(
-                Diagnostic::new(format!("cannot read model file `{name}`: {e}"))
-                    .with_hint("give the path of a .toml model file, or the model inline with --potential"),
-            )
+        let text = limits.read_file(path).map_err(|e| {
+            let mut d = Diagnostic::new(format!("cannot read model file `{name}`: {e}"));
+            if let crate::config::ReadError::TooLarge(_) = e {
+                d = d.with_hint("a model file is a few lines of TOML: check the path");
+            }
+            ModelError::plain(d.with_hint("give the path of a .toml model file, or the model inline with --potential"))
         })?;
         let mut spec = ModelSpec::from_toml(&text, &name)?;
         if spec.name.is_empty() {
@@ -305,6 +369,16 @@ impl ModelSpec {
         let mut params = Vec::new();
         for (name, value) in &raw.params {
             check_identifier(name, text, file, Some("params"))?;
+            if let RawValue::Number(x) = value.get_ref() {
+                finite_number(
+                    *x,
+                    value.span(),
+                    &format!("parameter `{name}`"),
+                    "write a finite number, or an expression in quotes such as \"1/3\"",
+                    text,
+                    file,
+                )?;
+            }
             params.push(ParamSpec {
                 name: name.clone(),
                 value: raw_text(value, &format!("params.{name}")),
@@ -333,6 +407,21 @@ impl ModelSpec {
             None => None,
             Some(r) if r.get_ref().len() == 2 => {
                 let v = r.get_ref();
+                // An end may be infinite (`inf`, `-inf`), never NaN.
+                for end in v {
+                    if let RawValue::Number(x) = end.get_ref() {
+                        if x.is_nan() {
+                            finite_number(
+                                *x,
+                                end.span(),
+                                "range",
+                                "write two numbers or expressions; `-inf` and `inf` are allowed",
+                                text,
+                                file,
+                            )?;
+                        }
+                    }
+                }
                 Some((raw_text(&v[0], "settings.range"), raw_text(&v[1], "settings.range")))
             }
             Some(r) => {
@@ -379,7 +468,10 @@ impl ModelSpec {
             params,
             range,
             start,
-            efolds: settings.efolds.map(|e| e.into_inner()),
+            efolds: match settings.efolds {
+                None => None,
+                Some(e) => Some(efolds(e.into_inner(), text, file)?),
+            },
         })
     }
 
@@ -409,6 +501,26 @@ impl ModelSpec {
     }
 }
 
+/// The default N_* values: each a finite, positive number of e-folds.
+fn efolds(values: Vec<toml::Spanned<f64>>, text: &str, file: &str) -> Result<Vec<f64>, ModelError> {
+    let mut out = Vec::with_capacity(values.len());
+    for v in values {
+        let (span, n) = (v.span(), *v.get_ref());
+        finite_number(n, span.clone(), "efolds", "write `efolds = [50, 55, 60]`", text, file)?;
+        if n <= 0.0 {
+            return Err(ModelError::in_file(
+                Diagnostic::new(format!("efolds: `{n}` is not a positive number of e-folds"))
+                    .with_span(Span::new(span.start, span.end), "not positive")
+                    .with_hint("write `efolds = [50, 55, 60]`"),
+                file,
+                text,
+            ));
+        }
+        out.push(n);
+    }
+    Ok(out)
+}
+
 fn scan_range(range: &toml::Spanned<Vec<RawValue>>, text: &str, file: &str) -> Result<(f64, f64, bool), ModelError> {
     let bad = |why: &str| {
         ModelError::in_file(
@@ -425,8 +537,8 @@ fn scan_range(range: &toml::Spanned<Vec<RawValue>>, text: &str, file: &str) -> R
         RawValue::Text(_) => None,
     };
     let (lo, hi) = match (v.first().and_then(num), v.get(1).and_then(num)) {
-        (Some(lo), Some(hi)) if lo < hi => (lo, hi),
-        _ => return Err(bad("two increasing numbers expected")),
+        (Some(lo), Some(hi)) if lo < hi && lo.is_finite() && hi.is_finite() => (lo, hi),
+        _ => return Err(bad("two increasing finite numbers expected")),
     };
     let log = match v.get(2) {
         None => false,
@@ -752,5 +864,52 @@ efolds = [50, 60]
         assert!(e.contains("unknown name `a`"), "{e}");
         let e = err("potential = \"phi^2\n");
         assert!(e.contains("malformed model file"), "{e}");
+    }
+    #[test]
+    fn non_finite_and_mistyped_values_are_errors_at_their_place() {
+        let e = err("potential = \"a*phi^2\"\n[params]\na = nan\n");
+        assert!(
+            e.contains("parameter `a`: `nan` is not a finite number") && e.contains("m.toml:3:5"),
+            "{e}"
+        );
+        let e = err("potential = \"a*phi^2\"\n[params]\na = -inf\n");
+        assert!(e.contains("`-inf` is not a finite number"), "{e}");
+        let e = err("potential = \"a*phi^2\"\n[params]\na = true\n");
+        assert!(
+            e.contains("expected a number or a string expression") && e.contains("m.toml:3:5"),
+            "{e}"
+        );
+        let e = err("potential = \"phi^2\"\n[settings]\nefolds = [50, inf]\n");
+        assert!(
+            e.contains("efolds: `inf` is not a finite number") && e.contains("m.toml:3:15"),
+            "{e}"
+        );
+        let e = err("potential = \"phi^2\"\n[settings]\nefolds = [0]\n");
+        assert!(e.contains("not a positive number of e-folds"), "{e}");
+        let e = err("potential = \"phi^2\"\n[settings]\nrange = [nan, 1]\n");
+        assert!(e.contains("range: `nan` is not a finite number"), "{e}");
+        let e = err("potential = \"a*phi^2\"\n[params]\na = 1\n[scan]\na = [1, inf]\n");
+        assert!(e.contains("two increasing finite numbers expected"), "{e}");
+        // Infinite range ends are allowed.
+        let spec = ModelSpec::from_toml("potential = \"phi^2\"\n[settings]\nrange = [0, inf]\n", "m.toml").unwrap();
+        let m = Model::build(&spec, &Config::default()).unwrap();
+        assert_eq!(m.range, Some((0.0, f64::INFINITY)));
+    }
+
+    #[test]
+    fn model_files_beyond_the_size_limit_are_refused() {
+        let dir = std::env::temp_dir().join(format!("efold-model-limit-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("big.toml");
+        let text = format!("potential = \"phi^2\"\n# {}\n", "x".repeat(100));
+        std::fs::write(&path, &text).unwrap();
+        let limits = crate::config::Limits {
+            max_file_bytes: 64,
+            ..Default::default()
+        };
+        let e = ModelSpec::load_with(&path, &limits).unwrap_err().render();
+        assert!(e.contains("larger than the limit of 64 bytes"), "{e}");
+        assert!(ModelSpec::load(&path).is_ok());
+        std::fs::remove_dir_all(&dir).ok();
     }
 }

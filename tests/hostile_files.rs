@@ -133,3 +133,117 @@ fn a_non_finite_prediction_is_an_error() {
         r.stderr
     );
 }
+
+/// A scratch directory for one test.
+fn scratch(name: &str) -> std::path::PathBuf {
+    let dir = std::env::temp_dir().join(format!("efold-hostile-{name}-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+const DATA: &str = include_str!("../data/planck2018-bk18.toml");
+
+/// Runs `predict` on a shipped model with the built-in data file edited; returns stderr with
+/// the scratch path replaced.
+fn predict_with_data(name: &str, from: &str, to: &str) -> String {
+    assert!(DATA.contains(from), "{from}");
+    let dir = scratch(name);
+    let path = dir.join("data.toml");
+    std::fs::write(&path, DATA.replacen(from, to, 1)).unwrap();
+    let out = dir.join("out.json");
+    let r = efold(&[
+        "predict",
+        "models/quadratic-monomial.toml",
+        "--data",
+        path.to_str().unwrap(),
+        "--format",
+        "json",
+    ]);
+    assert_eq!(r.code, 2, "{to}: {}", r.stdout);
+    assert!(r.stdout.is_empty());
+    assert!(!out.exists());
+    let text = r.stderr.replace(&dir.display().to_string(), "TMP");
+    std::fs::remove_dir_all(&dir).ok();
+    text
+}
+
+#[test]
+fn bad_data_files_are_errors_at_the_value() {
+    insta::assert_snapshot!(
+        "hostile_data_zero_sigma",
+        predict_with_data("sigma", "sigma = 0.0042", "sigma = 0")
+    );
+    insta::assert_snapshot!(
+        "hostile_data_nan_mean",
+        predict_with_data("nan", "mean = 0.9649", "mean = nan")
+    );
+    insta::assert_snapshot!(
+        "hostile_data_zero_planck_mass",
+        predict_with_data(
+            "mass",
+            "reduced_planck_mass_gev = 2.435e18",
+            "reduced_planck_mass_gev = 0"
+        )
+    );
+    insta::assert_snapshot!(
+        "hostile_data_negative_r_limit",
+        predict_with_data("rlim", "upper = 0.036", "upper = -0.036")
+    );
+    insta::assert_snapshot!(
+        "hostile_data_thresholds_in_wrong_order",
+        predict_with_data("order", "excluded_sigma = 3.0", "excluded_sigma = 1.0")
+    );
+    insta::assert_snapshot!(
+        "hostile_data_confidence_as_percent",
+        predict_with_data("conf", "confidence = 0.95", "confidence = 95")
+    );
+}
+
+/// Writes a model file into a scratch directory and runs `inspect` on it.
+fn inspect_file(name: &str, text: &str) -> (i32, String) {
+    let dir = scratch(name);
+    let path = dir.join("m.toml");
+    std::fs::write(&path, text).unwrap();
+    let r = efold(&["inspect", path.to_str().unwrap()]);
+    let stderr = r.stderr.replace(&dir.display().to_string(), "TMP");
+    std::fs::remove_dir_all(&dir).ok();
+    (r.code, stderr)
+}
+
+#[test]
+fn non_finite_and_mistyped_model_values_are_errors_at_their_line() {
+    let (code, e) = inspect_file("nan", "potential = \"a*phi^2\"\n[params]\na = nan\n");
+    assert_eq!(code, 2);
+    insta::assert_snapshot!("hostile_model_nan_param", e);
+    let (code, e) = inspect_file("inf", "potential = \"phi^2\"\n[settings]\nefolds = [50, inf]\n");
+    assert_eq!(code, 2);
+    insta::assert_snapshot!("hostile_model_inf_efolds", e);
+    let (code, e) = inspect_file("type", "potential = \"a*phi^2\"\n[params]\na = true\n");
+    assert_eq!(code, 2);
+    insta::assert_snapshot!("hostile_model_wrong_type", e);
+}
+
+#[test]
+fn endless_and_oversized_files_are_refused() {
+    if std::path::Path::new("/dev/zero").exists() {
+        let r = efold(&["inspect", "/dev/zero"]);
+        assert_eq!(r.code, 2);
+        insta::assert_snapshot!("hostile_model_dev_zero", r.stderr);
+        let r = efold(&["predict", "models/quadratic-monomial.toml", "--data", "/dev/zero"]);
+        assert_eq!(r.code, 2);
+        assert!(
+            r.stderr.contains("larger than the limit of 1048576 bytes"),
+            "{}",
+            r.stderr
+        );
+    }
+    // 1 MiB and one byte of comment after a valid model.
+    let big = format!("potential = \"phi^2\"\n#{}\n", "x".repeat(1 << 20));
+    let (code, e) = inspect_file("big", &big);
+    assert_eq!(code, 2);
+    assert!(e.contains("larger than the limit of 1048576 bytes"), "{e}");
+    // Just under the limit is read.
+    let fits = format!("potential = \"phi^2\"\n#{}\n", "x".repeat((1 << 20) - 30));
+    let (code, e) = inspect_file("fits", &fits);
+    assert_eq!(code, 0, "{e}");
+}
