@@ -529,7 +529,16 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
     let probes: Vec<f64> = (1..256).map(|i| map(i as f64 / 256.0)).collect();
     let mut vk = vec![(0.0, 0.0); probes.len()];
     ev.eval_each(&probes, |i, out| vk[i] = (out[OUT_V], out[OUT_K]));
-    for i in 1..probes.len() - 1 {
+    // Toward an infinite end, V or K may leave double precision (V0 (1 - exp(-b phi))^2 at
+    // phi -> -inf): the end is then where they do, of the kind the survey gives it.
+    let ends = overflowing_ends(ev, lo, hi, &probes, &vk);
+    let (lo, hi) = (ends[0].map_or(lo, |e| e.0), ends[1].map_or(hi, |e| e.0));
+    let keep: Vec<usize> = (0..probes.len())
+        .filter(|&i| probes[i] > lo && probes[i] < hi)
+        .collect();
+    let probes: Vec<f64> = keep.iter().map(|&i| probes[i]).collect();
+    let vk: Vec<(f64, f64)> = keep.iter().map(|&i| vk[i]).collect();
+    for i in 1..probes.len().saturating_sub(1) {
         let k3 = [vk[i - 1].1, vk[i].1, vk[i + 1].1];
         if k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
             continue;
@@ -583,8 +592,8 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
     let interval = Interval {
         lo,
         hi,
-        lo_kind: classify(ev, lo, 1.0),
-        hi_kind: classify(ev, hi, -1.0),
+        lo_kind: ends[0].map_or_else(|| classify(ev, lo, 1.0), |e| e.1),
+        hi_kind: ends[1].map_or_else(|| classify(ev, hi, -1.0), |e| e.1),
     };
     Ok(Domain {
         interval,
@@ -592,6 +601,41 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         negative_v: Vec::new(),
         notes: Vec::new(),
     })
+}
+
+/// For each infinite end of a range `[lo, hi]`: if the probes from that end inward are all
+/// infinite in V or K up to the first good one (an overflow, not a singularity inside), the
+/// point where they stop being finite and its kind, located as the survey locates them.
+fn overflowing_ends(
+    ev: &mut Evaluator<'_>,
+    lo: f64,
+    hi: f64,
+    probes: &[f64],
+    vk: &[(f64, f64)],
+) -> [Option<(f64, EndKind)>; 2] {
+    let st: Vec<Status> = vk.iter().map(|&(v, k)| classify_status(v, k)).collect();
+    let overflow = |s: &Status| matches!(s, Status::VNotFinite | Status::KNotFinite);
+    let mut out = [None, None];
+    let n = probes.len();
+    if lo == f64::NEG_INFINITY {
+        if let Some(j) = st.iter().position(|s| *s == Status::Good) {
+            if j > 0 && st[..j].iter().all(overflow) {
+                let x = bisect_status(ev, probes[j], probes[j - 1]);
+                let kind = end_kind_beyond(ev, x, probes[j - 1], st[j - 1]);
+                out[0] = Some(refine_end(ev, x, 1.0, kind));
+            }
+        }
+    }
+    if hi == f64::INFINITY {
+        if let Some(j) = st.iter().rposition(|s| *s == Status::Good) {
+            if j + 1 < n && st[j + 1..].iter().all(overflow) {
+                let x = bisect_status(ev, probes[j], probes[j + 1]);
+                let kind = end_kind_beyond(ev, x, probes[j + 1], st[j + 1]);
+                out[1] = Some(refine_end(ev, x, -1.0, kind));
+            }
+        }
+    }
+    out
 }
 
 /// What a finite end of a given range is, from the local powers of K and V approaching it:

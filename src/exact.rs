@@ -750,6 +750,32 @@ pub fn figure(sp: &Spectrum, name: &str) -> String {
     crate::plot::render(name, &[panel])
 }
 
+/// A start given by the user must lie inside the domain (beyond a pole of K, or where K <= 0
+/// or V is not finite, there is no background to integrate).
+fn check_start(model: &Model, phi: f64) -> Result<(), AnalysisError> {
+    let domain = crate::canonical::find_domain(model, &mut model.evaluator())?;
+    let iv = domain.interval;
+    if iv.contains(phi) {
+        return Ok(());
+    }
+    let f = model.field();
+    let n = |x: f64| crate::inspect::fmt_number(x, 8, 5);
+    Err(fail(
+        format!(
+            "the start {f} = {} lies outside the domain {} < {f} < {} (lower end: {}; upper end: {})",
+            n(phi),
+            n(iv.lo),
+            n(iv.hi),
+            iv.lo_kind.words(),
+            iv.hi_kind.words()
+        ),
+        &[
+            "start inside the domain, on the branch you want (`efold inspect` shows the domain)",
+            "or leave out --start-phi to start on the slow-roll attractor",
+        ],
+    ))
+}
+
 /// Starts the exact background on the slow-roll attractor with at least `n_needed` exact
 /// e-folds before its end. `phi_at(N)` gives the slow-roll field value N e-folds before the
 /// slow-roll end; where slow roll overestimates the e-folds (an ultra-slow-roll stretch is
@@ -762,6 +788,7 @@ pub fn start_with_room(
 ) -> Result<(f64, Run), AnalysisError> {
     let bg = Background::new(model);
     if let Some((phi, velocity)) = settings.start {
+        check_start(model, phi)?;
         let pi = match velocity {
             Some(dphi) => {
                 let mut ev = model.evaluator();

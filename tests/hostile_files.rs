@@ -247,3 +247,97 @@ fn endless_and_oversized_files_are_refused() {
     let (code, e) = inspect_file("fits", &fits);
     assert_eq!(code, 0, "{e}");
 }
+
+/// An infinite end where V overflows double precision is an end of the kind the survey gives
+/// it, not an error: V0 (1 - exp(-b phi))^2 overflows where the square does, where
+/// exp(-b phi) passes sqrt(f64::MAX), phi = -ln(f64::MAX) / (2 b) = -434.65, with or without
+/// a range.
+#[test]
+fn an_infinite_range_end_where_v_overflows_is_an_end() {
+    let survey = json(&["inspect", "models/exponential-plateau.toml", "--format", "json"]);
+    let ranged = json(&[
+        "inspect",
+        "models/exponential-plateau.toml",
+        "--range",
+        "-inf",
+        "10",
+        "--format",
+        "json",
+    ]);
+    let (a, b) = (&survey["domain"]["interval"], &ranged["domain"]["interval"]);
+    assert_eq!(a["lo_kind"]["kind"], "v-overflow");
+    assert_eq!(b["lo_kind"]["kind"], "v-overflow");
+    assert_eq!(num(a, "lo"), num(b, "lo"));
+    let b_param = (2.0f64 / 3.0).sqrt();
+    close(num(b, "lo"), -f64::MAX.ln() / (2.0 * b_param), 1e-9, "overflow point");
+    assert_eq!(num(b, "hi"), 10.0);
+    assert_eq!(b["hi_kind"]["kind"], "range");
+    // The prediction on the branch from 10 down is that of the whole plateau (the field never
+    // goes above phi_* ~ 5.5).
+    let whole = json(&["predict", "models/exponential-plateau.toml", "--format", "json"]);
+    let part = json(&[
+        "predict",
+        "models/exponential-plateau.toml",
+        "--range",
+        "-inf",
+        "10",
+        "--format",
+        "json",
+    ]);
+    for (p, q) in part["predictions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .zip(whole["predictions"].as_array().unwrap())
+    {
+        for key in ["phi_star", "n_s", "r", "alpha_s"] {
+            close(num(p, key), num(q, key), 1e-9, key);
+        }
+    }
+    // The same on the other side: K = exp(phi^2) overflows at |phi| = 26.64, which the survey
+    // reports as the ends of the domain.
+    let k = json(&[
+        "inspect",
+        "--potential",
+        "phi^2",
+        "--kinetic",
+        "exp(phi^2)",
+        "--range",
+        "0",
+        "inf",
+        "--format",
+        "json",
+    ]);
+    let hi = num(&k["domain"]["interval"], "hi");
+    // exp(x^2) overflows at x^2 = ln(f64::MAX).
+    close(hi, f64::MAX.ln().sqrt(), 1e-9, "K overflow");
+}
+
+/// --start-phi outside the domain says so, with the domain.
+#[test]
+fn a_start_outside_the_domain_is_named() {
+    let r = efold(&[
+        "predict",
+        "models/pole-order-2-quadratic.toml",
+        "--method",
+        "exact",
+        "--start-phi",
+        "3",
+    ]);
+    assert_eq!(r.code, 2);
+    insta::assert_snapshot!("hostile_start_outside_domain", r.stderr);
+    let r = efold(&[
+        "spectrum",
+        "models/pole-order-2-quadratic.toml",
+        "--start-phi",
+        "-2.5",
+        "--points",
+        "3",
+    ]);
+    assert_eq!(r.code, 2);
+    assert!(
+        r.stderr.contains("the start phi = -2.5 lies outside the domain"),
+        "{}",
+        r.stderr
+    );
+}
