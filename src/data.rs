@@ -170,7 +170,8 @@ impl DataSet {
 
     /// Every value checked: finite; errors, the pivot, masses, temperatures, degrees of freedom
     /// and unit conversions positive; the r limit positive, its confidence in (0, 1); the
-    /// verdict thresholds 0 < tension_sigma < excluded_sigma; A_s a positive double. The
+    /// verdict thresholds 0 < tension_sigma < excluded_sigma; A_s, k_* and T_0 in reduced
+    /// Planck units positive normal doubles. The
     /// diagnostic points at the value in `text` when the key is on a line of its own under its
     /// table.
     fn validate(&self, text: &str) -> Result<(), Box<Diagnostic>> {
@@ -228,6 +229,29 @@ impl DataSet {
                     crate::ir::format_number(self.verdict.tension_sigma)
                 ),
                 "a prediction is in tension beyond tension_sigma and excluded beyond excluded_sigma, e.g. 2 and 3",
+            ));
+        }
+        // The derived scales must be usable too (a megaparsec of 1e308 m underflows k_*).
+        let k_star = self.k_star_planck();
+        if !(k_star.is_normal() && k_star > 0.0) {
+            return Err(bad_value(
+                text,
+                "pivot",
+                "k_mpc",
+                self.pivot.k_mpc,
+                &format!("gives k_* = {k_star:e} in reduced Planck units with these [units], not a usable scale"),
+                "check the pivot and the unit conversions: k_* is k_mpc hbar c / (Mpc M_p)",
+            ));
+        }
+        let t0 = self.t0_planck();
+        if !(t0.is_normal() && t0 > 0.0) {
+            return Err(bad_value(
+                text,
+                "today",
+                "cmb_temperature_k",
+                self.today.cmb_temperature_k,
+                &format!("gives T_0 = {t0:e} in reduced Planck units with these [units], not a usable temperature"),
+                "check the temperature and the unit conversions: T_0 is T k_B / M_p",
             ));
         }
         let a_s = self.a_s();
@@ -432,5 +456,13 @@ mod tests {
             assert!(e.contains(&format!("| {to}")), "{to}: {e}");
             assert!(e.contains(&"^".repeat(value.len())), "{to}: {e}");
         }
+        // Derived scales out of double precision: pointed at the value they derive from.
+        let e = error("megaparsec_m = 3.0856775814913673e22", "megaparsec_m = 1e308");
+        assert!(
+            e.contains("`k_mpc` in [pivot] gives k_* = ") && e.contains("| k_mpc = 0.05"),
+            "{e}"
+        );
+        let e = error("boltzmann_gev_per_k = 8.617333262e-14", "boltzmann_gev_per_k = 1e-300");
+        assert!(e.contains("`cmb_temperature_k` in [today] gives T_0 = "), "{e}");
     }
 }
