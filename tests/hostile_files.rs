@@ -341,3 +341,20 @@ fn a_start_outside_the_domain_is_named() {
         r.stderr
     );
 }
+
+/// The spectrum of 1e-300 phi^2, scaled to the observed A_s, is that of phi^2: the scale of V
+/// cancels between P_zeta and the factor on V.
+#[test]
+fn the_scale_of_v_does_not_matter_to_the_spectrum() {
+    let rows = |p: &str| {
+        let v = json(&["spectrum", "--potential", p, "--points", "3", "--format", "json"]);
+        v["spectrum"]["rows"].as_array().unwrap().clone()
+    };
+    let (base, tiny) = (rows("phi^2"), rows("1e-300*phi^2"));
+    assert_eq!(base.len(), 3);
+    for (a, b) in base.iter().zip(&tiny) {
+        for key in ["k_mpc", "p_zeta", "p_t", "p_zeta_slow_roll", "n_before_end"] {
+            close(num(b, key), num(a, key), 1e-9, key);
+        }
+    }
+}
