@@ -22,6 +22,23 @@ pub fn chi_derivatives(ev: &mut Evaluator<'_>, phi: f64, order: usize) -> [f64; 
     chain_rule(&v, &s, order)
 }
 
+/// [`chi_derivatives`] of V scaled by the exact power of two that brings V at `phi` to [1, 2)
+/// ([`crate::numerics::pow2_normaliser`]), and that factor. The chain rule is linear in V, so
+/// the scaled derivatives are the unscaled ones times the factor, bit for bit wherever those
+/// are normal numbers; ratios such as V_chi / V keep their bits, and products such as
+/// V_chi V_chichichi no longer underflow or overflow when V itself is tiny or huge.
+pub fn chi_derivatives_normalised(ev: &mut Evaluator<'_>, phi: f64, order: usize) -> ([f64; 5], f64) {
+    let order = order.min(4);
+    ev.eval_jet(phi, order);
+    let mut v = *ev.jet_output(OUT_V);
+    let s = *ev.jet_output(OUT_SQRT_K);
+    let factor = crate::numerics::pow2_normaliser(v[0]);
+    for c in v.iter_mut() {
+        *c *= factor;
+    }
+    (chain_rule(&v, &s, order), factor)
+}
+
 /// The chain rule on truncated Taylor series: W_0 = V, W_{k+1} = (d W_k / d phi) / s, each
 /// step losing one order.
 pub fn chain_rule(v: &Jet, s: &Jet, order: usize) -> [f64; 5] {
@@ -512,7 +529,16 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
     let probes: Vec<f64> = (1..256).map(|i| map(i as f64 / 256.0)).collect();
     let mut vk = vec![(0.0, 0.0); probes.len()];
     ev.eval_each(&probes, |i, out| vk[i] = (out[OUT_V], out[OUT_K]));
-    for i in 1..probes.len() - 1 {
+    // Toward an infinite end, V or K may leave double precision (V0 (1 - exp(-b phi))^2 at
+    // phi -> -inf): the end is then where they do, of the kind the survey gives it.
+    let ends = overflowing_ends(ev, lo, hi, &probes, &vk);
+    let (lo, hi) = (ends[0].map_or(lo, |e| e.0), ends[1].map_or(hi, |e| e.0));
+    let keep: Vec<usize> = (0..probes.len())
+        .filter(|&i| probes[i] > lo && probes[i] < hi)
+        .collect();
+    let probes: Vec<f64> = keep.iter().map(|&i| probes[i]).collect();
+    let vk: Vec<(f64, f64)> = keep.iter().map(|&i| vk[i]).collect();
+    for i in 1..probes.len().saturating_sub(1) {
         let k3 = [vk[i - 1].1, vk[i].1, vk[i + 1].1];
         if k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
             continue;
@@ -566,8 +592,8 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
     let interval = Interval {
         lo,
         hi,
-        lo_kind: classify(ev, lo, 1.0),
-        hi_kind: classify(ev, hi, -1.0),
+        lo_kind: ends[0].map_or_else(|| classify(ev, lo, 1.0), |e| e.1),
+        hi_kind: ends[1].map_or_else(|| classify(ev, hi, -1.0), |e| e.1),
     };
     Ok(Domain {
         interval,
@@ -575,6 +601,41 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         negative_v: Vec::new(),
         notes: Vec::new(),
     })
+}
+
+/// For each infinite end of a range `[lo, hi]`: if the probes from that end inward are all
+/// infinite in V or K up to the first good one (an overflow, not a singularity inside), the
+/// point where they stop being finite and its kind, located as the survey locates them.
+fn overflowing_ends(
+    ev: &mut Evaluator<'_>,
+    lo: f64,
+    hi: f64,
+    probes: &[f64],
+    vk: &[(f64, f64)],
+) -> [Option<(f64, EndKind)>; 2] {
+    let st: Vec<Status> = vk.iter().map(|&(v, k)| classify_status(v, k)).collect();
+    let overflow = |s: &Status| matches!(s, Status::VNotFinite | Status::KNotFinite);
+    let mut out = [None, None];
+    let n = probes.len();
+    if lo == f64::NEG_INFINITY {
+        if let Some(j) = st.iter().position(|s| *s == Status::Good) {
+            if j > 0 && st[..j].iter().all(overflow) {
+                let x = bisect_status(ev, probes[j], probes[j - 1]);
+                let kind = end_kind_beyond(ev, x, probes[j - 1], st[j - 1]);
+                out[0] = Some(refine_end(ev, x, 1.0, kind));
+            }
+        }
+    }
+    if hi == f64::INFINITY {
+        if let Some(j) = st.iter().rposition(|s| *s == Status::Good) {
+            if j + 1 < n && st[j + 1..].iter().all(overflow) {
+                let x = bisect_status(ev, probes[j], probes[j + 1]);
+                let kind = end_kind_beyond(ev, x, probes[j + 1], st[j + 1]);
+                out[1] = Some(refine_end(ev, x, -1.0, kind));
+            }
+        }
+    }
+    out
 }
 
 /// What a finite end of a given range is, from the local powers of K and V approaching it:
@@ -1132,6 +1193,8 @@ pub struct Asymptote {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub chi_distance: Option<f64>,
     /// Relative change of the main number between the two best sample points: how certain.
+    /// Infinite (`"inf"` in JSON) when there was no estimate to compare.
+    #[serde(serialize_with = "ser_f64")]
     pub uncertainty: f64,
     /// "high" (uncertainty < 1e-6), "medium" (< 1e-3) or "low".
     pub confidence: &'static str,

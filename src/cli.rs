@@ -519,22 +519,38 @@ fn split_binding<'a>(flag: &str, text: &'a str) -> Result<(&'a str, &'a str), Fa
 /// Parameter names and values from `--param` flags, each value an expression of `pi` and the
 /// parameters before it.
 pub fn bind_params(flags: &[String], field: &str, config: &Config) -> Result<(Vec<String>, Vec<f64>), Failure> {
-    let mut names: Vec<String> = Vec::new();
-    let mut values: Vec<f64> = Vec::new();
+    let mut table = crate::model::ParamTable::default();
     for flag in flags {
         let (name, text) = split_binding("--param", flag)?;
-        if names.iter().any(|n| n == name) {
+        if table.contains(name) {
             return Err(Diagnostic::new(format!("parameter `{name}` is given twice"))
                 .with_hint("give each --param once")
                 .into());
         }
-        let refs: Vec<&str> = names.iter().map(String::as_str).collect();
-        let scope = Scope::new(field, &refs);
-        let v = constant_expr(&format!("--param {name}"), text, &scope, &values, config)?;
-        names.push(name.to_string());
-        values.push(v);
+        let origin = format!("--param {name}");
+        let v = table
+            .evaluate(field, &origin, text, &config.limits)
+            .map_err(|e| constant_failure(e, &origin, text, field))?;
+        table.push(name, v);
     }
-    Ok((names, values))
+    Ok(table.into_parts())
+}
+
+/// The messages of [`constant_expr`] for a value evaluated by a parameter table.
+fn constant_failure(e: crate::model::ConstantError, origin: &str, text: &str, field: &str) -> Failure {
+    use crate::model::ConstantError;
+    match e {
+        ConstantError::Expr(e) => e.into(),
+        ConstantError::Varying => Diagnostic::new(format!(
+            "{origin}: the value `{}` depends on the field `{field}`",
+            text.trim()
+        ))
+        .with_hint("a value may use numbers, `pi` and the parameters")
+        .into(),
+        ConstantError::NotFinite(v) => {
+            Diagnostic::new(format!("{origin}: `{}` is not a finite number ({v})", text.trim())).into()
+        }
+    }
 }
 
 /// Evaluates an expression that must not depend on the field.

@@ -14,6 +14,10 @@ pub struct Limits {
     /// Maximum height of the syntax tree (a chain `x+x+...` or `2^2^...` counts one level per
     /// operator). Default 512.
     pub max_depth: usize,
+    /// Maximum size of a model or data file, in bytes. Default 1 MiB (1 048 576): the shipped
+    /// files are under 2 KiB. At most this many bytes and one more are read, so a device such
+    /// as `/dev/zero` or a huge file is an error, not an exhausted memory.
+    pub max_file_bytes: usize,
 }
 
 impl Default for Limits {
@@ -22,7 +26,46 @@ impl Default for Limits {
             max_len: 10_000,
             max_nesting: 64,
             max_depth: 512,
+            max_file_bytes: 1 << 20,
         }
+    }
+}
+
+/// Why [`Limits::read_file`] gave up.
+#[derive(Debug)]
+pub enum ReadError {
+    /// The file could not be opened or read.
+    Io(std::io::Error),
+    /// The file is larger than the limit (in bytes).
+    TooLarge(usize),
+    /// The file is not UTF-8 text; the byte offset of the first bad byte.
+    NotText(usize),
+}
+
+impl std::fmt::Display for ReadError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            ReadError::Io(e) => write!(f, "{e}"),
+            ReadError::TooLarge(limit) => write!(f, "it is larger than the limit of {limit} bytes"),
+            ReadError::NotText(at) => write!(f, "it is not UTF-8 text (byte {at})"),
+        }
+    }
+}
+
+impl Limits {
+    /// Reads a text file of at most `max_file_bytes` bytes, reading no more than one byte past
+    /// the limit whatever the file is.
+    pub fn read_file(&self, path: &std::path::Path) -> Result<String, ReadError> {
+        use std::io::Read;
+        let file = std::fs::File::open(path).map_err(ReadError::Io)?;
+        let mut bytes = Vec::new();
+        file.take(self.max_file_bytes as u64 + 1)
+            .read_to_end(&mut bytes)
+            .map_err(ReadError::Io)?;
+        if bytes.len() > self.max_file_bytes {
+            return Err(ReadError::TooLarge(self.max_file_bytes));
+        }
+        String::from_utf8(bytes).map_err(|e| ReadError::NotText(e.utf8_error().valid_up_to()))
     }
 }
 
@@ -53,5 +96,33 @@ impl Default for Config {
             quad_accept: 1e-9,
             quad_rounding_limit: 1e-6,
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn files_beyond_the_limit_are_refused_without_reading_them_whole() {
+        let dir = std::env::temp_dir().join(format!("efold-limit-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("f.toml");
+        let limits = Limits {
+            max_file_bytes: 8,
+            ..Limits::default()
+        };
+        std::fs::write(&path, "12345678").unwrap();
+        assert_eq!(limits.read_file(&path).unwrap(), "12345678");
+        std::fs::write(&path, "123456789").unwrap();
+        assert!(matches!(limits.read_file(&path), Err(ReadError::TooLarge(8))));
+        std::fs::write(&path, b"ab\xffcd").unwrap();
+        assert!(matches!(limits.read_file(&path), Err(ReadError::NotText(2))));
+        // An endless device stops at the limit.
+        if std::path::Path::new("/dev/zero").exists() {
+            let r = Limits::default().read_file(std::path::Path::new("/dev/zero"));
+            assert!(matches!(r, Err(ReadError::TooLarge(1_048_576))));
+        }
+        std::fs::remove_dir_all(&dir).ok();
     }
 }

@@ -121,7 +121,10 @@ impl<'m> Background<'m> {
     pub fn attractor(&self, phi: f64) -> f64 {
         let mut ev = self.ev.borrow_mut();
         let v = ev.eval(phi);
-        -ev.output(OUT_DV) / (ev.output(OUT_SQRT_K) * v)
+        // V and V_phi scaled by the same exact power of two: the same bits, and no underflow
+        // of sqrt(K) V for a tiny V.
+        let f = crate::numerics::pow2_normaliser(v);
+        -(ev.output(OUT_DV) * f) / (ev.output(OUT_SQRT_K) * (v * f))
     }
 }
 
@@ -363,9 +366,18 @@ pub fn mode(
     let (n_prev, y_prev, steps_a) = leg(n_i, start, settings.k_stop * std::f64::consts::E)?;
     let (_, y_stop, steps_b) = leg(n_prev, y_prev, settings.k_stop)?;
     let steps = steps_a + steps_b;
+    // k scales as sqrt(V): for a tiny or huge overall scale of V, k^3 underflows or overflows
+    // while k^3 |R|^2 (which scales as V) does not. Then k |R|^2 is formed first.
+    let c = k.powi(3) / (2.0 * PI * PI);
+    let c_normal = c.is_normal();
     let power = |y: &[f64; 10]| {
-        let c = k.powi(3) / (2.0 * PI * PI);
-        (c * (y[2] * y[2] + y[3] * y[3]), 2.0 * c * (y[6] * y[6] + y[7] * y[7]))
+        let (rs, rt) = (y[2] * y[2] + y[3] * y[3], y[6] * y[6] + y[7] * y[7]);
+        if c_normal {
+            (c * rs, 2.0 * c * rt)
+        } else {
+            let kk = k * k / (2.0 * PI * PI);
+            ((k * rs) * kk, 2.0 * (k * rt) * kk)
+        }
     };
     let (p_s, p_t) = power(&y_stop);
     let (p_s_prev, _) = power(&y_prev);
@@ -621,6 +633,7 @@ pub fn spectrum(
             })
         })
         .collect::<Result<_, AnalysisError>>()?;
+    check_rows(&rows, scale)?;
     let peak = *rows
         .iter()
         .max_by(|a, b| a.p_zeta.total_cmp(&b.p_zeta))
@@ -673,6 +686,38 @@ fn at_grid_end(what: &str, end: &str, row: &SpectrumRow, value: f64) -> String {
 
 /// The spectrum as an aligned table, with the peak (or a warning that the largest value is at
 /// an end of the grid).
+/// The last check on a spectrum: every number of every row, and the scale, must be finite (a
+/// NaN or an overflow is an error naming the quantity and the mode, never a `null`).
+fn check_rows(rows: &[SpectrumRow], scale: f64) -> Result<(), AnalysisError> {
+    if !scale.is_finite() {
+        return Err(fail(
+            format!("the factor on V that gives the observed A_s is not a finite number ({scale})"),
+            &["P_zeta at the pivot is zero or not finite: check the potential"],
+        ));
+    }
+    for r in rows {
+        let numbers = [
+            ("p_zeta", r.p_zeta),
+            ("p_t", r.p_t),
+            ("p_zeta_slow_roll", r.p_zeta_slow_roll),
+            ("n_before_end", r.n_before_end),
+            ("drift", r.drift),
+        ];
+        if let Some((key, x)) = numbers.into_iter().find(|(_, x)| !x.is_finite()) {
+            return Err(fail(
+                format!(
+                    "{key} is not a finite number ({x}) for the mode k = {} Mpc^-1, {} e-folds before the end",
+                    crate::numfmt::number(r.k_mpc),
+                    crate::numfmt::number(r.n_before_end)
+                ),
+                &["V or K is not smooth enough where this mode crosses the horizon, or the numbers leave double precision"],
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// The spectrum as an aligned table, with the peak.
 pub fn text(sp: &Spectrum, name: &str) -> String {
     use crate::numfmt::{self, number, typed};
     use std::fmt::Write as _;
@@ -808,6 +853,32 @@ pub fn figure(sp: &Spectrum, name: &str) -> String {
     crate::plot::render(name, &[panel])
 }
 
+/// A start given by the user must lie inside the domain (beyond a pole of K, or where K <= 0
+/// or V is not finite, there is no background to integrate).
+fn check_start(model: &Model, phi: f64) -> Result<(), AnalysisError> {
+    let domain = crate::canonical::find_domain(model, &mut model.evaluator())?;
+    let iv = domain.interval;
+    if iv.contains(phi) {
+        return Ok(());
+    }
+    let f = model.field();
+    let n = crate::numfmt::number;
+    Err(fail(
+        format!(
+            "the start {f} = {} lies outside the domain {} < {f} < {} (lower end: {}; upper end: {})",
+            n(phi),
+            n(iv.lo),
+            n(iv.hi),
+            iv.lo_kind.words(),
+            iv.hi_kind.words()
+        ),
+        &[
+            "start inside the domain, on the branch you want (`efold inspect` shows the domain)",
+            "or leave out --start-phi to start on the slow-roll attractor",
+        ],
+    ))
+}
+
 /// Starts the exact background on the slow-roll attractor with at least `n_needed` exact
 /// e-folds before its end. `phi_at(N)` gives the slow-roll field value N e-folds before the
 /// slow-roll end; where slow roll overestimates the e-folds (an ultra-slow-roll stretch is
@@ -820,6 +891,7 @@ pub fn start_with_room(
 ) -> Result<(f64, Run), AnalysisError> {
     let bg = Background::new(model);
     if let Some((phi, velocity)) = settings.start {
+        check_start(model, phi)?;
         let pi = match velocity {
             Some(dphi) => {
                 let mut ev = model.evaluator();
@@ -949,5 +1021,30 @@ mod tests {
                 "N to end [e-folds]"
             ]
         );
+    }
+
+    #[test]
+    fn a_non_finite_spectrum_row_is_an_error() {
+        let row = SpectrumRow {
+            k_mpc: 0.05,
+            p_zeta: 2.1e-9,
+            p_t: 1e-11,
+            p_zeta_slow_roll: 2.0e-9,
+            n_before_end: 55.0,
+            drift: 1e-7,
+        };
+        assert!(check_rows(&[row], 1e-10).is_ok());
+        let bad = SpectrumRow {
+            p_zeta_slow_roll: f64::INFINITY,
+            ..row
+        };
+        let e = check_rows(&[row, bad], 1e-10).unwrap_err();
+        assert!(
+            e.message
+                .starts_with("p_zeta_slow_roll is not a finite number (inf) for the mode k = 0.05"),
+            "{}",
+            e.message
+        );
+        assert!(check_rows(&[row], f64::NAN).is_err());
     }
 }

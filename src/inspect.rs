@@ -174,7 +174,7 @@ pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<I
         None => None,
         Some(n) => Some(make_table(model, &iv, chi_origin, n.max(2), config)?),
     };
-    Ok(Inspection {
+    let ins = Inspection {
         model: ModelSummary::of(model),
         domain,
         minimum,
@@ -184,7 +184,68 @@ pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<I
         asymptotics,
         table,
         warnings,
-    })
+    };
+    check_finite(&ins, field)?;
+    Ok(ins)
+}
+
+/// Every number of an inspection that must be finite, with its key. May be infinite, and are
+/// not listed: the ends of the domain and of the other intervals (`domain`, `asymptotics[].end`)
+/// and an asymptote's `uncertainty` when there was no estimate to compare.
+pub fn numbers(ins: &Inspection) -> Vec<(String, f64)> {
+    let mut v = vec![("chi_origin".to_string(), ins.chi_origin)];
+    if let Some(m) = &ins.minimum {
+        v.push(("minimum.phi".into(), m.phi));
+        v.push(("minimum.v".into(), m.v));
+    }
+    for (i, p) in ins.poles.iter().enumerate() {
+        v.push((format!("poles[{i}].phi"), p.phi));
+        v.push((format!("poles[{i}].order"), p.order));
+        v.push((format!("poles[{i}].order_measured"), p.order_measured));
+        v.push((format!("poles[{i}].residue"), p.residue));
+        v.push((format!("poles[{i}].residue_uncertainty"), p.residue_uncertainty));
+    }
+    for (i, z) in ins.zeros_of_k.iter().enumerate() {
+        v.push((format!("zeros_of_k[{i}]"), *z));
+    }
+    for (i, a) in ins.asymptotics.iter().enumerate() {
+        let opt = [
+            ("height", a.height),
+            ("scale", a.scale),
+            ("alpha", a.alpha),
+            ("power", a.power),
+            ("rate", a.rate),
+            ("chi_distance", a.chi_distance),
+        ];
+        for (key, x) in opt {
+            if let Some(x) = x {
+                v.push((format!("asymptotics[{i}].{key}"), x));
+            }
+        }
+        if a.uncertainty.is_nan() {
+            v.push((format!("asymptotics[{i}].uncertainty"), a.uncertainty));
+        }
+    }
+    for (i, r) in ins.table.iter().flatten().enumerate() {
+        v.push((format!("table[{i}].phi"), r.phi));
+        v.push((format!("table[{i}].chi"), r.chi));
+        v.push((format!("table[{i}].v"), r.v));
+    }
+    v
+}
+
+/// The last check before an inspection is reported: a number that should be finite and is not
+/// is an error naming it, never a `null` in the output.
+fn check_finite(ins: &Inspection, field: &str) -> Result<(), AnalysisError> {
+    match numbers(ins).into_iter().find(|(_, x)| !x.is_finite()) {
+        None => Ok(()),
+        Some((key, x)) => Err(crate::slowroll::fail(
+            format!("{key} is not a finite number ({x})"),
+            &[
+                &format!("V or K overflows or is not smooth enough there: check them, or give a --range for {field} that avoids it"),
+            ],
+        )),
+    }
 }
 
 /// The warning for a minimum of V above zero (at an end of the given range: the range cuts
@@ -592,4 +653,33 @@ pub fn write_atomic(path: &std::path::Path, contents: &str) -> std::io::Result<(
     std::fs::rename(&tmp, path).inspect_err(|_| {
         let _ = std::fs::remove_file(&tmp);
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::ModelSpec;
+
+    #[test]
+    fn a_non_finite_number_in_an_inspection_is_an_error() {
+        let spec = ModelSpec::inline("phi^2", None);
+        let model = Model::build(&spec, &Config::default()).unwrap();
+        let ins = inspect(&model, &Config::default(), Some(5)).unwrap();
+        // Infinite domain ends are allowed and not checked.
+        assert!(ins.domain.interval.hi.is_infinite());
+        assert!(check_finite(&ins, "phi").is_ok());
+        let mut bad = ins.clone();
+        bad.table.as_mut().unwrap()[3].chi = f64::NAN;
+        let e = check_finite(&bad, "phi").unwrap_err();
+        assert_eq!(e.message, "table[3].chi is not a finite number (NaN)");
+        let mut bad = ins.clone();
+        bad.minimum.as_mut().unwrap().v = f64::INFINITY;
+        assert!(check_finite(&bad, "phi").unwrap_err().message.starts_with("minimum.v"));
+        // No estimate: an infinite uncertainty is allowed, a NaN is not.
+        let mut bad = ins;
+        bad.asymptotics[0].uncertainty = f64::INFINITY;
+        assert!(check_finite(&bad, "phi").is_ok());
+        bad.asymptotics[0].uncertainty = f64::NAN;
+        assert!(check_finite(&bad, "phi").is_err());
+    }
 }

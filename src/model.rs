@@ -48,8 +48,9 @@ use std::path::Path;
 pub struct Origin {
     /// A name shown before the line number: a path, or a flag such as `--potential`.
     pub name: String,
-    /// The whole text that `offset` points into (a file), if any.
-    pub file_text: Option<String>,
+    /// The whole text that `offset` points into (a file), if any; shared by every expression
+    /// of the file, so that a file of many parameters is not copied once per parameter.
+    pub file_text: Option<std::sync::Arc<str>>,
     /// Byte offset of the expression inside `file_text`.
     pub offset: usize,
 }
@@ -151,7 +152,7 @@ impl ModelError {
         match &origin.file_text {
             Some(file) => ModelError {
                 diagnostic: Box::new(d),
-                source: Some((origin.name.clone(), file.clone(), origin.offset)),
+                source: Some((origin.name.clone(), file.to_string(), origin.offset)),
             },
             None => ModelError {
                 diagnostic: Box::new(d),
@@ -211,14 +212,71 @@ struct RawModel {
 struct RawSettings {
     range: Option<toml::Spanned<Vec<toml::Spanned<RawValue>>>>,
     start: Option<toml::Spanned<String>>,
-    efolds: Option<toml::Spanned<Vec<f64>>>,
+    efolds: Option<toml::Spanned<Vec<toml::Spanned<f64>>>>,
 }
 
-#[derive(Deserialize, Clone, Debug)]
-#[serde(untagged)]
+/// A value in [params], [scan] or `range`: a number, or a string holding an expression.
+#[derive(Clone, Debug)]
 enum RawValue {
     Number(f64),
     Text(String),
+}
+
+impl<'de> Deserialize<'de> for RawValue {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<RawValue, D::Error> {
+        struct Visitor;
+        impl serde::de::Visitor<'_> for Visitor {
+            type Value = RawValue;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("a number or a string expression")
+            }
+            fn visit_f64<E>(self, x: f64) -> Result<RawValue, E> {
+                Ok(RawValue::Number(x))
+            }
+            fn visit_i64<E>(self, x: i64) -> Result<RawValue, E> {
+                Ok(RawValue::Number(x as f64))
+            }
+            fn visit_u64<E>(self, x: u64) -> Result<RawValue, E> {
+                Ok(RawValue::Number(x as f64))
+            }
+            fn visit_str<E>(self, s: &str) -> Result<RawValue, E> {
+                Ok(RawValue::Text(s.to_string()))
+            }
+        }
+        d.deserialize_any(Visitor)
+    }
+}
+
+/// A number written in the file (`nan`, `inf` are TOML numbers) that must be finite: an error
+/// at its place otherwise. `what` names the key.
+fn finite_number(
+    x: f64,
+    span: std::ops::Range<usize>,
+    what: &str,
+    hint: &str,
+    text: &str,
+    file: &str,
+) -> Result<(), ModelError> {
+    if x.is_finite() {
+        return Ok(());
+    }
+    let shown = if x.is_nan() {
+        "nan"
+    } else if x > 0.0 {
+        "inf"
+    } else {
+        "-inf"
+    };
+    Err(ModelError::in_file(
+        Diagnostic::new(format!("{what}: `{shown}` is not a finite number"))
+            .with_span(
+                Span::new(span.start, span.end.max(span.start + 1)),
+                "not a finite number",
+            )
+            .with_hint(hint),
+        file,
+        text,
+    ))
 }
 
 /// The span of a quoted TOML string's contents, if the contents appear verbatim in the file
@@ -296,13 +354,20 @@ fn header_span(file: &str, path: &[&str]) -> Option<Span> {
 
 impl ModelSpec {
     /// Reads a model file.
+    /// Reads a model file of at most the default [`crate::config::Limits::max_file_bytes`].
     pub fn load(path: &Path) -> Result<ModelSpec, ModelError> {
+        ModelSpec::load_with(path, &crate::config::Limits::default())
+    }
+
+    /// Reads a model file of at most `limits.max_file_bytes` bytes (no more is read).
+    pub fn load_with(path: &Path, limits: &crate::config::Limits) -> Result<ModelSpec, ModelError> {
         let name = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            ModelError::plain(
-                Diagnostic::new(format!("cannot read model file `{name}`: {e}"))
-                    .with_hint("give the path of a .toml model file, or the model inline with --potential"),
-            )
+        let text = limits.read_file(path).map_err(|e| {
+            let mut d = Diagnostic::new(format!("cannot read model file `{name}`: {e}"));
+            if let crate::config::ReadError::TooLarge(_) = e {
+                d = d.with_hint("a model file is a few lines of TOML: check the path");
+            }
+            ModelError::plain(d.with_hint("give the path of a .toml model file, or the model inline with --potential"))
         })?;
         let mut spec = ModelSpec::from_toml(&text, &name)?;
         if spec.name.is_empty() {
@@ -319,6 +384,7 @@ impl ModelSpec {
         let table: toml::Table = toml::from_str(text).map_err(|e| toml_error(e, text, file))?;
         check_keys(&table, text, file)?;
         let raw: RawModel = toml::from_str(text).map_err(|e| toml_error(e, text, file))?;
+        let shared: std::sync::Arc<str> = std::sync::Arc::from(text);
         let origin_of = |s: &toml::Spanned<String>, key: &str| -> Text {
             let value = s.get_ref().clone();
             match verbatim_offset(text, s.span(), &value) {
@@ -326,7 +392,7 @@ impl ModelSpec {
                     text: value,
                     origin: Origin {
                         name: file.to_string(),
-                        file_text: Some(text.to_string()),
+                        file_text: Some(shared.clone()),
                         offset,
                     },
                 },
@@ -342,6 +408,16 @@ impl ModelSpec {
         let mut params = Vec::new();
         for (name, value) in &raw.params {
             check_identifier(name, text, file, Some("params"))?;
+            if let RawValue::Number(x) = value.get_ref() {
+                finite_number(
+                    *x,
+                    value.span(),
+                    &format!("parameter `{name}`"),
+                    "write a finite number, or an expression in quotes such as \"1/3\"",
+                    text,
+                    file,
+                )?;
+            }
             params.push(ParamSpec {
                 name: name.clone(),
                 value: raw_text(value, &format!("params.{name}")),
@@ -370,6 +446,21 @@ impl ModelSpec {
             None => None,
             Some(r) if r.get_ref().len() == 2 => {
                 let v = r.get_ref();
+                // An end may be infinite (`inf`, `-inf`), never NaN.
+                for end in v {
+                    if let RawValue::Number(x) = end.get_ref() {
+                        if x.is_nan() {
+                            finite_number(
+                                *x,
+                                end.span(),
+                                "range",
+                                "write two numbers or expressions; `-inf` and `inf` are allowed",
+                                text,
+                                file,
+                            )?;
+                        }
+                    }
+                }
                 Some((raw_text(&v[0], "settings.range"), raw_text(&v[1], "settings.range")))
             }
             Some(r) => {
@@ -416,7 +507,10 @@ impl ModelSpec {
             params,
             range,
             start,
-            efolds: settings.efolds.map(|e| e.into_inner()),
+            efolds: match settings.efolds {
+                None => None,
+                Some(e) => Some(efolds(e.into_inner(), text, file)?),
+            },
         })
     }
 
@@ -446,6 +540,26 @@ impl ModelSpec {
     }
 }
 
+/// The default N_* values: each a finite, positive number of e-folds.
+fn efolds(values: Vec<toml::Spanned<f64>>, text: &str, file: &str) -> Result<Vec<f64>, ModelError> {
+    let mut out = Vec::with_capacity(values.len());
+    for v in values {
+        let (span, n) = (v.span(), *v.get_ref());
+        finite_number(n, span.clone(), "efolds", "write `efolds = [50, 55, 60]`", text, file)?;
+        if n <= 0.0 {
+            return Err(ModelError::in_file(
+                Diagnostic::new(format!("efolds: `{n}` is not a positive number of e-folds"))
+                    .with_span(Span::new(span.start, span.end), "not positive")
+                    .with_hint("write `efolds = [50, 55, 60]`"),
+                file,
+                text,
+            ));
+        }
+        out.push(n);
+    }
+    Ok(out)
+}
+
 fn scan_range(range: &toml::Spanned<Vec<RawValue>>, text: &str, file: &str) -> Result<(f64, f64, bool), ModelError> {
     let bad = |why: &str| {
         ModelError::in_file(
@@ -462,8 +576,8 @@ fn scan_range(range: &toml::Spanned<Vec<RawValue>>, text: &str, file: &str) -> R
         RawValue::Text(_) => None,
     };
     let (lo, hi) = match (v.first().and_then(num), v.get(1).and_then(num)) {
-        (Some(lo), Some(hi)) if lo < hi => (lo, hi),
-        _ => return Err(bad("two increasing numbers expected")),
+        (Some(lo), Some(hi)) if lo < hi && lo.is_finite() && hi.is_finite() => (lo, hi),
+        _ => return Err(bad("two increasing finite numbers expected")),
     };
     let log = match v.get(2) {
         None => false,
@@ -623,8 +737,7 @@ impl Model {
     /// Compiles a model: parameters first (each an expression of `pi` and earlier ones), then V
     /// and K, then the range.
     pub fn build(spec: &ModelSpec, config: &Config) -> Result<Model, ModelError> {
-        let mut names: Vec<String> = Vec::new();
-        let mut values: Vec<f64> = Vec::new();
+        let mut table = ParamTable::default();
         for p in &spec.params {
             if p.name == spec.field {
                 return Err(ModelError::plain(
@@ -632,7 +745,7 @@ impl Model {
                         .with_hint("rename the parameter, or the field with `field = ...`"),
                 ));
             }
-            if names.contains(&p.name) {
+            if table.contains(&p.name) {
                 return Err(ModelError::plain(
                     Diagnostic::new(format!("parameter `{}` is given twice", p.name))
                         .with_hint("give each parameter once"),
@@ -641,14 +754,14 @@ impl Model {
             let v = constant(
                 &p.value,
                 &spec.field,
-                &names,
-                &values,
+                &table,
                 config,
                 &format!("parameter `{}`", p.name),
-            )?;
-            names.push(p.name.clone());
-            values.push(v);
+            )
+            .map_err(|e| later_hint(e, spec, table.names().len()))?;
+            table.push(&p.name, v);
         }
+        let (names, values) = table.into_parts();
         let refs: Vec<&str> = names.iter().map(String::as_str).collect();
         let scope = Scope::new(&spec.field, &refs);
         let mut graph = Graph::new(scope.clone());
@@ -673,8 +786,9 @@ impl Model {
         let range = match &spec.range {
             None => None,
             Some((lo, hi)) => {
-                let lo_v = range_end(lo, &spec.field, &names, &values, config)?;
-                let hi_v = range_end(hi, &spec.field, &names, &values, config)?;
+                let table = ParamTable::from_parts(names.clone(), values.clone());
+                let lo_v = range_end(lo, &spec.field, &table, config)?;
+                let hi_v = range_end(hi, &spec.field, &table, config)?;
                 if lo_v >= hi_v {
                     return Err(ModelError::plain(
                         Diagnostic::new(format!("the range is empty: {lo_v} is not below {hi_v}"))
@@ -729,15 +843,131 @@ impl Model {
     }
 }
 
+/// Parameters resolved so far: names in order, a hash index and values. Evaluating the next
+/// value costs time in proportion to that expression alone, not to the number of parameters
+/// before it: each expression is compiled over a scope of just the parameters it names.
+#[derive(Debug, Clone, Default)]
+pub struct ParamTable {
+    names: Vec<String>,
+    index: rustc_hash::FxHashMap<String, usize>,
+    values: Vec<f64>,
+}
+
+/// Why [`ParamTable::evaluate`] gave no value.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ConstantError {
+    /// The expression does not parse, or names something unknown (rendered against the
+    /// scope of all parameters so far, as if they had all been in scope).
+    Expr(ExprError),
+    /// The expression depends on the field.
+    Varying,
+    /// The value is not finite.
+    NotFinite(f64),
+}
+
+impl ParamTable {
+    /// A table from names and values in order (names distinct).
+    pub fn from_parts(names: Vec<String>, values: Vec<f64>) -> ParamTable {
+        let index = names.iter().enumerate().map(|(i, n)| (n.clone(), i)).collect();
+        ParamTable { names, index, values }
+    }
+
+    /// The names and the values, in order.
+    pub fn into_parts(self) -> (Vec<String>, Vec<f64>) {
+        (self.names, self.values)
+    }
+
+    /// True if `name` is in the table.
+    pub fn contains(&self, name: &str) -> bool {
+        self.index.contains_key(name)
+    }
+
+    /// The names in order.
+    pub fn names(&self) -> &[String] {
+        &self.names
+    }
+
+    /// Adds a parameter (replacing the value of one already there).
+    pub fn push(&mut self, name: &str, value: f64) {
+        match self.index.get(name) {
+            Some(&i) => self.values[i] = value,
+            None => {
+                self.index.insert(name.to_string(), self.names.len());
+                self.names.push(name.to_string());
+                self.values.push(value);
+            }
+        }
+    }
+
+    /// Evaluates `text`, an expression of numbers, `pi` and the parameters in the table, which
+    /// must not depend on `field`.
+    pub fn evaluate(
+        &self,
+        field: &str,
+        origin: &str,
+        text: &str,
+        limits: &crate::config::Limits,
+    ) -> Result<f64, ConstantError> {
+        let full = || {
+            // Only on the way to an error: the scope of every parameter so far, so that the
+            // message lists them as it always has.
+            let refs: Vec<&str> = self.names.iter().map(String::as_str).collect();
+            let mut g = Graph::new(Scope::new(field, &refs));
+            match lower_into(&mut g, origin, text, limits) {
+                Err(e) => ConstantError::Expr(e),
+                Ok(_) => unreachable!("an expression that fails over its own names fails over all of them"),
+            }
+        };
+        let Ok(ast) = crate::syntax::parse(text, limits) else {
+            return Err(full());
+        };
+        let mut used: Vec<usize> = Vec::new();
+        collect_params(&ast, &self.index, &mut used);
+        let names: Vec<&str> = used.iter().map(|&i| self.names[i].as_str()).collect();
+        let values: Vec<f64> = used.iter().map(|&i| self.values[i]).collect();
+        let mut g = Graph::new(Scope::new(field, &names));
+        let Ok(id) = g.lower(&ast) else {
+            return Err(full());
+        };
+        if g.is_varying(id) {
+            return Err(ConstantError::Varying);
+        }
+        let v = Tape::compile(&g, &[id]).evaluator(&values).eval(0.0);
+        if !v.is_finite() {
+            return Err(ConstantError::NotFinite(v));
+        }
+        Ok(v)
+    }
+}
+
+/// The table indices of the parameters an expression names, each once, in order of first use.
+/// The recursion is over a syntax tree whose height the parser has bounded.
+fn collect_params(e: &crate::syntax::Expr, index: &rustc_hash::FxHashMap<String, usize>, out: &mut Vec<usize>) {
+    use crate::syntax::ExprKind;
+    match &e.kind {
+        ExprKind::Number(_) => {}
+        ExprKind::Ident(name) => {
+            if let Some(&i) = index.get(name.as_str()) {
+                if !out.contains(&i) {
+                    out.push(i);
+                }
+            }
+        }
+        ExprKind::Neg(a) => collect_params(a, index, out),
+        ExprKind::Binary(_, a, b) => {
+            collect_params(a, index, out);
+            collect_params(b, index, out);
+        }
+        ExprKind::Call { args, .. } => {
+            for a in args {
+                collect_params(a, index, out);
+            }
+        }
+    }
+}
+
 /// Evaluates a constant expression (a parameter or a range end).
-fn constant(
-    t: &Text,
-    field: &str,
-    names: &[String],
-    values: &[f64],
-    config: &Config,
-    what: &str,
-) -> Result<f64, ModelError> {
+fn constant(t: &Text, field: &str, table: &ParamTable, config: &Config, what: &str) -> Result<f64, ModelError> {
     // A plain number needs no compiler.
     if let Ok(v) = t.text.trim().parse::<f64>() {
         if v.is_finite()
@@ -748,31 +978,43 @@ fn constant(
             return Ok(v);
         }
     }
-    let refs: Vec<&str> = names.iter().map(String::as_str).collect();
-    let mut g = Graph::new(Scope::new(field, &refs));
-    let (_, id) =
-        lower_into(&mut g, &t.origin.name, &t.text, &config.limits).map_err(|e| ModelError::from_expr(e, &t.origin))?;
-    if g.is_varying(id) {
-        return Err(ModelError::plain(
+    match table.evaluate(field, &t.origin.name, &t.text, &config.limits) {
+        Ok(v) => Ok(v),
+        Err(ConstantError::Expr(e)) => Err(ModelError::from_expr(e, &t.origin)),
+        Err(ConstantError::Varying) => Err(ModelError::plain(
             Diagnostic::new(format!("{what}: `{}` depends on the field `{field}`", t.text.trim()))
                 .with_hint("a value may use numbers, `pi` and parameters defined before it"),
-        ));
-    }
-    let v = Tape::compile(&g, &[id]).evaluator(values).eval(0.0);
-    if !v.is_finite() {
-        return Err(ModelError::plain(Diagnostic::new(format!(
+        )),
+        Err(ConstantError::NotFinite(v)) => Err(ModelError::plain(Diagnostic::new(format!(
             "{what}: `{}` is not a finite number ({v})",
             t.text.trim()
-        ))));
+        )))),
     }
-    Ok(v)
 }
 
-fn range_end(t: &Text, field: &str, names: &[String], values: &[f64], config: &Config) -> Result<f64, ModelError> {
+/// Adds a hint to an unknown-name error for parameter number `at` when the name is a
+/// parameter defined after it.
+fn later_hint(mut e: ModelError, spec: &ModelSpec, at: usize) -> ModelError {
+    let msg = &e.diagnostic.message;
+    let Some(name) = msg.strip_prefix("unknown name `").and_then(|r| r.strip_suffix('`')) else {
+        return e;
+    };
+    if let Some(later) = spec.params.iter().skip(at + 1).find(|p| p.name == name) {
+        let this = &spec.params[at].name;
+        let hint = format!(
+            "`{}` is a parameter defined after `{this}`: a value may use only earlier ones, so move `{this}` below it",
+            later.name
+        );
+        e.diagnostic.hints.insert(0, hint);
+    }
+    e
+}
+
+fn range_end(t: &Text, field: &str, table: &ParamTable, config: &Config) -> Result<f64, ModelError> {
     match t.text.trim() {
         "inf" | "+inf" => Ok(f64::INFINITY),
         "-inf" => Ok(f64::NEG_INFINITY),
-        _ => constant(t, field, names, values, config, "range"),
+        _ => constant(t, field, table, config, "range"),
     }
 }
 
@@ -850,5 +1092,96 @@ efolds = [50, 60]
         assert!(e.contains("unknown name `a`"), "{e}");
         let e = err("potential = \"phi^2\n");
         assert!(e.contains("malformed model file"), "{e}");
+    }
+    #[test]
+    fn non_finite_and_mistyped_values_are_errors_at_their_place() {
+        let e = err("potential = \"a*phi^2\"\n[params]\na = nan\n");
+        assert!(
+            e.contains("parameter `a`: `nan` is not a finite number") && e.contains("m.toml:3:5"),
+            "{e}"
+        );
+        let e = err("potential = \"a*phi^2\"\n[params]\na = -inf\n");
+        assert!(e.contains("`-inf` is not a finite number"), "{e}");
+        let e = err("potential = \"a*phi^2\"\n[params]\na = true\n");
+        assert!(
+            e.contains("expected a number or a string expression") && e.contains("m.toml:3:5"),
+            "{e}"
+        );
+        let e = err("potential = \"phi^2\"\n[settings]\nefolds = [50, inf]\n");
+        assert!(
+            e.contains("efolds: `inf` is not a finite number") && e.contains("m.toml:3:15"),
+            "{e}"
+        );
+        let e = err("potential = \"phi^2\"\n[settings]\nefolds = [0]\n");
+        assert!(e.contains("not a positive number of e-folds"), "{e}");
+        let e = err("potential = \"phi^2\"\n[settings]\nrange = [nan, 1]\n");
+        assert!(e.contains("range: `nan` is not a finite number"), "{e}");
+        let e = err("potential = \"a*phi^2\"\n[params]\na = 1\n[scan]\na = [1, inf]\n");
+        assert!(e.contains("two increasing finite numbers expected"), "{e}");
+        // Infinite range ends are allowed.
+        let spec = ModelSpec::from_toml("potential = \"phi^2\"\n[settings]\nrange = [0, inf]\n", "m.toml").unwrap();
+        let m = Model::build(&spec, &Config::default()).unwrap();
+        assert_eq!(m.range, Some((0.0, f64::INFINITY)));
+    }
+
+    #[test]
+    fn model_files_beyond_the_size_limit_are_refused() {
+        let dir = std::env::temp_dir().join(format!("efold-model-limit-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("big.toml");
+        let text = format!("potential = \"phi^2\"\n# {}\n", "x".repeat(100));
+        std::fs::write(&path, &text).unwrap();
+        let limits = crate::config::Limits {
+            max_file_bytes: 64,
+            ..Default::default()
+        };
+        let e = ModelSpec::load_with(&path, &limits).unwrap_err().render();
+        assert!(e.contains("larger than the limit of 64 bytes"), "{e}");
+        assert!(ModelSpec::load(&path).is_ok());
+        std::fs::remove_dir_all(&dir).ok();
+    }
+    #[test]
+    fn ten_thousand_chained_parameters_resolve() {
+        let mut text = String::from("potential = \"phi^2*p10000/10000\"\n[params]\np1 = 1\n");
+        for i in 2..=10_000 {
+            text.push_str(&format!("p{i} = \"p{} + 1\"\n", i - 1));
+        }
+        let spec = ModelSpec::from_toml(&text, "chain.toml").unwrap();
+        let m = Model::build(&spec, &Config::default()).unwrap();
+        assert_eq!(m.params.len(), 10_000);
+        assert_eq!(m.params[9_999], 10_000.0);
+        assert_eq!(m.evaluator().eval(3.0), 9.0);
+        // The same through a table directly, with a value that names several earlier ones.
+        let mut t = ParamTable::default();
+        for i in 1..=10_000 {
+            let v = if i == 1 {
+                1.0
+            } else {
+                t.evaluate("phi", "p", &format!("p{} + 1", i - 1), &Config::default().limits)
+                    .unwrap()
+            };
+            t.push(&format!("p{i}"), v);
+        }
+        let v = t
+            .evaluate("phi", "q", "p10000 - p9999 + p1*pi", &Config::default().limits)
+            .unwrap();
+        assert_eq!(v, 1.0 + std::f64::consts::PI);
+    }
+
+    #[test]
+    fn parameter_errors_keep_their_messages() {
+        // A later parameter: unknown here, with the list of those in scope and a hint.
+        let e = err("potential = \"a*phi^2\"\n[params]\na = \"2*b\"\nb = 1\n");
+        assert!(e.contains("unknown name `b`"), "{e}");
+        assert!(e.contains("`b` is a parameter defined after `a`"), "{e}");
+        assert!(e.contains("--> m.toml:3:8"), "{e}");
+        let e = err("potential = \"a*phi^2\"\n[params]\nz = 1\na = \"2*zz\"\n");
+        assert!(e.contains("did you mean `z`?") && e.contains("parameters: `z`"), "{e}");
+        let e = err("potential = \"a*phi^2\"\n[params]\na = \"2*phi\"\n");
+        assert!(e.contains("parameter `a`: `2*phi` depends on the field `phi`"), "{e}");
+        let e = err("potential = \"a*phi^2\"\n[params]\na = \"log(0)\"\n");
+        assert!(e.contains("is not a finite number"), "{e}");
+        let e = err("potential = \"a*phi^2\"\n[params]\na = \"exp\"\n");
+        assert!(e.contains("`exp` is a function, not a value"), "{e}");
     }
 }

@@ -124,6 +124,98 @@ pub struct Prediction {
     pub exact: Option<crate::exact::ExactExtras>,
 }
 
+impl Prediction {
+    /// Every number of the prediction with its key (nested ones as `exact.eps_3`), for the
+    /// final check that nothing non-finite reaches an output. All of them must be finite: the
+    /// only infinite numbers a report may hold are the ends of branches and of the domain,
+    /// which are not here.
+    pub fn numbers(&self) -> Vec<(&'static str, f64)> {
+        let mut v = vec![
+            ("n_star", self.n_star),
+            ("phi_star", self.phi_star),
+            ("phi_end", self.phi_end),
+            ("n_s", self.n_s),
+            ("r", self.r),
+            ("alpha_s", self.alpha_s),
+            ("n_t", self.n_t),
+            ("eps_v", self.eps_v),
+            ("eta_v", self.eta_v),
+            ("xi2_v", self.xi2_v),
+            ("omega3_v", self.omega3_v),
+            ("delta_chi", self.delta_chi),
+            ("delta_phi", self.delta_phi),
+            ("lyth_bound", self.lyth_bound),
+            ("a_s_unscaled", self.a_s_unscaled),
+            ("potential_scale", self.potential_scale),
+            ("v_star_quarter_gev", self.v_star_quarter_gev),
+            ("h_star_gev", self.h_star_gev),
+            ("t_ds_gev", self.t_ds_gev),
+            ("v_end", self.v_end),
+            ("v_end_quarter_gev", self.v_end_quarter_gev),
+            ("n_s_pull", self.n_s_pull),
+            ("r_limit", self.r_limit),
+        ];
+        if let Some(p) = &self.pole_only {
+            v.extend([
+                ("pole_only.order", p.order),
+                ("pole_only.residue", p.residue),
+                ("pole_only.n_s", p.n_s),
+                ("pole_only.r", p.r),
+            ]);
+        }
+        if let Some(m) = &self.reheating {
+            v.extend([
+                ("reheating.n_star", m.n_star),
+                ("reheating.n_reh", m.n_reh),
+                ("reheating.t_reh_gev", m.t_reh_gev),
+                ("reheating.w", m.w),
+                ("reheating.g_star", m.g_star),
+                ("reheating.rho_end_gev4", m.rho_end_gev4),
+            ]);
+        }
+        if let Some(e) = &self.exact {
+            v.extend([
+                ("exact.n_total", e.n_total),
+                ("exact.phi_end_slow_roll", e.phi_end_slow_roll),
+                ("exact.phi_star_slow_roll", e.phi_star_slow_roll),
+                ("exact.n_s_slow_roll", e.n_s_slow_roll),
+                ("exact.r_slow_roll", e.r_slow_roll),
+                ("exact.eps_1", e.eps_1),
+                ("exact.eps_2", e.eps_2),
+                ("exact.eps_3", e.eps_3),
+                ("exact.n_s_second_order", e.n_s_second_order),
+                ("exact.r_second_order", e.r_second_order),
+                ("exact.n_t_second_order", e.n_t_second_order),
+                ("exact.p_s_unscaled", e.p_s_unscaled),
+                ("exact.freeze_drift", e.freeze_drift),
+            ]);
+        }
+        v
+    }
+}
+
+/// The last check before a report leaves `predict`: a number that is not finite (a NaN from
+/// 0/0 or inf - inf, an overflow) is an error naming the quantity and N_*, never a `null` or
+/// `NaN` in the output.
+pub fn check_finite(predictions: &[Prediction], field: &str) -> Result<(), AnalysisError> {
+    for p in predictions {
+        if let Some((key, x)) = p.numbers().into_iter().find(|(_, x)| !x.is_finite()) {
+            return Err(fail(
+                format!(
+                    "{key} is not a finite number ({x}) at N_* = {} ({field}_* = {})",
+                    crate::numfmt::number(p.n_star),
+                    crate::numfmt::number(p.phi_star)
+                ),
+                &[
+                    "V or K is not smooth enough there (a derivative overflows), or the numbers leave double precision",
+                    "check the potential and the kinetic function near that point",
+                ],
+            ));
+        }
+    }
+    Ok(())
+}
+
 /// A branch with its index among all branches.
 #[derive(Debug, Clone, Serialize)]
 pub struct BranchInfo {
@@ -226,6 +318,7 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
         let b = all[i];
         match run_branch(model, &mut ev, &b, &iv, &n_wanted, opts, config, &field) {
             Ok((predictions, warnings, n_from)) => {
+                check_finite(&predictions, &field)?;
                 let info = |j: usize| BranchInfo {
                     index: j + 1,
                     count: all.len(),

@@ -13,7 +13,7 @@
 //! N(phi) = integral from phi_end to phi of V K / V_phi dphi
 //! ```
 
-use crate::canonical::{chi_derivatives, AnalysisError, Interval};
+use crate::canonical::{chi_derivatives_normalised, AnalysisError, Interval};
 use crate::config::Config;
 use crate::model::{OUT_DV, OUT_K, OUT_SQRT_K, OUT_V};
 use crate::numerics::quad::gauss_kronrod_batch;
@@ -40,12 +40,14 @@ pub struct SlowRoll {
 
 impl SlowRoll {
     /// At `phi`, from the jets of V and sqrt(K) (no inversion of chi(phi)).
+    /// V is normalised by an exact power of two first, so the parameters do not depend on the
+    /// overall scale of V (1e-200 V gives the same bits as V).
     pub fn at(ev: &mut Evaluator<'_>, phi: f64) -> SlowRoll {
-        let d = chi_derivatives(ev, phi, 4);
+        let (d, factor) = chi_derivatives_normalised(ev, phi, 4);
         let v = d[0];
         let l = d[1] / v;
         SlowRoll {
-            v,
+            v: v / factor,
             eps_v: 0.5 * l * l,
             eta_v: d[2] / v,
             xi2_v: d[1] * d[3] / (v * v),
@@ -473,8 +475,11 @@ pub fn eps_first_order(ev: &mut Evaluator<'_>, x: f64) -> (f64, f64) {
 }
 
 /// (V, eps_V) from V, dV/dphi and sqrt(K): eps_V = (V_phi / (sqrt(K) V))^2 / 2.
+/// V and V_phi are first scaled by the same exact power of two (the ratio keeps its bits; the
+/// product sqrt(K) V cannot underflow or overflow because V is tiny or huge).
 fn eps_from_outputs(v: f64, dv: f64, sqrt_k: f64) -> (f64, f64) {
-    let l = dv / (sqrt_k * v);
+    let f = crate::numerics::pow2_normaliser(v);
+    let l = (dv * f) / (sqrt_k * (v * f));
     (v, 0.5 * l * l)
 }
 
@@ -604,7 +609,8 @@ fn fmt_end(x: f64) -> String {
 /// dN/dphi = V K / V_phi (positive uphill).
 fn dn_dphi(ev: &mut Evaluator<'_>, x: f64) -> f64 {
     let v = ev.eval(x);
-    v * ev.output(OUT_K) / ev.output(OUT_DV)
+    let f = crate::numerics::pow2_normaliser(v);
+    (v * f) * ev.output(OUT_K) / (ev.output(OUT_DV) * f)
 }
 
 /// [`dn_dphi`] at up to [`BATCH`] points (the 15 nodes of a quadrature panel), with the
@@ -613,7 +619,9 @@ fn dn_dphi_batch(ev: &mut Evaluator<'_>, xs: &[f64], out: &mut [f64]) {
     ev.eval_batch(xs);
     let (v, k, dv) = (ev.batch_output(OUT_V), ev.batch_output(OUT_K), ev.batch_output(OUT_DV));
     for j in 0..xs.len() {
-        out[j] = v[j] * k[j] / dv[j];
+        // Scaled as in `dn_dphi`: the same bits, and no underflow of V K for a tiny V.
+        let f = crate::numerics::pow2_normaliser(v[j]);
+        out[j] = (v[j] * f) * k[j] / (dv[j] * f);
     }
 }
 

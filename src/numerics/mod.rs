@@ -69,3 +69,51 @@ pub struct Estimate {
     /// Estimated absolute error.
     pub error: f64,
 }
+
+/// The power of two 2^-e that brings `x` to [1, 2) in magnitude, e being the binary exponent of
+/// `x`; 1 for zero, a non-finite `x`, or when 2^-e would not be a normal number.
+///
+/// Multiplying by it is exact (only the exponent changes), so quantities built from ratios of
+/// values all scaled by it, such as V'/V or V' V''' / V^2, keep their bits, while the products
+/// inside them can no longer underflow or overflow because V is tiny or huge.
+pub fn pow2_normaliser(x: f64) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return 1.0;
+    }
+    let bits = x.abs().to_bits();
+    let biased = (bits >> 52) as i64;
+    // Subnormals: the exponent of the leading bit.
+    let e = if biased == 0 {
+        -1011 - bits.leading_zeros() as i64
+    } else {
+        biased - 1023
+    };
+    // 2^-e itself must be a normal number: for subnormal x and for |x| >= 2^1023 scale only as
+    // far as stays exact.
+    let inv = (-e).clamp(-1022, 1023);
+    f64::from_bits(((inv + 1023) as u64) << 52)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::pow2_normaliser;
+
+    #[test]
+    fn normaliser_brings_values_to_one_two() {
+        for x in [1.0, 3.0, 1e-200, 1e200, -7.5e-300, 8.9e307, f64::MIN_POSITIVE, 2.2e-308] {
+            let y = (x * pow2_normaliser(x)).abs();
+            assert!((1.0..2.0).contains(&y), "{x}: {y}");
+        }
+        // A subnormal: brought up by 2^1023, the largest exact factor, and still finite.
+        let tiny = 5e-324;
+        assert_eq!(pow2_normaliser(tiny), 2f64.powi(1023));
+        assert_eq!(pow2_normaliser(f64::MAX), 2f64.powi(-1022));
+        assert_eq!(pow2_normaliser(0.0), 1.0);
+        assert_eq!(pow2_normaliser(f64::NAN), 1.0);
+        assert_eq!(pow2_normaliser(f64::INFINITY), 1.0);
+        // Ratios keep their bits.
+        let (a, b) = (0.123456789e-250, 3.3e-251);
+        let s = pow2_normaliser(a);
+        assert_eq!((a * s) / (b * s), a / b);
+    }
+}
