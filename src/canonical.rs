@@ -533,11 +533,17 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
     // phi -> -inf): the end is then where they do, of the kind the survey gives it.
     let ends = overflowing_ends(ev, lo, hi, &probes, &vk);
     let (lo, hi) = (ends[0].map_or(lo, |e| e.0), ends[1].map_or(hi, |e| e.0));
-    let keep: Vec<usize> = (0..probes.len())
-        .filter(|&i| probes[i] > lo && probes[i] < hi)
-        .collect();
-    let probes: Vec<f64> = keep.iter().map(|&i| probes[i]).collect();
-    let vk: Vec<(f64, f64)> = keep.iter().map(|&i| vk[i]).collect();
+    let (probes, vk) = if ends.iter().any(Option::is_some) {
+        let keep: Vec<usize> = (0..probes.len())
+            .filter(|&i| probes[i] > lo && probes[i] < hi)
+            .collect();
+        (
+            keep.iter().map(|&i| probes[i]).collect::<Vec<f64>>(),
+            keep.iter().map(|&i| vk[i]).collect::<Vec<(f64, f64)>>(),
+        )
+    } else {
+        (probes, vk)
+    };
     for i in 1..probes.len().saturating_sub(1) {
         let k3 = [vk[i - 1].1, vk[i].1, vk[i + 1].1];
         if k3.iter().any(|k| !(k.is_finite() && *k > 0.0)) {
@@ -613,9 +619,13 @@ fn overflowing_ends(
     probes: &[f64],
     vk: &[(f64, f64)],
 ) -> [Option<(f64, EndKind)>; 2] {
+    let mut out = [None, None];
+    let infinite = |x: f64| x.is_infinite();
+    if !(infinite(lo) || infinite(hi)) {
+        return out;
+    }
     let st: Vec<Status> = vk.iter().map(|&(v, k)| classify_status(v, k)).collect();
     let overflow = |s: &Status| matches!(s, Status::VNotFinite | Status::KNotFinite);
-    let mut out = [None, None];
     let n = probes.len();
     if lo == f64::NEG_INFINITY {
         if let Some(j) = st.iter().position(|s| *s == Status::Good) {

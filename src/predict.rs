@@ -325,9 +325,12 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
                     branch: all[j],
                 };
                 let mut warnings = warnings;
-                if let Some(phi) = minimum_of_v(&mut ev, &iv) {
-                    if let Some(v) = crate::canonical::positive_minimum(&mut ev, &iv, phi) {
-                        warnings.push(crate::inspect::positive_minimum_warning(&field, phi, v, &iv));
+                // Where the field settles: the bottom of its branch (a minimum of V, or an end of
+                // a given range).
+                let bottom = all[i].bottom;
+                if bottom.is_finite() {
+                    if let Some(v) = crate::canonical::positive_minimum(&mut ev, &iv, bottom) {
+                        warnings.push(crate::inspect::positive_minimum_warning(&field, bottom, v, &iv));
                     }
                 }
                 if order.len() > 1 && i != order[0] {

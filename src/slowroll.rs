@@ -335,25 +335,26 @@ pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
                 let x = r.map(|r| r.value).unwrap_or(0.5 * (pts[j] + pts[i]));
                 // a stationary point at the origin, found to rounding (M_p = 1 sets the scale)
                 let x = if x.abs() < 1e-12 { 0.0 } else { x };
-                stationary.push((x, pts[i] - pts[j]));
+                stationary.push((x, (pts[i] - pts[j]) / (i - j) as f64));
             }
         }
         prev = Some(i);
     }
     // Outward from the centre, the survey stops at the first stationary point closer to its
-    // inner neighbour than twice the sample spacing around it: beyond, the samples no longer
-    // resolve V.
+    // inner neighbour than 1.5 times the local sample spacing: beyond, the samples no longer
+    // resolve V (an oscillating potential far out).
+    let close = |a: usize, b: usize| stationary[b].0 - stationary[a].0 < 1.5 * stationary[a].1.max(stationary[b].1);
     let split = stationary.partition_point(|s| s.0 < centre);
     let mut hi_cut = f64::INFINITY;
     for k in split.max(1)..stationary.len() {
-        if stationary[k].0 - stationary[k - 1].0 < 2.0 * stationary[k].1 {
+        if close(k - 1, k) {
             hi_cut = stationary[k].0;
             break;
         }
     }
     let mut lo_cut = f64::NEG_INFINITY;
     for k in (0..split.min(stationary.len().saturating_sub(1))).rev() {
-        if stationary[k + 1].0 - stationary[k].0 < 2.0 * stationary[k].1 {
+        if close(k, k + 1) {
             lo_cut = stationary[k].0;
             break;
         }
@@ -388,7 +389,13 @@ pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
             Branch { top: a, bottom: b }
         });
     }
-    let period = period_of(ev, &stationary);
+    // The period, from the five stationary points nearest the centre (far out the samples
+    // may not resolve an oscillating V).
+    let mut inner = stationary.clone();
+    inner.sort_by(|a, b| (a - centre).abs().total_cmp(&(b - centre).abs()));
+    inner.truncate(5);
+    inner.sort_by(f64::total_cmp);
+    let period = period_of(ev, &inner);
     if let Some(p) = period {
         out.retain(|b| (0.5 * (b.top + b.bottom) - centre).abs() <= 0.5 * p);
     }
@@ -731,7 +738,7 @@ pub fn phi_stars_with_accuracy(
         Ok(r)
     };
     let (mut s_prev, mut n_prev) = (coord.s_end, 0.0);
-    for k in 1..=60 {
+    for k in 1..=1100 {
         let s = coord.step(k);
         let phi = coord.phi(s);
         if !s.is_finite() || !phi.is_finite() || phi == coord.phi(s_prev) || (phi - b.top) * (phi_end - b.top) <= 0.0 {
