@@ -451,16 +451,36 @@ impl From<Diagnostic> for Failure {
     }
 }
 
+impl From<crate::output::WriteError> for Failure {
+    fn from(e: crate::output::WriteError) -> Failure {
+        match e {
+            // The reader went away: stop quietly, as a filter does.
+            crate::output::WriteError::Closed => Failure {
+                message: String::new(),
+                code: 0,
+            },
+            crate::output::WriteError::Failed(m) => Diagnostic::new(m)
+                .with_hint("check the disk or device standard output goes to")
+                .into(),
+        }
+    }
+}
+
+/// Writes `text` to standard output (through [`crate::output::stdout`], the one writer): a
+/// closed pipe becomes a quiet stop with exit code 0, any other failure an error, exit code 2.
+pub fn print_out(text: &str) -> Result<(), Failure> {
+    crate::output::stdout(text).map_err(Failure::from)
+}
+
 /// Runs the binary: parses the arguments, runs the command, prints, returns the exit code.
 pub fn main() -> ExitCode {
     let args = Args::parse();
-    match run(&args) {
-        Ok(out) => {
-            print!("{out}");
-            ExitCode::SUCCESS
-        }
+    match run(&args).and_then(|out| print_out(&out)) {
+        Ok(()) => ExitCode::SUCCESS,
         Err(f) => {
-            eprint!("efold: {}", f.message);
+            if !f.message.is_empty() {
+                crate::output::stderr(&format!("efold: {}", f.message));
+            }
             ExitCode::from(f.code())
         }
     }
@@ -636,6 +656,12 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
 
 fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
     let field = a.scope.field.clone().unwrap_or_else(|| "phi".to_string());
+    check_count(
+        "--order",
+        a.order,
+        config.limits.max_symbolic_order,
+        "max_symbolic_order",
+    )?;
     let (names, _) = bind_params(&a.scope.params, &field, config)?;
     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
     let scope = Scope::new(&field, &refs);
@@ -709,17 +735,22 @@ pub fn load_model(a: &ModelArgs, config: &Config) -> Result<crate::model::Model,
     Ok(crate::model::Model::build(&spec, config)?)
 }
 
+/// The error for a file that cannot be written.
+fn cannot_write(path: &std::path::Path, e: std::io::Error) -> Failure {
+    Diagnostic::new(format!("cannot write `{}`: {e}", path.display()))
+        .with_hint("check that the directory exists and is writable, and that the disk has room")
+        .into()
+}
+
 fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failure> {
-    crate::inspect::write_atomic(path, contents).map_err(|e| {
-        Failure::from(
-            Diagnostic::new(format!("cannot write `{}`: {e}", path.display()))
-                .with_hint("check that the directory exists and is writable"),
-        )
-    })
+    crate::output::write_file(path, contents).map_err(|e| cannot_write(path, e))
 }
 
 fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
     let model = load_model(&a.model, config)?;
+    if let Some(rows) = a.table {
+        check_count("--table", rows, config.limits.max_table_rows, "max_table_rows")?;
+    }
     let ins = crate::inspect::inspect(&model, config, a.table)?;
     if let Some(path) = &a.svg {
         let svg = crate::inspect::figure(&model, &ins, &Default::default(), config)?;
@@ -760,6 +791,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
     } else {
         model.spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
     };
+    check_efolds_count(&n_stars, config)?;
     let opts = crate::predict::Options {
         n_stars,
         branch: a.branch,
@@ -801,6 +833,12 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         start: a.start_phi.map(|p| (p, a.start_velocity)),
         ..Default::default()
     };
+    check_count(
+        "--points",
+        a.points,
+        config.limits.max_spectrum_points,
+        "max_spectrum_points",
+    )?;
     let k_star = data.pivot.k_mpc;
     // The largest k must still freeze before the end: N_* - ln(k/k_*) > ln(1/k_stop) + 1.
     let k_limit = k_star * (a.efolds - (1.0 / settings.k_stop).ln() - 1.5).exp();
@@ -868,12 +906,15 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
             .with_hint("give --vary once or twice")
             .into());
     }
+    check_vary_names(&a.vary)?;
+    let limit = config.limits.max_axis_points;
     let axes = a
         .vary
         .iter()
-        .map(|v| crate::scan::Axis::parse(v, &spec, a.points))
+        .map(|v| crate::scan::Axis::parse(v, &spec, a.points, limit))
         .collect::<Result<Vec<_>, _>>()
         .map_err(|e| Failure::from(Diagnostic::new(e).with_hint("write `--vary alpha=0.1:10:30:log`")))?;
+    let total = check_grid_size(&axes, config)?;
     let shard = a
         .shard
         .as_deref()
@@ -885,30 +926,125 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     } else {
         a.efolds.clone()
     };
-    let progress = std::io::stderr().is_terminal();
-    let rows = crate::scan::run(&spec, &axes, &n_stars, &data, shard, config, progress);
-    let failed = rows.iter().filter(|r| r.result.is_err()).count();
-    if failed > 0 {
-        eprintln!(
-            "efold: warning: {failed} of {} rows failed; they keep their row with the error",
-            rows.len()
-        );
-    }
-    let names: Vec<String> = axes.iter().map(|x| x.name.clone()).collect();
-    let table = match a.format {
-        ScanFormat::Csv => crate::scan::csv(&names, &rows),
-        ScanFormat::Json => crate::scan::json(&rows),
-    };
-    if let Some(path) = &a.svg {
-        write_output_file(path, &crate::scan::figure(&spec.name, &axes, &rows, &data))?;
-    }
-    match &a.out {
-        Some(path) => {
-            write_output_file(path, &table)?;
-            Ok(String::new())
+    check_efolds_count(&n_stars, config)?;
+    if let (Some(out), Some(svg)) = (&a.out, &a.svg) {
+        if crate::output::same_destination(out, svg) {
+            return Err(Diagnostic::new(format!(
+                "--out `{}` and --svg `{}` are one file: the figure would overwrite the table",
+                out.display(),
+                svg.display()
+            ))
+            .with_hint("give the table and the figure different files")
+            .into());
         }
-        None => Ok(table),
     }
+    let provenance = shard.map(|s| {
+        let range = s.range(total);
+        crate::scan::Provenance {
+            scan: crate::scan::definition_id(&spec, &axes, &n_stars, &data),
+            shard: s.k,
+            shards: s.n,
+            points: [range.start, range.end],
+            total,
+            efolds: n_stars.clone(),
+        }
+    });
+    let names: Vec<String> = axes.iter().map(|x| x.name.clone()).collect();
+    let mut table = crate::scan::Table::new(a.format == ScanFormat::Json, provenance);
+    let mut file = match &a.out {
+        Some(path) => Some(crate::output::OutputFile::create(path).map_err(|e| cannot_write(path, e))?),
+        None => None,
+    };
+    let mut emit = |text: &str| -> Result<(), Failure> {
+        match (&mut file, &a.out) {
+            (Some(f), Some(path)) => f.write(text).map_err(|e| cannot_write(path, e)),
+            _ => print_out(text),
+        }
+    };
+    emit(&table.start(&names))?;
+    let (mut rows_done, mut failed) = (0usize, 0usize);
+    // The figure needs every row; the table alone is streamed chunk by chunk.
+    let mut kept: Vec<crate::scan::ScanRow> = Vec::new();
+    let progress = std::io::stderr().is_terminal();
+    crate::scan::run_chunks(&spec, &axes, &n_stars, &data, shard, config, progress, &mut |rows| {
+        rows_done += rows.len();
+        failed += rows.iter().filter(|r| r.result.is_err()).count();
+        if a.svg.is_some() {
+            kept.extend_from_slice(rows);
+        }
+        emit(&table.rows(rows))
+    })?;
+    emit(&table.end())?;
+    drop(emit);
+    if failed > 0 {
+        crate::output::stderr(&format!(
+            "efold: warning: {failed} of {rows_done} rows failed; they keep their row with the error\n"
+        ));
+    }
+    if let Some(path) = &a.svg {
+        write_output_file(path, &crate::scan::figure(&spec.name, &axes, &kept, &data))?;
+    }
+    if let (Some(f), Some(path)) = (file, &a.out) {
+        f.commit().map_err(|e| cannot_write(path, e))?;
+    }
+    Ok(String::new())
+}
+
+/// A count given on the command line, refused above its limit in `config::Limits`.
+fn check_count(flag: &str, value: usize, limit: usize, field: &str) -> Result<(), Failure> {
+    if value > limit {
+        return Err(Diagnostic::new(format!(
+            "`{flag} {value}` is above the limit, {limit} (config::Limits::{field})"
+        ))
+        .with_hint(format!("give {flag} {limit} or less"))
+        .into());
+    }
+    Ok(())
+}
+
+/// A parameter varied twice would make a grid of repeated points.
+fn check_vary_names(vary: &[String]) -> Result<(), Failure> {
+    let names: Vec<&str> = vary
+        .iter()
+        .map(|v| v.split_once('=').map_or(v.as_str(), |(n, _)| n).trim())
+        .collect();
+    if names.len() == 2 && names[0] == names[1] {
+        return Err(Diagnostic::new(format!("`--vary {}` is given twice", names[0]))
+            .with_hint("vary each parameter once; to vary two, give two different names")
+            .into());
+    }
+    Ok(())
+}
+
+/// The grid's point count, refused above `Limits::max_scan_points` (and when the product of the
+/// axes overflows).
+fn check_grid_size(axes: &[crate::scan::Axis], config: &Config) -> Result<usize, Failure> {
+    let limit = config.limits.max_scan_points;
+    let counts: Vec<String> = axes.iter().map(|a| a.values.len().to_string()).collect();
+    match crate::scan::total_points(axes) {
+        Some(n) if n <= limit => Ok(n),
+        n => Err(Diagnostic::new(format!(
+            "the grid has {} points ({}); at most {limit} (config::Limits::max_scan_points)",
+            n.map_or("too many".to_string(), |n| n.to_string()),
+            counts.join(" x ")
+        ))
+        .with_hint("use fewer values per parameter, or cut the scan with --shard K/N and several runs")
+        .into()),
+    }
+}
+
+/// A list of N_* longer than `Limits::max_efolds` is refused.
+fn check_efolds_count(n_stars: &[f64], config: &Config) -> Result<(), Failure> {
+    let limit = config.limits.max_efolds;
+    if n_stars.len() > limit {
+        return Err(Diagnostic::new(format!(
+            "{} N_* values given; at most {limit} (config::Limits::max_efolds)",
+            n_stars.len()
+        ))
+        .with_hint("give fewer values to --efolds")
+        .into());
+    }
+    Ok(())
 }
 
 fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
@@ -1034,7 +1170,6 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
 fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
     use crate::golden::{compare, model_files, predict_file};
     use notify::{RecursiveMode, Watcher};
-    use std::io::Write as _;
     let base = crate::predict::Options::default();
     let files = || -> Result<Vec<std::path::PathBuf>, Failure> {
         if a.path.is_dir() {
@@ -1084,9 +1219,7 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
                     format!("{}: {}", f.display(), summary.join("; "))
                 }
             };
-            let mut stdout = std::io::stdout();
-            let _ = writeln!(stdout, "{line}");
-            let _ = stdout.flush();
+            print_out(&format!("{line}\n"))?;
             last.insert(f, now);
         }
         Ok(())
@@ -1100,9 +1233,7 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
     watcher
         .watch(&a.path, RecursiveMode::Recursive)
         .map_err(|e| Failure::from(Diagnostic::new(format!("cannot watch `{}`: {e}", a.path.display()))))?;
-    let mut stdout = std::io::stdout();
-    let _ = writeln!(stdout, "watching {} (interrupt to stop)", a.path.display());
-    let _ = stdout.flush();
+    print_out(&format!("watching {} (interrupt to stop)\n", a.path.display()))?;
     let mut rounds = 0;
     while let Ok(ev) = rx.recv() {
         let relevant = ev

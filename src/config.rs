@@ -14,6 +14,27 @@ pub struct Limits {
     /// Maximum height of the syntax tree (a chain `x+x+...` or `2^2^...` counts one level per
     /// operator). Default 512.
     pub max_depth: usize,
+    /// Most k values of `efold spectrum --points`. Default 10 000: each mode is a full
+    /// Mukhanov–Sasaki integration (about 2 ms), so this is some 10 s on two cores and a table
+    /// of a few MB, far finer than any figure needs.
+    pub max_spectrum_points: usize,
+    /// Most values of one scan axis (`--vary NAME=LO:HI:COUNT`, or `--points` with a name
+    /// alone). Default 1 000 000: 8 MB of values, more than `max_scan_points` allows with two
+    /// axes of useful size.
+    pub max_axis_points: usize,
+    /// Most points of a scan's grid, the product of its axes (checked without overflow).
+    /// Default 10 000 000: at about 16 us a point on two cores, some 3 minutes per N_*; rows are
+    /// streamed out in chunks, so memory stays bounded. Larger jobs are cut with `--shard`.
+    pub max_scan_points: usize,
+    /// Most rows of `efold inspect --table`. Default 100 000 (a few MB of text).
+    pub max_table_rows: usize,
+    /// Highest order of `efold compile --emit derivatives --order`. Default 8, the highest order
+    /// of the Taylor jets (`tape::MAX_ORDER`) and of `eval --order`: printed symbolic derivatives
+    /// grow quickly with the order.
+    pub max_symbolic_order: usize,
+    /// Most N_* values in one `--efolds` list or a model's `efolds` setting. Default 1000: every
+    /// value is a full prediction per point, and a scan holds `scan::CHUNK_ROWS` rows at a time.
+    pub max_efolds: usize,
 }
 
 impl Default for Limits {
@@ -22,6 +43,12 @@ impl Default for Limits {
             max_len: 10_000,
             max_nesting: 64,
             max_depth: 512,
+            max_spectrum_points: 10_000,
+            max_axis_points: 1_000_000,
+            max_scan_points: 10_000_000,
+            max_table_rows: 100_000,
+            max_symbolic_order: 8,
+            max_efolds: 1000,
         }
     }
 }

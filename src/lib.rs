@@ -28,6 +28,7 @@ pub mod inspect;
 pub mod ir;
 pub mod model;
 pub mod numerics;
+pub mod output;
 pub mod plot;
 pub mod predict;
 pub mod reheating;
