@@ -747,10 +747,10 @@ fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failu
 }
 
 fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
-    let model = load_model(&a.model, config)?;
     if let Some(rows) = a.table {
         check_count("--table", rows, config.limits.max_table_rows, "max_table_rows")?;
     }
+    let model = load_model(&a.model, config)?;
     let ins = crate::inspect::inspect(&model, config, a.table)?;
     if let Some(path) = &a.svg {
         let svg = crate::inspect::figure(&model, &ins, &Default::default(), config)?;
@@ -781,6 +781,7 @@ fn reheating_from(a: &PredictArgs) -> Result<Option<crate::reheating::Reheating>
 }
 
 fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
+    check_efolds_count(&a.efolds, config)?;
     let model = load_model(&a.model, config)?;
     let data = match &a.data {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
@@ -824,6 +825,12 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
+    check_count(
+        "--points",
+        a.points,
+        config.limits.max_spectrum_points,
+        "max_spectrum_points",
+    )?;
     let model = load_model(&a.model, config)?;
     let data = match &a.data {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
@@ -897,6 +904,7 @@ fn load_data(path: &Option<std::path::PathBuf>) -> Result<crate::data::DataSet, 
 
 fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     use std::io::IsTerminal;
+    check_efolds_count(&a.efolds, config)?;
     // Compile once up front: a bad model is one error, not one per point.
     let model = load_model(&a.model, config)?;
     let spec = model.spec.clone();
@@ -913,7 +921,14 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
         .iter()
         .map(|v| crate::scan::Axis::parse(v, &spec, a.points, limit))
         .collect::<Result<Vec<_>, _>>()
-        .map_err(|e| Failure::from(Diagnostic::new(e).with_hint("write `--vary alpha=0.1:10:30:log`")))?;
+        .map_err(|e| {
+            let hint = if e.contains("max_axis_points") {
+                "give this parameter fewer values"
+            } else {
+                "write `--vary alpha=0.1:10:30:log`"
+            };
+            Failure::from(Diagnostic::new(e).with_hint(hint))
+        })?;
     let total = check_grid_size(&axes, config)?;
     let shard = a
         .shard
@@ -1058,7 +1073,12 @@ fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
         })?;
         texts.push((f.display().to_string(), t));
     }
-    let merged = crate::scan::merge(&texts).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+    let merged = crate::scan::merge(&texts).map_err(|e| {
+        Failure::from(
+            Diagnostic::new(e)
+                .with_hint("give every file of one `efold scan --shard K/N` run, K = 1..N, each once, as written"),
+        )
+    })?;
     match &a.out {
         Some(path) => {
             write_output_file(path, &merged)?;

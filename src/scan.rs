@@ -528,7 +528,7 @@ fn what_it_is(text: &str) -> &'static str {
     } else if first.starts_with("point,") || t.starts_with('[') {
         "it is the table of an unsharded scan"
     } else if first.starts_with("n_star,") || (t.starts_with('{') && t.contains("\"predictions\"")) {
-        "it is a `predict` table, not a scan shard"
+        "it is a `predict` table"
     } else {
         "it is not a file `efold scan --shard` writes"
     }
@@ -614,6 +614,11 @@ fn read_shard<'a>(name: &'a str, text: &'a str) -> Result<ShardFile<'a>, String>
 /// Checks that a shard holds exactly its points, each with one row per N_*, in order.
 fn check_points(f: &ShardFile<'_>, points: &[Option<u64>]) -> Result<(), String> {
     let (lo, hi) = (f.prov.points[0], f.prov.points[1]);
+    let span = match hi - lo {
+        0 => "no points".to_string(),
+        1 => format!("point {lo}"),
+        _ => format!("points {lo} to {}", hi - 1),
+    };
     let per = f.prov.efolds.len().max(1);
     let expected = (hi - lo).saturating_mul(per);
     for (i, p) in points.iter().enumerate() {
@@ -630,7 +635,7 @@ fn check_points(f: &ShardFile<'_>, points: &[Option<u64>]) -> Result<(), String>
             }
             Some(_) => {
                 return Err(format!(
-                    "{}: {} rows, but its points {lo}..{hi} with {per} N_* each make {expected}",
+                    "{}: {} rows, but its {span} with {per} N_* each make {expected}",
                     f.name,
                     points.len()
                 ))
@@ -640,7 +645,7 @@ fn check_points(f: &ShardFile<'_>, points: &[Option<u64>]) -> Result<(), String>
     }
     if points.len() != expected {
         return Err(format!(
-            "{}: {} rows, but its points {lo}..{hi} with {per} N_* each make {expected}: the file is incomplete",
+            "{}: {} rows, but its {span} with {per} N_* each make {expected}: the file is incomplete",
             f.name,
             points.len()
         ));
@@ -712,10 +717,14 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, String> {
         }
         let slot = &mut by_index[p.shard - 1];
         if let Some(j) = *slot {
-            return Err(format!(
-                "{}: shard {}/{} again (also {}): give each shard once",
-                f.name, p.shard, p.shards, files[j].name
-            ));
+            return Err(if files[j].name == f.name {
+                format!("{}: given twice: give each shard once", f.name)
+            } else {
+                format!(
+                    "{}: shard {}/{} again (also {}): give each shard once",
+                    f.name, p.shard, p.shards, files[j].name
+                )
+            });
         }
         *slot = Some(i);
     }
