@@ -76,7 +76,7 @@ pub enum GoldenAction {
         /// The directory of model files.
         dir: std::path::PathBuf,
         /// Relative tolerance.
-        #[arg(long, default_value_t = 1e-8)]
+        #[arg(long, default_value_t = 1e-8, allow_negative_numbers = true)]
         tolerance: f64,
         /// A data file [default: the built-in one].
         #[arg(long, value_name = "FILE")]
@@ -90,10 +90,10 @@ pub struct WatchArgs {
     /// A model file, or a directory of them.
     pub path: std::path::PathBuf,
     /// Report changes beyond this relative size.
-    #[arg(long, default_value_t = 1e-10)]
+    #[arg(long, default_value_t = 1e-10, allow_negative_numbers = true)]
     pub tolerance: f64,
     /// Stop after this many rounds of changes (for scripts; default: run until interrupted).
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", allow_negative_numbers = true)]
     pub exit_after: Option<usize>,
 }
 
@@ -116,7 +116,7 @@ pub struct FitArgs {
     )]
     pub targets: Vec<String>,
     /// e-folds between the pivot's exit and the end of inflation.
-    #[arg(long, default_value_t = 55.0)]
+    #[arg(long, default_value_t = 55.0, allow_negative_numbers = true)]
     pub efolds: f64,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
@@ -140,7 +140,7 @@ pub struct ScanArgs {
     #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
     pub efolds: Vec<f64>,
     /// Points for a parameter given by name alone.
-    #[arg(long, default_value_t = 20)]
+    #[arg(long, default_value_t = 20, allow_negative_numbers = true)]
     pub points: usize,
     /// Compute only the K-th of N slices of the grid (for job arrays); join with `efold merge`.
     #[arg(long, value_name = "K/N")]
@@ -186,19 +186,19 @@ pub struct SpectrumArgs {
     #[allow(missing_docs)]
     pub model: ModelArgs,
     /// e-folds between the pivot's exit and the end of inflation (eps_H = 1).
-    #[arg(long, default_value_t = 55.0)]
+    #[arg(long, default_value_t = 55.0, allow_negative_numbers = true)]
     pub efolds: f64,
     /// Smallest k, in Mpc^-1.
-    #[arg(long, default_value_t = 1e-4)]
+    #[arg(long, default_value_t = 1e-4, allow_negative_numbers = true)]
     pub k_min: f64,
     /// Largest k, in Mpc^-1 [default: 1e14, or less if modes would exit too near the end].
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     pub k_max: Option<f64>,
     /// Number of k values, evenly spaced in ln k.
-    #[arg(long, default_value_t = 60)]
+    #[arg(long, default_value_t = 60, allow_negative_numbers = true)]
     pub points: usize,
     /// Use this branch (1-based), as in `predict`.
-    #[arg(long, value_name = "K")]
+    #[arg(long, value_name = "K", allow_negative_numbers = true)]
     pub branch: Option<usize>,
     /// Start the background at this field value instead of on the slow-roll attractor.
     #[arg(long, value_name = "PHI", allow_hyphen_values = true)]
@@ -249,7 +249,7 @@ pub struct PredictArgs {
     pub efolds: Vec<f64>,
     /// Use this branch (1-based, in ascending field position) [default: the one at larger field
     /// values that gives the e-folds].
-    #[arg(long, value_name = "K")]
+    #[arg(long, value_name = "K", allow_negative_numbers = true)]
     pub branch: Option<usize>,
     /// Second-order slow-roll observables (Hubble-flow expansion).
     #[arg(long)]
@@ -272,14 +272,14 @@ pub struct PredictArgs {
     #[arg(long, value_name = "W", allow_hyphen_values = true)]
     pub reheat_w: Option<f64>,
     /// Reheating temperature in GeV.
-    #[arg(long, value_name = "GEV")]
+    #[arg(long, value_name = "GEV", allow_negative_numbers = true)]
     pub reheat_temp: Option<f64>,
     /// e-folds of reheating.
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", allow_negative_numbers = true)]
     pub reheat_efolds: Option<f64>,
-    /// Relativistic degrees of freedom at reheating.
-    #[arg(long, default_value_t = 106.75, value_name = "G")]
-    pub g_star: f64,
+    /// Relativistic degrees of freedom at reheating (with a reheating flag) [default: 106.75].
+    #[arg(long, value_name = "G", allow_negative_numbers = true)]
+    pub g_star: Option<f64>,
     /// A data file of constraints and constants [default: the built-in
     /// data/planck2018-bk18.toml].
     #[arg(long, value_name = "FILE")]
@@ -325,7 +325,7 @@ pub struct InspectArgs {
     #[arg(long, value_enum, default_value_t = Format::Text)]
     pub format: Format,
     /// Add a table of (phi, chi, V) with this many rows.
-    #[arg(long, value_name = "ROWS")]
+    #[arg(long, value_name = "ROWS", allow_negative_numbers = true)]
     pub table: Option<usize>,
     /// Write a figure of V against the field and against chi to this SVG file.
     #[arg(long, value_name = "FILE")]
@@ -356,13 +356,14 @@ pub struct ScopeArgs {
 /// `efold eval`.
 #[derive(Debug, clap::Args)]
 pub struct EvalArgs {
-    /// The expression, e.g. '1 - tanh(phi/sqrt(6*alpha))^2'.
+    /// The expression, e.g. '1 - tanh(phi/sqrt(6*alpha))^2' (a leading minus is part of it).
+    #[arg(allow_hyphen_values = true)]
     pub expr: String,
     /// The point, FIELD=VALUE (VALUE may be an expression of the parameters).
-    #[arg(long, value_name = "FIELD=VALUE")]
+    #[arg(long, value_name = "FIELD=VALUE", allow_hyphen_values = true)]
     pub at: String,
     /// Highest derivative to report (0 to 8).
-    #[arg(long, default_value_t = 1)]
+    #[arg(long, default_value_t = 1, allow_negative_numbers = true)]
     pub order: usize,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Text)]
@@ -388,13 +389,14 @@ pub enum Emit {
 /// `efold compile`.
 #[derive(Debug, clap::Args)]
 pub struct CompileArgs {
-    /// The expression.
+    /// The expression (a leading minus is part of it).
+    #[arg(allow_hyphen_values = true)]
     pub expr: String,
     /// Stages to show (repeatable, or comma-separated) [default: all].
     #[arg(long, value_enum, value_delimiter = ',')]
     pub emit: Vec<Emit>,
     /// Highest symbolic derivative to show.
-    #[arg(long, default_value_t = 2)]
+    #[arg(long, default_value_t = 2, allow_negative_numbers = true)]
     pub order: usize,
     #[command(flatten)]
     #[allow(missing_docs)]
@@ -518,7 +520,62 @@ fn split_binding<'a>(flag: &str, text: &'a str) -> Result<(&'a str, &'a str), Fa
     if !valid {
         return Err(bad());
     }
+    check_not_reserved(flag, text, name)?;
     Ok((name, value))
+}
+
+/// Whether a name is the language's own: a function, `pow` or `pi`.
+fn is_reserved(name: &str) -> bool {
+    name == "pi" || name == "pow" || crate::ir::Func::from_name(name).is_some()
+}
+
+/// A name given with `flag` (in its value `text`) that the expression language reserves is
+/// refused, with a caret under it, as model files refuse it.
+fn check_not_reserved(flag: &str, text: &str, name: &str) -> Result<(), Failure> {
+    if !is_reserved(name) {
+        return Ok(());
+    }
+    let start = text.find(name).unwrap_or(0);
+    let d = Diagnostic::new(format!("`{flag} {text}`: `{name}` is a built-in name"))
+        .with_span(crate::diag::Span::new(start, start + name.len()), "a built-in name")
+        .with_hint("choose another name: the functions (exp, sqrt, ...), `pow` and `pi` are the language's own");
+    Err(Failure::input(d.render(Some(&crate::diag::Source::new(flag, text)))))
+}
+
+/// `--field NAME`: a valid name that is not the language's own.
+fn check_field_name(name: &str) -> Result<(), Failure> {
+    let valid = name.chars().next().is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+        && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_');
+    if !valid {
+        let d = Diagnostic::new(format!("`--field {name}` is not a valid name"))
+            .with_span(crate::diag::Span::new(0, name.len()), "not a name")
+            .with_hint("names are letters, digits and _, starting with a letter or _");
+        return Err(Failure::input(
+            d.render(Some(&crate::diag::Source::new("--field", name))),
+        ));
+    }
+    check_not_reserved("--field", name, name)
+}
+
+/// A `--param NAME=...` given twice is refused (else the last would silently win).
+fn check_params_once(flags: &[String]) -> Result<(), Failure> {
+    let name_of = |f: &str| f.split_once('=').map(|(n, _)| n.trim().to_string());
+    for (i, flag) in flags.iter().enumerate() {
+        let Some(name) = name_of(flag) else { continue };
+        if let Some(first) = flags[..i].iter().find(|f| name_of(f).as_deref() == Some(name.as_str())) {
+            let start = flag.find(name.as_str()).unwrap_or(0);
+            let d = Diagnostic::new(format!("`--param {name}` is given twice"))
+                .with_span(
+                    crate::diag::Span::new(start, start + name.len()),
+                    format!("given again here; the first was `{first}`"),
+                )
+                .with_hint("give each --param once (a --param replaces the model file's value)");
+            return Err(Failure::input(
+                d.render(Some(&crate::diag::Source::new("--param", flag))),
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// Parameter names and values from `--param` flags, each value an expression of `pi` and the
@@ -527,12 +584,11 @@ pub fn bind_params(flags: &[String], field: &str, config: &Config) -> Result<(Ve
     let mut names: Vec<String> = Vec::new();
     let mut values: Vec<f64> = Vec::new();
     for flag in flags {
+        split_binding("--param", flag)?;
+    }
+    check_params_once(flags)?;
+    for flag in flags {
         let (name, text) = split_binding("--param", flag)?;
-        if names.iter().any(|n| n == name) {
-            return Err(Diagnostic::new(format!("parameter `{name}` is given twice"))
-                .with_hint("give each --param once")
-                .into());
-        }
         let refs: Vec<&str> = names.iter().map(String::as_str).collect();
         let scope = Scope::new(field, &refs);
         let v = constant_expr(&format!("--param {name}"), text, &scope, &values, config)?;
@@ -573,6 +629,9 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
         .into());
     }
     let (at_name, at_text) = split_binding("--at", &a.at)?;
+    if let Some(f) = &a.scope.field {
+        check_field_name(f)?;
+    }
     let field = a.scope.field.clone().unwrap_or_else(|| at_name.to_string());
     if at_name != field {
         return Err(
@@ -655,6 +714,9 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
+    if let Some(f) = &a.scope.field {
+        check_field_name(f)?;
+    }
     let field = a.scope.field.clone().unwrap_or_else(|| "phi".to_string());
     check_count(
         "--order",
@@ -723,8 +785,13 @@ pub fn load_model(a: &ModelArgs, config: &Config) -> Result<crate::model::Model,
         spec.kinetic = Text::inline("--kinetic", k);
     }
     if let Some(f) = &a.field {
+        check_field_name(f)?;
         spec.field = f.clone();
     }
+    for p in &a.params {
+        split_binding("--param", p)?;
+    }
+    check_params_once(&a.params)?;
     for p in &a.params {
         let (name, value) = split_binding("--param", p)?;
         spec.set_param(name, value);
@@ -762,9 +829,214 @@ fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
     })
 }
 
+/// Relativistic degrees of freedom at reheating when `--g-star` is not given: the Standard
+/// Model's 106.75 above the electroweak scale (common practice).
+const DEFAULT_G_STAR: f64 = 106.75;
+
+/// A flag's value that is outside its valid range: the flag and value drawn with a caret under
+/// the value, what the range is, and how to fix it.
+fn bad_flag_value(flag: &str, value: &str, message: String, hint: &str) -> Failure {
+    let text = format!("{flag} {value}");
+    let d = Diagnostic::new(message)
+        .with_span(
+            crate::diag::Span::new(flag.len() + 1, text.len()),
+            "not in the valid range",
+        )
+        .with_hint(hint);
+    Failure::input(d.render(Some(&crate::diag::Source::new("command line", &text))))
+}
+
+/// A number that must be finite and inside `ok`, described by `range` in the message.
+fn check_range(flag: &str, v: f64, ok: impl Fn(f64) -> bool, range: &str, hint: &str) -> Result<(), Failure> {
+    if v.is_finite() && ok(v) {
+        return Ok(());
+    }
+    Err(bad_flag_value(
+        flag,
+        &v.to_string(),
+        format!("{flag} {v}: {range}"),
+        hint,
+    ))
+}
+
+/// `--tolerance` of `golden check` and `watch`: a finite relative tolerance, 0 or more.
+fn check_tolerance(v: f64) -> Result<(), Failure> {
+    check_range(
+        "--tolerance",
+        v,
+        |v| v >= 0.0,
+        "a relative tolerance must be a finite number, 0 or more",
+        "give e.g. --tolerance 1e-8 (0 asks for identical values)",
+    )
+}
+
+/// A list of N_* (from `origin`: `--efolds`, or the model's `efolds` setting): each finite and
+/// at least `config::MIN_EFOLDS`.
+fn check_efolds_values(origin: &str, values: &[f64]) -> Result<(), Failure> {
+    use crate::config::MIN_EFOLDS;
+    let Some(i) = values.iter().position(|v| !(v.is_finite() && *v >= MIN_EFOLDS)) else {
+        return Ok(());
+    };
+    let shown: Vec<String> = values.iter().map(|v| v.to_string()).collect();
+    let start = shown[..i].iter().map(|s| s.len() + 1).sum::<usize>();
+    let d = Diagnostic::new(format!(
+        "N_* = {} in {origin}: the e-folds before the end of inflation must be a finite number, {MIN_EFOLDS} or more",
+        shown[i]
+    ))
+    .with_hint("the pivot usually leaves the horizon 50 to 60 e-folds before the end: --efolds 50,55,60");
+    if !origin.starts_with("--") {
+        return Err(d.into());
+    }
+    let text = format!("{origin} {}", shown.join(","));
+    let at = origin.len() + 1 + start;
+    let d = d.with_span(
+        crate::diag::Span::new(at, at + shown[i].len()),
+        "not in the valid range",
+    );
+    Err(Failure::input(
+        d.render(Some(&crate::diag::Source::new("command line", &text))),
+    ))
+}
+
+/// `--start-phi` and `--start-velocity`: finite, the velocity only with a start, and (with the
+/// model) a velocity that leaves H^2 > 0.
+fn check_start(phi: Option<f64>, velocity: Option<f64>) -> Result<(), Failure> {
+    if let Some(p) = phi {
+        check_range(
+            "--start-phi",
+            p,
+            |_| true,
+            "the start must be a finite field value",
+            "give the field value to start the background at",
+        )?;
+    }
+    if let Some(v) = velocity {
+        if phi.is_none() {
+            return Err(
+                Diagnostic::new("--start-velocity is given without --start-phi, and would be ignored")
+                    .with_hint("give --start-phi PHI with it, or leave both out to start on the slow-roll attractor")
+                    .into(),
+            );
+        }
+        check_range(
+            "--start-velocity",
+            v,
+            |_| true,
+            "the initial dphi/dN must be a finite number",
+            "leave it out to take the slow-roll attractor's",
+        )?;
+    }
+    Ok(())
+}
+
+/// The Friedmann equation in e-folds, H^2 = V / (3 - K (dphi/dN)^2 / 2) (M_p = 1; common
+/// practice), needs K (dphi/dN)^2 < 6 where V > 0: a faster start has no real H.
+fn check_start_velocity(model: &crate::model::Model, phi: f64, v: f64) -> Result<(), Failure> {
+    let mut ev = model.evaluator();
+    let pot = ev.eval(phi);
+    let k = ev.output(1);
+    if !(pot.is_finite() && k.is_finite() && pot > 0.0 && k > 0.0) {
+        return Ok(()); // a start outside the model's domain is the exact route's own error
+    }
+    if k * v * v < 6.0 {
+        return Ok(());
+    }
+    let max = (6.0 / k).sqrt();
+    Err(bad_flag_value(
+        "--start-velocity",
+        &v.to_string(),
+        format!(
+            "--start-velocity {v} at {} = {phi} makes H^2 = V / (3 - K (dphi/dN)^2 / 2) <= 0: no real expansion rate",
+            model.field()
+        ),
+        &format!("at this start |dphi/dN| must be below sqrt(6/K) = {max:.6e}"),
+    ))
+}
+
+/// The flags of `predict` that make no sense alone, or together, or with these values.
+fn check_predict_flags(a: &PredictArgs) -> Result<(), Failure> {
+    check_efolds_values("--efolds", &a.efolds)?;
+    let reheating = a.reheat.is_some() || a.reheat_w.is_some() || a.reheat_temp.is_some() || a.reheat_efolds.is_some();
+    if reheating && !a.efolds.is_empty() {
+        return Err(
+            Diagnostic::new("--efolds is given together with reheating flags, which fix N_* themselves")
+                .with_hint("leave out --efolds to have N_* from reheating, or the reheating flags to give N_*")
+                .into(),
+        );
+    }
+    if a.g_star.is_some() && !reheating {
+        return Err(
+            Diagnostic::new("--g-star is given without a reheating flag, and would be ignored")
+                .with_hint("add `--reheat instant` or `--reheat-w W` with `--reheat-temp GEV` or `--reheat-efolds N`")
+                .into(),
+        );
+    }
+    if let Some(g) = a.g_star {
+        check_range(
+            "--g-star",
+            g,
+            |g| g > 0.0,
+            "the relativistic degrees of freedom must be a finite number above 0",
+            "the Standard Model above the electroweak scale has 106.75",
+        )?;
+    }
+    if let Some(w) = a.reheat_w {
+        check_range(
+            "--reheat-w",
+            w,
+            |w| w > -1.0 / 3.0 && w <= 1.0,
+            "the equation of state during reheating must lie in (-1/3, 1]: above -1/3, or it would still be inflation, and at most 1, the stiffest causal matter",
+            "w = 0 is matter-like oscillation about a quadratic minimum, 1/3 radiation",
+        )?;
+    }
+    if let Some(t) = a.reheat_temp {
+        check_range(
+            "--reheat-temp",
+            t,
+            |t| t > 0.0,
+            "the reheating temperature must be a finite number of GeV above 0",
+            "give e.g. --reheat-temp 1e9",
+        )?;
+    }
+    if let Some(n) = a.reheat_efolds {
+        use crate::config::MAX_REHEAT_EFOLDS;
+        check_range(
+            "--reheat-efolds",
+            n,
+            |n| (0.0..=MAX_REHEAT_EFOLDS).contains(&n),
+            &format!("the e-folds of reheating must lie in [0, {MAX_REHEAT_EFOLDS}]: more would end reheating below the temperature of nucleosynthesis"),
+            "give e.g. --reheat-efolds 10",
+        )?;
+    }
+    if a.method != Method::Exact && (a.start_phi.is_some() || a.start_velocity.is_some()) {
+        return Err(Diagnostic::new(
+            "--start-phi and --start-velocity start the exact background, and would be ignored by slow roll",
+        )
+        .with_hint("add --method exact, or leave them out")
+        .into());
+    }
+    check_start(a.start_phi, a.start_velocity)
+}
+
+/// The fewest N_* the exact route takes: aH must grow by ln(1/k_stop) + 2 TILT_STEP + 1 after
+/// the pivot, so that the highest mode of the five-point stencil, k = k_* exp(2 TILT_STEP),
+/// freezes (k/aH = k_stop) with the one e-fold of the freeze check before the end; and 4 e-folds
+/// more, because aH grows at the rate 1 - eps_H, which falls to 0 over the last e-folds (with
+/// the defaults 14.31; every shipped model integrates at that N_*, the quartic monomial not
+/// below 13).
+fn min_exact_efolds(settings: &crate::exact::Settings) -> f64 {
+    (1.0 / settings.k_stop).ln() + 2.0 * crate::exact::TILT_STEP + 1.0 + 4.0
+}
+
+/// Whether N_* comes from `--efolds` or the model (not from reheating, which is checked
+/// against the matching's own result).
+fn opts_fix_n_star(a: &PredictArgs) -> bool {
+    a.reheat.is_none() && a.reheat_w.is_none()
+}
+
 fn reheating_from(a: &PredictArgs) -> Result<Option<crate::reheating::Reheating>, Failure> {
     use crate::reheating::Reheating;
-    let g_star = a.g_star;
+    let g_star = a.g_star.unwrap_or(DEFAULT_G_STAR);
     match (&a.reheat, a.reheat_w, a.reheat_temp, a.reheat_efolds) {
         (None, None, None, None) => Ok(None),
         (Some(s), None, None, None) if s == "instant" => Ok(Some(Reheating::Instant { g_star })),
@@ -782,7 +1054,11 @@ fn reheating_from(a: &PredictArgs) -> Result<Option<crate::reheating::Reheating>
 
 fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
     check_efolds_count(&a.efolds, config)?;
+    check_predict_flags(a)?;
     let model = load_model(&a.model, config)?;
+    if let (Some(phi), Some(v)) = (a.start_phi, a.start_velocity) {
+        check_start_velocity(&model, phi, v)?;
+    }
     let data = match &a.data {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
         None => crate::data::DataSet::builtin(),
@@ -793,18 +1069,46 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         model.spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
     };
     check_efolds_count(&n_stars, config)?;
+    if a.efolds.is_empty() {
+        check_efolds_values("the model's `efolds` setting", &n_stars)?;
+    }
+    let exact = (a.method == Method::Exact).then(|| crate::exact::Settings {
+        start: a.start_phi.map(|p| (p, a.start_velocity)),
+        ..Default::default()
+    });
+    if let Some(settings) = &exact {
+        let min = min_exact_efolds(settings);
+        if let Some(n) = n_stars.iter().find(|n| **n < min).filter(|_| opts_fix_n_star(a)) {
+            return Err(Diagnostic::new(format!(
+                "N_* = {n} is too few for --method exact: it needs N_* of at least {:.2}",
+                (min * 100.0).ceil() / 100.0
+            ))
+            .with_hint(format!(
+                "the modes around the pivot must leave the horizon and freeze (k/aH = {:e}) before the end: give --efolds {:.0} or more, or use slow roll",
+                settings.k_stop,
+                min.ceil()
+            ))
+            .into());
+        }
+    }
     let opts = crate::predict::Options {
         n_stars,
         branch: a.branch,
         second_order: a.second_order,
         reheating: reheating_from(a)?,
         data,
-        exact: (a.method == Method::Exact).then(|| crate::exact::Settings {
-            start: a.start_phi.map(|p| (p, a.start_velocity)),
-            ..Default::default()
-        }),
+        exact,
     };
-    let rep = crate::predict::predict(&model, &opts, config)?;
+    let mut rep = crate::predict::predict(&model, &opts, config)?;
+    if a.method == Method::SlowRoll {
+        let limit = crate::config::SLOW_ROLL_WARN_EFOLDS;
+        if let Some(p) = rep.predictions.iter().find(|p| p.n_star < limit) {
+            rep.warnings.push(format!(
+                "N_* = {} is below {limit}: slow roll is unreliable so close to the end of inflation (try --method exact)",
+                p.n_star
+            ));
+        }
+    }
     if let Some(path) = &a.svg {
         let ins = crate::inspect::inspect(&model, config, None)?;
         let mut marks = crate::inspect::FigureMarks::default();
@@ -831,7 +1135,12 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         config.limits.max_spectrum_points,
         "max_spectrum_points",
     )?;
+    check_efolds_values("--efolds", &[a.efolds])?;
+    check_start(a.start_phi, a.start_velocity)?;
     let model = load_model(&a.model, config)?;
+    if let (Some(phi), Some(v)) = (a.start_phi, a.start_velocity) {
+        check_start_velocity(&model, phi, v)?;
+    }
     let data = match &a.data {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
         None => crate::data::DataSet::builtin(),
@@ -942,6 +1251,11 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
         a.efolds.clone()
     };
     check_efolds_count(&n_stars, config)?;
+    if a.efolds.is_empty() {
+        check_efolds_values("the model's `efolds` setting", &n_stars)?;
+    } else {
+        check_efolds_values("--efolds", &n_stars)?;
+    }
     if let (Some(out), Some(svg)) = (&a.out, &a.svg) {
         if crate::output::same_destination(out, svg) {
             return Err(Diagnostic::new(format!(
@@ -1089,6 +1403,7 @@ fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
 }
 
 fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
+    check_efolds_values("--efolds", &[a.efolds])?;
     let model = load_model(&a.model, config)?;
     let data = load_data(&a.data)?;
     let targets = a
@@ -1118,6 +1433,9 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
     let (dir, data) = match &a.action {
         GoldenAction::Write { dir, data } | GoldenAction::Check { dir, data, .. } => (dir, data),
     };
+    if let GoldenAction::Check { tolerance, .. } = &a.action {
+        check_tolerance(*tolerance)?;
+    }
     let base = crate::predict::Options {
         data: load_data(data)?,
         ..Default::default()
@@ -1190,6 +1508,7 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
 fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
     use crate::golden::{compare, model_files, predict_file};
     use notify::{RecursiveMode, Watcher};
+    check_tolerance(a.tolerance)?;
     let base = crate::predict::Options::default();
     let files = || -> Result<Vec<std::path::PathBuf>, Failure> {
         if a.path.is_dir() {

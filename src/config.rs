@@ -76,3 +76,18 @@ impl Default for Config {
         }
     }
 }
+
+/// The largest `--reheat-efolds`. Default 100: even with w just above -1/3, the slowest dilution
+/// (rho ~ a^-2), 100 e-folds of reheating take the density from the end of inflation at the GUT
+/// scale, (1e16 GeV)^4, below that of nucleosynthesis, (a few MeV)^4 (common practice: reheating
+/// must end above a few MeV), so larger values have no physical history behind them.
+pub const MAX_REHEAT_EFOLDS: f64 = 100.0;
+
+/// The smallest N_* efold accepts (`--efolds`, a model's `efolds`): below one e-fold the pivot
+/// leaves the horizon after inflation has practically ended.
+pub const MIN_EFOLDS: f64 = 1.0;
+
+/// Below this N_* a slow-roll prediction carries a warning: so close to the end of inflation
+/// the slow-roll parameters are no longer small (common practice: the CMB pivot lies some
+/// 50-60 e-folds before the end).
+pub const SLOW_ROLL_WARN_EFOLDS: f64 = 20.0;
