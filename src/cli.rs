@@ -76,7 +76,7 @@ pub enum GoldenAction {
         /// The directory of model files.
         dir: std::path::PathBuf,
         /// Relative tolerance.
-        #[arg(long, default_value_t = 1e-8, allow_negative_numbers = true)]
+        #[arg(long, default_value_t = 1e-8, allow_hyphen_values = true)]
         tolerance: f64,
         /// A data file [default: the built-in one].
         #[arg(long, value_name = "FILE")]
@@ -90,7 +90,7 @@ pub struct WatchArgs {
     /// A model file, or a directory of them.
     pub path: std::path::PathBuf,
     /// Report changes beyond this relative size.
-    #[arg(long, default_value_t = 1e-10, allow_negative_numbers = true)]
+    #[arg(long, default_value_t = 1e-10, allow_hyphen_values = true)]
     pub tolerance: f64,
     /// Stop after this many rounds of changes (for scripts; default: run until interrupted).
     #[arg(long, value_name = "N", allow_negative_numbers = true)]
@@ -116,7 +116,7 @@ pub struct FitArgs {
     )]
     pub targets: Vec<String>,
     /// e-folds between the pivot's exit and the end of inflation.
-    #[arg(long, default_value_t = 55.0, allow_negative_numbers = true)]
+    #[arg(long, default_value_t = 55.0, allow_hyphen_values = true)]
     pub efolds: f64,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
@@ -186,13 +186,13 @@ pub struct SpectrumArgs {
     #[allow(missing_docs)]
     pub model: ModelArgs,
     /// e-folds between the pivot's exit and the end of inflation (eps_H = 1).
-    #[arg(long, default_value_t = 55.0, allow_negative_numbers = true)]
+    #[arg(long, default_value_t = 55.0, allow_hyphen_values = true)]
     pub efolds: f64,
     /// Smallest k, in Mpc^-1.
-    #[arg(long, default_value_t = 1e-4, allow_negative_numbers = true)]
+    #[arg(long, default_value_t = 1e-4, allow_hyphen_values = true)]
     pub k_min: f64,
     /// Largest k, in Mpc^-1 [default: 1e14, or less if modes would exit too near the end].
-    #[arg(long, allow_negative_numbers = true)]
+    #[arg(long, allow_hyphen_values = true)]
     pub k_max: Option<f64>,
     /// Number of k values, evenly spaced in ln k.
     #[arg(long, default_value_t = 60, allow_negative_numbers = true)]
@@ -272,13 +272,13 @@ pub struct PredictArgs {
     #[arg(long, value_name = "W", allow_hyphen_values = true)]
     pub reheat_w: Option<f64>,
     /// Reheating temperature in GeV.
-    #[arg(long, value_name = "GEV", allow_negative_numbers = true)]
+    #[arg(long, value_name = "GEV", allow_hyphen_values = true)]
     pub reheat_temp: Option<f64>,
     /// e-folds of reheating.
-    #[arg(long, value_name = "N", allow_negative_numbers = true)]
+    #[arg(long, value_name = "N", allow_hyphen_values = true)]
     pub reheat_efolds: Option<f64>,
     /// Relativistic degrees of freedom at reheating (with a reheating flag) [default: 106.75].
-    #[arg(long, value_name = "G", allow_negative_numbers = true)]
+    #[arg(long, value_name = "G", allow_hyphen_values = true)]
     pub g_star: Option<f64>,
     /// A data file of constraints and constants [default: the built-in
     /// data/planck2018-bk18.toml].
@@ -851,12 +851,8 @@ fn check_range(flag: &str, v: f64, ok: impl Fn(f64) -> bool, range: &str, hint: 
     if v.is_finite() && ok(v) {
         return Ok(());
     }
-    Err(bad_flag_value(
-        flag,
-        &v.to_string(),
-        format!("{flag} {v}: {range}"),
-        hint,
-    ))
+    let shown = crate::ir::format_number(v);
+    Err(bad_flag_value(flag, &shown, format!("{flag} {shown}: {range}"), hint))
 }
 
 /// `--tolerance` of `golden check` and `watch`: a finite relative tolerance, 0 or more.
@@ -877,7 +873,7 @@ fn check_efolds_values(origin: &str, values: &[f64]) -> Result<(), Failure> {
     let Some(i) = values.iter().position(|v| !(v.is_finite() && *v >= MIN_EFOLDS)) else {
         return Ok(());
     };
-    let shown: Vec<String> = values.iter().map(|v| v.to_string()).collect();
+    let shown: Vec<String> = values.iter().map(|v| crate::ir::format_number(*v)).collect();
     let start = shown[..i].iter().map(|s| s.len() + 1).sum::<usize>();
     let d = Diagnostic::new(format!(
         "N_* = {} in {origin}: the e-folds before the end of inflation must be a finite number, {MIN_EFOLDS} or more",
@@ -1304,7 +1300,6 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
         emit(&table.rows(rows))
     })?;
     emit(&table.end())?;
-    drop(emit);
     if failed > 0 {
         crate::output::stderr(&format!(
             "efold: warning: {failed} of {rows_done} rows failed; they keep their row with the error\n"

@@ -511,3 +511,215 @@ fn one_file_for_two_outputs_is_refused() {
     assert_eq!(entries(&dir), vec!["link", "sub", "y"], "nothing written");
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+// ---- 5-7. flag values ----
+
+/// Every refused flag value exits 2 with the flag named and its valid range, and prints nothing
+/// on standard output.
+#[test]
+fn meaningless_flag_values_are_refused() {
+    let pole = model("pole-order-2-quadratic");
+    let p = pole.as_str();
+    let dir = temp_dir("tolerance");
+    std::fs::copy(model("quadratic-monomial"), dir.join("m.toml")).unwrap();
+    let d = dir.to_str().unwrap();
+    let cases: Vec<(&str, Vec<&str>)> = vec![
+        ("golden_tolerance_nan", vec!["golden", "check", d, "--tolerance", "nan"]),
+        (
+            "golden_tolerance_negative",
+            vec!["golden", "check", d, "--tolerance", "-1e-8"],
+        ),
+        ("watch_tolerance_infinite", vec!["watch", d, "--tolerance", "inf"]),
+        ("param_pi", vec!["predict", p, "--param", "pi=3"]),
+        ("param_exp", vec!["predict", p, "--param", "exp=2"]),
+        (
+            "field_sqrt",
+            vec!["predict", "--potential", "sqrt^2", "--field", "sqrt"],
+        ),
+        ("eval_param_pi", vec!["eval", "phi", "--at", "phi=1", "--param", "pi=3"]),
+        (
+            "param_twice",
+            vec!["predict", p, "--param", "alpha=1", "--param", "alpha=2"],
+        ),
+        (
+            "vary_twice",
+            vec!["scan", p, "--vary", "alpha=1:2:3", "--vary", "alpha"],
+        ),
+        (
+            "reheat_temp_negative",
+            vec!["predict", p, "--reheat-w", "0", "--reheat-temp", "-5"],
+        ),
+        (
+            "reheat_temp_zero",
+            vec!["predict", p, "--reheat-w", "0", "--reheat-temp", "0"],
+        ),
+        (
+            "reheat_temp_infinite",
+            vec!["predict", p, "--reheat-w", "0", "--reheat-temp", "inf"],
+        ),
+        (
+            "reheat_efolds_huge",
+            vec!["predict", p, "--reheat-w", "0", "--reheat-efolds", "1e6"],
+        ),
+        (
+            "reheat_efolds_nan",
+            vec!["predict", p, "--reheat-w", "0", "--reheat-efolds", "nan"],
+        ),
+        (
+            "reheat_efolds_negative",
+            vec!["predict", p, "--reheat-w", "0", "--reheat-efolds", "-1"],
+        ),
+        (
+            "g_star_zero",
+            vec!["predict", p, "--reheat", "instant", "--g-star", "0"],
+        ),
+        (
+            "g_star_nan",
+            vec!["predict", p, "--reheat", "instant", "--g-star", "nan"],
+        ),
+        (
+            "reheat_w_minus_third",
+            vec![
+                "predict",
+                p,
+                "--reheat-w",
+                "-0.3333333333333333",
+                "--reheat-efolds",
+                "5",
+            ],
+        ),
+        (
+            "reheat_w_above_1",
+            vec!["predict", p, "--reheat-w", "1.01", "--reheat-efolds", "5"],
+        ),
+        ("efolds_tiny", vec!["predict", p, "--efolds", "50,1e-12,60"]),
+        ("efolds_nan", vec!["predict", p, "--efolds", "nan"]),
+        (
+            "scan_efolds_infinite",
+            vec!["scan", p, "--vary", "alpha=1:2:2", "--efolds", "inf"],
+        ),
+        ("spectrum_efolds_zero", vec!["spectrum", p, "--efolds", "0"]),
+        (
+            "fit_efolds_negative",
+            vec!["fit", p, "--free", "alpha", "--target", "n_s=0.965", "--efolds", "-55"],
+        ),
+        ("start_phi_without_exact", vec!["predict", p, "--start-phi", "2"]),
+        (
+            "start_velocity_without_exact",
+            vec!["predict", p, "--start-velocity", "0.1"],
+        ),
+        (
+            "start_velocity_without_phi",
+            vec!["predict", p, "--method", "exact", "--start-velocity", "0.1"],
+        ),
+        ("g_star_without_reheating", vec!["predict", p, "--g-star", "10"]),
+        (
+            "efolds_with_reheating",
+            vec!["predict", p, "--efolds", "55", "--reheat", "instant"],
+        ),
+        (
+            "start_phi_nan",
+            vec!["predict", p, "--method", "exact", "--start-phi", "nan"],
+        ),
+        (
+            "start_velocity_h2_negative",
+            vec![
+                "predict",
+                p,
+                "--method",
+                "exact",
+                "--start-phi",
+                "2.4",
+                "--start-velocity",
+                "10",
+            ],
+        ),
+        ("spectrum_start_phi_nan", vec!["spectrum", p, "--start-phi", "nan"]),
+        (
+            "exact_too_few_efolds",
+            vec!["predict", p, "--method", "exact", "--efolds", "1"],
+        ),
+        ("k_min_negative", vec!["spectrum", p, "--k-min", "-1"]),
+    ];
+    for (name, args) in cases {
+        let r = efold(&args);
+        assert_eq!(r.code, 2, "{name}: {}", r.stderr);
+        assert!(r.stdout.is_empty(), "{name}: {}", r.stdout);
+        insta::assert_snapshot!(format!("flag_{name}"), r.stderr);
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+/// The edges of the valid ranges are accepted: w = 1 and w just above -1/3, zero reheating
+/// e-folds and the largest allowed, a zero tolerance, N_* = 1 in slow roll (with its warning),
+/// the fewest e-folds the exact route takes.
+#[test]
+fn the_edges_of_the_ranges_are_accepted() {
+    let pole = model("pole-order-2-quadratic");
+    let p = pole.as_str();
+    let dir = temp_dir("edges");
+    std::fs::copy(model("quadratic-monomial"), dir.join("m.toml")).unwrap();
+    let d = dir.to_str().unwrap();
+    let w = efold(&["golden", "write", d]);
+    assert_eq!(w.code, 0, "{}", w.stderr);
+    for args in [
+        vec!["golden", "check", d, "--tolerance", "0"],
+        vec!["predict", p, "--reheat-w", "1", "--reheat-efolds", "5"],
+        vec!["predict", p, "--reheat-w", "-0.3333", "--reheat-efolds", "0"],
+        vec!["predict", p, "--reheat-w", "0", "--reheat-efolds", "100"],
+        vec!["predict", p, "--reheat", "instant", "--g-star", "10.75"],
+        vec!["predict", p, "--method", "exact", "--efolds", "14.32"],
+    ] {
+        let r = efold(&args);
+        assert_eq!(r.code, 0, "{args:?}: {}", r.stderr);
+    }
+    let r = efold(&["predict", p, "--efolds", "1,55"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let warning = r
+        .stdout
+        .lines()
+        .find(|l| l.contains("slow roll is unreliable"))
+        .unwrap_or("");
+    insta::assert_snapshot!("slow_roll_warning", warning);
+    let r = efold(&["predict", p, "--efolds", "20,55", "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    assert!(
+        !v["warnings"].to_string().contains("unreliable"),
+        "no warning from N_* = 20 up: {}",
+        v["warnings"]
+    );
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+// ---- 8. minus signs ----
+
+#[test]
+fn a_leading_minus_is_an_expression_and_negative_numbers_reach_the_checks() {
+    // -phi^2 = -(phi^2) (README: power binds tighter than unary minus): -1 at phi = 1, slope -2
+    let r = efold(&["eval", "-phi^2", "--at", "phi=1", "--format", "json"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    assert_eq!(v["value"], -1.0);
+    assert_eq!(v["derivatives"][0], -2.0);
+    let r = efold(&["eval", "-phi", "--at", "phi=-2"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let r = efold(&["compile", "-phi^2", "--emit", "ir"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert_eq!(r.stdout.lines().nth(1), Some("-phi^2"));
+    // negative values after numeric flags reach efold's own checks, not clap's
+    let pole = model("pole-order-2-quadratic");
+    for args in [
+        vec!["spectrum", pole.as_str(), "--k-min", "-1"],
+        vec!["spectrum", pole.as_str(), "--k-max", "-1"],
+        vec!["predict", pole.as_str(), "--reheat-w", "0", "--reheat-temp", "-5"],
+        vec!["predict", pole.as_str(), "--efolds", "-5"],
+    ] {
+        let r = efold(&args);
+        assert_eq!(r.code, 2, "{args:?}");
+        assert!(r.stderr.starts_with("efold: error:"), "{args:?}: {}", r.stderr);
+    }
+    // a negative count is clap's error (not a number of that kind), still exit code 2
+    let r = efold(&["spectrum", pole.as_str(), "--points", "-3"]);
+    assert_eq!(r.code, 2);
+    assert!(r.stderr.contains("invalid value '-3'"), "{}", r.stderr);
+}
