@@ -4,9 +4,10 @@
 //!
 //! | code | meaning |
 //! |------|---------|
-//! | 0 | success |
+//! | 0 | success; also a closed standard output (the reader went away): efold stops quietly |
 //! | 1 | `golden check`: predictions drifted beyond the tolerance |
-//! | 2 | bad input (an expression, a flag, a file) or a numerical failure |
+//! | 2 | bad input (an expression, a flag, a file, a size beyond its limit, a value outside its
+//! range), an output that cannot be written, or a numerical failure |
 
 use crate::compile::{compile, lower_into, ExprError};
 use crate::config::Config;

@@ -101,42 +101,44 @@ pub struct OutputFile {
 impl OutputFile {
     /// Opens `path` for writing, as the module docs describe.
     pub fn create(path: &Path) -> std::io::Result<OutputFile> {
-        let target = resolve(path)?;
-        match std::fs::metadata(&target) {
-            Ok(m) if m.is_dir() => Err(std::io::Error::other("it is a directory")),
+        // What the path leads to, links followed by the system (so that `/dev/stdout` and
+        // other links to devices or pipes are written through).
+        let (found, target) = match std::fs::metadata(path) {
+            Ok(m) if m.is_dir() => return Err(std::io::Error::other("it is a directory")),
             Ok(m) if !m.is_file() => {
-                let file = std::fs::OpenOptions::new().write(true).open(&target)?;
-                Ok(OutputFile {
+                let file = std::fs::OpenOptions::new().write(true).open(path)?;
+                return Ok(OutputFile {
                     file: Some(file),
                     rename: None,
-                })
+                });
             }
-            found => {
-                let dir = target
-                    .parent()
-                    .filter(|p| !p.as_os_str().is_empty())
-                    .unwrap_or(Path::new("."));
-                let name = target
-                    .file_name()
-                    .map(|n| n.to_string_lossy().into_owned())
-                    .unwrap_or_else(|| "out".into());
-                let tmp = dir.join(format!(".{name}.tmp{}", std::process::id()));
-                let file = std::fs::OpenOptions::new()
-                    .write(true)
-                    .create(true)
-                    .truncate(true)
-                    .open(&tmp)?;
-                let out = OutputFile {
-                    file: Some(file),
-                    rename: Some((tmp, target)),
-                };
-                // An existing file keeps its permissions.
-                if let (Ok(m), Some(f)) = (found, &out.file) {
-                    f.set_permissions(m.permissions())?;
-                }
-                Ok(out)
-            }
+            Ok(m) => (Some(m), std::fs::canonicalize(path)?),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => (None, resolve(path)?),
+            Err(e) => return Err(e),
+        };
+        let dir = target
+            .parent()
+            .filter(|p| !p.as_os_str().is_empty())
+            .unwrap_or(Path::new("."));
+        let name = target
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "out".into());
+        let tmp = dir.join(format!(".{name}.tmp{}", std::process::id()));
+        let file = std::fs::OpenOptions::new()
+            .write(true)
+            .create(true)
+            .truncate(true)
+            .open(&tmp)?;
+        let out = OutputFile {
+            file: Some(file),
+            rename: Some((tmp, target)),
+        };
+        // An existing file keeps its permissions.
+        if let (Some(m), Some(f)) = (found, &out.file) {
+            f.set_permissions(m.permissions())?;
         }
+        Ok(out)
     }
 
     /// Appends `text`.

@@ -907,5 +907,54 @@ mod tests {
         assert_eq!((s(1, 3), s(2, 3), s(3, 3)), (0..3, 3..6, 6..10));
         assert!(Shard::parse("0/3").is_err() && Shard::parse("4/3").is_err() && Shard::parse("x").is_err());
         assert_eq!(Shard::parse("2/5"), Ok(Shard { k: 2, n: 5 }));
+        // no overflow for any K/N, and the shards of a count tile it
+        let huge = Shard {
+            k: usize::MAX,
+            n: usize::MAX,
+        };
+        assert_eq!(huge.range(10), 9..10);
+        assert_eq!(Shard { k: 1, n: usize::MAX }.range(usize::MAX), 0..1);
+    }
+
+    /// The streamed JSON is, byte for byte, serde_json's pretty form of the whole array: rows
+    /// that predict, rows that failed (with quotes and a newline in the error), an empty table.
+    #[test]
+    fn streamed_json_is_the_pretty_array() {
+        let mut spec = ModelSpec::inline("m*phi^2", None);
+        spec.set_param("m", "1");
+        let axes = [Axis::new("m", -1.0, 2.0, 3, false).unwrap()];
+        let mut rows = run(
+            &spec,
+            &axes,
+            &[50.0, 60.0],
+            &DataSet::builtin(),
+            None,
+            &Config::default(),
+            false,
+        );
+        assert!(rows.iter().any(|r| r.result.is_ok()) && rows.iter().any(|r| r.result.is_err()));
+        rows[0].result = Err("a \"quoted\" reason\non two lines".into());
+        let whole: Vec<serde_json::Value> = rows.iter().map(json_row).collect();
+        let expected = format!("{}\n", serde_json::to_string_pretty(&whole).unwrap());
+        assert_eq!(json(&rows), expected);
+        let mut t = Table::new(true, None);
+        let mut chunked = t.start(&[]);
+        for chunk in rows.chunks(4) {
+            chunked.push_str(&t.rows(chunk));
+        }
+        chunked.push_str(&t.end());
+        assert_eq!(chunked, expected);
+        assert_eq!(json(&[]), "[]\n");
+    }
+
+    #[test]
+    fn quoted_csv_fields() {
+        let recs = csv_records("1,\"a, \"\"b\"\"\n c\",2\n3,4\n", 1).unwrap();
+        assert_eq!(
+            recs.iter().map(|r| (r.0, r.2)).collect::<Vec<_>>(),
+            vec![(1, 3), (3, 2)]
+        );
+        assert_eq!(csv_records("1,2\n3,4", 1), Err(2));
+        assert_eq!(csv_records("1,\"open\n", 1), Err(1));
     }
 }

@@ -723,3 +723,37 @@ fn a_leading_minus_is_an_expression_and_negative_numbers_reach_the_checks() {
     assert_eq!(r.code, 2);
     assert!(r.stderr.contains("invalid value '-3'"), "{}", r.stderr);
 }
+
+#[test]
+fn output_into_a_fifo_reaches_its_reader() {
+    use std::os::unix::fs::FileTypeExt;
+    let dir = temp_dir("fifo");
+    let fifo = dir.join("pipe.csv");
+    let made = Command::new("mkfifo").arg(&fifo).status().is_ok_and(|s| s.success());
+    if !made {
+        eprintln!("note: cannot create a FIFO here: skipped");
+        std::fs::remove_dir_all(&dir).unwrap();
+        return;
+    }
+    let reader = {
+        let fifo = fifo.clone();
+        std::thread::spawn(move || std::fs::read_to_string(fifo).unwrap())
+    };
+    let pole = model("pole-order-2-quadratic");
+    let args = [
+        "scan",
+        pole.as_str(),
+        "--vary",
+        "alpha=1:2:2",
+        "--out",
+        fifo.to_str().unwrap(),
+    ];
+    let r = efold(&args);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let got = reader.join().unwrap();
+    let whole = efold(&args[..4]);
+    assert_eq!(got, whole.stdout, "the reader gets the table");
+    assert!(std::fs::symlink_metadata(&fifo).unwrap().file_type().is_fifo());
+    assert_eq!(entries(&dir), vec!["pipe.csv"]);
+    std::fs::remove_dir_all(&dir).unwrap();
+}
