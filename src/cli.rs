@@ -144,7 +144,7 @@ pub struct ScanArgs {
     #[arg(long, default_value_t = 20, allow_negative_numbers = true)]
     pub points: usize,
     /// Compute only the K-th of N slices of the grid (for job arrays); join with `efold merge`.
-    #[arg(long, value_name = "K/N")]
+    #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
     pub shard: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = ScanFormat::Csv)]
@@ -499,7 +499,7 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Predict(a) => predict_cmd(a, &config),
         Command::Spectrum(a) => spectrum_cmd(a, &config),
         Command::Scan(a) => scan_cmd(a, &config),
-        Command::Merge(a) => merge_cmd(a),
+        Command::Merge(a) => merge_cmd(a, &config),
         Command::Fit(a) => fit_cmd(a, &config),
         Command::Golden(a) => golden_cmd(a, &config),
         Command::Watch(a) => watch_cmd(a, &config),
@@ -1372,15 +1372,41 @@ fn check_efolds_count(n_stars: &[f64], config: &Config) -> Result<(), Failure> {
     Ok(())
 }
 
-fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
+/// Reads a whole text file of at most `limit` bytes (`Limits::max_shard_bytes`), stopping at
+/// `limit + 1` bytes so that an endless device cannot fill the memory.
+fn read_bounded(path: &std::path::Path, limit: usize) -> Result<String, Failure> {
+    use std::io::Read as _;
+    let cannot = |e: std::io::Error| {
+        Failure::from(
+            Diagnostic::new(format!("cannot read `{}`: {e}", path.display()))
+                .with_hint("give the shard files written by `efold scan --shard K/N`"),
+        )
+    };
+    let file = std::fs::File::open(path).map_err(cannot)?;
+    let mut bytes = Vec::new();
+    file.take(limit as u64 + 1).read_to_end(&mut bytes).map_err(cannot)?;
+    if bytes.len() > limit {
+        return Err(Diagnostic::new(format!(
+            "`{}` is larger than {limit} bytes (config::Limits::max_shard_bytes)",
+            path.display()
+        ))
+        .with_hint("merge fewer, smaller shards at a time, or run the scan unsharded")
+        .into());
+    }
+    String::from_utf8(bytes).map_err(|_| {
+        Diagnostic::new(format!(
+            "`{}` is not text (not UTF-8): not a scan shard",
+            path.display()
+        ))
+        .with_hint("give the shard files written by `efold scan --shard K/N`")
+        .into()
+    })
+}
+
+fn merge_cmd(a: &MergeArgs, config: &Config) -> Result<String, Failure> {
     let mut texts = Vec::new();
     for f in &a.files {
-        let t = std::fs::read_to_string(f).map_err(|e| {
-            Failure::from(
-                Diagnostic::new(format!("cannot read `{}`: {e}", f.display()))
-                    .with_hint("give the shard files written by `efold scan --shard K/N`"),
-            )
-        })?;
+        let t = read_bounded(f, config.limits.max_shard_bytes)?;
         texts.push((f.display().to_string(), t));
     }
     let merged = crate::scan::merge(&texts).map_err(|e| {
@@ -1587,4 +1613,25 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
         }
     }
     Ok(String::new())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn merge_reads_at_most_its_limit() {
+        let path = std::env::temp_dir().join(format!("efold-bounded-{}.csv", std::process::id()));
+        std::fs::write(&path, "0123456789").unwrap();
+        assert_eq!(read_bounded(&path, 10).unwrap(), "0123456789");
+        let err = read_bounded(&path, 9).unwrap_err();
+        assert_eq!(err.code, 2);
+        assert!(err.message.contains("larger than 9 bytes"), "{}", err.message);
+        std::fs::remove_file(&path).unwrap();
+        // an endless device stops at the limit
+        if std::path::Path::new("/dev/zero").exists() {
+            let err = read_bounded(std::path::Path::new("/dev/zero"), 1 << 16).unwrap_err();
+            assert!(err.message.contains("max_shard_bytes"), "{}", err.message);
+        }
+    }
 }

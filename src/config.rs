@@ -35,6 +35,10 @@ pub struct Limits {
     /// Most N_* values in one `--efolds` list or a model's `efolds` setting. Default 1000: every
     /// value is a full prediction per point, and a scan holds `scan::CHUNK_ROWS` rows at a time.
     pub max_efolds: usize,
+    /// Largest file `efold merge` reads, in bytes. Default 1 GiB: merge holds its inputs in
+    /// memory, and a device that never ends (`/dev/zero`) must not fill it. A larger scan is
+    /// merged in parts, or written unsharded.
+    pub max_shard_bytes: usize,
 }
 
 impl Default for Limits {
@@ -49,6 +53,7 @@ impl Default for Limits {
             max_table_rows: 100_000,
             max_symbolic_order: 8,
             max_efolds: 1000,
+            max_shard_bytes: 1 << 30,
         }
     }
 }
