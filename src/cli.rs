@@ -489,7 +489,8 @@ pub fn main() -> ExitCode {
     }
 }
 
-/// Runs one command; returns what it prints on stdout.
+/// Runs one command; returns what it prints on stdout (`scan` writes its table itself, as it
+/// streams, and returns nothing).
 pub fn run(args: &Args) -> Result<String, Failure> {
     let config = Config::default();
     match &args.command {

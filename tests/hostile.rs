@@ -703,6 +703,8 @@ fn a_leading_minus_is_an_expression_and_negative_numbers_reach_the_checks() {
     assert_eq!(v["derivatives"][0], -2.0);
     let r = efold(&["eval", "-phi", "--at", "phi=-2"]);
     assert_eq!(r.code, 0, "{}", r.stderr);
+    let r = efold(&["eval", "--at", "phi=1", "--", "-phi^2"]);
+    assert_eq!(r.code, 0, "the separator still works: {}", r.stderr);
     let r = efold(&["compile", "-phi^2", "--emit", "ir"]);
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert_eq!(r.stdout.lines().nth(1), Some("-phi^2"));
@@ -713,6 +715,8 @@ fn a_leading_minus_is_an_expression_and_negative_numbers_reach_the_checks() {
         vec!["spectrum", pole.as_str(), "--k-max", "-1"],
         vec!["predict", pole.as_str(), "--reheat-w", "0", "--reheat-temp", "-5"],
         vec!["predict", pole.as_str(), "--efolds", "-5"],
+        vec!["golden", "check", "models", "--tolerance", "-1e-8"],
+        vec!["scan", pole.as_str(), "--vary", "alpha", "--shard", "-1/3"],
     ] {
         let r = efold(&args);
         assert_eq!(r.code, 2, "{args:?}");
