@@ -4,9 +4,10 @@
 //!
 //! | code | meaning |
 //! |------|---------|
-//! | 0 | success |
+//! | 0 | success; also a closed standard output (the reader went away): efold stops quietly |
 //! | 1 | `golden check`: predictions drifted beyond the tolerance |
-//! | 2 | bad input (an expression, a flag, a file) or a numerical failure |
+//! | 2 | bad input (an expression, a flag, a file, a size beyond its limit, a value outside its
+//! range), an output that cannot be written, or a numerical failure |
 
 use crate::compile::{compile, lower_into, ExprError};
 use crate::config::Config;
@@ -76,7 +77,7 @@ pub enum GoldenAction {
         /// The directory of model files.
         dir: std::path::PathBuf,
         /// Relative tolerance.
-        #[arg(long, default_value = "1e-8")]
+        #[arg(long, default_value = "1e-8", allow_hyphen_values = true)]
         tolerance: f64,
         /// A data file [default: the built-in one].
         #[arg(long, value_name = "FILE")]
@@ -90,10 +91,10 @@ pub struct WatchArgs {
     /// A model file, or a directory of them.
     pub path: std::path::PathBuf,
     /// Report changes beyond this relative size.
-    #[arg(long, default_value = "1e-10")]
+    #[arg(long, default_value = "1e-10", allow_hyphen_values = true)]
     pub tolerance: f64,
     /// Stop after this many rounds of changes (for scripts; default: run until interrupted).
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", allow_negative_numbers = true)]
     pub exit_after: Option<usize>,
 }
 
@@ -116,7 +117,7 @@ pub struct FitArgs {
     )]
     pub targets: Vec<String>,
     /// e-folds between the pivot's exit and the end of inflation.
-    #[arg(long, default_value_t = 55.0)]
+    #[arg(long, default_value_t = 55.0, allow_hyphen_values = true)]
     pub efolds: f64,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
@@ -140,10 +141,10 @@ pub struct ScanArgs {
     #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
     pub efolds: Vec<f64>,
     /// Points for a parameter given by name alone.
-    #[arg(long, default_value_t = 20)]
+    #[arg(long, default_value_t = 20, allow_negative_numbers = true)]
     pub points: usize,
     /// Compute only the K-th of N slices of the grid (for job arrays); join with `efold merge`.
-    #[arg(long, value_name = "K/N")]
+    #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
     pub shard: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = ScanFormat::Csv)]
@@ -186,19 +187,19 @@ pub struct SpectrumArgs {
     #[allow(missing_docs)]
     pub model: ModelArgs,
     /// e-folds between the pivot's exit and the end of inflation (eps_H = 1).
-    #[arg(long, default_value_t = 55.0)]
+    #[arg(long, default_value_t = 55.0, allow_hyphen_values = true)]
     pub efolds: f64,
     /// Smallest k, in Mpc^-1.
-    #[arg(long, default_value = "1e-4")]
+    #[arg(long, default_value = "1e-4", allow_hyphen_values = true)]
     pub k_min: f64,
     /// Largest k, in Mpc^-1 [default: 1e14, or less if modes would exit too near the end].
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub k_max: Option<f64>,
     /// Number of k values, evenly spaced in ln k.
-    #[arg(long, default_value_t = 60)]
+    #[arg(long, default_value_t = 60, allow_negative_numbers = true)]
     pub points: usize,
     /// Use this branch (1-based), as in `predict`.
-    #[arg(long, value_name = "K")]
+    #[arg(long, value_name = "K", allow_negative_numbers = true)]
     pub branch: Option<usize>,
     /// Start the background at this field value instead of on the slow-roll attractor.
     #[arg(long, value_name = "PHI", allow_hyphen_values = true)]
@@ -260,7 +261,7 @@ pub struct PredictArgs {
     pub efolds: Vec<f64>,
     /// Use this branch (1-based, in ascending field position) [default: the one at larger field
     /// values that gives the e-folds].
-    #[arg(long, value_name = "K")]
+    #[arg(long, value_name = "K", allow_negative_numbers = true)]
     pub branch: Option<usize>,
     /// Second-order slow-roll observables (Hubble-flow expansion).
     #[arg(long)]
@@ -283,14 +284,14 @@ pub struct PredictArgs {
     #[arg(long, value_name = "W", allow_hyphen_values = true)]
     pub reheat_w: Option<f64>,
     /// Reheating temperature in GeV.
-    #[arg(long, value_name = "GEV")]
+    #[arg(long, value_name = "GEV", allow_hyphen_values = true)]
     pub reheat_temp: Option<f64>,
     /// e-folds of reheating.
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", allow_hyphen_values = true)]
     pub reheat_efolds: Option<f64>,
-    /// Relativistic degrees of freedom at reheating.
-    #[arg(long, default_value_t = 106.75, value_name = "G")]
-    pub g_star: f64,
+    /// Relativistic degrees of freedom at reheating (with a reheating flag) [default: 106.75].
+    #[arg(long, value_name = "G", allow_hyphen_values = true)]
+    pub g_star: Option<f64>,
     /// A data file of constraints and constants [default: the built-in
     /// data/planck2018-bk18.toml].
     #[arg(long, value_name = "FILE")]
@@ -336,7 +337,7 @@ pub struct InspectArgs {
     #[arg(long, value_enum, default_value_t = Format::Text)]
     pub format: Format,
     /// Add a table of (phi, chi, V) with this many rows.
-    #[arg(long, value_name = "ROWS")]
+    #[arg(long, value_name = "ROWS", allow_negative_numbers = true)]
     pub table: Option<usize>,
     /// Write a figure of V against the field and against chi to this SVG file.
     #[arg(long, value_name = "FILE")]
@@ -367,13 +368,14 @@ pub struct ScopeArgs {
 /// `efold eval`.
 #[derive(Debug, clap::Args)]
 pub struct EvalArgs {
-    /// The expression, e.g. '1 - tanh(phi/sqrt(6*alpha))^2'.
+    /// The expression, e.g. '1 - tanh(phi/sqrt(6*alpha))^2' (a leading minus is part of it).
+    #[arg(allow_hyphen_values = true)]
     pub expr: String,
     /// The point, FIELD=VALUE (VALUE may be an expression of the parameters).
-    #[arg(long, value_name = "FIELD=VALUE")]
+    #[arg(long, value_name = "FIELD=VALUE", allow_hyphen_values = true)]
     pub at: String,
     /// Highest derivative to report (0 to 8).
-    #[arg(long, default_value_t = 1)]
+    #[arg(long, default_value_t = 1, allow_negative_numbers = true)]
     pub order: usize,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Text)]
@@ -399,13 +401,14 @@ pub enum Emit {
 /// `efold compile`.
 #[derive(Debug, clap::Args)]
 pub struct CompileArgs {
-    /// The expression.
+    /// The expression (a leading minus is part of it).
+    #[arg(allow_hyphen_values = true)]
     pub expr: String,
     /// Stages to show (repeatable, or comma-separated) [default: all].
     #[arg(long, value_enum, value_delimiter = ',')]
     pub emit: Vec<Emit>,
     /// Highest symbolic derivative to show.
-    #[arg(long, default_value_t = 2)]
+    #[arg(long, default_value_t = 2, allow_negative_numbers = true)]
     pub order: usize,
     /// A parameter, NAME=VALUE (repeatable). The views are symbolic, so the value is only
     /// checked; names used in EXPR but not given here are shown as parameters too.
@@ -466,22 +469,43 @@ impl From<Diagnostic> for Failure {
     }
 }
 
+impl From<crate::output::WriteError> for Failure {
+    fn from(e: crate::output::WriteError) -> Failure {
+        match e {
+            // The reader went away: stop quietly, as a filter does.
+            crate::output::WriteError::Closed => Failure {
+                message: String::new(),
+                code: 0,
+            },
+            crate::output::WriteError::Failed(m) => Diagnostic::new(m)
+                .with_hint("check the disk or device standard output goes to")
+                .into(),
+        }
+    }
+}
+
+/// Writes `text` to standard output (through [`crate::output::stdout`], the one writer): a
+/// closed pipe becomes a quiet stop with exit code 0, any other failure an error, exit code 2.
+pub fn print_out(text: &str) -> Result<(), Failure> {
+    crate::output::stdout(text).map_err(Failure::from)
+}
+
 /// Runs the binary: parses the arguments, runs the command, prints, returns the exit code.
 pub fn main() -> ExitCode {
     let args = Args::parse();
-    match run(&args) {
-        Ok(out) => {
-            print!("{out}");
-            ExitCode::SUCCESS
-        }
+    match run(&args).and_then(|out| print_out(&out)) {
+        Ok(()) => ExitCode::SUCCESS,
         Err(f) => {
-            eprint!("efold: {}", f.message);
+            if !f.message.is_empty() {
+                crate::output::stderr(&format!("efold: {}", f.message));
+            }
             ExitCode::from(f.code())
         }
     }
 }
 
-/// Runs one command; returns what it prints on stdout.
+/// Runs one command; returns what it prints on stdout (`scan` writes its table itself, as it
+/// streams, and returns nothing).
 pub fn run(args: &Args) -> Result<String, Failure> {
     let config = Config::default();
     match &args.command {
@@ -491,7 +515,7 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Predict(a) => predict_cmd(a, &config),
         Command::Spectrum(a) => spectrum_cmd(a, &config),
         Command::Scan(a) => scan_cmd(a, &config),
-        Command::Merge(a) => merge_cmd(a),
+        Command::Merge(a) => merge_cmd(a, &config),
         Command::Fit(a) => fit_cmd(a, &config),
         Command::Golden(a) => golden_cmd(a, &config),
         Command::Watch(a) => watch_cmd(a, &config),
@@ -513,13 +537,72 @@ fn split_binding<'a>(flag: &str, text: &'a str) -> Result<(&'a str, &'a str), Fa
     if !valid {
         return Err(bad());
     }
+    check_not_reserved(flag, text, name)?;
     Ok((name, value))
+}
+
+/// Whether a name is the language's own: a function, `pow` or `pi`.
+fn is_reserved(name: &str) -> bool {
+    name == "pi" || name == "pow" || crate::ir::Func::from_name(name).is_some()
+}
+
+/// A name given with `flag` (in its value `text`) that the expression language reserves is
+/// refused, with a caret under it, as model files refuse it.
+fn check_not_reserved(flag: &str, text: &str, name: &str) -> Result<(), Failure> {
+    if !is_reserved(name) {
+        return Ok(());
+    }
+    let start = text.find(name).unwrap_or(0);
+    let d = Diagnostic::new(format!("`{flag} {text}`: `{name}` is a built-in name"))
+        .with_span(crate::diag::Span::new(start, start + name.len()), "a built-in name")
+        .with_hint("choose another name: the functions (exp, sqrt, ...), `pow` and `pi` are the language's own");
+    Err(Failure::input(d.render(Some(&crate::diag::Source::new(flag, text)))))
+}
+
+/// `--field NAME`: a valid name that is not the language's own.
+fn check_field_name(name: &str) -> Result<(), Failure> {
+    let valid = name.chars().next().is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+        && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_');
+    if !valid {
+        let d = Diagnostic::new(format!("`--field {name}` is not a valid name"))
+            .with_span(crate::diag::Span::new(0, name.len()), "not a name")
+            .with_hint("names are letters, digits and _, starting with a letter or _");
+        return Err(Failure::input(
+            d.render(Some(&crate::diag::Source::new("--field", name))),
+        ));
+    }
+    check_not_reserved("--field", name, name)
+}
+
+/// A `--param NAME=...` given twice is refused (else the last would silently win).
+fn check_params_once(flags: &[String]) -> Result<(), Failure> {
+    let name_of = |f: &str| f.split_once('=').map(|(n, _)| n.trim().to_string());
+    for (i, flag) in flags.iter().enumerate() {
+        let Some(name) = name_of(flag) else { continue };
+        if let Some(first) = flags[..i].iter().find(|f| name_of(f).as_deref() == Some(name.as_str())) {
+            let start = flag.find(name.as_str()).unwrap_or(0);
+            let d = Diagnostic::new(format!("`--param {name}` is given twice"))
+                .with_span(
+                    crate::diag::Span::new(start, start + name.len()),
+                    format!("given again here; the first was `{first}`"),
+                )
+                .with_hint("give each --param once (a --param replaces the model file's value)");
+            return Err(Failure::input(
+                d.render(Some(&crate::diag::Source::new("--param", flag))),
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// Parameter names and values from `--param` flags, each value an expression of `pi` and the
 /// parameters before it.
 pub fn bind_params(flags: &[String], field: &str, config: &Config) -> Result<(Vec<String>, Vec<f64>), Failure> {
     let mut table = crate::model::ParamTable::default();
+    for flag in flags {
+        split_binding("--param", flag)?;
+    }
+    check_params_once(flags)?;
     for flag in flags {
         let (name, text) = split_binding("--param", flag)?;
         if table.contains(name) {
@@ -592,6 +675,9 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
         .into());
     }
     let (at_name, at_text) = split_binding("--at", &a.at)?;
+    if let Some(f) = &a.scope.field {
+        check_field_name(f)?;
+    }
     let field = a.scope.field.clone().unwrap_or_else(|| at_name.to_string());
     if at_name != field {
         return Err(
@@ -699,7 +785,16 @@ fn undeclared_names(expr: &str, field: &str, declared: &[String], config: &Confi
 }
 
 fn compile_view(a: &CompileArgs, config: &Config) -> Result<String, Failure> {
+    if let Some(f) = &a.field {
+        check_field_name(f)?;
+    }
     let field = a.field.clone().unwrap_or_else(|| "phi".to_string());
+    check_count(
+        "--order",
+        a.order,
+        config.limits.max_symbolic_order,
+        "max_symbolic_order",
+    )?;
     let (mut names, _) = bind_params(&a.params, &field, config)?;
     let symbolic = undeclared_names(&a.expr, &field, &names, config);
     names.extend(symbolic.iter().cloned());
@@ -779,8 +874,13 @@ pub fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<crate
         spec.kinetic = Text::inline("--kinetic", k);
     }
     if let Some(f) = &a.field {
+        check_field_name(f)?;
         spec.field = f.clone();
     }
+    for p in &a.params {
+        split_binding("--param", p)?;
+    }
+    check_params_once(&a.params)?;
     for p in &a.params {
         let (name, value) = split_binding("--param", p)?;
         spec.set_param(name, value);
@@ -791,16 +891,21 @@ pub fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<crate
     Ok(crate::model::Model::build(&spec, config)?)
 }
 
+/// The error for a file that cannot be written.
+fn cannot_write(path: &std::path::Path, e: std::io::Error) -> Failure {
+    Diagnostic::new(format!("cannot write `{}`: {e}", path.display()))
+        .with_hint("check that the directory exists and is writable, and that the disk has room")
+        .into()
+}
+
 fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failure> {
-    crate::inspect::write_atomic(path, contents).map_err(|e| {
-        Failure::from(
-            Diagnostic::new(format!("cannot write `{}`: {e}", path.display()))
-                .with_hint("check that the directory exists and is writable"),
-        )
-    })
+    crate::output::write_file(path, contents).map_err(|e| cannot_write(path, e))
 }
 
 fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
+    if let Some(rows) = a.table {
+        check_count("--table", rows, config.limits.max_table_rows, "max_table_rows")?;
+    }
     let model = load_model(&a.model, "efold inspect models/pole-order-2-quadratic.toml", config)?;
     let ins = crate::inspect::inspect(&model, config, a.table)?;
     if let Some(path) = &a.svg {
@@ -813,9 +918,210 @@ fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
     })
 }
 
+/// Relativistic degrees of freedom at reheating when `--g-star` is not given: the Standard
+/// Model's 106.75 above the electroweak scale (common practice).
+const DEFAULT_G_STAR: f64 = 106.75;
+
+/// A flag's value that is outside its valid range: the flag and value drawn with a caret under
+/// the value, what the range is, and how to fix it.
+fn bad_flag_value(flag: &str, value: &str, message: String, hint: &str) -> Failure {
+    let text = format!("{flag} {value}");
+    let d = Diagnostic::new(message)
+        .with_span(
+            crate::diag::Span::new(flag.len() + 1, text.len()),
+            "not in the valid range",
+        )
+        .with_hint(hint);
+    Failure::input(d.render(Some(&crate::diag::Source::new("command line", &text))))
+}
+
+/// A number that must be finite and inside `ok`, described by `range` in the message.
+fn check_range(flag: &str, v: f64, ok: impl Fn(f64) -> bool, range: &str, hint: &str) -> Result<(), Failure> {
+    if v.is_finite() && ok(v) {
+        return Ok(());
+    }
+    let shown = crate::ir::format_number(v);
+    Err(bad_flag_value(flag, &shown, format!("{flag} {shown}: {range}"), hint))
+}
+
+/// `--tolerance` of `golden check` and `watch`: a finite relative tolerance, 0 or more.
+fn check_tolerance(v: f64) -> Result<(), Failure> {
+    check_range(
+        "--tolerance",
+        v,
+        |v| v >= 0.0,
+        "a relative tolerance must be a finite number, 0 or more",
+        "give e.g. --tolerance 1e-8 (0 asks for identical values)",
+    )
+}
+
+/// A list of N_* (from `origin`: `--efolds`, or the model's `efolds` setting): each finite and
+/// at least `config::MIN_EFOLDS`.
+fn check_efolds_values(origin: &str, values: &[f64]) -> Result<(), Failure> {
+    use crate::config::MIN_EFOLDS;
+    let Some(i) = values.iter().position(|v| !(v.is_finite() && *v >= MIN_EFOLDS)) else {
+        return Ok(());
+    };
+    let shown: Vec<String> = values.iter().map(|v| crate::ir::format_number(*v)).collect();
+    let start = shown[..i].iter().map(|s| s.len() + 1).sum::<usize>();
+    let d = Diagnostic::new(format!(
+        "N_* = {} in {origin}: the e-folds before the end of inflation must be a finite number, {MIN_EFOLDS} or more",
+        shown[i]
+    ))
+    .with_hint("the pivot usually leaves the horizon 50 to 60 e-folds before the end: --efolds 50,55,60");
+    if !origin.starts_with("--") {
+        return Err(d.into());
+    }
+    let text = format!("{origin} {}", shown.join(","));
+    let at = origin.len() + 1 + start;
+    let d = d.with_span(
+        crate::diag::Span::new(at, at + shown[i].len()),
+        "not in the valid range",
+    );
+    Err(Failure::input(
+        d.render(Some(&crate::diag::Source::new("command line", &text))),
+    ))
+}
+
+/// `--start-phi` and `--start-velocity`: finite, the velocity only with a start, and (with the
+/// model) a velocity that leaves H^2 > 0.
+fn check_start(phi: Option<f64>, velocity: Option<f64>) -> Result<(), Failure> {
+    if let Some(p) = phi {
+        check_range(
+            "--start-phi",
+            p,
+            |_| true,
+            "the start must be a finite field value",
+            "give the field value to start the background at",
+        )?;
+    }
+    if let Some(v) = velocity {
+        if phi.is_none() {
+            return Err(
+                Diagnostic::new("--start-velocity is given without --start-phi, and would be ignored")
+                    .with_hint("give --start-phi PHI with it, or leave both out to start on the slow-roll attractor")
+                    .into(),
+            );
+        }
+        check_range(
+            "--start-velocity",
+            v,
+            |_| true,
+            "the initial dphi/dN must be a finite number",
+            "leave it out to take the slow-roll attractor's",
+        )?;
+    }
+    Ok(())
+}
+
+/// The Friedmann equation in e-folds, H^2 = V / (3 - K (dphi/dN)^2 / 2) (M_p = 1; common
+/// practice), needs K (dphi/dN)^2 < 6 where V > 0: a faster start has no real H.
+fn check_start_velocity(model: &crate::model::Model, phi: f64, v: f64) -> Result<(), Failure> {
+    let mut ev = model.evaluator();
+    let pot = ev.eval(phi);
+    let k = ev.output(1);
+    if !(pot.is_finite() && k.is_finite() && pot > 0.0 && k > 0.0) {
+        return Ok(()); // a start outside the model's domain is the exact route's own error
+    }
+    if k * v * v < 6.0 {
+        return Ok(());
+    }
+    let max = (6.0 / k).sqrt();
+    Err(bad_flag_value(
+        "--start-velocity",
+        &v.to_string(),
+        format!(
+            "--start-velocity {v} at {} = {phi} makes H^2 = V / (3 - K (dphi/dN)^2 / 2) <= 0: no real expansion rate",
+            model.field()
+        ),
+        &format!("at this start |dphi/dN| must be below sqrt(6/K) = {max:.6e}"),
+    ))
+}
+
+/// The flags of `predict` that make no sense alone, or together, or with these values.
+fn check_predict_flags(a: &PredictArgs) -> Result<(), Failure> {
+    check_efolds_values("--efolds", &a.efolds)?;
+    let reheating = a.reheat.is_some() || a.reheat_w.is_some() || a.reheat_temp.is_some() || a.reheat_efolds.is_some();
+    if reheating && !a.efolds.is_empty() {
+        return Err(
+            Diagnostic::new("--efolds is given together with reheating flags, which fix N_* themselves")
+                .with_hint("leave out --efolds to have N_* from reheating, or the reheating flags to give N_*")
+                .into(),
+        );
+    }
+    if a.g_star.is_some() && !reheating {
+        return Err(
+            Diagnostic::new("--g-star is given without a reheating flag, and would be ignored")
+                .with_hint("add `--reheat instant` or `--reheat-w W` with `--reheat-temp GEV` or `--reheat-efolds N`")
+                .into(),
+        );
+    }
+    if let Some(g) = a.g_star {
+        check_range(
+            "--g-star",
+            g,
+            |g| g > 0.0,
+            "the relativistic degrees of freedom must be a finite number above 0",
+            "the Standard Model above the electroweak scale has 106.75",
+        )?;
+    }
+    if let Some(w) = a.reheat_w {
+        check_range(
+            "--reheat-w",
+            w,
+            |w| w > -1.0 / 3.0 && w <= 1.0,
+            "the equation of state during reheating must lie in (-1/3, 1]: above -1/3, or it would still be inflation, and at most 1, the stiffest causal matter",
+            "w = 0 is matter-like oscillation about a quadratic minimum, 1/3 radiation",
+        )?;
+    }
+    if let Some(t) = a.reheat_temp {
+        check_range(
+            "--reheat-temp",
+            t,
+            |t| t > 0.0,
+            "the reheating temperature must be a finite number of GeV above 0",
+            "give e.g. --reheat-temp 1e9",
+        )?;
+    }
+    if let Some(n) = a.reheat_efolds {
+        use crate::config::MAX_REHEAT_EFOLDS;
+        check_range(
+            "--reheat-efolds",
+            n,
+            |n| (0.0..=MAX_REHEAT_EFOLDS).contains(&n),
+            &format!("the e-folds of reheating must lie in [0, {MAX_REHEAT_EFOLDS}]: more would end reheating below the temperature of nucleosynthesis"),
+            "give e.g. --reheat-efolds 10",
+        )?;
+    }
+    if a.method != Method::Exact && (a.start_phi.is_some() || a.start_velocity.is_some()) {
+        return Err(Diagnostic::new(
+            "--start-phi and --start-velocity start the exact background, and would be ignored by slow roll",
+        )
+        .with_hint("add --method exact, or leave them out")
+        .into());
+    }
+    check_start(a.start_phi, a.start_velocity)
+}
+
+/// The fewest N_* the exact route takes: aH must grow by ln(1/k_stop) + 2 TILT_STEP + 1 after
+/// the pivot, so that the highest mode of the five-point stencil, k = k_* exp(2 TILT_STEP),
+/// freezes (k/aH = k_stop) with the one e-fold of the freeze check before the end; and 4 e-folds
+/// more, because aH grows at the rate 1 - eps_H, which falls to 0 over the last e-folds (with
+/// the defaults 14.31; every shipped model integrates at that N_*, the quartic monomial not
+/// below 13).
+fn min_exact_efolds(settings: &crate::exact::Settings) -> f64 {
+    (1.0 / settings.k_stop).ln() + 2.0 * crate::exact::TILT_STEP + 1.0 + 4.0
+}
+
+/// Whether N_* comes from `--efolds` or the model (not from reheating, which is checked
+/// against the matching's own result).
+fn opts_fix_n_star(a: &PredictArgs) -> bool {
+    a.reheat.is_none() && a.reheat_w.is_none()
+}
+
 fn reheating_from(a: &PredictArgs) -> Result<Option<crate::reheating::Reheating>, Failure> {
     use crate::reheating::Reheating;
-    let g_star = a.g_star;
+    let g_star = a.g_star.unwrap_or(DEFAULT_G_STAR);
     match (&a.reheat, a.reheat_w, a.reheat_temp, a.reheat_efolds) {
         (None, None, None, None) => Ok(None),
         (Some(s), None, None, None) if s == "instant" => Ok(Some(Reheating::Instant { g_star })),
@@ -832,7 +1138,12 @@ fn reheating_from(a: &PredictArgs) -> Result<Option<crate::reheating::Reheating>
 }
 
 fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
+    check_efolds_count(&a.efolds, config)?;
+    check_predict_flags(a)?;
     let model = load_model(&a.model, "efold predict models/pole-order-2-quadratic.toml", config)?;
+    if let (Some(phi), Some(v)) = (a.start_phi, a.start_velocity) {
+        check_start_velocity(&model, phi, v)?;
+    }
     let data = match &a.data {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
         None => crate::data::DataSet::builtin(),
@@ -842,18 +1153,47 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
     } else {
         model.spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
     };
+    check_efolds_count(&n_stars, config)?;
+    if a.efolds.is_empty() {
+        check_efolds_values("the model's `efolds` setting", &n_stars)?;
+    }
+    let exact = (a.method == Method::Exact).then(|| crate::exact::Settings {
+        start: a.start_phi.map(|p| (p, a.start_velocity)),
+        ..Default::default()
+    });
+    if let Some(settings) = &exact {
+        let min = min_exact_efolds(settings);
+        if let Some(n) = n_stars.iter().find(|n| **n < min).filter(|_| opts_fix_n_star(a)) {
+            return Err(Diagnostic::new(format!(
+                "N_* = {n} is too few for --method exact: it needs N_* of at least {:.2}",
+                (min * 100.0).ceil() / 100.0
+            ))
+            .with_hint(format!(
+                "the modes around the pivot must leave the horizon and freeze (k/aH = {:e}) before the end: give --efolds {:.0} or more, or use slow roll",
+                settings.k_stop,
+                min.ceil()
+            ))
+            .into());
+        }
+    }
     let opts = crate::predict::Options {
         n_stars,
         branch: a.branch,
         second_order: a.second_order,
         reheating: reheating_from(a)?,
         data,
-        exact: (a.method == Method::Exact).then(|| crate::exact::Settings {
-            start: a.start_phi.map(|p| (p, a.start_velocity)),
-            ..Default::default()
-        }),
+        exact,
     };
-    let rep = crate::predict::predict(&model, &opts, config)?;
+    let mut rep = crate::predict::predict(&model, &opts, config)?;
+    if a.method == Method::SlowRoll {
+        let limit = crate::config::SLOW_ROLL_WARN_EFOLDS;
+        if let Some(p) = rep.predictions.iter().find(|p| p.n_star < limit) {
+            rep.warnings.push(format!(
+                "N_* = {} is below {limit}: slow roll is unreliable so close to the end of inflation (try --method exact)",
+                p.n_star
+            ));
+        }
+    }
     if let Some(path) = &a.svg {
         let ins = crate::inspect::inspect(&model, config, None)?;
         let mut marks = crate::inspect::FigureMarks::default();
@@ -876,7 +1216,18 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
+    check_count(
+        "--points",
+        a.points,
+        config.limits.max_spectrum_points,
+        "max_spectrum_points",
+    )?;
+    check_efolds_values("--efolds", &[a.efolds])?;
+    check_start(a.start_phi, a.start_velocity)?;
     let model = load_model(&a.model, "efold spectrum models/pole-order-2-quadratic.toml", config)?;
+    if let (Some(phi), Some(v)) = (a.start_phi, a.start_velocity) {
+        check_start_velocity(&model, phi, v)?;
+    }
     let data = match &a.data {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
         None => crate::data::DataSet::builtin(),
@@ -885,6 +1236,12 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         start: a.start_phi.map(|p| (p, a.start_velocity)),
         ..Default::default()
     };
+    check_count(
+        "--points",
+        a.points,
+        config.limits.max_spectrum_points,
+        "max_spectrum_points",
+    )?;
     let k_star = data.pivot.k_mpc;
     // The largest k must still freeze before the end: N_* - ln(k/k_*) > ln(1/k_stop) + 1.
     let k_limit = k_star * (a.efolds - (1.0 / settings.k_stop).ln() - 1.5).exp();
@@ -945,6 +1302,7 @@ fn load_data(path: &Option<std::path::PathBuf>) -> Result<crate::data::DataSet, 
 
 fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     use std::io::IsTerminal;
+    check_efolds_count(&a.efolds, config)?;
     // Compile once up front: a bad model is one error, not one per point.
     let model = load_model(
         &a.model,
@@ -958,12 +1316,22 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
             .with_hint("give --vary once or twice")
             .into());
     }
+    check_vary_names(&a.vary)?;
+    let limit = config.limits.max_axis_points;
     let axes = a
         .vary
         .iter()
-        .map(|v| crate::scan::Axis::parse(v, &spec, a.points))
+        .map(|v| crate::scan::Axis::parse(v, &spec, a.points, limit))
         .collect::<Result<Vec<_>, _>>()
-        .map_err(|e| Failure::from(Diagnostic::new(e).with_hint("write `--vary alpha=0.1:10:30:log`")))?;
+        .map_err(|e| {
+            let hint = if e.contains("max_axis_points") {
+                "give this parameter fewer values"
+            } else {
+                "write `--vary alpha=0.1:10:30:log`"
+            };
+            Failure::from(Diagnostic::new(e).with_hint(hint))
+        })?;
+    let total = check_grid_size(&axes, config)?;
     let shard = a
         .shard
         .as_deref()
@@ -975,44 +1343,174 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     } else {
         a.efolds.clone()
     };
-    let progress = std::io::stderr().is_terminal();
-    let rows = crate::scan::run(&spec, &axes, &n_stars, &data, shard, config, progress);
-    let failed = rows.iter().filter(|r| r.result.is_err()).count();
-    if failed > 0 {
-        eprintln!(
-            "efold: warning: {failed} of {} rows failed; they keep their row with the error",
-            rows.len()
-        );
+    check_efolds_count(&n_stars, config)?;
+    if a.efolds.is_empty() {
+        check_efolds_values("the model's `efolds` setting", &n_stars)?;
+    } else {
+        check_efolds_values("--efolds", &n_stars)?;
     }
-    let names: Vec<String> = axes.iter().map(|x| x.name.clone()).collect();
-    let table = match a.format {
-        ScanFormat::Csv => crate::scan::csv(&names, &rows),
-        ScanFormat::Json => crate::scan::json(&rows),
-    };
-    if let Some(path) = &a.svg {
-        write_output_file(path, &crate::scan::figure(&spec.name, &axes, &rows, &data))?;
-    }
-    match &a.out {
-        Some(path) => {
-            write_output_file(path, &table)?;
-            Ok(String::new())
+    if let (Some(out), Some(svg)) = (&a.out, &a.svg) {
+        if crate::output::same_destination(out, svg) {
+            return Err(Diagnostic::new(format!(
+                "--out `{}` and --svg `{}` are one file: the figure would overwrite the table",
+                out.display(),
+                svg.display()
+            ))
+            .with_hint("give the table and the figure different files")
+            .into());
         }
-        None => Ok(table),
+    }
+    let provenance = shard.map(|s| {
+        let range = s.range(total);
+        crate::scan::Provenance {
+            scan: crate::scan::definition_id(&spec, &axes, &n_stars, &data),
+            shard: s.k,
+            shards: s.n,
+            points: [range.start, range.end],
+            total,
+            efolds: n_stars.clone(),
+        }
+    });
+    let names: Vec<String> = axes.iter().map(|x| x.name.clone()).collect();
+    let mut table = crate::scan::Table::new(a.format == ScanFormat::Json, provenance);
+    let mut file = match &a.out {
+        Some(path) => Some(crate::output::OutputFile::create(path).map_err(|e| cannot_write(path, e))?),
+        None => None,
+    };
+    let mut emit = |text: &str| -> Result<(), Failure> {
+        match (&mut file, &a.out) {
+            (Some(f), Some(path)) => f.write(text).map_err(|e| cannot_write(path, e)),
+            _ => print_out(text),
+        }
+    };
+    emit(&table.start(&names))?;
+    let (mut rows_done, mut failed) = (0usize, 0usize);
+    // The figure needs every row; the table alone is streamed chunk by chunk.
+    let mut kept: Vec<crate::scan::ScanRow> = Vec::new();
+    let progress = std::io::stderr().is_terminal();
+    crate::scan::run_chunks(&spec, &axes, &n_stars, &data, shard, config, progress, &mut |rows| {
+        rows_done += rows.len();
+        failed += rows.iter().filter(|r| r.result.is_err()).count();
+        if a.svg.is_some() {
+            kept.extend_from_slice(rows);
+        }
+        emit(&table.rows(rows))
+    })?;
+    emit(&table.end())?;
+    if failed > 0 {
+        crate::output::stderr(&format!(
+            "efold: warning: {failed} of {rows_done} rows failed; they keep their row with the error\n"
+        ));
+    }
+    if let Some(path) = &a.svg {
+        write_output_file(path, &crate::scan::figure(&spec.name, &axes, &kept, &data))?;
+    }
+    if let (Some(f), Some(path)) = (file, &a.out) {
+        f.commit().map_err(|e| cannot_write(path, e))?;
+    }
+    Ok(String::new())
+}
+
+/// A count given on the command line, refused above its limit in `config::Limits`.
+fn check_count(flag: &str, value: usize, limit: usize, field: &str) -> Result<(), Failure> {
+    if value > limit {
+        return Err(Diagnostic::new(format!(
+            "`{flag} {value}` is above the limit, {limit} (config::Limits::{field})"
+        ))
+        .with_hint(format!("give {flag} {limit} or less"))
+        .into());
+    }
+    Ok(())
+}
+
+/// A parameter varied twice would make a grid of repeated points.
+fn check_vary_names(vary: &[String]) -> Result<(), Failure> {
+    let names: Vec<&str> = vary
+        .iter()
+        .map(|v| v.split_once('=').map_or(v.as_str(), |(n, _)| n).trim())
+        .collect();
+    if names.len() == 2 && names[0] == names[1] {
+        return Err(Diagnostic::new(format!("`--vary {}` is given twice", names[0]))
+            .with_hint("vary each parameter once; to vary two, give two different names")
+            .into());
+    }
+    Ok(())
+}
+
+/// The grid's point count, refused above `Limits::max_scan_points` (and when the product of the
+/// axes overflows).
+fn check_grid_size(axes: &[crate::scan::Axis], config: &Config) -> Result<usize, Failure> {
+    let limit = config.limits.max_scan_points;
+    let counts: Vec<String> = axes.iter().map(|a| a.values.len().to_string()).collect();
+    match crate::scan::total_points(axes) {
+        Some(n) if n <= limit => Ok(n),
+        n => Err(Diagnostic::new(format!(
+            "the grid has {} points ({}); at most {limit} (config::Limits::max_scan_points)",
+            n.map_or("too many".to_string(), |n| n.to_string()),
+            counts.join(" x ")
+        ))
+        .with_hint("use fewer values per parameter, or cut the scan with --shard K/N and several runs")
+        .into()),
     }
 }
 
-fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
+/// A list of N_* longer than `Limits::max_efolds` is refused.
+fn check_efolds_count(n_stars: &[f64], config: &Config) -> Result<(), Failure> {
+    let limit = config.limits.max_efolds;
+    if n_stars.len() > limit {
+        return Err(Diagnostic::new(format!(
+            "{} N_* values given; at most {limit} (config::Limits::max_efolds)",
+            n_stars.len()
+        ))
+        .with_hint("give fewer values to --efolds")
+        .into());
+    }
+    Ok(())
+}
+
+/// Reads a whole text file of at most `limit` bytes (`Limits::max_shard_bytes`), stopping at
+/// `limit + 1` bytes so that an endless device cannot fill the memory.
+fn read_bounded(path: &std::path::Path, limit: usize) -> Result<String, Failure> {
+    use std::io::Read as _;
+    let cannot = |e: std::io::Error| {
+        Failure::from(
+            Diagnostic::new(format!("cannot read `{}`: {e}", path.display()))
+                .with_hint("give the shard files written by `efold scan --shard K/N`"),
+        )
+    };
+    let file = std::fs::File::open(path).map_err(cannot)?;
+    let mut bytes = Vec::new();
+    file.take(limit as u64 + 1).read_to_end(&mut bytes).map_err(cannot)?;
+    if bytes.len() > limit {
+        return Err(Diagnostic::new(format!(
+            "`{}` is larger than {limit} bytes (config::Limits::max_shard_bytes)",
+            path.display()
+        ))
+        .with_hint("merge fewer, smaller shards at a time, or run the scan unsharded")
+        .into());
+    }
+    String::from_utf8(bytes).map_err(|_| {
+        Diagnostic::new(format!(
+            "`{}` is not text (not UTF-8): not a scan shard",
+            path.display()
+        ))
+        .with_hint("give the shard files written by `efold scan --shard K/N`")
+        .into()
+    })
+}
+
+fn merge_cmd(a: &MergeArgs, config: &Config) -> Result<String, Failure> {
     let mut texts = Vec::new();
     for f in &a.files {
-        let t = std::fs::read_to_string(f).map_err(|e| {
-            Failure::from(
-                Diagnostic::new(format!("cannot read `{}`: {e}", f.display()))
-                    .with_hint("give the shard files written by `efold scan --shard K/N`"),
-            )
-        })?;
+        let t = read_bounded(f, config.limits.max_shard_bytes)?;
         texts.push((f.display().to_string(), t));
     }
-    let merged = crate::scan::merge(&texts).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+    let merged = crate::scan::merge(&texts).map_err(|e| {
+        Failure::from(
+            Diagnostic::new(e)
+                .with_hint("give every file of one `efold scan --shard K/N` run, K = 1..N, each once, as written"),
+        )
+    })?;
     match &a.out {
         Some(path) => {
             write_output_file(path, &merged)?;
@@ -1023,6 +1521,7 @@ fn merge_cmd(a: &MergeArgs) -> Result<String, Failure> {
 }
 
 fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
+    check_efolds_values("--efolds", &[a.efolds])?;
     let model = load_model(
         &a.model,
         "efold fit models/pole-order-2-quadratic.toml --free alpha --target r=0.01",
@@ -1056,6 +1555,9 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
     let (dir, data) = match &a.action {
         GoldenAction::Write { dir, data } | GoldenAction::Check { dir, data, .. } => (dir, data),
     };
+    if let GoldenAction::Check { tolerance, .. } = &a.action {
+        check_tolerance(*tolerance)?;
+    }
     let base = crate::predict::Options {
         data: load_data(data)?,
         ..Default::default()
@@ -1129,7 +1631,7 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
 fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
     use crate::golden::{diff, model_files, predict_file};
     use notify::{RecursiveMode, Watcher};
-    use std::io::Write as _;
+    check_tolerance(a.tolerance)?;
     let base = crate::predict::Options::default();
     let files = || -> Result<Vec<std::path::PathBuf>, Failure> {
         if a.path.is_dir() {
@@ -1180,9 +1682,7 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
                     format!("{}: {}", f.display(), summary.join("; "))
                 }
             };
-            let mut stdout = std::io::stdout();
-            let _ = writeln!(stdout, "{line}");
-            let _ = stdout.flush();
+            print_out(&format!("{line}\n"))?;
             last.insert(f, now);
         }
         Ok(())
@@ -1196,9 +1696,7 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
     watcher
         .watch(&a.path, RecursiveMode::Recursive)
         .map_err(|e| Failure::from(Diagnostic::new(format!("cannot watch `{}`: {e}", a.path.display()))))?;
-    let mut stdout = std::io::stdout();
-    let _ = writeln!(stdout, "watching {} (interrupt to stop)", a.path.display());
-    let _ = stdout.flush();
+    print_out(&format!("watching {} (interrupt to stop)\n", a.path.display()))?;
     let mut rounds = 0;
     while let Ok(ev) = rx.recv() {
         let relevant = ev
@@ -1217,4 +1715,25 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
         }
     }
     Ok(String::new())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn merge_reads_at_most_its_limit() {
+        let path = std::env::temp_dir().join(format!("efold-bounded-{}.csv", std::process::id()));
+        std::fs::write(&path, "0123456789").unwrap();
+        assert_eq!(read_bounded(&path, 10).unwrap(), "0123456789");
+        let err = read_bounded(&path, 9).unwrap_err();
+        assert_eq!(err.code, 2);
+        assert!(err.message.contains("larger than 9 bytes"), "{}", err.message);
+        std::fs::remove_file(&path).unwrap();
+        // an endless device stops at the limit
+        if std::path::Path::new("/dev/zero").exists() {
+            let err = read_bounded(std::path::Path::new("/dev/zero"), 1 << 16).unwrap_err();
+            assert!(err.message.contains("max_shard_bytes"), "{}", err.message);
+        }
+    }
 }

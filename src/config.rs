@@ -18,6 +18,31 @@ pub struct Limits {
     /// files are under 2 KiB. At most this many bytes and one more are read, so a device such
     /// as `/dev/zero` or a huge file is an error, not an exhausted memory.
     pub max_file_bytes: usize,
+    /// Most k values of `efold spectrum --points`. Default 10 000: each mode is a full
+    /// Mukhanov–Sasaki integration (about 2 ms), so this is some 10 s on two cores and a table
+    /// of a few MB, far finer than any figure needs.
+    pub max_spectrum_points: usize,
+    /// Most values of one scan axis (`--vary NAME=LO:HI:COUNT`, or `--points` with a name
+    /// alone). Default 1 000 000: 8 MB of values, more than `max_scan_points` allows with two
+    /// axes of useful size.
+    pub max_axis_points: usize,
+    /// Most points of a scan's grid, the product of its axes (checked without overflow).
+    /// Default 10 000 000: at about 16 us a point on two cores, some 3 minutes per N_*; rows are
+    /// streamed out in chunks, so memory stays bounded. Larger jobs are cut with `--shard`.
+    pub max_scan_points: usize,
+    /// Most rows of `efold inspect --table`. Default 100 000 (a few MB of text).
+    pub max_table_rows: usize,
+    /// Highest order of `efold compile --emit derivatives --order`. Default 8, the highest order
+    /// of the Taylor jets (`tape::MAX_ORDER`) and of `eval --order`: printed symbolic derivatives
+    /// grow quickly with the order.
+    pub max_symbolic_order: usize,
+    /// Most N_* values in one `--efolds` list or a model's `efolds` setting. Default 1000: every
+    /// value is a full prediction per point, and a scan holds `scan::CHUNK_ROWS` rows at a time.
+    pub max_efolds: usize,
+    /// Largest file `efold merge` reads, in bytes. Default 1 GiB: merge holds its inputs in
+    /// memory, and a device that never ends (`/dev/zero`) must not fill it. A larger scan is
+    /// merged in parts, or written unsharded.
+    pub max_shard_bytes: usize,
 }
 
 impl Default for Limits {
@@ -27,6 +52,13 @@ impl Default for Limits {
             max_nesting: 64,
             max_depth: 512,
             max_file_bytes: 1 << 20,
+            max_spectrum_points: 10_000,
+            max_axis_points: 1_000_000,
+            max_scan_points: 10_000_000,
+            max_table_rows: 100_000,
+            max_symbolic_order: 8,
+            max_efolds: 1000,
+            max_shard_bytes: 1 << 30,
         }
     }
 }
@@ -98,6 +130,21 @@ impl Default for Config {
         }
     }
 }
+
+/// The largest `--reheat-efolds`. Default 100: even with w just above -1/3, the slowest dilution
+/// (rho ~ a^-2), 100 e-folds of reheating take the density from the end of inflation at the GUT
+/// scale, (1e16 GeV)^4, below that of nucleosynthesis, (a few MeV)^4 (common practice: reheating
+/// must end above a few MeV), so larger values have no physical history behind them.
+pub const MAX_REHEAT_EFOLDS: f64 = 100.0;
+
+/// The smallest N_* efold accepts (`--efolds`, a model's `efolds`): below one e-fold the pivot
+/// leaves the horizon after inflation has practically ended.
+pub const MIN_EFOLDS: f64 = 1.0;
+
+/// Below this N_* a slow-roll prediction carries a warning: so close to the end of inflation
+/// the slow-roll parameters are no longer small (common practice: the CMB pivot lies some
+/// 50-60 e-folds before the end).
+pub const SLOW_ROLL_WARN_EFOLDS: f64 = 20.0;
 
 #[cfg(test)]
 mod tests {

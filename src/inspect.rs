@@ -637,24 +637,6 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
     Ok(plot::render(&title, &[left, right]))
 }
 
-/// Writes a file atomically: a temporary file beside it, then a rename, so a failure never
-/// leaves a half-written file.
-pub fn write_atomic(path: &std::path::Path, contents: &str) -> std::io::Result<()> {
-    let dir = path
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or(std::path::Path::new("."));
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "out".into());
-    let tmp = dir.join(format!(".{name}.tmp{}", std::process::id()));
-    std::fs::write(&tmp, contents)?;
-    std::fs::rename(&tmp, path).inspect_err(|_| {
-        let _ = std::fs::remove_file(&tmp);
-    })
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;

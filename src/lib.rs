@@ -29,6 +29,7 @@ pub mod ir;
 pub mod model;
 pub mod numerics;
 pub mod numfmt;
+pub mod output;
 pub mod plot;
 pub mod predict;
 pub mod reheating;

@@ -57,7 +57,7 @@ fn an_interrupted_write_leaves_the_old_file() {
     let target = dir.join("x.predictions.json");
     std::fs::write(&target, "old contents\n").unwrap();
     std::fs::create_dir(dir.join(format!(".x.predictions.json.tmp{}", std::process::id()))).unwrap();
-    let r = efold::inspect::write_atomic(&target, "new contents\n");
+    let r = efold::output::write_file(&target, "new contents\n");
     assert!(r.is_err());
     assert_eq!(std::fs::read_to_string(&target).unwrap(), "old contents\n");
     let names: Vec<String> = std::fs::read_dir(&dir)

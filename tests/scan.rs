@@ -75,6 +75,7 @@ fn shards_merge_into_the_unsharded_table() {
         };
         let whole = efold(&args(&[]).iter().map(String::as_str).collect::<Vec<_>>());
         assert_eq!(whole.code, 0, "{}", whole.stderr);
+        assert!(whole.stdout.starts_with(if format == "csv" { "point," } else { "[" }));
         let mut files = Vec::new();
         for k in [3, 1, 2] {
             let out = dir.join(format!("part{k}.{format}"));
@@ -87,6 +88,14 @@ fn shards_merge_into_the_unsharded_table() {
             );
             assert_eq!(r.code, 0, "{}", r.stderr);
             assert!(r.stdout.is_empty());
+            // a shard names where it comes from; the unsharded table does not
+            let text = std::fs::read_to_string(&out).unwrap();
+            let provenance = if format == "csv" {
+                text.starts_with("# efold-scan-shard {")
+            } else {
+                serde_json::from_str::<serde_json::Value>(&text).unwrap()["shard"]["shard"] == k
+            };
+            assert!(provenance, "{format} shard {k}: {}", &text[..80.min(text.len())]);
             files.push(out.display().to_string());
         }
         let mut merge_args = vec!["merge"];
