@@ -344,3 +344,25 @@ fn pivot_a_hair_from_a_pole() {
         r.stderr
     );
 }
+
+/// Degenerate minima do not hide branches: the double well (phi^2 - 1)^2 has four branches
+/// (stationary points at -1, 0, 1; common practice), and the default one, from +inf down to the
+/// minimum at 1, predicts as on the range (1, inf).
+#[test]
+fn double_wells_keep_every_branch() {
+    let m = Model::build(&ModelSpec::inline("(phi^2 - 1)^2", None), &Config::default()).unwrap();
+    let whole = run(&m, &[50.0, 55.0, 60.0]);
+    assert_eq!(whole.branch.count, 4);
+    close(whole.branch.branch.bottom, 1.0, 1e-14, "bottom");
+    let mut spec = ModelSpec::inline("(phi^2 - 1)^2", None);
+    spec.range = Some((Text::inline("lo", "1"), Text::inline("hi", "inf")));
+    let ranged = run(&Model::build(&spec, &Config::default()).unwrap(), &[50.0, 55.0, 60.0]);
+    for (a, b) in whole.predictions.iter().zip(&ranged.predictions) {
+        close(a.n_s, b.n_s, 1e-12, "n_s");
+        close(a.r, b.r, 1e-11, "r");
+    }
+    for v in ["(phi - 1)^2*(phi + 2)^2", "(phi - 1)^2*(phi - 3)^2"] {
+        let m = Model::build(&ModelSpec::inline(v, None), &Config::default()).unwrap();
+        assert_eq!(run(&m, &[55.0]).branch.count, 4, "{v}");
+    }
+}
