@@ -23,8 +23,13 @@ pub fn model_files(dir: &Path) -> Result<Vec<PathBuf>, String> {
             let p = e
                 .map_err(|e| format!("cannot read directory `{}`: {e}", d.display()))?
                 .path();
+            // Symbolic links to directories are not followed, so a link loop cannot make the
+            // walk endless; links to model files are read like files.
+            let is_link = std::fs::symlink_metadata(&p).is_ok_and(|m| m.file_type().is_symlink());
             if p.is_dir() {
-                stack.push(p);
+                if !is_link {
+                    stack.push(p);
+                }
             } else if p.extension().is_some_and(|x| x == "toml") {
                 out.push(p);
             }

@@ -509,6 +509,15 @@ impl ModelSpec {
             start,
             efolds: match settings.efolds {
                 None => None,
+                Some(e) if e.get_ref().is_empty() => {
+                    return Err(ModelError::in_file(
+                        Diagnostic::new("efolds: the list is empty: no N_* to predict at")
+                            .with_span(Span::new(e.span().start, e.span().end), "empty")
+                            .with_hint("write `efolds = [50, 55, 60]`, or leave the key out for those defaults"),
+                        file,
+                        text,
+                    ))
+                }
                 Some(e) => Some(efolds(e.into_inner(), text, file)?),
             },
         })
@@ -1112,6 +1121,8 @@ efolds = [50, 60]
             e.contains("efolds: `inf` is not a finite number") && e.contains("m.toml:3:15"),
             "{e}"
         );
+        let e = err("potential = \"phi^2\"\n[settings]\nefolds = []\n");
+        assert!(e.contains("the list is empty") && e.contains("m.toml:3:10"), "{e}");
         let e = err("potential = \"phi^2\"\n[settings]\nefolds = [0]\n");
         assert!(e.contains("not a positive number of e-folds"), "{e}");
         let e = err("potential = \"phi^2\"\n[settings]\nrange = [nan, 1]\n");

@@ -278,6 +278,12 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
     } else {
         opts.n_stars.clone()
     };
+    if n_wanted.is_empty() {
+        return Err(fail(
+            "no N_* to predict at: the list of e-folds is empty".to_string(),
+            &["use --efolds 50,55,60"],
+        ));
+    }
     if let Some(bad) = n_wanted.iter().find(|n| !(n.is_finite() && **n > 0.0)) {
         return Err(fail(
             format!("N_* = {bad} is not a positive number of e-folds"),

@@ -239,3 +239,17 @@ fn a_changed_list_of_n_star_reads_as_requests() {
     );
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+/// A directory walk does not follow symbolic links to directories: a link loop (a link to the
+/// directory itself) ends the walk instead of repeating it without end.
+#[test]
+fn a_symlink_loop_does_not_trap_the_walk() {
+    let dir = std::env::temp_dir().join(format!("efold-loop-{}", std::process::id()));
+    std::fs::create_dir_all(dir.join("sub")).unwrap();
+    std::fs::write(dir.join("sub/m.toml"), "potential = \"phi^2\"\n").unwrap();
+    std::os::unix::fs::symlink(&dir, dir.join("sub/back")).unwrap();
+    std::os::unix::fs::symlink(dir.join("sub"), dir.join("again")).unwrap();
+    let files = efold::golden::model_files(&dir).unwrap();
+    assert_eq!(files, vec![dir.join("sub/m.toml")]);
+    std::fs::remove_dir_all(&dir).unwrap();
+}
