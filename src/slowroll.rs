@@ -639,7 +639,7 @@ fn accept(r: Result<crate::numerics::Estimate, NumericError>, config: &Config) -
     accept_within(r, config.quad_accept).map(|(v, _)| v)
 }
 
-/// [`accept`] with the limit `limit` on the relative error: (value, relative error reached
+/// `accept` with the limit `limit` on the relative error: (value, relative error reached
 /// when the tolerance was not).
 pub fn accept_within(
     r: Result<crate::numerics::Estimate, NumericError>,
