@@ -154,6 +154,9 @@ pub struct ScanArgs {
     /// Write the n_s-r figure to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub pdf: Option<std::path::PathBuf>,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
     pub data: Option<std::path::PathBuf>,
@@ -215,6 +218,9 @@ pub struct SpectrumArgs {
     /// Write a figure of both spectra, with the slow-roll estimate, to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub pdf: Option<std::path::PathBuf>,
 }
 
 /// Output formats of `spectrum`.
@@ -301,6 +307,9 @@ pub struct PredictArgs {
     /// Write a figure of V with the end of inflation and the pivot points to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub pdf: Option<std::path::PathBuf>,
 }
 
 /// The model: a TOML file, or given inline; flags override the file.
@@ -341,6 +350,9 @@ pub struct InspectArgs {
     /// Write a figure of V against the field and against chi to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub pdf: Option<std::path::PathBuf>,
 }
 
 /// Output formats.
@@ -800,12 +812,34 @@ fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failu
     })
 }
 
+/// Writes a figure as SVG and/or PDF, each atomically; the PDF is made in memory first, so a
+/// failed conversion leaves no file.
+fn write_figure(
+    svg_path: &Option<std::path::PathBuf>,
+    pdf_path: &Option<std::path::PathBuf>,
+    svg: &str,
+) -> Result<(), Failure> {
+    if let Some(path) = svg_path {
+        write_output_file(path, svg)?;
+    }
+    if let Some(path) = pdf_path {
+        let pdf = crate::plot::to_pdf(svg).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+        crate::inspect::write_atomic(path, pdf).map_err(|e| {
+            Failure::from(
+                Diagnostic::new(format!("cannot write `{}`: {e}", path.display()))
+                    .with_hint("check that the directory exists and is writable"),
+            )
+        })?;
+    }
+    Ok(())
+}
+
 fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
     let model = load_model(&a.model, "efold inspect models/pole-order-2-quadratic.toml", config)?;
     let ins = crate::inspect::inspect(&model, config, a.table)?;
-    if let Some(path) = &a.svg {
+    if a.svg.is_some() || a.pdf.is_some() {
         let svg = crate::inspect::figure(&model, &ins, &Default::default(), config)?;
-        write_output_file(path, &svg)?;
+        write_figure(&a.svg, &a.pdf, &svg)?;
     }
     Ok(match a.format {
         Format::Json => format!("{}\n", serde_json::to_string_pretty(&ins).expect("serialisable report")),
@@ -854,7 +888,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         }),
     };
     let rep = crate::predict::predict(&model, &opts, config)?;
-    if let Some(path) = &a.svg {
+    if a.svg.is_some() || a.pdf.is_some() {
         let ins = crate::inspect::inspect(&model, config, None)?;
         let mut marks = crate::inspect::FigureMarks::default();
         if let Some(p) = rep.predictions.first() {
@@ -863,10 +897,10 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         for p in &rep.predictions {
             marks
                 .points
-                .push((p.phi_star, format!("N={}", crate::numfmt::typed(p.n_star))));
+                .push((p.phi_star, format!("$N$ = {}", crate::numfmt::typed(p.n_star))));
         }
         let svg = crate::inspect::figure(&model, &ins, &marks, config)?;
-        write_output_file(path, &svg)?;
+        write_figure(&a.svg, &a.pdf, &svg)?;
     }
     Ok(match a.format {
         TableFormat::Json => format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable report")),
@@ -920,8 +954,8 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         .map(|i| (a.k_min.ln() + (k_max.ln() - a.k_min.ln()) * i as f64 / (n - 1) as f64).exp())
         .collect();
     let sp = crate::exact::spectrum(&model, &run, a.efolds, &ks, data.a_s(), k_star, &settings)?;
-    if let Some(path) = &a.svg {
-        write_output_file(path, &crate::exact::figure(&sp, &model.spec.name))?;
+    if a.svg.is_some() || a.pdf.is_some() {
+        write_figure(&a.svg, &a.pdf, &crate::exact::figure(&sp, &model.spec.name))?;
     }
     Ok(match a.format {
         SpectrumFormat::Json => {
@@ -989,8 +1023,8 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
         ScanFormat::Csv => crate::scan::csv(&names, &rows),
         ScanFormat::Json => crate::scan::json(&rows),
     };
-    if let Some(path) = &a.svg {
-        write_output_file(path, &crate::scan::figure(&spec.name, &axes, &rows, &data))?;
+    if a.svg.is_some() || a.pdf.is_some() {
+        write_figure(&a.svg, &a.pdf, &crate::scan::figure(&spec.name, &axes, &rows, &data))?;
     }
     match &a.out {
         Some(path) => {

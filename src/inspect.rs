@@ -569,9 +569,9 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
     }
     let f = &ins.model.field;
     let mut left = Panel {
-        title: format!("V({f})"),
-        x_label: f.clone(),
-        y_label: "V".into(),
+        title: format!("$V$({})", plot::symbol(f)),
+        x_label: plot::symbol(f),
+        y_label: "$V$ [$M$_p^4]".into(),
         series: vec![Series {
             name: "V".into(),
             points: vs_phi,
@@ -581,9 +581,9 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
         ..Panel::default()
     };
     let mut right = Panel {
-        title: "V(chi), canonical field".into(),
-        x_label: "chi".into(),
-        y_label: "V".into(),
+        title: "$V$($\\chi$), canonical field".into(),
+        x_label: "$\\chi$ [$M$_p]".into(),
+        y_label: "$V$ [$M$_p^4]".into(),
         series: vec![Series {
             name: "V".into(),
             points: vs_chi,
@@ -595,7 +595,7 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
     for p in &ins.poles {
         left.vlines.push(VLine {
             x: p.phi,
-            label: format!("pole p={}", fmt(p.order)),
+            label: format!("pole, $p$ = {}", fmt(p.order)),
             color: "#b03030".into(),
         });
     }
@@ -639,7 +639,7 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
 
 /// Writes a file atomically: a temporary file beside it, then a rename, so a failure never
 /// leaves a half-written file.
-pub fn write_atomic(path: &std::path::Path, contents: &str) -> std::io::Result<()> {
+pub fn write_atomic(path: &std::path::Path, contents: impl AsRef<[u8]>) -> std::io::Result<()> {
     let dir = path
         .parent()
         .filter(|p| !p.as_os_str().is_empty())

@@ -120,13 +120,208 @@ fn esc(s: &str) -> String {
     s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;")
 }
 
+/// The font family named in every figure: a sans with Greek glyphs that journals accept, then
+/// fallbacks. The PDF is drawn with the bundled DejaVu Sans, so it never depends on system fonts.
+pub const FONT_FAMILY: &str = "'DejaVu Sans', Helvetica, Arial, sans-serif";
+
+const FONT_REGULAR: &[u8] = include_bytes!("../assets/fonts/DejaVuSans.ttf");
+const FONT_OBLIQUE: &[u8] = include_bytes!("../assets/fonts/DejaVuSans-Oblique.ttf");
+
+/// Greek letters by name, for `\name` in labels and for field and parameter names.
+const GREEK: [(&str, char); 27] = [
+    ("alpha", 'α'),
+    ("beta", 'β'),
+    ("gamma", 'γ'),
+    ("delta", 'δ'),
+    ("epsilon", 'ε'),
+    ("zeta", 'ζ'),
+    ("eta", 'η'),
+    ("theta", 'θ'),
+    ("iota", 'ι'),
+    ("kappa", 'κ'),
+    ("lambda", 'λ'),
+    ("mu", 'μ'),
+    ("nu", 'ν'),
+    ("xi", 'ξ'),
+    ("pi", 'π'),
+    ("rho", 'ρ'),
+    ("sigma", 'σ'),
+    ("tau", 'τ'),
+    ("upsilon", 'υ'),
+    ("phi", 'φ'),
+    ("chi", 'χ'),
+    ("psi", 'ψ'),
+    ("omega", 'ω'),
+    ("Delta", 'Δ'),
+    ("Lambda", 'Λ'),
+    ("Phi", 'Φ'),
+    ("Omega", 'Ω'),
+];
+
+/// A name chosen by the user (a field, a parameter) as label markup: a Greek letter's name as
+/// the letter (`phi` as φ, `chi` as χ, `rho` as ρ), anything else as written; in italics.
+pub fn symbol(name: &str) -> String {
+    if let Some((_, c)) = GREEK.iter().find(|(n, _)| *n == name) {
+        return format!("${c}$");
+    }
+    format!("${}$", plain(name))
+}
+
+/// Text that is shown as written: the markup characters escaped.
+pub fn plain(s: &str) -> String {
+    let mut o = String::with_capacity(s.len());
+    for c in s.chars() {
+        if matches!(c, '_' | '^' | '{' | '}' | '\\' | '$') {
+            o.push('\\');
+        }
+        o.push(c);
+    }
+    o
+}
+
+/// One piece of a label: its text, italic or not, and its level (1 superscript, -1 subscript).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Run {
+    /// The characters.
+    pub text: String,
+    /// In italics.
+    pub italic: bool,
+    /// 1 superscript, -1 subscript, 0 on the baseline.
+    pub level: i8,
+}
+
+/// Parses label markup: `$...$` in italics, `_x` / `_{...}` a subscript, `^x` / `^{...}` a
+/// superscript, `\chi` (any Greek name) the letter, `\_` and the like the character itself, and
+/// `-` before a digit as the minus sign.
+pub fn parse_markup(s: &str) -> Vec<Run> {
+    let chars: Vec<char> = s.chars().collect();
+    let mut runs: Vec<Run> = Vec::new();
+    let mut italic = false;
+    let mut level: i8 = 0;
+    // The level to return to when a group closes (or after one character).
+    let mut stack: Vec<(i8, bool)> = Vec::new();
+    let push = |runs: &mut Vec<Run>, c: char, italic: bool, level: i8| match runs.last_mut() {
+        Some(r) if r.italic == italic && r.level == level => r.text.push(c),
+        _ => runs.push(Run {
+            text: c.to_string(),
+            italic,
+            level,
+        }),
+    };
+    let mut i = 0;
+    while i < chars.len() {
+        let c = chars[i];
+        let single = stack.last().is_some_and(|(_, braced)| !braced);
+        match c {
+            '$' => italic = !italic,
+            '_' | '^' if i + 1 < chars.len() => {
+                let l = if c == '^' { 1 } else { -1 };
+                if chars[i + 1] == '{' {
+                    stack.push((level, true));
+                    i += 1;
+                } else {
+                    stack.push((level, false));
+                }
+                level = l;
+                i += 1;
+                continue;
+            }
+            '}' if stack.last().is_some_and(|(_, braced)| *braced) => {
+                level = stack.pop().map_or(0, |(l, _)| l);
+            }
+            '\\' => {
+                let name: String = chars[i + 1..].iter().take_while(|c| c.is_ascii_alphabetic()).collect();
+                if let Some((_, g)) = GREEK.iter().find(|(n, _)| *n == name) {
+                    push(&mut runs, *g, italic, level);
+                    i += 1 + name.chars().count();
+                } else if let Some(&e) = chars.get(i + 1) {
+                    push(&mut runs, e, italic, level);
+                    i += 2;
+                } else {
+                    i += 1;
+                }
+                if single {
+                    level = stack.pop().map_or(0, |(l, _)| l);
+                }
+                continue;
+            }
+            '-' if chars.get(i + 1).is_some_and(|d| d.is_ascii_digit()) => push(&mut runs, '\u{2212}', italic, level),
+            _ => push(&mut runs, c, italic, level),
+        }
+        if single && c != '$' {
+            level = stack.pop().map_or(0, |(l, _)| l);
+        }
+        i += 1;
+    }
+    runs
+}
+
+/// Label markup as SVG text content: `<tspan>`s with a smaller size and a shifted baseline
+/// (`dy`, which every SVG reader honours) for sub- and superscripts, italics for symbols.
+pub fn rich(s: &str, size: f64) -> String {
+    let mut o = String::new();
+    let mut offset = 0.0;
+    for r in parse_markup(s) {
+        let target = match r.level {
+            1 => -0.38 * size,
+            -1 => 0.22 * size,
+            _ => 0.0,
+        };
+        let mut attrs = String::new();
+        if target != offset {
+            let _ = write!(attrs, " dy=\"{:.2}\"", target - offset);
+            offset = target;
+        }
+        if r.level != 0 {
+            let _ = write!(attrs, " font-size=\"{:.1}\"", 0.7 * size);
+        }
+        if r.italic {
+            attrs.push_str(" font-style=\"italic\"");
+        }
+        if attrs.is_empty() {
+            o.push_str(&esc(&r.text));
+        } else {
+            let _ = write!(o, "<tspan{attrs}>{}</tspan>", esc(&r.text));
+        }
+    }
+    if offset != 0.0 {
+        // Back to the baseline for whatever follows in the same element.
+        let _ = write!(o, "<tspan dy=\"{:.2}\"></tspan>", -offset);
+    }
+    o
+}
+
+/// The label's characters as a reader sees them (sub- and superscripts inline).
+pub fn plain_text(s: &str) -> String {
+    parse_markup(s).into_iter().map(|r| r.text).collect()
+}
+
+/// Converts a figure (the SVG this module writes) to PDF, with the bundled fonts embedded
+/// (subset), independent of the fonts installed on the machine.
+pub fn to_pdf(svg: &str) -> Result<Vec<u8>, String> {
+    let mut db = usvg::fontdb::Database::new();
+    db.load_font_data(FONT_REGULAR.to_vec());
+    db.load_font_data(FONT_OBLIQUE.to_vec());
+    db.set_sans_serif_family("DejaVu Sans");
+    let opt = usvg::Options {
+        font_family: "DejaVu Sans".into(),
+        fontdb: std::sync::Arc::new(db),
+        ..usvg::Options::default()
+    };
+    let tree = usvg::Tree::from_str(svg, &opt).map_err(|e| format!("the figure is not valid SVG: {e}"))?;
+    // usvg measures in CSS pixels (96 per inch); the page keeps the figure's physical size.
+    let page = svg2pdf::PageOptions { dpi: 96.0 };
+    svg2pdf::to_pdf(&tree, svg2pdf::ConversionOptions::default(), page)
+        .map_err(|e| format!("cannot convert the figure to PDF: {e}"))
+}
+
 /// Renders panels side by side into one SVG document.
 pub fn render(title: &str, panels: &[Panel]) -> String {
     let total_w = W * panels.len() as f64;
     let mut out = String::new();
     let _ = writeln!(
         out,
-        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{total_w}\" height=\"{}\" viewBox=\"0 0 {total_w} {}\" font-family=\"sans-serif\" font-size=\"12\">",
+        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{total_w}\" height=\"{}\" viewBox=\"0 0 {total_w} {}\" font-family=\"{FONT_FAMILY}\" font-size=\"12\">",
         H + 24.0,
         H + 24.0
     );
@@ -136,18 +331,18 @@ pub fn render(title: &str, panels: &[Panel]) -> String {
         out,
         "<text x=\"{}\" y=\"16\" text-anchor=\"middle\" font-size=\"14\">{}</text>",
         total_w / 2.0,
-        esc(title)
+        rich(&plain(title), 14.0)
     );
     for (i, p) in panels.iter().enumerate() {
         let _ = writeln!(out, "<g class=\"panel\" transform=\"translate({},24)\">", W * i as f64);
-        panel(&mut out, p);
+        panel(&mut out, p, i);
         let _ = writeln!(out, "</g>");
     }
     out.push_str("</svg>\n");
     out
 }
 
-fn panel(out: &mut String, p: &Panel) {
+fn panel(out: &mut String, p: &Panel, index: usize) {
     let ty = |y: f64| if p.log_y { y.log10() } else { y };
     let mut xs: Vec<f64> = Vec::new();
     let mut ys: Vec<f64> = Vec::new();
@@ -193,7 +388,7 @@ fn panel(out: &mut String, p: &Panel) {
         "<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" font-size=\"13\">{}</text>",
         ML + pw / 2.0,
         MT - 14.0,
-        esc(&p.title)
+        rich(&p.title, 13.0)
     );
     let _ = writeln!(
         out,
@@ -207,13 +402,13 @@ fn panel(out: &mut String, p: &Panel) {
             MT + ph,
             MT + ph + 5.0,
             MT + ph + 18.0,
-            fmt_tick(t)
+            rich(&fmt_tick(t), 12.0)
         );
     }
     for t in ticks(y0, y1) {
         let y = sy(t);
         let label = if p.log_y {
-            format!("1e{}", fmt_tick(t))
+            format!("10^{{{}}}", fmt_tick(t))
         } else {
             fmt_tick(t)
         };
@@ -223,7 +418,7 @@ fn panel(out: &mut String, p: &Panel) {
             ML - 5.0,
             ML - 8.0,
             y + 4.0,
-            label
+            rich(&label, 12.0)
         );
     }
     let _ = writeln!(
@@ -231,19 +426,19 @@ fn panel(out: &mut String, p: &Panel) {
         "<text class=\"xlabel\" x=\"{}\" y=\"{}\" text-anchor=\"middle\">{}</text>",
         ML + pw / 2.0,
         H - 12.0,
-        esc(&p.x_label)
+        rich(&p.x_label, 12.0)
     );
     let _ = writeln!(
         out,
         "<text class=\"ylabel\" x=\"16\" y=\"{}\" text-anchor=\"middle\" transform=\"rotate(-90 16 {})\">{}</text>",
         MT + ph / 2.0,
         MT + ph / 2.0,
-        esc(&p.y_label)
+        rich(&p.y_label, 12.0)
     );
     let _ = writeln!(
         out,
         "<clipPath id=\"clip{}\"><rect x=\"{ML}\" y=\"{MT}\" width=\"{pw}\" height=\"{ph}\"/></clipPath>",
-        p.title.len()
+        index
     );
     for (i, g) in p.regions.iter().enumerate() {
         let cx = |x: f64| sx(x.clamp(x0, x1));
@@ -270,7 +465,7 @@ fn panel(out: &mut String, p: &Panel) {
             xa + 3.0,
             ya + 12.0 + 11.0 * i as f64,
             g.color,
-            esc(&g.label)
+            rich(&g.label, 10.0)
         );
     }
     for s in &p.series {
@@ -292,7 +487,7 @@ fn panel(out: &mut String, p: &Panel) {
             esc(&s.name),
             d.trim_end(),
             s.color,
-            p.title.len()
+            index
         );
     }
     for v in &p.vlines {
@@ -308,7 +503,7 @@ fn panel(out: &mut String, p: &Panel) {
             x + 3.0,
             MT + 12.0,
             v.color,
-            esc(&v.label)
+            rich(&v.label, 10.0)
         );
     }
     for m in &p.markers {
@@ -325,21 +520,23 @@ fn panel(out: &mut String, p: &Panel) {
             sx(m.x) + 5.0,
             sy(y) - 5.0,
             m.color,
-            esc(&m.label)
+            rich(&m.label, 10.0)
         );
     }
     // legend
     for (i, s) in p.series.iter().enumerate() {
         let y = MT + 14.0 + 14.0 * i as f64;
+        // The sample is drawn as the line is: same colour, width and dashes.
+        let dash = if s.dashed { " stroke-dasharray=\"6,4\"" } else { "" };
         let _ = writeln!(
             out,
-            "<line x1=\"{}\" y1=\"{y}\" x2=\"{}\" y2=\"{y}\" stroke=\"{}\" stroke-width=\"2\"/><text class=\"legend\" x=\"{}\" y=\"{}\">{}</text>",
+            "<line x1=\"{}\" y1=\"{y}\" x2=\"{}\" y2=\"{y}\" stroke=\"{}\" stroke-width=\"1.6\"{dash}/><text class=\"legend\" x=\"{}\" y=\"{}\">{}</text>",
             ML + pw - 120.0,
             ML + pw - 100.0,
             s.color,
             ML + pw - 95.0,
             y + 4.0,
-            esc(&s.name)
+            rich(&s.name, 12.0)
         );
     }
 }

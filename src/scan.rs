@@ -416,12 +416,12 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> S
                 continue;
             }
             let name = if s.is_nan() {
-                format!("N = {}", crate::numfmt::typed(n))
+                format!("$N$ = {}", crate::numfmt::typed(n))
             } else {
                 format!(
-                    "N = {}, {} = {}",
+                    "$N$ = {}, {} = {}",
                     crate::numfmt::typed(n),
-                    axes[1].name,
+                    crate::plot::symbol(&axes[1].name),
                     crate::numfmt::typed(s)
                 )
             };
@@ -449,27 +449,27 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> S
             y: None,
             color: "#9ecae1".into(),
             opacity: 0.25,
-            label: "n_s 2 sigma".into(),
+            label: "$n$_s, 2$\\sigma$".into(),
         },
         Region {
             x: (m - s, m + s),
             y: None,
             color: "#3182bd".into(),
             opacity: 0.25,
-            label: "n_s 1 sigma".into(),
+            label: "$n$_s, 1$\\sigma$".into(),
         },
         Region {
             x: (f64::NEG_INFINITY, f64::INFINITY),
             y: Some((data.r.upper, f64::INFINITY)),
             color: "#de2d26".into(),
             opacity: 0.15,
-            label: format!("r > {} excluded", data.r.upper),
+            label: format!("$r$ > {} excluded", data.r.upper),
         },
     ];
     let panel = Panel {
-        title: format!("n_s and r, markers by {first} (blue low, yellow high)"),
-        x_label: "n_s".into(),
-        y_label: "r".into(),
+        title: format!("markers by {} (blue low, yellow high)", crate::plot::symbol(&first)),
+        x_label: "$n$_s".into(),
+        y_label: "$r$".into(),
         log_y: true,
         series,
         markers,
