@@ -245,7 +245,11 @@ pub fn parse_markup(s: &str) -> Vec<Run> {
                 }
                 continue;
             }
-            '-' if chars.get(i + 1).is_some_and(|d| d.is_ascii_digit()) => push(&mut runs, '\u{2212}', italic, level),
+            '-' if chars.get(i + 1).is_some_and(|d| d.is_ascii_digit())
+                && (i == 0 || matches!(chars[i - 1], ' ' | '{' | '(' | '=')) =>
+            {
+                push(&mut runs, '\u{2212}', italic, level)
+            }
             _ => push(&mut runs, c, italic, level),
         }
         if single && c != '$' {
@@ -342,7 +346,7 @@ pub fn render(title: &str, panels: &[Panel]) -> String {
     out
 }
 
-fn panel(out: &mut String, p: &Panel, index: usize) {
+fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
     let ty = |y: f64| if p.log_y { y.log10() } else { y };
     let mut xs: Vec<f64> = Vec::new();
     let mut ys: Vec<f64> = Vec::new();
@@ -490,18 +494,80 @@ fn panel(out: &mut String, p: &Panel, index: usize) {
             index
         );
     }
+    // Labels are placed one by one where they overlap no label placed before, no marker and no
+    // legend, inside the axes, preferring spots near their anchor and off the curves.
+    let curve: Vec<(f64, f64)> = p
+        .series
+        .iter()
+        .flat_map(|s| s.points.iter())
+        .filter(|(x, y)| x.is_finite() && ty(*y).is_finite())
+        .map(|&(x, y)| (sx(x), sy(ty(y))))
+        .collect();
+    let bounds = Rect {
+        x: ML,
+        y: MT,
+        w: pw,
+        h: ph,
+    };
+    let dots: Vec<(f64, f64)> = p
+        .markers
+        .iter()
+        .filter(|m| m.x.is_finite() && ty(m.y).is_finite())
+        .map(|m| (sx(m.x), sy(ty(m.y))))
+        .collect();
+    let legend_rows = if p.series.len() > 1 { p.series.len() } else { 0 };
+    let mut taken: Vec<Rect> = dots
+        .iter()
+        .map(|&(x, y)| Rect {
+            x: x - 4.0,
+            y: y - 4.0,
+            w: 8.0,
+            h: 8.0,
+        })
+        .collect();
+    if legend_rows > 0 {
+        let w = p.series.iter().map(|s| text_width(&s.name, 12.0)).fold(0.0, f64::max) + 30.0;
+        taken.push(Rect {
+            x: ML + pw - w - 4.0,
+            y: MT,
+            w: w + 4.0,
+            h: 8.0 + 14.0 * legend_rows as f64,
+        });
+    }
+    let mut placed: Vec<Rect> = Vec::new();
     for v in &p.vlines {
         if !(v.x >= x0 && v.x <= x1) {
             continue;
         }
         let x = sx(v.x);
+        let (w, h) = (text_width(&v.label, 10.0), 12.5);
+        let mut cands = Vec::new();
+        let mut top = MT + 2.0;
+        while top + h <= MT + ph {
+            cands.push(Rect {
+                x: x + 3.0,
+                y: top,
+                w,
+                h,
+            });
+            cands.push(Rect {
+                x: x - 3.0 - w,
+                y: top,
+                w,
+                h,
+            });
+            top += h + 1.0;
+        }
+        let b = choose(&cands, &taken, &bounds, &curve);
+        taken.push(b);
+        placed.push(b);
         let _ = writeln!(
             out,
-            "<line class=\"vline\" x1=\"{x:.2}\" y1=\"{MT}\" x2=\"{x:.2}\" y2=\"{}\" stroke=\"{}\" stroke-dasharray=\"3,3\"/><text x=\"{:.2}\" y=\"{}\" font-size=\"10\" fill=\"{}\">{}</text>",
+            "<line class=\"vline\" x1=\"{x:.2}\" y1=\"{MT}\" x2=\"{x:.2}\" y2=\"{}\" stroke=\"{}\" stroke-dasharray=\"3,3\"/><text x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
             MT + ph,
             v.color,
-            x + 3.0,
-            MT + 12.0,
+            b.x,
+            b.y + 9.5,
             v.color,
             rich(&v.label, 10.0)
         );
@@ -511,34 +577,140 @@ fn panel(out: &mut String, p: &Panel, index: usize) {
         if !(m.x.is_finite() && y.is_finite()) {
             continue;
         }
+        let (ax, ay) = (sx(m.x), sy(y));
         let _ = writeln!(
             out,
-            "<circle class=\"marker\" cx=\"{:.2}\" cy=\"{:.2}\" r=\"3.5\" fill=\"{}\"/><text x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
-            sx(m.x),
-            sy(y),
+            "<circle class=\"marker\" cx=\"{ax:.2}\" cy=\"{ay:.2}\" r=\"3.5\" fill=\"{}\"/>",
             m.color,
-            sx(m.x) + 5.0,
-            sy(y) - 5.0,
+        );
+        if m.label.is_empty() {
+            continue;
+        }
+        let (w, h) = (text_width(&m.label, 10.0), 12.5);
+        let mut cands = Vec::new();
+        for d in [5.0, 12.0, 22.0, 34.0, 48.0, 64.0, 84.0, 110.0, 140.0] {
+            for (dx, dy) in [(1, -1), (1, 0), (0, -1), (-1, -1), (-1, 0), (1, 1), (0, 1), (-1, 1)] {
+                let bx = match dx {
+                    1 => ax + d,
+                    -1 => ax - d - w,
+                    _ => ax - w / 2.0,
+                };
+                let by = match dy {
+                    -1 => ay - d - h,
+                    1 => ay + d,
+                    _ => ay - h / 2.0,
+                };
+                cands.push(Rect { x: bx, y: by, w, h });
+            }
+        }
+        let b = choose(&cands, &taken, &bounds, &curve);
+        taken.push(b);
+        placed.push(b);
+        let (lx, ly) = (ax.clamp(b.x, b.x + b.w), ay.clamp(b.y, b.y + b.h));
+        if (lx - ax).hypot(ly - ay) > 8.0 {
+            // Moved away from its point: a leader line shows which point it names.
+            let _ = writeln!(
+                out,
+                "<line class=\"leader\" x1=\"{ax:.2}\" y1=\"{ay:.2}\" x2=\"{lx:.2}\" y2=\"{ly:.2}\" stroke=\"{}\" stroke-width=\"0.6\"/>",
+                m.color
+            );
+        }
+        let _ = writeln!(
+            out,
+            "<text class=\"label\" x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
+            b.x,
+            b.y + 9.5,
             m.color,
             rich(&m.label, 10.0)
         );
     }
-    // legend
-    for (i, s) in p.series.iter().enumerate() {
+    // legend (only when there is more than one line to tell apart)
+    for (i, s) in p.series.iter().enumerate().filter(|_| legend_rows > 0) {
+        let w = p.series.iter().map(|s| text_width(&s.name, 12.0)).fold(0.0, f64::max);
         let y = MT + 14.0 + 14.0 * i as f64;
         // The sample is drawn as the line is: same colour, width and dashes.
         let dash = if s.dashed { " stroke-dasharray=\"6,4\"" } else { "" };
         let _ = writeln!(
             out,
-            "<line x1=\"{}\" y1=\"{y}\" x2=\"{}\" y2=\"{y}\" stroke=\"{}\" stroke-width=\"1.6\"{dash}/><text class=\"legend\" x=\"{}\" y=\"{}\">{}</text>",
-            ML + pw - 120.0,
-            ML + pw - 100.0,
+            "<line x1=\"{:.2}\" y1=\"{y}\" x2=\"{:.2}\" y2=\"{y}\" stroke=\"{}\" stroke-width=\"1.6\"{dash}/><text class=\"legend\" x=\"{:.2}\" y=\"{}\">{}</text>",
+            ML + pw - w - 30.0,
+            ML + pw - w - 10.0,
             s.color,
-            ML + pw - 95.0,
+            ML + pw - w - 5.0,
             y + 4.0,
             rich(&s.name, 12.0)
         );
     }
+    placed
+}
+
+/// A box in figure coordinates (y down, `y` its top).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Rect {
+    /// Left.
+    pub x: f64,
+    /// Top.
+    pub y: f64,
+    /// Width.
+    pub w: f64,
+    /// Height.
+    pub h: f64,
+}
+
+impl Rect {
+    /// Whether two boxes share more than a touching edge.
+    pub fn overlaps(&self, o: &Rect) -> bool {
+        self.x < o.x + o.w && o.x < self.x + self.w && self.y < o.y + o.h && o.y < self.y + self.h
+    }
+    fn inside(&self, b: &Rect) -> bool {
+        self.x >= b.x && self.y >= b.y && self.x + self.w <= b.x + b.w && self.y + self.h <= b.y + b.h
+    }
+}
+
+/// The estimated advance width of label markup at a font size: DejaVu Sans's widths, rounded
+/// up (digits and most lowercase letters about 0.62 em, capitals 0.72 em), sub- and
+/// superscripts at 0.7 of the size.
+pub fn text_width(label: &str, size: f64) -> f64 {
+    parse_markup(label)
+        .iter()
+        .map(|r| {
+            let s = if r.level == 0 { size } else { 0.7 * size };
+            r.text
+                .chars()
+                .map(|c| match c {
+                    ' ' | '.' | ',' | ':' | 'i' | 'l' | 'j' | '(' | ')' | '[' | ']' => 0.36,
+                    'A'..='Z' | 'm' | 'w' | '=' | '>' | '<' | '+' | '\u{2212}' => 0.86,
+                    _ => 0.64,
+                } * s)
+                .sum::<f64>()
+        })
+        .sum()
+}
+
+/// The first best candidate: inside `bounds`, over no taken box, fewest curve points covered,
+/// nearest first. With no free candidate, the first one.
+fn choose(cands: &[Rect], taken: &[Rect], bounds: &Rect, curve: &[(f64, f64)]) -> Rect {
+    let mut best: Option<(f64, Rect)> = None;
+    for (i, c) in cands.iter().enumerate() {
+        let pad = Rect {
+            x: c.x - 1.0,
+            y: c.y - 1.0,
+            w: c.w + 2.0,
+            h: c.h + 2.0,
+        };
+        if !c.inside(bounds) || taken.iter().any(|t| t.overlaps(&pad)) {
+            continue;
+        }
+        let hits = curve
+            .iter()
+            .filter(|&&(x, y)| x >= pad.x && x <= pad.x + pad.w && y >= pad.y && y <= pad.y + pad.h)
+            .count();
+        let cost = i as f64 + 40.0 * hits.min(1) as f64 + hits as f64;
+        if best.is_none_or(|(b, _)| cost < b) {
+            best = Some((cost, *c));
+        }
+    }
+    best.map_or(cands[0], |(_, r)| r)
 }
 
 fn min_max(v: &[f64]) -> (f64, f64) {
