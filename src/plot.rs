@@ -76,6 +76,24 @@ pub struct Panel {
     pub markers: Vec<Marker>,
     /// Shaded regions, drawn under the series.
     pub regions: Vec<Region>,
+    /// The colour bar of a colour-coded quantity, right of the axes.
+    pub colorbar: Option<ColorBar>,
+}
+
+/// A colour scale: `colors` spaced evenly from `lo` (first) to `hi` (last), linearly or in the
+/// logarithm.
+#[derive(Debug, Clone)]
+pub struct ColorBar {
+    /// The quantity (markup).
+    pub label: String,
+    /// The value of the first colour.
+    pub lo: f64,
+    /// The value of the last colour.
+    pub hi: f64,
+    /// Logarithmic scale.
+    pub log: bool,
+    /// CSS colours, low to high.
+    pub colors: Vec<String>,
 }
 
 const W: f64 = 460.0;
@@ -383,7 +401,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
     }
     let pad = 0.05 * (y1 - y0);
     let (y0, y1) = (y0 - pad, y1 + pad);
-    let pw = W - ML - MR;
+    let pw = W - ML - MR - if p.colorbar.is_some() { 70.0 } else { 0.0 };
     let ph = H - MT - MB;
     let sx = |x: f64| ML + (x - x0) / (x1 - x0) * pw;
     let sy = |y: f64| MT + (1.0 - (y - y0) / (y1 - y0)) * ph;
@@ -444,6 +462,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         "<clipPath id=\"clip{}\"><rect x=\"{ML}\" y=\"{MT}\" width=\"{pw}\" height=\"{ph}\"/></clipPath>",
         index
     );
+    let mut region_boxes: Vec<(Rect, &Region)> = Vec::new();
     for (i, g) in p.regions.iter().enumerate() {
         let cx = |x: f64| sx(x.clamp(x0, x1));
         let cy = |y: f64| {
@@ -459,18 +478,16 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         if xb <= xa || yb <= ya {
             continue;
         }
+        let _ = i;
         let _ = writeln!(
             out,
-            "<rect class=\"region\" x=\"{xa:.2}\" y=\"{ya:.2}\" width=\"{:.2}\" height=\"{:.2}\" fill=\"{}\" fill-opacity=\"{}\"/><text x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
+            "<rect class=\"region\" x=\"{xa:.2}\" y=\"{ya:.2}\" width=\"{:.2}\" height=\"{:.2}\" fill=\"{}\" fill-opacity=\"{}\"/>",
             xb - xa,
             yb - ya,
             g.color,
             g.opacity,
-            xa + 3.0,
-            ya + 12.0 + 11.0 * i as f64,
-            g.color,
-            rich(&g.label, 10.0)
         );
+        region_boxes.push((Rect { x: xa, y: ya, w: xb - xa, h: yb - ya }, g));
     }
     for s in &p.series {
         let mut d = String::new();
@@ -516,6 +533,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         .map(|m| (sx(m.x), sy(ty(m.y))))
         .collect();
     let legend_rows = if p.series.len() > 1 { p.series.len() } else { 0 };
+    let ndots = dots.len();
     let mut taken: Vec<Rect> = dots
         .iter()
         .map(|&(x, y)| Rect {
@@ -535,6 +553,34 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         });
     }
     let mut placed: Vec<Rect> = Vec::new();
+    for (r, g) in &region_boxes {
+        // Inside its region, near its top left, off the curves and the other labels.
+        let (w, h) = (text_width(&g.label, 10.0), 12.5);
+        let mut cands = Vec::new();
+        let mut top = r.y + 2.0;
+        while top + h <= r.y + r.h {
+            let mut left = r.x + 3.0;
+            while left + w <= r.x + r.w {
+                cands.push(Rect { x: left, y: top, w, h });
+                left += 8.0;
+            }
+            top += 4.0;
+        }
+        if cands.is_empty() {
+            continue;
+        }
+        let b = choose_label(&cands, &taken, ndots, &bounds, &curve);
+        taken.push(b);
+        placed.push(b);
+        let _ = writeln!(
+            out,
+            "<text class=\"label\" x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
+            b.x,
+            b.y + 9.5,
+            g.color,
+            rich(&g.label, 10.0)
+        );
+    }
     for v in &p.vlines {
         if !(v.x >= x0 && v.x <= x1) {
             continue;
@@ -558,7 +604,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
             });
             top += h + 1.0;
         }
-        let b = choose(&cands, &taken, &bounds, &curve);
+        let b = choose_label(&cands, &taken, ndots, &bounds, &curve);
         taken.push(b);
         placed.push(b);
         let _ = writeln!(
@@ -603,7 +649,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
                 cands.push(Rect { x: bx, y: by, w, h });
             }
         }
-        let b = choose(&cands, &taken, &bounds, &curve);
+        let b = choose_label(&cands, &taken, ndots, &bounds, &curve);
         taken.push(b);
         placed.push(b);
         let (lx, ly) = (ax.clamp(b.x, b.x + b.w), ay.clamp(b.y, b.y + b.h));
@@ -624,6 +670,9 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
             rich(&m.label, 10.0)
         );
     }
+    if let Some(cb) = &p.colorbar {
+        colorbar(out, cb, ML + pw + 14.0, MT, ph, index);
+    }
     // legend (only when there is more than one line to tell apart)
     for (i, s) in p.series.iter().enumerate().filter(|_| legend_rows > 0) {
         let w = p.series.iter().map(|s| text_width(&s.name, 12.0)).fold(0.0, f64::max);
@@ -642,6 +691,64 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         );
     }
     placed
+}
+
+/// Draws a vertical colour bar at (x, top), `h` tall, with ticks in the quantity's units (decades
+/// on a log scale) and its label.
+fn colorbar(out: &mut String, cb: &ColorBar, x: f64, top: f64, h: f64, index: usize) {
+    let n = cb.colors.len().max(2) - 1;
+    let _ = write!(out, "<linearGradient id=\"cbar{index}\" x1=\"0\" y1=\"1\" x2=\"0\" y2=\"0\">");
+    for (i, c) in cb.colors.iter().enumerate() {
+        let _ = write!(out, "<stop offset=\"{:.4}\" stop-color=\"{c}\"/>", i as f64 / n as f64);
+    }
+    let _ = writeln!(out, "</linearGradient>");
+    let bw = 9.0;
+    let _ = writeln!(
+        out,
+        "<rect class=\"colorbar\" x=\"{x:.2}\" y=\"{top:.2}\" width=\"{bw}\" height=\"{h:.2}\" fill=\"url(#cbar{index})\" stroke=\"black\" stroke-width=\"0.6\"/>"
+    );
+    let (a, b) = if cb.log { (cb.lo.log10(), cb.hi.log10()) } else { (cb.lo, cb.hi) };
+    if !(a.is_finite() && b.is_finite() && b > a) {
+        return;
+    }
+    let ts: Vec<(f64, String)> = if cb.log {
+        let mut d: Vec<f64> = ((a.ceil() as i64)..=(b.floor() as i64)).map(|k| k as f64).collect();
+        if d.len() < 2 {
+            d = ticks(a, b);
+        }
+        d.into_iter()
+            .map(|t| {
+                let label = if t.fract() == 0.0 {
+                    format!("10^{{{}}}", fmt_tick(t))
+                } else {
+                    fmt_tick(10f64.powf(t))
+                };
+                (t, label)
+            })
+            .collect()
+    } else {
+        ticks(a, b).into_iter().map(|t| (t, fmt_tick(t))).collect()
+    };
+    for (t, label) in ts {
+        let y = top + (1.0 - (t - a) / (b - a)) * h;
+        let _ = writeln!(
+            out,
+            "<line x1=\"{:.2}\" y1=\"{y:.2}\" x2=\"{:.2}\" y2=\"{y:.2}\" stroke=\"black\" stroke-width=\"0.6\"/><text class=\"cbtick\" x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\">{}</text>",
+            x + bw,
+            x + bw + 3.0,
+            x + bw + 5.0,
+            y + 3.5,
+            rich(&label, 10.0)
+        );
+    }
+    let lx = x + bw + 48.0;
+    let _ = writeln!(
+        out,
+        "<text class=\"cblabel\" x=\"{lx:.2}\" y=\"{:.2}\" text-anchor=\"middle\" transform=\"rotate(-90 {lx:.2} {:.2})\">{}</text>",
+        top + h / 2.0,
+        top + h / 2.0,
+        rich(&cb.label, 12.0)
+    );
 }
 
 /// A box in figure coordinates (y down, `y` its top).
@@ -688,8 +795,15 @@ pub fn text_width(label: &str, size: f64) -> f64 {
 }
 
 /// The first best candidate: inside `bounds`, over no taken box, fewest curve points covered,
-/// nearest first. With no free candidate, the first one.
-fn choose(cands: &[Rect], taken: &[Rect], bounds: &Rect, curve: &[(f64, f64)]) -> Rect {
+/// nearest first. Where no spot is free of markers a label may cover a marker, never
+/// another label: `ndots` is the number of marker boxes at the start of `taken`.
+fn choose_label(cands: &[Rect], taken: &[Rect], ndots: usize, bounds: &Rect, curve: &[(f64, f64)]) -> Rect {
+    choose_among(cands, taken, bounds, curve)
+        .or_else(|| choose_among(cands, &taken[ndots..], bounds, curve))
+        .unwrap_or(cands[0])
+}
+
+fn choose_among(cands: &[Rect], taken: &[Rect], bounds: &Rect, curve: &[(f64, f64)]) -> Option<Rect> {
     let mut best: Option<(f64, Rect)> = None;
     for (i, c) in cands.iter().enumerate() {
         let pad = Rect {
@@ -710,7 +824,7 @@ fn choose(cands: &[Rect], taken: &[Rect], bounds: &Rect, curve: &[(f64, f64)]) -
             best = Some((cost, *c));
         }
     }
-    best.map_or(cands[0], |(_, r)| r)
+    best.map(|(_, r)| r)
 }
 
 fn min_max(v: &[f64]) -> (f64, f64) {

@@ -467,7 +467,13 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> S
         },
     ];
     let panel = Panel {
-        title: format!("markers by {} (blue low, yellow high)", crate::plot::symbol(&first)),
+        colorbar: Some(crate::plot::ColorBar {
+            label: crate::plot::symbol(&first),
+            lo,
+            hi,
+            log: log_axis,
+            colors: (0..=8).map(|i| gradient(i as f64 / 8.0)).collect(),
+        }),
         x_label: "$n$_s".into(),
         y_label: "$r$".into(),
         log_y: true,
