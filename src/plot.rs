@@ -487,7 +487,15 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
             g.color,
             g.opacity,
         );
-        region_boxes.push((Rect { x: xa, y: ya, w: xb - xa, h: yb - ya }, g));
+        region_boxes.push((
+            Rect {
+                x: xa,
+                y: ya,
+                w: xb - xa,
+                h: yb - ya,
+            },
+            g,
+        ));
     }
     for s in &p.series {
         let mut d = String::new();
@@ -697,7 +705,10 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
 /// on a log scale) and its label.
 fn colorbar(out: &mut String, cb: &ColorBar, x: f64, top: f64, h: f64, index: usize) {
     let n = cb.colors.len().max(2) - 1;
-    let _ = write!(out, "<linearGradient id=\"cbar{index}\" x1=\"0\" y1=\"1\" x2=\"0\" y2=\"0\">");
+    let _ = write!(
+        out,
+        "<linearGradient id=\"cbar{index}\" x1=\"0\" y1=\"1\" x2=\"0\" y2=\"0\">"
+    );
     for (i, c) in cb.colors.iter().enumerate() {
         let _ = write!(out, "<stop offset=\"{:.4}\" stop-color=\"{c}\"/>", i as f64 / n as f64);
     }
@@ -707,12 +718,18 @@ fn colorbar(out: &mut String, cb: &ColorBar, x: f64, top: f64, h: f64, index: us
         out,
         "<rect class=\"colorbar\" x=\"{x:.2}\" y=\"{top:.2}\" width=\"{bw}\" height=\"{h:.2}\" fill=\"url(#cbar{index})\" stroke=\"black\" stroke-width=\"0.6\"/>"
     );
-    let (a, b) = if cb.log { (cb.lo.log10(), cb.hi.log10()) } else { (cb.lo, cb.hi) };
+    let (a, b) = if cb.log {
+        (cb.lo.log10(), cb.hi.log10())
+    } else {
+        (cb.lo, cb.hi)
+    };
     if !(a.is_finite() && b.is_finite() && b > a) {
         return;
     }
     let ts: Vec<(f64, String)> = if cb.log {
-        let mut d: Vec<f64> = ((a.ceil() as i64)..=(b.floor() as i64)).map(|k| k as f64).collect();
+        let mut d: Vec<f64> = (((a - 1e-9).ceil() as i64)..=((b + 1e-9).floor() as i64))
+            .map(|k| k as f64)
+            .collect();
         if d.len() < 2 {
             d = ticks(a, b);
         }
@@ -846,5 +863,82 @@ mod tests {
         assert_eq!(ticks(0.0, 1.0), vec![0.0, 0.2, 0.4, 0.6000000000000001, 0.8, 1.0]);
         assert_eq!(ticks(-3.0, 7.0), vec![-2.0, 0.0, 2.0, 4.0, 6.0]);
         assert_eq!(fmt_tick(0.00012), "1.2e-4");
+    }
+
+    #[test]
+    fn markup_gives_symbols() {
+        let runs = parse_markup("$n$_s");
+        assert_eq!(runs.len(), 2);
+        assert!(runs[0].italic && runs[0].text == "n" && runs[0].level == 0);
+        assert!(!runs[1].italic && runs[1].text == "s" && runs[1].level == -1);
+        assert_eq!(plain_text("10^{-3}"), "10\u{2212}3");
+        assert_eq!(parse_markup("10^{-3}")[1].level, 1);
+        assert_eq!(plain_text("$P$_$\\zeta$ [Mpc^{-1}]"), "Pζ [Mpc\u{2212}1]");
+        // A hyphen inside a word stays a hyphen.
+        assert_eq!(plain_text("pole-order-2"), "pole-order-2");
+        // User names: Greek names as letters, others as written (markup escaped), in italics.
+        assert_eq!(symbol("phi"), "$φ$");
+        assert_eq!(symbol("chi"), "$χ$");
+        assert_eq!(symbol("rho"), "$ρ$");
+        assert_eq!(plain_text(&symbol("x_1")), "x_1");
+        assert!(parse_markup(&symbol("x")).iter().all(|r| r.italic));
+        // tspans return to the baseline.
+        let t = rich("$M$_p^4", 10.0);
+        assert!(
+            t.contains("dy=\"2.20\"") && t.contains("dy=\"-6.00\"") && t.ends_with("<tspan dy=\"3.80\"></tspan>"),
+            "{t}"
+        );
+    }
+
+    #[test]
+    fn labels_never_overlap() {
+        // Three labelled points almost on top of each other at the corner by a pole line, two
+        // more lines beside it, and a curve through them: the case of the pivot points.
+        let curve: Vec<(f64, f64)> = (0..200)
+            .map(|i| {
+                let x = -2.45 + 4.9 * i as f64 / 199.0;
+                (x, x * x / 6.0)
+            })
+            .collect();
+        let mut p = Panel {
+            series: vec![Series {
+                name: "V".into(),
+                points: curve,
+                color: "black".into(),
+                dashed: false,
+            }],
+            ..Panel::default()
+        };
+        for (k, x) in [2.413, 2.417, 2.4196, 2.42, 1.119, 0.0].iter().enumerate() {
+            p.markers.push(Marker {
+                x: *x,
+                y: x * x / 6.0,
+                label: format!("$N$ = {}", 50 + 5 * k),
+                color: "red".into(),
+            });
+        }
+        for x in [2.449, 2.44, -2.449] {
+            p.vlines.push(VLine {
+                x,
+                label: "pole, $p$ = 2".into(),
+                color: "red".into(),
+            });
+        }
+        let mut out = String::new();
+        let boxes = panel(&mut out, &p, 0);
+        assert_eq!(boxes.len(), 9);
+        for (i, a) in boxes.iter().enumerate() {
+            assert!(
+                a.x >= ML && a.x + a.w <= W - MR && a.y >= MT && a.y + a.h <= H - MB,
+                "{a:?} outside the axes"
+            );
+            for b in &boxes[i + 1..] {
+                assert!(!a.overlaps(b), "{a:?} overlaps {b:?}");
+            }
+        }
+        // Labels moved away from their points get leader lines.
+        assert!(out.contains("class=\"leader\""));
+        // The estimate is not below the true advance (DejaVu Sans: "N = 55" is about 3.5 em).
+        assert!(text_width("N = 55", 10.0) >= 35.0);
     }
 }
