@@ -157,6 +157,9 @@ pub struct ScanArgs {
     /// Write the same figure as PDF, fonts embedded, to this file.
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    pub figure_width: f64,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
     pub data: Option<std::path::PathBuf>,
@@ -221,6 +224,9 @@ pub struct SpectrumArgs {
     /// Write the same figure as PDF, fonts embedded, to this file.
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    pub figure_width: f64,
 }
 
 /// Output formats of `spectrum`.
@@ -310,6 +316,9 @@ pub struct PredictArgs {
     /// Write the same figure as PDF, fonts embedded, to this file.
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    pub figure_width: f64,
 }
 
 /// The model: a TOML file, or given inline; flags override the file.
@@ -353,6 +362,9 @@ pub struct InspectArgs {
     /// Write the same figure as PDF, fonts embedded, to this file.
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    pub figure_width: f64,
 }
 
 /// Output formats.
@@ -838,7 +850,7 @@ fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
     let model = load_model(&a.model, "efold inspect models/pole-order-2-quadratic.toml", config)?;
     let ins = crate::inspect::inspect(&model, config, a.table)?;
     if a.svg.is_some() || a.pdf.is_some() {
-        let svg = crate::inspect::figure(&model, &ins, &Default::default(), config)?;
+        let svg = crate::inspect::figure(&model, &ins, &Default::default(), config, a.figure_width)?;
         write_figure(&a.svg, &a.pdf, &svg)?;
     }
     Ok(match a.format {
@@ -899,7 +911,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
                 .points
                 .push((p.phi_star, format!("$N$ = {}", crate::numfmt::typed(p.n_star))));
         }
-        let svg = crate::inspect::figure(&model, &ins, &marks, config)?;
+        let svg = crate::inspect::figure(&model, &ins, &marks, config, a.figure_width)?;
         write_figure(&a.svg, &a.pdf, &svg)?;
     }
     Ok(match a.format {
@@ -955,7 +967,11 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         .collect();
     let sp = crate::exact::spectrum(&model, &run, a.efolds, &ks, data.a_s(), k_star, &settings)?;
     if a.svg.is_some() || a.pdf.is_some() {
-        write_figure(&a.svg, &a.pdf, &crate::exact::figure(&sp, &model.spec.name))?;
+        write_figure(
+            &a.svg,
+            &a.pdf,
+            &crate::exact::figure(&sp, &model.spec.name, a.figure_width),
+        )?;
     }
     Ok(match a.format {
         SpectrumFormat::Json => {
@@ -1024,7 +1040,11 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
         ScanFormat::Json => crate::scan::json(&rows),
     };
     if a.svg.is_some() || a.pdf.is_some() {
-        write_figure(&a.svg, &a.pdf, &crate::scan::figure(&spec.name, &axes, &rows, &data))?;
+        write_figure(
+            &a.svg,
+            &a.pdf,
+            &crate::scan::figure(&spec.name, &axes, &rows, &data, a.figure_width),
+        )?;
     }
     match &a.out {
         Some(path) => {

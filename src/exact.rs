@@ -820,7 +820,7 @@ pub fn csv(sp: &Spectrum) -> String {
 }
 
 /// Both spectra against log10 k, with the slow-roll estimate dashed.
-pub fn figure(sp: &Spectrum, name: &str) -> String {
+pub fn figure(sp: &Spectrum, name: &str, width_pt: f64) -> String {
     use crate::plot::{Panel, Series};
     let pts = |g: &dyn Fn(&SpectrumRow) -> f64| sp.rows.iter().map(|r| (r.k_mpc.log10(), g(r))).collect::<Vec<_>>();
     let panel = Panel {
@@ -850,7 +850,7 @@ pub fn figure(sp: &Spectrum, name: &str) -> String {
         ],
         ..Panel::default()
     };
-    crate::plot::render(name, &[panel])
+    crate::plot::render(name, &[panel], width_pt)
 }
 
 /// A start given by the user must lie inside the domain (beyond a pole of K, or where K <= 0

@@ -545,7 +545,13 @@ pub struct FigureMarks {
 }
 
 /// The figure: V against phi, and V against chi, with poles, the minimum and `marks`.
-pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Config) -> Result<String, AnalysisError> {
+pub fn figure(
+    model: &Model,
+    ins: &Inspection,
+    marks: &FigureMarks,
+    config: &Config,
+    width_pt: f64,
+) -> Result<String, AnalysisError> {
     let iv = &ins.domain.interval;
     let (a, b) = plot_window(model, iv, ins.chi_origin);
     let n = 400;
@@ -634,7 +640,7 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
     } else {
         ins.model.name.clone()
     };
-    Ok(plot::render(&title, &[left, right]))
+    Ok(plot::render(&title, &[left, right], width_pt))
 }
 
 /// Writes a file atomically: a temporary file beside it, then a rename, so a failure never

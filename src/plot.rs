@@ -96,8 +96,37 @@ pub struct ColorBar {
     pub colors: Vec<String>,
 }
 
-const W: f64 = 460.0;
-const H: f64 = 340.0;
+/// Layout units per point: text of 12 units (ticks, axis labels) is 9.6 pt on paper, labels
+/// of 10 units are 8 pt.
+const PT_PER_UNIT: f64 = 0.8;
+/// A panel narrower than this (in layout units) is stacked under its neighbour instead.
+const MIN_PANEL_W: f64 = 280.0;
+/// Axes-box height over panel width.
+const ASPECT: f64 = 0.74;
+/// The default panel width of the unit tests (a single-column figure).
+#[cfg(test)]
+const TEST_W: f64 = SINGLE_COLUMN_PT / PT_PER_UNIT;
+#[cfg(test)]
+const TEST_H: f64 = (TEST_W - ML - MR) * ASPECT + MT + MB;
+
+/// A one-column figure: 8.6 cm.
+pub const SINGLE_COLUMN_PT: f64 = 8.6 / 2.54 * 72.0;
+/// A two-column figure: 17.8 cm.
+pub const DOUBLE_COLUMN_PT: f64 = 17.8 / 2.54 * 72.0;
+
+/// `single`, `double` or a width in centimetres, as points.
+pub fn parse_figure_width(s: &str) -> Result<f64, String> {
+    match s {
+        "single" => Ok(SINGLE_COLUMN_PT),
+        "double" => Ok(DOUBLE_COLUMN_PT),
+        _ => match s.parse::<f64>() {
+            Ok(cm) if (3.0..=60.0).contains(&cm) => Ok(cm / 2.54 * 72.0),
+            _ => Err(format!(
+                "`{s}` is not a figure width: give single, double or centimetres from 3 to 60"
+            )),
+        },
+    }
+}
 const ML: f64 = 70.0;
 const MR: f64 = 20.0;
 const MT: f64 = 40.0;
@@ -337,15 +366,23 @@ pub fn to_pdf(svg: &str) -> Result<Vec<u8>, String> {
         .map_err(|e| format!("cannot convert the figure to PDF: {e}"))
 }
 
-/// Renders panels side by side into one SVG document.
-pub fn render(title: &str, panels: &[Panel]) -> String {
-    let total_w = W * panels.len() as f64;
+/// Renders panels into one SVG document `width_pt` points wide: side by side where each is wide
+/// enough for its text, stacked otherwise; each panel's height follows from its width.
+pub fn render(title: &str, panels: &[Panel], width_pt: f64) -> String {
+    let total_w = width_pt / PT_PER_UNIT;
+    let n = panels.len().max(1);
+    let cols = if total_w / n as f64 >= MIN_PANEL_W { n } else { 1 };
+    let rows = n.div_ceil(cols);
+    let w = total_w / cols as f64;
+    let legend = panels.iter().map(|p| legend_height(p, w)).fold(0.0, f64::max);
+    let h = (w - ML - MR) * ASPECT + MT + MB + legend;
+    let total_h = h * rows as f64 + 24.0;
     let mut out = String::new();
     let _ = writeln!(
         out,
-        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{total_w}\" height=\"{}\" viewBox=\"0 0 {total_w} {}\" font-family=\"{FONT_FAMILY}\" font-size=\"12\">",
-        H + 24.0,
-        H + 24.0
+        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{:.2}pt\" height=\"{:.2}pt\" viewBox=\"0 0 {total_w:.2} {total_h:.2}\" font-family=\"{FONT_FAMILY}\" font-size=\"12\">",
+        width_pt,
+        total_h * PT_PER_UNIT,
     );
     let _ = writeln!(out, "<title>{}</title>", esc(title));
     let _ = writeln!(out, "<rect width=\"100%\" height=\"100%\" fill=\"white\"/>");
@@ -356,15 +393,21 @@ pub fn render(title: &str, panels: &[Panel]) -> String {
         rich(&plain(title), 14.0)
     );
     for (i, p) in panels.iter().enumerate() {
-        let _ = writeln!(out, "<g class=\"panel\" transform=\"translate({},24)\">", W * i as f64);
-        panel(&mut out, p, i);
+        let _ = writeln!(
+            out,
+            "<g class=\"panel\" transform=\"translate({:.2},{:.2})\">",
+            w * (i % cols) as f64,
+            24.0 + h * (i / cols) as f64
+        );
+        panel(&mut out, p, i, w, h);
         let _ = writeln!(out, "</g>");
     }
     out.push_str("</svg>\n");
     out
 }
 
-fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
+#[allow(non_snake_case)]
+fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect> {
     let ty = |y: f64| if p.log_y { y.log10() } else { y };
     let mut xs: Vec<f64> = Vec::new();
     let mut ys: Vec<f64> = Vec::new();
@@ -402,7 +445,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
     let pad = 0.05 * (y1 - y0);
     let (y0, y1) = (y0 - pad, y1 + pad);
     let pw = W - ML - MR - if p.colorbar.is_some() { 70.0 } else { 0.0 };
-    let ph = H - MT - MB;
+    let ph = H - MT - MB - legend_height(p, W);
     let sx = |x: f64| ML + (x - x0) / (x1 - x0) * pw;
     let sy = |y: f64| MT + (1.0 - (y - y0) / (y1 - y0)) * ph;
     let _ = writeln!(
@@ -447,7 +490,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         out,
         "<text class=\"xlabel\" x=\"{}\" y=\"{}\" text-anchor=\"middle\">{}</text>",
         ML + pw / 2.0,
-        H - 12.0,
+        H - legend_height(p, W) - 12.0,
         rich(&p.x_label, 12.0)
     );
     let _ = writeln!(
@@ -462,8 +505,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         "<clipPath id=\"clip{}\"><rect x=\"{ML}\" y=\"{MT}\" width=\"{pw}\" height=\"{ph}\"/></clipPath>",
         index
     );
-    let mut region_boxes: Vec<(Rect, &Region)> = Vec::new();
-    for (i, g) in p.regions.iter().enumerate() {
+    for g in &p.regions {
         let cx = |x: f64| sx(x.clamp(x0, x1));
         let cy = |y: f64| {
             let t = ty(y);
@@ -478,7 +520,6 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         if xb <= xa || yb <= ya {
             continue;
         }
-        let _ = i;
         let _ = writeln!(
             out,
             "<rect class=\"region\" x=\"{xa:.2}\" y=\"{ya:.2}\" width=\"{:.2}\" height=\"{:.2}\" fill=\"{}\" fill-opacity=\"{}\"/>",
@@ -487,15 +528,6 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
             g.color,
             g.opacity,
         );
-        region_boxes.push((
-            Rect {
-                x: xa,
-                y: ya,
-                w: xb - xa,
-                h: yb - ya,
-            },
-            g,
-        ));
     }
     for s in &p.series {
         let mut d = String::new();
@@ -540,7 +572,6 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         .filter(|m| m.x.is_finite() && ty(m.y).is_finite())
         .map(|m| (sx(m.x), sy(ty(m.y))))
         .collect();
-    let legend_rows = if p.series.len() > 1 { p.series.len() } else { 0 };
     let ndots = dots.len();
     let mut taken: Vec<Rect> = dots
         .iter()
@@ -551,44 +582,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
             h: 8.0,
         })
         .collect();
-    if legend_rows > 0 {
-        let w = p.series.iter().map(|s| text_width(&s.name, 12.0)).fold(0.0, f64::max) + 30.0;
-        taken.push(Rect {
-            x: ML + pw - w - 4.0,
-            y: MT,
-            w: w + 4.0,
-            h: 8.0 + 14.0 * legend_rows as f64,
-        });
-    }
     let mut placed: Vec<Rect> = Vec::new();
-    for (r, g) in &region_boxes {
-        // Inside its region, near its top left, off the curves and the other labels.
-        let (w, h) = (text_width(&g.label, 10.0), 12.5);
-        let mut cands = Vec::new();
-        let mut top = r.y + 2.0;
-        while top + h <= r.y + r.h {
-            let mut left = r.x + 3.0;
-            while left + w <= r.x + r.w {
-                cands.push(Rect { x: left, y: top, w, h });
-                left += 8.0;
-            }
-            top += 4.0;
-        }
-        if cands.is_empty() {
-            continue;
-        }
-        let b = choose_label(&cands, &taken, ndots, &bounds, &curve);
-        taken.push(b);
-        placed.push(b);
-        let _ = writeln!(
-            out,
-            "<text class=\"label\" x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
-            b.x,
-            b.y + 9.5,
-            g.color,
-            rich(&g.label, 10.0)
-        );
-    }
     for v in &p.vlines {
         if !(v.x >= x0 && v.x <= x1) {
             continue;
@@ -634,7 +628,7 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
         let (ax, ay) = (sx(m.x), sy(y));
         let _ = writeln!(
             out,
-            "<circle class=\"marker\" cx=\"{ax:.2}\" cy=\"{ay:.2}\" r=\"3.5\" fill=\"{}\"/>",
+            "<circle class=\"marker\" cx=\"{ax:.2}\" cy=\"{ay:.2}\" r=\"2.6\" fill=\"{}\"/>",
             m.color,
         );
         if m.label.is_empty() {
@@ -681,22 +675,47 @@ fn panel(out: &mut String, p: &Panel, index: usize) -> Vec<Rect> {
     if let Some(cb) = &p.colorbar {
         colorbar(out, cb, ML + pw + 14.0, MT, ph, index);
     }
-    // legend (only when there is more than one line to tell apart)
-    for (i, s) in p.series.iter().enumerate().filter(|_| legend_rows > 0) {
-        let w = p.series.iter().map(|s| text_width(&s.name, 12.0)).fold(0.0, f64::max);
-        let y = MT + 14.0 + 14.0 * i as f64;
-        // The sample is drawn as the line is: same colour, width and dashes.
-        let dash = if s.dashed { " stroke-dasharray=\"6,4\"" } else { "" };
-        let _ = writeln!(
-            out,
-            "<line x1=\"{:.2}\" y1=\"{y}\" x2=\"{:.2}\" y2=\"{y}\" stroke=\"{}\" stroke-width=\"1.6\"{dash}/><text class=\"legend\" x=\"{:.2}\" y=\"{}\">{}</text>",
-            ML + pw - w - 30.0,
-            ML + pw - w - 10.0,
-            s.color,
-            ML + pw - w - 5.0,
-            y + 4.0,
-            rich(&s.name, 12.0)
-        );
+    // The legend, below the axes where it covers nothing: the lines (where there are several
+    // to tell apart), each sample drawn as its line is, and the shaded regions as swatches.
+    let lx0 = ML;
+    for (x, y, e) in legend_layout(p, W) {
+        let y = H - legend_height(p, W) + 6.0 + y;
+        let x = lx0 + x;
+        match e {
+            Entry::Line(s) => {
+                let dash = if s.dashed { " stroke-dasharray=\"6,4\"" } else { "" };
+                let _ = writeln!(
+                    out,
+                    "<line x1=\"{x:.2}\" y1=\"{:.2}\" x2=\"{:.2}\" y2=\"{:.2}\" stroke=\"{}\" stroke-width=\"1.6\"{dash}/>",
+                    y - 3.5,
+                    x + 20.0,
+                    y - 3.5,
+                    s.color
+                );
+                let _ = writeln!(
+                    out,
+                    "<text class=\"legend\" x=\"{:.2}\" y=\"{y:.2}\" font-size=\"10\">{}</text>",
+                    x + 24.0,
+                    rich(&s.name, 10.0)
+                );
+            }
+            Entry::Swatch(g) => {
+                let _ = writeln!(
+                    out,
+                    "<rect x=\"{x:.2}\" y=\"{:.2}\" width=\"20\" height=\"8\" fill=\"{}\" fill-opacity=\"{}\" stroke=\"{}\" stroke-width=\"0.5\"/>",
+                    y - 7.5,
+                    g.color,
+                    (g.opacity * 2.0).min(1.0),
+                    g.color
+                );
+                let _ = writeln!(
+                    out,
+                    "<text class=\"legend\" x=\"{:.2}\" y=\"{y:.2}\" font-size=\"10\">{}</text>",
+                    x + 24.0,
+                    rich(&g.label, 10.0)
+                );
+            }
+        }
     }
     placed
 }
@@ -766,6 +785,45 @@ fn colorbar(out: &mut String, cb: &ColorBar, x: f64, top: f64, h: f64, index: us
         top + h / 2.0,
         rich(&cb.label, 12.0)
     );
+}
+
+/// One entry of a legend.
+enum Entry<'a> {
+    Line(&'a Series),
+    Swatch(&'a Region),
+}
+
+/// The legend's entries at (x, baseline y) relative to its top left, in rows that fit the panel.
+#[allow(non_snake_case)]
+fn legend_layout(p: &Panel, W: f64) -> Vec<(f64, f64, Entry<'_>)> {
+    let mut entries: Vec<Entry> = Vec::new();
+    if p.series.len() > 1 {
+        entries.extend(p.series.iter().map(Entry::Line));
+    }
+    entries.extend(p.regions.iter().filter(|g| !g.label.is_empty()).map(Entry::Swatch));
+    let room = W - ML - MR;
+    let (mut x, mut y) = (0.0, 10.0);
+    let mut out = Vec::new();
+    for e in entries {
+        let label = match &e {
+            Entry::Line(s) => &s.name,
+            Entry::Swatch(g) => &g.label,
+        };
+        let w = 24.0 + text_width(label, 10.0) + 10.0;
+        if x > 0.0 && x + w > room {
+            x = 0.0;
+            y += 13.0;
+        }
+        out.push((x, y, e));
+        x += w;
+    }
+    out
+}
+
+/// The height the legend takes below the axes (0 without one).
+#[allow(non_snake_case)]
+fn legend_height(p: &Panel, W: f64) -> f64 {
+    legend_layout(p, W).last().map_or(0.0, |(_, y, _)| y + 8.0)
 }
 
 /// A box in figure coordinates (y down, `y` its top).
@@ -891,6 +949,23 @@ mod tests {
     }
 
     #[test]
+    fn figure_widths_in_points() {
+        assert!((parse_figure_width("single").unwrap() - 243.78).abs() < 0.01);
+        assert!((parse_figure_width("double").unwrap() - 504.57).abs() < 0.01);
+        assert!((parse_figure_width("12").unwrap() - 340.16).abs() < 0.01);
+        for bad in ["0", "-3", "wide", "nan", "1e9"] {
+            assert!(parse_figure_width(bad).is_err(), "{bad}");
+        }
+        let p = Panel::default();
+        let one = render("t", &[p.clone(), p.clone()], SINGLE_COLUMN_PT);
+        let two = render("t", &[p.clone(), p], DOUBLE_COLUMN_PT);
+        assert!(one.contains("width=\"243.78pt\"") && two.contains("width=\"504.57pt\""));
+        // One column stacks the two panels; two columns put them side by side.
+        assert_eq!(one.matches("class=\"panel\" transform=\"translate(0.00,").count(), 2);
+        assert_eq!(two.matches(",24.00)\">").count(), 2);
+    }
+
+    #[test]
     fn labels_never_overlap() {
         // Three labelled points almost on top of each other at the corner by a pole line, two
         // more lines beside it, and a curve through them: the case of the pivot points.
@@ -925,11 +1000,11 @@ mod tests {
             });
         }
         let mut out = String::new();
-        let boxes = panel(&mut out, &p, 0);
+        let boxes = panel(&mut out, &p, 0, TEST_W, TEST_H);
         assert_eq!(boxes.len(), 9);
         for (i, a) in boxes.iter().enumerate() {
             assert!(
-                a.x >= ML && a.x + a.w <= W - MR && a.y >= MT && a.y + a.h <= H - MB,
+                a.x >= ML && a.x + a.w <= TEST_W - MR && a.y >= MT && a.y + a.h <= TEST_H - MB,
                 "{a:?} outside the axes"
             );
             for b in &boxes[i + 1..] {

@@ -371,7 +371,7 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, String> {
 /// The n_s–r plane (log r), with the data's n_s bands (1 and 2 sigma) and r limit drawn as
 /// regions; one curve per N_* (and per value of a second parameter), markers coloured by the
 /// first parameter's value.
-pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> String {
+pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet, width_pt: f64) -> String {
     let ok: Vec<(&ScanRow, &Prediction)> = rows
         .iter()
         .filter_map(|r| r.result.as_ref().ok().map(|p| (r, p)))
@@ -482,7 +482,7 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> S
         regions,
         ..Panel::default()
     };
-    crate::plot::render(title, &[panel])
+    crate::plot::render(title, &[panel], width_pt)
 }
 
 /// Blue to yellow.

@@ -142,6 +142,12 @@ fn pdf_beside_svg_embeds_its_fonts() {
     assert!(pdf_streams(&bytes)
         .iter()
         .any(|s| s.windows(3).any(|w| w == b"Tj\n" || w == b"TJ\n")));
+    // A bad width is an error, exit code 2, and no file.
+    let wide = dir.join("wide.pdf");
+    let r = efold(&["predict", &m, "--pdf", wide.to_str().unwrap(), "--figure-width", "wide"]);
+    assert_eq!(r.code, 2);
+    assert!(r.stderr.contains("not a figure width"), "{}", r.stderr);
+    assert!(!wide.exists());
     // A failed write leaves nothing behind and exits with 2.
     let bad = dir.join("no-such-dir").join("p.pdf");
     let r = efold(&["predict", &m, "--pdf", bad.to_str().unwrap()]);
