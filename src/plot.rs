@@ -823,7 +823,7 @@ fn legend_layout(p: &Panel, W: f64) -> Vec<(f64, f64, Entry<'_>)> {
 /// The height the legend takes below the axes (0 without one).
 #[allow(non_snake_case)]
 fn legend_height(p: &Panel, W: f64) -> f64 {
-    legend_layout(p, W).last().map_or(0.0, |(_, y, _)| y + 8.0)
+    legend_layout(p, W).last().map_or(0.0, |(_, y, _)| y + 14.0)
 }
 
 /// A box in figure coordinates (y down, `y` its top).
