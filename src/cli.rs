@@ -155,6 +155,12 @@ pub struct ScanArgs {
     /// Write the n_s-r figure to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub pdf: Option<std::path::PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    pub figure_width: f64,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
     pub data: Option<std::path::PathBuf>,
@@ -216,6 +222,12 @@ pub struct SpectrumArgs {
     /// Write a figure of both spectra, with the slow-roll estimate, to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub pdf: Option<std::path::PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    pub figure_width: f64,
 }
 
 /// Output formats of `spectrum`.
@@ -302,6 +314,12 @@ pub struct PredictArgs {
     /// Write a figure of V with the end of inflation and the pivot points to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub pdf: Option<std::path::PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    pub figure_width: f64,
 }
 
 /// The model: a TOML file, or given inline; flags override the file.
@@ -342,6 +360,12 @@ pub struct InspectArgs {
     /// Write a figure of V against the field and against chi to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<std::path::PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub pdf: Option<std::path::PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    pub figure_width: f64,
 }
 
 /// Output formats.
@@ -902,15 +926,43 @@ fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failu
     crate::output::write_file(path, contents).map_err(|e| cannot_write(path, e))
 }
 
+/// Writes a figure as SVG and/or PDF, each atomically; the PDF is made in memory first, so a
+/// failed conversion leaves no file.
+fn write_figure(
+    svg_path: &Option<std::path::PathBuf>,
+    pdf_path: &Option<std::path::PathBuf>,
+    svg: &str,
+) -> Result<(), Failure> {
+    if let (Some(s), Some(p)) = (svg_path, pdf_path) {
+        if crate::output::same_destination(s, p) {
+            return Err(Diagnostic::new(format!(
+                "--svg `{}` and --pdf `{}` are one file: one figure would overwrite the other",
+                s.display(),
+                p.display()
+            ))
+            .with_hint("give the SVG and the PDF different files")
+            .into());
+        }
+    }
+    if let Some(path) = svg_path {
+        write_output_file(path, svg)?;
+    }
+    if let Some(path) = pdf_path {
+        let pdf = crate::plot::to_pdf(svg).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+        crate::output::write_file(path, pdf).map_err(|e| cannot_write(path, e))?;
+    }
+    Ok(())
+}
+
 fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
     if let Some(rows) = a.table {
         check_count("--table", rows, config.limits.max_table_rows, "max_table_rows")?;
     }
     let model = load_model(&a.model, "efold inspect models/pole-order-2-quadratic.toml", config)?;
     let ins = crate::inspect::inspect(&model, config, a.table)?;
-    if let Some(path) = &a.svg {
-        let svg = crate::inspect::figure(&model, &ins, &Default::default(), config)?;
-        write_output_file(path, &svg)?;
+    if a.svg.is_some() || a.pdf.is_some() {
+        let svg = crate::inspect::figure(&model, &ins, &Default::default(), config, a.figure_width)?;
+        write_figure(&a.svg, &a.pdf, &svg)?;
     }
     Ok(match a.format {
         Format::Json => format!("{}\n", serde_json::to_string_pretty(&ins).expect("serialisable report")),
@@ -1194,7 +1246,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
             ));
         }
     }
-    if let Some(path) = &a.svg {
+    if a.svg.is_some() || a.pdf.is_some() {
         let ins = crate::inspect::inspect(&model, config, None)?;
         let mut marks = crate::inspect::FigureMarks::default();
         if let Some(p) = rep.predictions.first() {
@@ -1203,10 +1255,10 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         for p in &rep.predictions {
             marks
                 .points
-                .push((p.phi_star, format!("N={}", crate::numfmt::typed(p.n_star))));
+                .push((p.phi_star, format!("$N$ = {}", crate::numfmt::typed(p.n_star))));
         }
-        let svg = crate::inspect::figure(&model, &ins, &marks, config)?;
-        write_output_file(path, &svg)?;
+        let svg = crate::inspect::figure(&model, &ins, &marks, config, a.figure_width)?;
+        write_figure(&a.svg, &a.pdf, &svg)?;
     }
     Ok(match a.format {
         TableFormat::Json => format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable report")),
@@ -1277,8 +1329,12 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         .map(|i| (a.k_min.ln() + (k_max.ln() - a.k_min.ln()) * i as f64 / (n - 1) as f64).exp())
         .collect();
     let sp = crate::exact::spectrum(&model, &run, a.efolds, &ks, data.a_s(), k_star, &settings)?;
-    if let Some(path) = &a.svg {
-        write_output_file(path, &crate::exact::figure(&sp, &model.spec.name))?;
+    if a.svg.is_some() || a.pdf.is_some() {
+        write_figure(
+            &a.svg,
+            &a.pdf,
+            &crate::exact::figure(&sp, &model.spec.name, a.figure_width),
+        )?;
     }
     Ok(match a.format {
         SpectrumFormat::Json => {
@@ -1349,10 +1405,13 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     } else {
         check_efolds_values("--efolds", &n_stars)?;
     }
-    if let (Some(out), Some(svg)) = (&a.out, &a.svg) {
+    for fig in [&a.svg, &a.pdf] {
+        let (Some(out), Some(svg)) = (&a.out, fig) else {
+            continue;
+        };
         if crate::output::same_destination(out, svg) {
             return Err(Diagnostic::new(format!(
-                "--out `{}` and --svg `{}` are one file: the figure would overwrite the table",
+                "--out `{}` and the figure `{}` are one file: the figure would overwrite the table",
                 out.display(),
                 svg.display()
             ))
@@ -1391,7 +1450,7 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     crate::scan::run_chunks(&spec, &axes, &n_stars, &data, shard, config, progress, &mut |rows| {
         rows_done += rows.len();
         failed += rows.iter().filter(|r| r.result.is_err()).count();
-        if a.svg.is_some() {
+        if a.svg.is_some() || a.pdf.is_some() {
             kept.extend_from_slice(rows);
         }
         emit(&table.rows(rows))
@@ -1402,8 +1461,12 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
             "efold: warning: {failed} of {rows_done} rows failed; they keep their row with the error\n"
         ));
     }
-    if let Some(path) = &a.svg {
-        write_output_file(path, &crate::scan::figure(&spec.name, &axes, &kept, &data))?;
+    if a.svg.is_some() || a.pdf.is_some() {
+        write_figure(
+            &a.svg,
+            &a.pdf,
+            &crate::scan::figure(&spec.name, &axes, &kept, &data, a.figure_width),
+        )?;
     }
     if let (Some(f), Some(path)) = (file, &a.out) {
         f.commit().map_err(|e| cannot_write(path, e))?;

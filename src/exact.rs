@@ -820,29 +820,29 @@ pub fn csv(sp: &Spectrum) -> String {
 }
 
 /// Both spectra against log10 k, with the slow-roll estimate dashed.
-pub fn figure(sp: &Spectrum, name: &str) -> String {
+pub fn figure(sp: &Spectrum, name: &str, width_pt: f64) -> String {
     use crate::plot::{Panel, Series};
     let pts = |g: &dyn Fn(&SpectrumRow) -> f64| sp.rows.iter().map(|r| (r.k_mpc.log10(), g(r))).collect::<Vec<_>>();
     let panel = Panel {
         title: "power spectra".into(),
-        x_label: "log10 k [Mpc^-1]".into(),
-        y_label: "P".into(),
+        x_label: "log_{10} $k$ [Mpc^{-1}]".into(),
+        y_label: "$P$".into(),
         log_y: true,
         series: vec![
             Series {
-                name: "P_zeta".into(),
+                name: "$P$_$\\zeta$".into(),
                 points: pts(&|r| r.p_zeta),
                 color: "#1f5fa8".into(),
                 dashed: false,
             },
             Series {
-                name: "P_t".into(),
+                name: "$P$_t".into(),
                 points: pts(&|r| r.p_t),
                 color: "#b03030".into(),
                 dashed: false,
             },
             Series {
-                name: "slow roll".into(),
+                name: "$P$_$\\zeta$, slow roll".into(),
                 points: pts(&|r| r.p_zeta_slow_roll),
                 color: "#555555".into(),
                 dashed: true,
@@ -850,7 +850,7 @@ pub fn figure(sp: &Spectrum, name: &str) -> String {
         ],
         ..Panel::default()
     };
-    crate::plot::render(name, &[panel])
+    crate::plot::render(name, &[panel], width_pt)
 }
 
 /// A start given by the user must lie inside the domain (beyond a pole of K, or where K <= 0

@@ -545,7 +545,13 @@ pub struct FigureMarks {
 }
 
 /// The figure: V against phi, and V against chi, with poles, the minimum and `marks`.
-pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Config) -> Result<String, AnalysisError> {
+pub fn figure(
+    model: &Model,
+    ins: &Inspection,
+    marks: &FigureMarks,
+    config: &Config,
+    width_pt: f64,
+) -> Result<String, AnalysisError> {
     let iv = &ins.domain.interval;
     let (a, b) = plot_window(model, iv, ins.chi_origin);
     let n = 400;
@@ -569,9 +575,9 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
     }
     let f = &ins.model.field;
     let mut left = Panel {
-        title: format!("V({f})"),
-        x_label: f.clone(),
-        y_label: "V".into(),
+        title: format!("$V$({})", plot::symbol(f)),
+        x_label: plot::symbol(f),
+        y_label: "$V$ [$M$_p^4]".into(),
         series: vec![Series {
             name: "V".into(),
             points: vs_phi,
@@ -581,9 +587,9 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
         ..Panel::default()
     };
     let mut right = Panel {
-        title: "V(chi), canonical field".into(),
-        x_label: "chi".into(),
-        y_label: "V".into(),
+        title: "$V$($\\chi$), canonical field".into(),
+        x_label: "$\\chi$ [$M$_p]".into(),
+        y_label: "$V$ [$M$_p^4]".into(),
         series: vec![Series {
             name: "V".into(),
             points: vs_chi,
@@ -595,7 +601,7 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
     for p in &ins.poles {
         left.vlines.push(VLine {
             x: p.phi,
-            label: format!("pole p={}", fmt(p.order)),
+            label: format!("pole, $p$ = {}", fmt(p.order)),
             color: "#b03030".into(),
         });
     }
@@ -634,7 +640,7 @@ pub fn figure(model: &Model, ins: &Inspection, marks: &FigureMarks, config: &Con
     } else {
         ins.model.name.clone()
     };
-    Ok(plot::render(&title, &[left, right]))
+    Ok(plot::render(&title, &[left, right], width_pt))
 }
 
 #[cfg(test)]

@@ -143,8 +143,13 @@ impl OutputFile {
 
     /// Appends `text`.
     pub fn write(&mut self, text: &str) -> std::io::Result<()> {
+        self.write_bytes(text.as_bytes())
+    }
+
+    /// Writes bytes (a PDF) to the file.
+    pub fn write_bytes(&mut self, bytes: &[u8]) -> std::io::Result<()> {
         match &mut self.file {
-            Some(f) => f.write_all(text.as_bytes()),
+            Some(f) => f.write_all(bytes),
             None => Err(std::io::Error::other("the file is already closed")),
         }
     }
@@ -179,9 +184,9 @@ impl Drop for OutputFile {
 
 /// Writes a whole file as [`OutputFile`] does: atomically for a regular file (the target of a
 /// link), straight through for a device or a FIFO. On failure nothing is left behind.
-pub fn write_file(path: &Path, contents: &str) -> std::io::Result<()> {
+pub fn write_file(path: &Path, contents: impl AsRef<[u8]>) -> std::io::Result<()> {
     let mut f = OutputFile::create(path)?;
-    f.write(contents)?;
+    f.write_bytes(contents.as_ref())?;
     f.commit()
 }
 

@@ -779,7 +779,7 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, String> {
 /// The n_s–r plane (log r), with the data's n_s bands (1 and 2 sigma) and r limit drawn as
 /// regions; one curve per N_* (and per value of a second parameter), markers coloured by the
 /// first parameter's value.
-pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> String {
+pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet, width_pt: f64) -> String {
     let ok: Vec<(&ScanRow, &Prediction)> = rows
         .iter()
         .filter_map(|r| r.result.as_ref().ok().map(|p| (r, p)))
@@ -824,12 +824,12 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> S
                 continue;
             }
             let name = if s.is_nan() {
-                format!("N = {}", crate::numfmt::typed(n))
+                format!("$N$ = {}", crate::numfmt::typed(n))
             } else {
                 format!(
-                    "N = {}, {} = {}",
+                    "$N$ = {}, {} = {}",
                     crate::numfmt::typed(n),
-                    axes[1].name,
+                    crate::plot::symbol(&axes[1].name),
                     crate::numfmt::typed(s)
                 )
             };
@@ -857,34 +857,40 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet) -> S
             y: None,
             color: "#9ecae1".into(),
             opacity: 0.25,
-            label: "n_s 2 sigma".into(),
+            label: "$n$_s, 2$\\sigma$".into(),
         },
         Region {
             x: (m - s, m + s),
             y: None,
             color: "#3182bd".into(),
             opacity: 0.25,
-            label: "n_s 1 sigma".into(),
+            label: "$n$_s, 1$\\sigma$".into(),
         },
         Region {
             x: (f64::NEG_INFINITY, f64::INFINITY),
             y: Some((data.r.upper, f64::INFINITY)),
             color: "#de2d26".into(),
             opacity: 0.15,
-            label: format!("r > {} excluded", data.r.upper),
+            label: format!("$r$ > {} excluded", data.r.upper),
         },
     ];
     let panel = Panel {
-        title: format!("n_s and r, markers by {first} (blue low, yellow high)"),
-        x_label: "n_s".into(),
-        y_label: "r".into(),
+        colorbar: Some(crate::plot::ColorBar {
+            label: crate::plot::symbol(&first),
+            lo,
+            hi,
+            log: log_axis,
+            colors: (0..=8).map(|i| gradient(i as f64 / 8.0)).collect(),
+        }),
+        x_label: "$n$_s".into(),
+        y_label: "$r$".into(),
         log_y: true,
         series,
         markers,
         regions,
         ..Panel::default()
     };
-    crate::plot::render(title, &[panel])
+    crate::plot::render(title, &[panel], width_pt)
 }
 
 /// Blue to yellow.

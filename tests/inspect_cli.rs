@@ -69,11 +69,90 @@ fn figure_has_both_panels_and_markers() {
     // Structure, not pixels: two panels, axes, labels, the series, pole lines, the minimum.
     assert_eq!(text.matches("class=\"panel\"").count(), 2);
     assert_eq!(text.matches("class=\"axes\"").count(), 2);
-    assert!(text.contains(">V(phi)<") && text.contains(">V(chi), canonical field<"));
-    assert!(text.contains("class=\"xlabel\" ") && text.contains(">chi<"));
+    // Symbols as a reader sees them: V(φ), χ in italics, M_p^4 with a sub- and a superscript.
+    assert!(text.contains("<tspan font-style=\"italic\">V</tspan>(<tspan font-style=\"italic\">φ</tspan>)"));
+    assert!(text.contains("<tspan font-style=\"italic\">χ</tspan> [<tspan font-style=\"italic\">M</tspan><tspan dy=\"2.64\" font-size=\"8.4\">p</tspan>"));
+    assert!(text.contains("class=\"xlabel\" ") && text.contains("canonical field<"));
+    assert!(text.contains("font-family=\"'DejaVu Sans', Helvetica, Arial, sans-serif\""));
     assert_eq!(text.matches("class=\"series\"").count(), 2);
     assert_eq!(text.matches("class=\"vline\"").count(), 2);
     assert!(text.contains(">minimum<"));
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+/// The characters a PDF's fonts map to (the ToUnicode tables, written uncompressed).
+fn pdf_font_chars(pdf: &[u8]) -> std::collections::BTreeSet<char> {
+    let text = String::from_utf8_lossy(pdf);
+    let mut out = std::collections::BTreeSet::new();
+    for block in text.split("beginbfchar").skip(1) {
+        let block = block.split("endbfchar").next().unwrap();
+        for line in block.lines() {
+            let hex: Vec<&str> = line.split(['<', '>']).filter(|s| !s.trim().is_empty()).collect();
+            if let [_, uni] = hex[..] {
+                for k in (0..uni.len()).step_by(4) {
+                    let code = u32::from_str_radix(&uni[k..k + 4], 16).unwrap();
+                    out.extend(char::from_u32(code));
+                }
+            }
+        }
+    }
+    out
+}
+
+/// The decompressed streams of a PDF that are Flate-compressed.
+fn pdf_streams(pdf: &[u8]) -> Vec<Vec<u8>> {
+    let mut out = Vec::new();
+    let mut at = 0;
+    while let Some(i) = pdf[at..].windows(7).position(|w| w == b"stream\n") {
+        let start = at + i + 7;
+        let Some(len) = pdf[start..].windows(9).position(|w| w == b"endstream") else {
+            break;
+        };
+        if let Ok(d) = miniz_oxide::inflate::decompress_to_vec_zlib(&pdf[start..start + len]) {
+            out.push(d);
+        }
+        at = start + len;
+    }
+    out
+}
+
+#[test]
+fn pdf_beside_svg_embeds_its_fonts() {
+    let dir = std::env::temp_dir().join(format!("efold-pdf-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let pdf = dir.join("pole.pdf");
+    let m = format!("{}/models/pole-order-2-quadratic.toml", env!("CARGO_MANIFEST_DIR"));
+    let r = efold(&["predict", &m, "--pdf", pdf.to_str().unwrap()]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let bytes = std::fs::read(&pdf).unwrap();
+    assert!(bytes.starts_with(b"%PDF-"));
+    let text = String::from_utf8_lossy(&bytes);
+    assert!(text.contains("/FontFile2"), "no embedded font");
+    // The labels are text in the embedded fonts: every character of them has a glyph there.
+    let chars = pdf_font_chars(&bytes);
+    for label in ["V(φ)", "χ", "N = 55", "end", "minimum", "pole, p = 2", "M"] {
+        for c in label.chars().filter(|c| *c != ' ') {
+            assert!(
+                chars.contains(&c),
+                "{c:?} of {label:?} not in the PDF's fonts: {chars:?}"
+            );
+        }
+    }
+    // The page draws text with text operators (not outlines).
+    assert!(pdf_streams(&bytes)
+        .iter()
+        .any(|s| s.windows(3).any(|w| w == b"Tj\n" || w == b"TJ\n")));
+    // A bad width is an error, exit code 2, and no file.
+    let wide = dir.join("wide.pdf");
+    let r = efold(&["predict", &m, "--pdf", wide.to_str().unwrap(), "--figure-width", "wide"]);
+    assert_eq!(r.code, 2);
+    assert!(r.stderr.contains("not a figure width"), "{}", r.stderr);
+    assert!(!wide.exists());
+    // A failed write leaves nothing behind and exits with 2.
+    let bad = dir.join("no-such-dir").join("p.pdf");
+    let r = efold(&["predict", &m, "--pdf", bad.to_str().unwrap()]);
+    assert_eq!(r.code, 2);
+    assert!(r.stderr.contains("cannot write"), "{}", r.stderr);
     std::fs::remove_dir_all(&dir).unwrap();
 }
 

@@ -161,7 +161,8 @@ fn figure_marks_end_and_pivots() {
     ]);
     assert_eq!(r.code, 0, "{}", r.stderr);
     let text = std::fs::read_to_string(&svg).unwrap();
-    assert!(text.contains(">end<") && text.contains(">N=55<"));
+    assert!(text.contains(">end<"));
+    assert!(text.contains("<tspan font-style=\"italic\">N</tspan> = 55<"));
     std::fs::remove_dir_all(&dir).unwrap();
 }
 

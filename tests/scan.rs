@@ -158,6 +158,8 @@ fn csv_header_failed_points_and_figure() {
                 "class=\"region\"",
                 "class=\"series\"",
                 "class=\"legend\"",
+                "class=\"colorbar\"",
+                "class=\"cblabel\"",
             ]
             .iter()
             .find(|c| l.contains(**c))
@@ -165,7 +167,10 @@ fn csv_header_failed_points_and_figure() {
         })
         .collect();
     insta::assert_snapshot!("scan_svg_structure", structure.join("\n"));
-    assert!(text.contains(">n_s<") && text.contains(">r<"));
+    // n_s with its subscript, r in italics, and the colour bar labelled with the parameter.
+    assert!(text.contains("<tspan font-style=\"italic\">n</tspan><tspan dy=\"2.64\" font-size=\"8.4\">s</tspan>"));
+    assert!(text.contains("<tspan font-style=\"italic\">r</tspan>"));
+    assert!(text.contains("class=\"cblabel\"") && text.contains("<tspan font-style=\"italic\">p</tspan></text>"));
     std::fs::remove_dir_all(&dir).unwrap();
 }
 
