@@ -338,6 +338,14 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
                     if let Some(v) = crate::canonical::positive_minimum(&mut ev, &iv, bottom) {
                         warnings.push(crate::inspect::positive_minimum_warning(&field, bottom, v, &iv));
                     }
+                    let v = ev.eval(bottom);
+                    if v < 0.0 && v.is_finite() {
+                        warnings.push(format!(
+                            "V = {} < 0 where the field settles ({field} = {}): a vacuum of negative energy, which collapses rather than reheats",
+                            crate::numfmt::number(v),
+                            fmt(bottom)
+                        ));
+                    }
                 }
                 if order.len() > 1 && i != order[0] {
                     warnings.push(format!(

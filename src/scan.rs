@@ -31,8 +31,14 @@ impl Axis {
         let values = (0..count)
             .map(|i| {
                 let t = if count == 1 { 0.0 } else { i as f64 / (count - 1) as f64 };
-                if log {
-                    (lo.ln() + (hi.ln() - lo.ln()) * t).exp()
+                // The end points are the numbers asked for, exactly.
+                if i == 0 {
+                    lo
+                } else if i + 1 == count {
+                    hi
+                } else if log {
+                    // in decades, so that grid points on powers of ten come out exact
+                    10f64.powf(lo.log10() + (hi.log10() - lo.log10()) * t)
                 } else {
                     lo + (hi - lo) * t
                 }
@@ -906,6 +912,18 @@ fn gradient(t: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Grid end points are the numbers asked for, and a log grid over decades hits the powers
+    /// of ten exactly (0.1, 1, 10 print as typed).
+    #[test]
+    fn grid_points_come_out_as_asked() {
+        let a = Axis::new("a", 0.1, 10.0, 7, true).unwrap();
+        assert_eq!((a.values[0], a.values[3], a.values[6]), (0.1, 1.0, 10.0));
+        let b = Axis::new("b", 0.3, 0.7, 3, false).unwrap();
+        assert_eq!((b.values[0], b.values[2]), (0.3, 0.7));
+        let c = Axis::new("c", 0.01, 100.0, 5, true).unwrap();
+        assert_eq!(c.values, vec![0.01, 0.1, 1.0, 10.0, 100.0]);
+    }
 
     #[test]
     fn grids_and_shards() {

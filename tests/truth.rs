@@ -366,3 +366,23 @@ fn double_wells_keep_every_branch() {
         assert_eq!(run(&m, &[55.0]).branch.count, 4, "{v}");
     }
 }
+
+/// A branch that ends in a minimum where V < 0 (V = phi^2 - 1: V = -1 at phi = 0, common
+/// practice) is warned about: a vacuum of negative energy.
+#[test]
+fn a_negative_vacuum_is_warned() {
+    let m = Model::build(&ModelSpec::inline("phi^2 - 1", None), &Config::default()).unwrap();
+    let opts = Options {
+        n_stars: vec![50.0],
+        ..Default::default()
+    };
+    match predict(&m, &opts, &Config::default()) {
+        Ok(rep) => assert!(
+            rep.warnings.iter().any(|w| w.contains("< 0 where the field settles")),
+            "{:?}",
+            rep.warnings
+        ),
+        // or no prediction at all: never a silent one
+        Err(e) => assert!(!e.message.is_empty()),
+    }
+}
