@@ -926,6 +926,23 @@ fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failu
     crate::output::write_file(path, contents).map_err(|e| cannot_write(path, e))
 }
 
+/// Refuses two outputs that are one file (whatever the spelling): `what` names them, `why`
+/// says what would be lost.
+fn refuse_one_file(
+    a: &std::path::Path,
+    b: &std::path::Path,
+    what: String,
+    why: &str,
+    hint: &str,
+) -> Result<(), Failure> {
+    if crate::output::same_destination(a, b) {
+        return Err(Diagnostic::new(format!("{what} are one file: {why}"))
+            .with_hint(hint)
+            .into());
+    }
+    Ok(())
+}
+
 /// Writes a figure as SVG and/or PDF, each atomically; the PDF is made in memory first, so a
 /// failed conversion leaves no file.
 fn write_figure(
@@ -934,15 +951,13 @@ fn write_figure(
     svg: &str,
 ) -> Result<(), Failure> {
     if let (Some(s), Some(p)) = (svg_path, pdf_path) {
-        if crate::output::same_destination(s, p) {
-            return Err(Diagnostic::new(format!(
-                "--svg `{}` and --pdf `{}` are one file: one figure would overwrite the other",
-                s.display(),
-                p.display()
-            ))
-            .with_hint("give the SVG and the PDF different files")
-            .into());
-        }
+        refuse_one_file(
+            s,
+            p,
+            format!("--svg `{}` and --pdf `{}`", s.display(), p.display()),
+            "one figure would overwrite the other",
+            "give the SVG and the PDF different files",
+        )?;
     }
     if let Some(path) = svg_path {
         write_output_file(path, svg)?;
@@ -1409,15 +1424,13 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
         let (Some(out), Some(svg)) = (&a.out, fig) else {
             continue;
         };
-        if crate::output::same_destination(out, svg) {
-            return Err(Diagnostic::new(format!(
-                "--out `{}` and the figure `{}` are one file: the figure would overwrite the table",
-                out.display(),
-                svg.display()
-            ))
-            .with_hint("give the table and the figure different files")
-            .into());
-        }
+        refuse_one_file(
+            out,
+            svg,
+            format!("--out `{}` and the figure `{}`", out.display(), svg.display()),
+            "the figure would overwrite the table",
+            "give the table and the figure different files",
+        )?;
     }
     let provenance = shard.map(|s| {
         let range = s.range(total);

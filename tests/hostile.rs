@@ -4,7 +4,7 @@
 //! error texts are insta snapshots.
 
 mod common;
-use common::{efold, Run};
+use common::{efold, efold_in};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 
@@ -17,20 +17,6 @@ fn temp_dir(tag: &str) -> PathBuf {
     let _ = std::fs::remove_dir_all(&d);
     std::fs::create_dir_all(&d).unwrap();
     d
-}
-
-/// Runs efold in `dir`, so that file names in messages are the relative ones given.
-fn efold_in(dir: &Path, args: &[&str]) -> Run {
-    let out = Command::new(env!("CARGO_BIN_EXE_efold"))
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("the efold binary runs");
-    Run {
-        code: out.status.code().unwrap_or(-1),
-        stdout: String::from_utf8(out.stdout).expect("utf-8 output"),
-        stderr: String::from_utf8(out.stderr).expect("utf-8 errors"),
-    }
 }
 
 fn entries(dir: &Path) -> Vec<String> {

@@ -14,10 +14,17 @@ pub struct Run {
 
 /// Runs `efold` with these arguments.
 pub fn efold(args: &[&str]) -> Run {
-    let out = Command::new(env!("CARGO_BIN_EXE_efold"))
-        .args(args)
-        .output()
-        .expect("the efold binary runs");
+    run(Command::new(env!("CARGO_BIN_EXE_efold")).args(args))
+}
+
+/// Runs `efold` in `dir`, so that file names in messages are the relative ones given.
+#[allow(dead_code)]
+pub fn efold_in(dir: &std::path::Path, args: &[&str]) -> Run {
+    run(Command::new(env!("CARGO_BIN_EXE_efold")).args(args).current_dir(dir))
+}
+
+fn run(cmd: &mut Command) -> Run {
+    let out = cmd.output().expect("the efold binary runs");
     Run {
         code: out.status.code().unwrap_or(-1),
         stdout: String::from_utf8(out.stdout).expect("utf-8 output"),
