@@ -159,7 +159,7 @@ pub struct ScanArgs {
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
     /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width, allow_hyphen_values = true)]
     pub figure_width: f64,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
@@ -226,7 +226,7 @@ pub struct SpectrumArgs {
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
     /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width, allow_hyphen_values = true)]
     pub figure_width: f64,
 }
 
@@ -318,7 +318,7 @@ pub struct PredictArgs {
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
     /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width, allow_hyphen_values = true)]
     pub figure_width: f64,
 }
 
@@ -364,7 +364,7 @@ pub struct InspectArgs {
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
     /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width)]
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width, allow_hyphen_values = true)]
     pub figure_width: f64,
 }
 
