@@ -226,7 +226,7 @@ impl DataSet {
                 self.verdict.excluded_sigma,
                 &format!(
                     "must be larger than tension_sigma = {}",
-                    crate::numfmt::typed(self.verdict.tension_sigma)
+                    crate::report::numfmt::typed(self.verdict.tension_sigma)
                 ),
                 "a prediction is in tension beyond tension_sigma and excluded beyond excluded_sigma, e.g. 2 and 3",
             ));
@@ -302,7 +302,7 @@ fn bad_value(text: &str, table: &str, key: &str, x: f64, what: &str, hint: &str)
     let shown = if x.is_nan() {
         "nan".to_string()
     } else {
-        crate::numfmt::typed(x)
+        crate::report::numfmt::typed(x)
     };
     let mut d = Diagnostic::new(format!("bad data file: `{key}` in [{table}] {what}, not {shown}"));
     if let Some(span) = value_span(text, table, key) {

@@ -1,11 +1,22 @@
 //! efold: predictions of inflationary models from a potential V(phi) and a kinetic function
 //! K(phi), for L = 1/2 K(phi) (d phi)^2 - V(phi) in reduced Planck units (M_p = 1).
 //!
-//! The pipeline, one stage a module:
-//! [`syntax`] (text → spanned tree) → [`ir`] (hash-consed DAG, symbolic d/dphi) →
-//! [`tape`] (compiled evaluator: f64 at one point or in batches, and Taylor jets) →
-//! the commands in [`cli`].
-//! Errors of every stage become a [`diag::Diagnostic`], drawn by one renderer.
+//! The pipeline, one stage a folder:
+//!
+//! 1. [`language`]: text → [`syntax`] (spanned tree) → [`ir`] (hash-consed DAG, symbolic
+//!    derivatives) → [`tape`] (compiled evaluator: f64 at one point or in batches, and Taylor
+//!    jets).
+//! 2. [`model`]: a model file or flags → parameters, compiled V and K, the field's range.
+//! 3. [`analysis`]: typed results about a model (the single-field canonical map, poles and
+//!    branches, slow roll, the exact background and modes, reheating).
+//! 4. [`drivers`]: one command's result composed from analyses (predict, inspect, scan, fit,
+//!    golden).
+//! 5. [`report`]: numbers, text, figures and files (the one number formatter and the atomic
+//!    writer).
+//! 6. [`cli`]: arguments → drivers → reports; the binary is `cli::run` and an exit code.
+//!
+//! [`numerics`] (quadrature, roots, ODE) serves every stage; [`config`] holds every limit and
+//! tolerance; errors of every stage become a [`diag::Diagnostic`], drawn by one renderer.
 #![warn(missing_docs)]
 // Numerical recurrences read best with explicit indices (c[k] = sum a[j] b[k-j]).
 #![allow(clippy::needless_range_loop)]
@@ -15,25 +26,20 @@
 // parser runs).
 extern crate alloc;
 
-pub mod canonical;
+pub mod analysis;
 pub mod cli;
-pub mod compile;
 pub mod config;
 pub mod data;
 pub mod diag;
-pub mod exact;
-pub mod fit;
-pub mod golden;
-pub mod inspect;
-pub mod ir;
+pub mod drivers;
+pub mod language;
 pub mod model;
 pub mod numerics;
-pub mod numfmt;
-pub mod output;
-pub mod plot;
-pub mod predict;
-pub mod reheating;
-pub mod scan;
-pub mod slowroll;
-pub mod syntax;
-pub mod tape;
+pub mod report;
+
+// Short paths to the stages' modules, kept from the flat layout.
+pub use analysis::single::canonical;
+pub use analysis::{exact, reheating, slowroll};
+pub use drivers::{fit, golden, inspect, predict, scan};
+pub use language::{compile, ir, syntax, tape};
+pub use report::{numfmt, output, plot};

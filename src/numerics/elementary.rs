@@ -1,5 +1,5 @@
 //! exp and tanh written out in straight-line arithmetic, so that the batch evaluator
-//! ([`crate::tape::Evaluator::eval_batch`]) can run them over all its lanes at once: no table,
+//! ([`crate::language::tape::Evaluator::eval_batch`]) can run them over all its lanes at once: no table,
 //! no branch, no call into the platform's maths library. The single-point evaluator, the
 //! constant folder and the jets use the same functions, so every path gives the same bits.
 //!

@@ -133,7 +133,7 @@ pub fn gauss_kronrod(mut f: impl FnMut(f64) -> f64, a: f64, b: f64, tol: &Tolera
 
 /// [`gauss_kronrod`] with an integrand that takes the 15 nodes of a panel at once,
 /// `f(xs, ys)` writing `ys[i] = f(xs[i])`: for integrands evaluated in batches
-/// ([`crate::tape::Evaluator::eval_batch`]).
+/// ([`crate::language::tape::Evaluator::eval_batch`]).
 ///
 /// ```
 /// use efold::numerics::quad::{gauss_kronrod_batch, Tolerance};

@@ -6,13 +6,13 @@
 //! fitted in its logarithm (it stays positive, and scale-like parameters such as alpha move
 //! evenly); others linearly.
 
-use crate::canonical::AnalysisError;
+use crate::analysis::single::canonical::AnalysisError;
+use crate::analysis::slowroll::fail;
 use crate::config::Config;
 use crate::data::DataSet;
+use crate::drivers::predict::{predict, Options, Prediction};
 use crate::model::{Model, ModelSpec};
-use crate::numfmt;
-use crate::predict::{predict, Options, Prediction};
-use crate::slowroll::fail;
+use crate::report::numfmt;
 use indexmap::IndexMap;
 use nalgebra::{DMatrix, DVector};
 use serde::Serialize;

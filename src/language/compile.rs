@@ -13,9 +13,9 @@
 
 use crate::config::Limits;
 use crate::diag::{Diagnostic, Source};
-use crate::ir::{Graph, Id, NameError, Scope};
-use crate::syntax::{self, Expr, SyntaxError};
-use crate::tape::Tape;
+use crate::language::ir::{Graph, Id, NameError, Scope};
+use crate::language::syntax::{self, Expr, SyntaxError};
+use crate::language::tape::Tape;
 use std::fmt;
 
 /// A syntax or name error in one named expression, with the text it refers to.

@@ -2,14 +2,14 @@
 //! their leading-order predictions, the asymptotics of V(chi) at both ends, an optional table
 //! of (phi, chi, V), and a figure of V against phi and against chi.
 
-use crate::canonical::{
+use crate::analysis::single::canonical::{
     analyse_pole, asymptote, find_domain, minimum_of_v, negative_regions, positive_minimum, ser_f64, AnalysisError,
     Asymptote, CanonicalMap, Domain, EndKind, Pole,
 };
 use crate::config::Config;
 use crate::model::Model;
-use crate::numfmt;
-use crate::plot::{self, Marker, Panel, Series, VLine};
+use crate::report::numfmt;
+use crate::report::plot::{self, Marker, Panel, Series, VLine};
 use serde::Serialize;
 use std::fmt::Write as _;
 
@@ -239,7 +239,7 @@ pub fn numbers(ins: &Inspection) -> Vec<(String, f64)> {
 fn check_finite(ins: &Inspection, field: &str) -> Result<(), AnalysisError> {
     match numbers(ins).into_iter().find(|(_, x)| !x.is_finite()) {
         None => Ok(()),
-        Some((key, x)) => Err(crate::slowroll::fail(
+        Some((key, x)) => Err(crate::analysis::slowroll::fail(
             format!("{key} is not a finite number ({x})"),
             &[
                 &format!("V or K overflows or is not smooth enough there: check them, or give a --range for {field} that avoids it"),
@@ -250,7 +250,12 @@ fn check_finite(ins: &Inspection, field: &str) -> Result<(), AnalysisError> {
 
 /// The warning for a minimum of V above zero (at an end of the given range: the range cuts
 /// V off before it reaches its minimum).
-pub fn positive_minimum_warning(field: &str, phi: f64, v: f64, iv: &crate::canonical::Interval) -> String {
+pub fn positive_minimum_warning(
+    field: &str,
+    phi: f64,
+    v: f64,
+    iv: &crate::analysis::single::canonical::Interval,
+) -> String {
     if phi == iv.lo || phi == iv.hi {
         format!(
             "V = {} > 0 at the end of the given range ({field} = {}), where V is lowest: the range ends before V reaches a minimum, so after inflation the field would leave the range",
@@ -266,7 +271,7 @@ pub fn positive_minimum_warning(field: &str, phi: f64, v: f64, iv: &crate::canon
     }
 }
 
-fn default_origin(iv: &crate::canonical::Interval) -> f64 {
+fn default_origin(iv: &crate::analysis::single::canonical::Interval) -> f64 {
     match (iv.lo.is_finite(), iv.hi.is_finite()) {
         (true, true) => 0.5 * (iv.lo + iv.hi),
         (true, false) => iv.lo + iv.lo.abs().max(1.0),
@@ -277,7 +282,7 @@ fn default_origin(iv: &crate::canonical::Interval) -> f64 {
 
 /// The stretch of field space worth drawing: up to near a finite end, or outward from the
 /// origin until V levels off (plateau) or has grown by 10^4.
-pub fn plot_window(model: &Model, iv: &crate::canonical::Interval, origin: f64) -> (f64, f64) {
+pub fn plot_window(model: &Model, iv: &crate::analysis::single::canonical::Interval, origin: f64) -> (f64, f64) {
     let mut ev = model.evaluator();
     let mut ends = [iv.lo, iv.hi];
     for (i, dir) in [(0usize, -1.0), (1usize, 1.0)] {
@@ -307,7 +312,7 @@ pub fn plot_window(model: &Model, iv: &crate::canonical::Interval, origin: f64) 
 
 fn make_table(
     model: &Model,
-    iv: &crate::canonical::Interval,
+    iv: &crate::analysis::single::canonical::Interval,
     origin: f64,
     n: usize,
     config: &Config,

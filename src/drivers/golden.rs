@@ -9,8 +9,8 @@
 //! the input: its changes are named in the summary, not counted as drift.
 
 use crate::config::Config;
+use crate::drivers::predict::{predict, Options, Report};
 use crate::model::{Model, ModelSpec};
-use crate::predict::{predict, Options, Report};
 use std::path::{Path, PathBuf};
 
 /// The model files (`*.toml`) under `dir`, recursively, sorted.
@@ -87,9 +87,9 @@ pub enum Drift {
 }
 
 /// A number in shortest round-trip form: `1`, `1.01`, `0.0048`, `1.468e-10`
-/// ([`crate::numfmt::typed`]).
+/// ([`crate::report::numfmt::typed`]).
 pub fn number(x: f64) -> String {
-    crate::numfmt::typed(x)
+    crate::report::numfmt::typed(x)
 }
 
 /// A JSON value for people: numbers by [`number`], everything else as JSON.
@@ -121,9 +121,13 @@ impl std::fmt::Display for Drift {
                     ) {
                         (Some(x), Some(y)) => {
                             // Old and new as one row, with digits enough to see them differ.
-                            let cells = crate::numfmt::row(&[x, y], crate::numfmt::digits_to_resolve(x, y));
+                            let cells =
+                                crate::report::numfmt::row(&[x, y], crate::report::numfmt::digits_to_resolve(x, y));
                             let rel = if x != 0.0 {
-                                format!("  (relative {})", crate::numfmt::scientific(((y - x) / x).abs(), 2))
+                                format!(
+                                    "  (relative {})",
+                                    crate::report::numfmt::scientific(((y - x) / x).abs(), 2)
+                                )
                             } else {
                                 String::new()
                             };
@@ -777,7 +781,7 @@ mod tests {
                 assert!(nested(name).contains(&k.as_str()), "{name}.{k}");
             }
         }
-        let matching = crate::reheating::Matching {
+        let matching = crate::analysis::reheating::Matching {
             n_star: 0.0,
             n_reh: 0.0,
             t_reh_gev: 0.0,
@@ -785,7 +789,7 @@ mod tests {
             g_star: 0.0,
             rho_end_gev4: 0.0,
         };
-        let exact = crate::exact::ExactExtras {
+        let exact = crate::analysis::exact::ExactExtras {
             n_total: 0.0,
             phi_end_slow_roll: 0.0,
             phi_star_slow_roll: 0.0,

@@ -33,11 +33,11 @@
 //! # Ok::<(), efold::model::ModelError>(())
 //! ```
 
-use crate::compile::{lower_into, Compiled, ExprError};
 use crate::config::Config;
 use crate::diag::{closest, Diagnostic, Source, Span};
-use crate::ir::{Func, Graph, Scope};
-use crate::tape::{Evaluator, Tape};
+use crate::language::compile::{lower_into, Compiled, ExprError};
+use crate::language::ir::{Func, Graph, Scope};
+use crate::language::tape::{Evaluator, Tape};
 use indexmap::IndexMap;
 use serde::Deserialize;
 use std::fmt;
@@ -401,7 +401,7 @@ impl ModelSpec {
         };
         let raw_text = |v: &toml::Spanned<RawValue>, key: &str| -> Text {
             match v.get_ref() {
-                RawValue::Number(x) => Text::inline(&format!("{file}: {key}"), &crate::ir::format_number(*x)),
+                RawValue::Number(x) => Text::inline(&format!("{file}: {key}"), &crate::language::ir::format_number(*x)),
                 RawValue::Text(s) => origin_of(&toml::Spanned::new(v.span(), s.clone()), key),
             }
         };
@@ -927,7 +927,7 @@ impl ParamTable {
                 Ok(_) => unreachable!("an expression that fails over its own names fails over all of them"),
             }
         };
-        let Ok(ast) = crate::syntax::parse(text, limits) else {
+        let Ok(ast) = crate::language::syntax::parse(text, limits) else {
             return Err(full());
         };
         let mut used: Vec<usize> = Vec::new();
@@ -951,8 +951,12 @@ impl ParamTable {
 
 /// The table indices of the parameters an expression names, each once, in order of first use.
 /// The recursion is over a syntax tree whose height the parser has bounded.
-fn collect_params(e: &crate::syntax::Expr, index: &rustc_hash::FxHashMap<String, usize>, out: &mut Vec<usize>) {
-    use crate::syntax::ExprKind;
+fn collect_params(
+    e: &crate::language::syntax::Expr,
+    index: &rustc_hash::FxHashMap<String, usize>,
+    out: &mut Vec<usize>,
+) {
+    use crate::language::syntax::ExprKind;
     match &e.kind {
         ExprKind::Number(_) => {}
         ExprKind::Ident(name) => {

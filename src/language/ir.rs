@@ -22,8 +22,8 @@
 //! ```
 
 use crate::diag::{closest, Diagnostic, Span};
+use crate::language::syntax::{BinOp, Expr, ExprKind};
 use crate::numerics::elementary;
-use crate::syntax::{BinOp, Expr, ExprKind};
 use rustc_hash::FxHashMap as HashMap;
 use std::fmt;
 
@@ -728,7 +728,7 @@ impl Graph {
                 Node::Mul(a, b) => v(a) * v(b),
                 Node::Div(a, b) => v(a) / v(b),
                 Node::Neg(a) => -v(a),
-                Node::PowI(a, n) => crate::tape::powi(v(a), n),
+                Node::PowI(a, n) => crate::language::tape::powi(v(a), n),
                 Node::Pow(a, b) => v(a).powf(v(b)),
                 Node::Func(f, a) => f.apply(v(a)),
             };
@@ -948,7 +948,7 @@ mod tests {
     use super::*;
 
     use crate::config::Limits;
-    use crate::syntax::parse;
+    use crate::language::syntax::parse;
 
     fn lowered(src: &str) -> (Graph, Id) {
         let mut g = Graph::new(Scope::new("phi", &["alpha", "b"]));

@@ -96,7 +96,7 @@ impl Reheating {
             let t_max = (30.0 * rho_end / (PI * PI * g)).powf(0.25) * data.units.reduced_planck_mass_gev;
             return Err(MatchingError(format!(
                 "the reheating temperature is above the energy at the end of inflation: T_reh can be at most {} GeV",
-                crate::numfmt::number(t_max)
+                crate::report::numfmt::number(t_max)
             )));
         }
         let n_reh = (rho_end / rho_reh).ln() / (3.0 * (1.0 + w));

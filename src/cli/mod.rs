@@ -9,11 +9,11 @@
 //! | 2 | bad input (an expression, a flag, a file, a size beyond its limit, a value outside its
 //! range), an output that cannot be written, or a numerical failure |
 
-use crate::compile::{compile, lower_into, ExprError};
 use crate::config::Config;
 use crate::diag::Diagnostic;
-use crate::ir::{Graph, Scope};
-use crate::tape::MAX_ORDER;
+use crate::language::compile::{compile, lower_into, ExprError};
+use crate::language::ir::{Graph, Scope};
+use crate::language::tape::MAX_ORDER;
 use clap::{Parser, Subcommand, ValueEnum};
 use std::fmt::Write as _;
 use std::process::ExitCode;
@@ -159,7 +159,7 @@ pub struct ScanArgs {
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
     /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width, allow_hyphen_values = true)]
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
     pub figure_width: f64,
     /// A data file of constraints and constants [default: the built-in one].
     #[arg(long, value_name = "FILE")]
@@ -226,7 +226,7 @@ pub struct SpectrumArgs {
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
     /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width, allow_hyphen_values = true)]
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
     pub figure_width: f64,
 }
 
@@ -318,7 +318,7 @@ pub struct PredictArgs {
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
     /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width, allow_hyphen_values = true)]
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
     pub figure_width: f64,
 }
 
@@ -364,7 +364,7 @@ pub struct InspectArgs {
     #[arg(long, value_name = "FILE")]
     pub pdf: Option<std::path::PathBuf>,
     /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::plot::parse_figure_width, allow_hyphen_values = true)]
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
     pub figure_width: f64,
 }
 
@@ -481,8 +481,8 @@ impl From<crate::model::ModelError> for Failure {
     }
 }
 
-impl From<crate::canonical::AnalysisError> for Failure {
-    fn from(e: crate::canonical::AnalysisError) -> Failure {
+impl From<crate::analysis::single::canonical::AnalysisError> for Failure {
+    fn from(e: crate::analysis::single::canonical::AnalysisError) -> Failure {
         Failure::input(e.diagnostic().render(None))
     }
 }
@@ -493,25 +493,25 @@ impl From<Diagnostic> for Failure {
     }
 }
 
-impl From<crate::output::WriteError> for Failure {
-    fn from(e: crate::output::WriteError) -> Failure {
+impl From<crate::report::output::WriteError> for Failure {
+    fn from(e: crate::report::output::WriteError) -> Failure {
         match e {
             // The reader went away: stop quietly, as a filter does.
-            crate::output::WriteError::Closed => Failure {
+            crate::report::output::WriteError::Closed => Failure {
                 message: String::new(),
                 code: 0,
             },
-            crate::output::WriteError::Failed(m) => Diagnostic::new(m)
+            crate::report::output::WriteError::Failed(m) => Diagnostic::new(m)
                 .with_hint("check the disk or device standard output goes to")
                 .into(),
         }
     }
 }
 
-/// Writes `text` to standard output (through [`crate::output::stdout`], the one writer): a
+/// Writes `text` to standard output (through [`crate::report::output::stdout`], the one writer): a
 /// closed pipe becomes a quiet stop with exit code 0, any other failure an error, exit code 2.
 pub fn print_out(text: &str) -> Result<(), Failure> {
-    crate::output::stdout(text).map_err(Failure::from)
+    crate::report::output::stdout(text).map_err(Failure::from)
 }
 
 /// Runs the binary: parses the arguments, runs the command, prints, returns the exit code.
@@ -521,7 +521,7 @@ pub fn main() -> ExitCode {
         Ok(()) => ExitCode::SUCCESS,
         Err(f) => {
             if !f.message.is_empty() {
-                crate::output::stderr(&format!("efold: {}", f.message));
+                crate::report::output::stderr(&format!("efold: {}", f.message));
             }
             ExitCode::from(f.code())
         }
@@ -567,7 +567,7 @@ fn split_binding<'a>(flag: &str, text: &'a str) -> Result<(&'a str, &'a str), Fa
 
 /// Whether a name is the language's own: a function, `pow` or `pi`.
 fn is_reserved(name: &str) -> bool {
-    name == "pi" || name == "pow" || crate::ir::Func::from_name(name).is_some()
+    name == "pi" || name == "pow" || crate::language::ir::Func::from_name(name).is_some()
 }
 
 /// A name given with `flag` (in its value `text`) that the expression language reserves is
@@ -673,13 +673,13 @@ fn constant_expr(origin: &str, text: &str, scope: &Scope, params: &[f64], config
         .with_hint("a value may use numbers, `pi` and the parameters")
         .into());
     }
-    let tape = crate::tape::Tape::compile(&g, &[id]);
+    let tape = crate::language::tape::Tape::compile(&g, &[id]);
     let v = tape.evaluator(params).eval(0.0);
     if !v.is_finite() {
         return Err(Diagnostic::new(format!(
             "{origin}: `{}` is not a finite number ({})",
             text.trim(),
-            crate::numfmt::number(v)
+            crate::report::numfmt::number(v)
         ))
         .into());
     }
@@ -736,8 +736,8 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
         };
         let mut d = Diagnostic::new(format!(
             "{what} of the expression is {} at {field} = {}",
-            crate::numfmt::number(*v),
-            crate::numfmt::typed(x)
+            crate::report::numfmt::number(*v),
+            crate::report::numfmt::typed(x)
         ));
         if let Some((id, bad)) = c.graph.first_non_finite(c.roots[0], x, &values) {
             d = d.with_hint(format!("`{}` is {bad} there", c.graph.print(id)));
@@ -774,9 +774,9 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
             for w in &warnings {
                 let _ = writeln!(out, "warning: {w}");
             }
-            let _ = writeln!(out, "at {field} = {}", crate::numfmt::typed(x));
+            let _ = writeln!(out, "at {field} = {}", crate::report::numfmt::typed(x));
             // The value and its derivatives are one column: one style, decimal points aligned.
-            let cells = crate::numfmt::row(&derivs, EVAL_DIGITS);
+            let cells = crate::report::numfmt::row(&derivs, EVAL_DIGITS);
             for (k, v) in cells.iter().enumerate() {
                 let label = match k {
                     0 => "value".to_string(),
@@ -792,7 +792,7 @@ fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
 /// The names of `expr` that are neither the field, a declared parameter, a constant nor a
 /// function: `compile` shows them as symbolic parameters. A syntax error is left to `compile`.
 fn undeclared_names(expr: &str, field: &str, declared: &[String], config: &Config) -> Vec<String> {
-    let Ok(ast) = crate::syntax::parse(expr, &config.limits) else {
+    let Ok(ast) = crate::language::syntax::parse(expr, &config.limits) else {
         return Vec::new();
     };
     ast.names()
@@ -800,8 +800,8 @@ fn undeclared_names(expr: &str, field: &str, declared: &[String], config: &Confi
         .filter(|n| {
             *n != field
                 && !declared.iter().any(|d| d == n)
-                && !crate::ir::CONSTANTS.iter().any(|(c, _)| c == n)
-                && crate::ir::Func::from_name(n).is_none()
+                && !crate::language::ir::CONSTANTS.iter().any(|(c, _)| c == n)
+                && crate::language::ir::Func::from_name(n).is_none()
                 && *n != "pow"
         })
         .map(str::to_string)
@@ -923,7 +923,7 @@ fn cannot_write(path: &std::path::Path, e: std::io::Error) -> Failure {
 }
 
 fn write_output_file(path: &std::path::Path, contents: &str) -> Result<(), Failure> {
-    crate::output::write_file(path, contents).map_err(|e| cannot_write(path, e))
+    crate::report::output::write_file(path, contents).map_err(|e| cannot_write(path, e))
 }
 
 /// Refuses two outputs that are one file (whatever the spelling): `what` names them, `why`
@@ -935,7 +935,7 @@ fn refuse_one_file(
     why: &str,
     hint: &str,
 ) -> Result<(), Failure> {
-    if crate::output::same_destination(a, b) {
+    if crate::report::output::same_destination(a, b) {
         return Err(Diagnostic::new(format!("{what} are one file: {why}"))
             .with_hint(hint)
             .into());
@@ -963,8 +963,8 @@ fn write_figure(
         write_output_file(path, svg)?;
     }
     if let Some(path) = pdf_path {
-        let pdf = crate::plot::to_pdf(svg).map_err(|e| Failure::from(Diagnostic::new(e)))?;
-        crate::output::write_file(path, pdf).map_err(|e| cannot_write(path, e))?;
+        let pdf = crate::report::plot::to_pdf(svg).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+        crate::report::output::write_file(path, pdf).map_err(|e| cannot_write(path, e))?;
     }
     Ok(())
 }
@@ -974,14 +974,14 @@ fn inspect_cmd(a: &InspectArgs, config: &Config) -> Result<String, Failure> {
         check_count("--table", rows, config.limits.max_table_rows, "max_table_rows")?;
     }
     let model = load_model(&a.model, "efold inspect models/pole-order-2-quadratic.toml", config)?;
-    let ins = crate::inspect::inspect(&model, config, a.table)?;
+    let ins = crate::drivers::inspect::inspect(&model, config, a.table)?;
     if a.svg.is_some() || a.pdf.is_some() {
-        let svg = crate::inspect::figure(&model, &ins, &Default::default(), config, a.figure_width)?;
+        let svg = crate::drivers::inspect::figure(&model, &ins, &Default::default(), config, a.figure_width)?;
         write_figure(&a.svg, &a.pdf, &svg)?;
     }
     Ok(match a.format {
         Format::Json => format!("{}\n", serde_json::to_string_pretty(&ins).expect("serialisable report")),
-        Format::Text => crate::inspect::text(&ins),
+        Format::Text => crate::drivers::inspect::text(&ins),
     })
 }
 
@@ -1007,7 +1007,7 @@ fn check_range(flag: &str, v: f64, ok: impl Fn(f64) -> bool, range: &str, hint: 
     if v.is_finite() && ok(v) {
         return Ok(());
     }
-    let shown = crate::ir::format_number(v);
+    let shown = crate::language::ir::format_number(v);
     Err(bad_flag_value(flag, &shown, format!("{flag} {shown}: {range}"), hint))
 }
 
@@ -1029,7 +1029,7 @@ fn check_efolds_values(origin: &str, values: &[f64]) -> Result<(), Failure> {
     let Some(i) = values.iter().position(|v| !(v.is_finite() && *v >= MIN_EFOLDS)) else {
         return Ok(());
     };
-    let shown: Vec<String> = values.iter().map(|v| crate::ir::format_number(*v)).collect();
+    let shown: Vec<String> = values.iter().map(|v| crate::language::ir::format_number(*v)).collect();
     let start = shown[..i].iter().map(|s| s.len() + 1).sum::<usize>();
     let d = Diagnostic::new(format!(
         "N_* = {} in {origin}: the e-folds before the end of inflation must be a finite number, {MIN_EFOLDS} or more",
@@ -1176,8 +1176,8 @@ fn check_predict_flags(a: &PredictArgs) -> Result<(), Failure> {
 /// more, because aH grows at the rate 1 - eps_H, which falls to 0 over the last e-folds (with
 /// the defaults 14.31; every shipped model integrates at that N_*, the quartic monomial not
 /// below 13).
-fn min_exact_efolds(settings: &crate::exact::Settings) -> f64 {
-    (1.0 / settings.k_stop).ln() + 2.0 * crate::exact::TILT_STEP + 1.0 + 4.0
+fn min_exact_efolds(settings: &crate::analysis::exact::Settings) -> f64 {
+    (1.0 / settings.k_stop).ln() + 2.0 * crate::analysis::exact::TILT_STEP + 1.0 + 4.0
 }
 
 /// Whether N_* comes from `--efolds` or the model (not from reheating, which is checked
@@ -1186,8 +1186,8 @@ fn opts_fix_n_star(a: &PredictArgs) -> bool {
     a.reheat.is_none() && a.reheat_w.is_none()
 }
 
-fn reheating_from(a: &PredictArgs) -> Result<Option<crate::reheating::Reheating>, Failure> {
-    use crate::reheating::Reheating;
+fn reheating_from(a: &PredictArgs) -> Result<Option<crate::analysis::reheating::Reheating>, Failure> {
+    use crate::analysis::reheating::Reheating;
     let g_star = a.g_star.unwrap_or(DEFAULT_G_STAR);
     match (&a.reheat, a.reheat_w, a.reheat_temp, a.reheat_efolds) {
         (None, None, None, None) => Ok(None),
@@ -1224,7 +1224,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
     if a.efolds.is_empty() {
         check_efolds_values("the model's `efolds` setting", &n_stars)?;
     }
-    let exact = (a.method == Method::Exact).then(|| crate::exact::Settings {
+    let exact = (a.method == Method::Exact).then(|| crate::analysis::exact::Settings {
         start: a.start_phi.map(|p| (p, a.start_velocity)),
         ..Default::default()
     });
@@ -1243,7 +1243,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
             .into());
         }
     }
-    let opts = crate::predict::Options {
+    let opts = crate::drivers::predict::Options {
         n_stars,
         branch: a.branch,
         second_order: a.second_order,
@@ -1251,7 +1251,7 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         data,
         exact,
     };
-    let mut rep = crate::predict::predict(&model, &opts, config)?;
+    let mut rep = crate::drivers::predict::predict(&model, &opts, config)?;
     if a.method == Method::SlowRoll {
         let limit = crate::config::SLOW_ROLL_WARN_EFOLDS;
         if let Some(p) = rep.predictions.iter().find(|p| p.n_star < limit) {
@@ -1262,23 +1262,23 @@ fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
         }
     }
     if a.svg.is_some() || a.pdf.is_some() {
-        let ins = crate::inspect::inspect(&model, config, None)?;
-        let mut marks = crate::inspect::FigureMarks::default();
+        let ins = crate::drivers::inspect::inspect(&model, config, None)?;
+        let mut marks = crate::drivers::inspect::FigureMarks::default();
         if let Some(p) = rep.predictions.first() {
             marks.points.push((p.phi_end, "end".to_string()));
         }
         for p in &rep.predictions {
             marks
                 .points
-                .push((p.phi_star, format!("$N$ = {}", crate::numfmt::typed(p.n_star))));
+                .push((p.phi_star, format!("$N$ = {}", crate::report::numfmt::typed(p.n_star))));
         }
-        let svg = crate::inspect::figure(&model, &ins, &marks, config, a.figure_width)?;
+        let svg = crate::drivers::inspect::figure(&model, &ins, &marks, config, a.figure_width)?;
         write_figure(&a.svg, &a.pdf, &svg)?;
     }
     Ok(match a.format {
         TableFormat::Json => format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable report")),
-        TableFormat::Csv => crate::predict::csv(&rep),
-        TableFormat::Text => crate::predict::text(&rep),
+        TableFormat::Csv => crate::drivers::predict::csv(&rep),
+        TableFormat::Text => crate::drivers::predict::text(&rep),
     })
 }
 
@@ -1299,7 +1299,7 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
         Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
         None => crate::data::DataSet::builtin(),
     };
-    let settings = crate::exact::Settings {
+    let settings = crate::analysis::exact::Settings {
         start: a.start_phi.map(|p| (p, a.start_velocity)),
         ..Default::default()
     };
@@ -1321,46 +1321,46 @@ fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
     if k_max > k_limit {
         return Err(Diagnostic::new(format!(
             "--k-max {} Mpc^-1 exits too close to the end of inflation to freeze (at most {} for N_* = {})",
-            crate::numfmt::typed(k_max),
-            crate::numfmt::number(k_limit),
-            crate::numfmt::typed(a.efolds)
+            crate::report::numfmt::typed(k_max),
+            crate::report::numfmt::number(k_limit),
+            crate::report::numfmt::typed(a.efolds)
         ))
         .with_hint("lower --k-max, or raise --efolds")
         .into());
     }
     let needed = a.efolds + (k_star / a.k_min).ln().max(0.0) + settings.k_start.ln() + 4.0;
-    let mut phi_at = |n: f64| -> Result<f64, crate::canonical::AnalysisError> {
-        let opts = crate::predict::Options {
+    let mut phi_at = |n: f64| -> Result<f64, crate::analysis::single::canonical::AnalysisError> {
+        let opts = crate::drivers::predict::Options {
             n_stars: vec![n],
             branch: a.branch,
             data: data.clone(),
             ..Default::default()
         };
-        Ok(crate::predict::predict(&model, &opts, config)?.predictions[0].phi_star)
+        Ok(crate::drivers::predict::predict(&model, &opts, config)?.predictions[0].phi_star)
     };
-    let (_, run) = crate::exact::start_with_room(&model, needed, &settings, &mut phi_at)?;
+    let (_, run) = crate::analysis::exact::start_with_room(&model, needed, &settings, &mut phi_at)?;
     let n = a.points;
     let ks: Vec<f64> = (0..n)
         .map(|i| (a.k_min.ln() + (k_max.ln() - a.k_min.ln()) * i as f64 / (n - 1) as f64).exp())
         .collect();
-    let sp = crate::exact::spectrum(&model, &run, a.efolds, &ks, data.a_s(), k_star, &settings)?;
+    let sp = crate::analysis::exact::spectrum(&model, &run, a.efolds, &ks, data.a_s(), k_star, &settings)?;
     if a.svg.is_some() || a.pdf.is_some() {
         write_figure(
             &a.svg,
             &a.pdf,
-            &crate::exact::figure(&sp, &model.spec.name, a.figure_width),
+            &crate::analysis::exact::figure(&sp, &model.spec.name, a.figure_width),
         )?;
     }
     Ok(match a.format {
         SpectrumFormat::Json => {
             let obj = serde_json::json!({
-                "model": crate::inspect::ModelSummary::of(&model),
+                "model": crate::drivers::inspect::ModelSummary::of(&model),
                 "spectrum": sp,
             });
             format!("{}\n", serde_json::to_string_pretty(&obj).expect("serialisable"))
         }
-        SpectrumFormat::Csv => crate::exact::csv(&sp),
-        SpectrumFormat::Text => crate::exact::text(&sp, &model.spec.name),
+        SpectrumFormat::Csv => crate::analysis::exact::csv(&sp),
+        SpectrumFormat::Text => crate::analysis::exact::text(&sp, &model.spec.name),
     })
 }
 
@@ -1392,7 +1392,7 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     let axes = a
         .vary
         .iter()
-        .map(|v| crate::scan::Axis::parse(v, &spec, a.points, limit))
+        .map(|v| crate::drivers::scan::Axis::parse(v, &spec, a.points, limit))
         .collect::<Result<Vec<_>, _>>()
         .map_err(|e| {
             let hint = if e.contains("max_axis_points") {
@@ -1406,7 +1406,7 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     let shard = a
         .shard
         .as_deref()
-        .map(crate::scan::Shard::parse)
+        .map(crate::drivers::scan::Shard::parse)
         .transpose()
         .map_err(|e| Failure::from(Diagnostic::new(e)))?;
     let n_stars = if a.efolds.is_empty() {
@@ -1434,8 +1434,8 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     }
     let provenance = shard.map(|s| {
         let range = s.range(total);
-        crate::scan::Provenance {
-            scan: crate::scan::definition_id(&spec, &axes, &n_stars, &data),
+        crate::drivers::scan::Provenance {
+            scan: crate::drivers::scan::definition_id(&spec, &axes, &n_stars, &data),
             shard: s.k,
             shards: s.n,
             points: [range.start, range.end],
@@ -1444,9 +1444,9 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
         }
     });
     let names: Vec<String> = axes.iter().map(|x| x.name.clone()).collect();
-    let mut table = crate::scan::Table::new(a.format == ScanFormat::Json, provenance);
+    let mut table = crate::drivers::scan::Table::new(a.format == ScanFormat::Json, provenance);
     let mut file = match &a.out {
-        Some(path) => Some(crate::output::OutputFile::create(path).map_err(|e| cannot_write(path, e))?),
+        Some(path) => Some(crate::report::output::OutputFile::create(path).map_err(|e| cannot_write(path, e))?),
         None => None,
     };
     let mut emit = |text: &str| -> Result<(), Failure> {
@@ -1458,9 +1458,9 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     emit(&table.start(&names))?;
     let (mut rows_done, mut failed) = (0usize, 0usize);
     // The figure needs every row; the table alone is streamed chunk by chunk.
-    let mut kept: Vec<crate::scan::ScanRow> = Vec::new();
+    let mut kept: Vec<crate::drivers::scan::ScanRow> = Vec::new();
     let progress = std::io::stderr().is_terminal();
-    crate::scan::run_chunks(&spec, &axes, &n_stars, &data, shard, config, progress, &mut |rows| {
+    crate::drivers::scan::run_chunks(&spec, &axes, &n_stars, &data, shard, config, progress, &mut |rows| {
         rows_done += rows.len();
         failed += rows.iter().filter(|r| r.result.is_err()).count();
         if a.svg.is_some() || a.pdf.is_some() {
@@ -1470,7 +1470,7 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     })?;
     emit(&table.end())?;
     if failed > 0 {
-        crate::output::stderr(&format!(
+        crate::report::output::stderr(&format!(
             "efold: warning: {failed} of {rows_done} rows failed; they keep their row with the error\n"
         ));
     }
@@ -1478,7 +1478,7 @@ fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
         write_figure(
             &a.svg,
             &a.pdf,
-            &crate::scan::figure(&spec.name, &axes, &kept, &data, a.figure_width),
+            &crate::drivers::scan::figure(&spec.name, &axes, &kept, &data, a.figure_width),
         )?;
     }
     if let (Some(f), Some(path)) = (file, &a.out) {
@@ -1515,10 +1515,10 @@ fn check_vary_names(vary: &[String]) -> Result<(), Failure> {
 
 /// The grid's point count, refused above `Limits::max_scan_points` (and when the product of the
 /// axes overflows).
-fn check_grid_size(axes: &[crate::scan::Axis], config: &Config) -> Result<usize, Failure> {
+fn check_grid_size(axes: &[crate::drivers::scan::Axis], config: &Config) -> Result<usize, Failure> {
     let limit = config.limits.max_scan_points;
     let counts: Vec<String> = axes.iter().map(|a| a.values.len().to_string()).collect();
-    match crate::scan::total_points(axes) {
+    match crate::drivers::scan::total_points(axes) {
         Some(n) if n <= limit => Ok(n),
         n => Err(Diagnostic::new(format!(
             "the grid has {} points ({}); at most {limit} (config::Limits::max_scan_points)",
@@ -1581,7 +1581,7 @@ fn merge_cmd(a: &MergeArgs, config: &Config) -> Result<String, Failure> {
         let t = read_bounded(f, config.limits.max_shard_bytes)?;
         texts.push((f.display().to_string(), t));
     }
-    let merged = crate::scan::merge(&texts).map_err(|e| {
+    let merged = crate::drivers::scan::merge(&texts).map_err(|e| {
         Failure::from(
             Diagnostic::new(e)
                 .with_hint("give every file of one `efold scan --shard K/N` run, K = 1..N, each once, as written"),
@@ -1607,10 +1607,10 @@ fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
     let targets = a
         .targets
         .iter()
-        .map(|t| crate::fit::Target::parse(t))
+        .map(|t| crate::drivers::fit::Target::parse(t))
         .collect::<Result<Vec<_>, _>>()
         .map_err(|e| Failure::from(Diagnostic::new(e)))?;
-    let f = crate::fit::fit(
+    let f = crate::drivers::fit::fit(
         &model.spec,
         &a.free,
         &targets,
@@ -1621,12 +1621,12 @@ fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
     )?;
     Ok(match a.format {
         Format::Json => format!("{}\n", serde_json::to_string_pretty(&f).expect("serialisable")),
-        Format::Text => crate::fit::text(&f),
+        Format::Text => crate::drivers::fit::text(&f),
     })
 }
 
 fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
-    use crate::golden::{diff, golden_path, model_files, predict_file};
+    use crate::drivers::golden::{diff, golden_path, model_files, predict_file};
     use std::fmt::Write as _;
     let (dir, data) = match &a.action {
         GoldenAction::Write { dir, data } | GoldenAction::Check { dir, data, .. } => (dir, data),
@@ -1634,7 +1634,7 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
     if let GoldenAction::Check { tolerance, .. } = &a.action {
         check_tolerance(*tolerance)?;
     }
-    let base = crate::predict::Options {
+    let base = crate::drivers::predict::Options {
         data: load_data(data)?,
         ..Default::default()
     };
@@ -1696,7 +1696,7 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
                 return Err(Failure::drifted(format!(
                     "{drifted} of {} model(s) drifted beyond {}\n{out}",
                     files.len(),
-                    crate::numfmt::typed(*tolerance)
+                    crate::report::numfmt::typed(*tolerance)
                 )));
             }
             Ok(out)
@@ -1705,10 +1705,10 @@ fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
 }
 
 fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
-    use crate::golden::{diff, model_files, predict_file};
+    use crate::drivers::golden::{diff, model_files, predict_file};
     use notify::{RecursiveMode, Watcher};
     check_tolerance(a.tolerance)?;
-    let base = crate::predict::Options::default();
+    let base = crate::drivers::predict::Options::default();
     let files = || -> Result<Vec<std::path::PathBuf>, Failure> {
         if a.path.is_dir() {
             model_files(&a.path).map_err(|e| Failure::from(Diagnostic::new(e)))
@@ -1749,9 +1749,9 @@ fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
                         .map(|x| {
                             format!(
                                 "N_* = {}: n_s = {}, r = {}",
-                                crate::numfmt::typed(x["n_star"].as_f64().unwrap_or(f64::NAN)),
-                                crate::numfmt::number(x["n_s"].as_f64().unwrap_or(f64::NAN)),
-                                crate::numfmt::number(x["r"].as_f64().unwrap_or(f64::NAN))
+                                crate::report::numfmt::typed(x["n_star"].as_f64().unwrap_or(f64::NAN)),
+                                crate::report::numfmt::number(x["n_s"].as_f64().unwrap_or(f64::NAN)),
+                                crate::report::numfmt::number(x["r"].as_f64().unwrap_or(f64::NAN))
                             )
                         })
                         .collect();

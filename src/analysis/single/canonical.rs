@@ -4,11 +4,11 @@
 //! Units: reduced Planck units throughout (M_p = 1).
 
 use crate::config::Config;
+use crate::language::tape::{Evaluator, Jet, JET_LEN};
 use crate::model::{Model, OUT_DV, OUT_K, OUT_SQRT_K, OUT_V};
 use crate::numerics::quad::{gauss_kronrod_batch, tanh_sinh};
 use crate::numerics::roots::{brent, safeguarded_newton};
 use crate::numerics::{Estimate, NumericError};
-use crate::tape::{Evaluator, Jet, JET_LEN};
 use serde::Serialize;
 
 /// V and its first four derivatives with respect to chi, at a point: `[V, V_chi, V_chichi,
@@ -289,7 +289,7 @@ fn bisect_sign(mut g: impl FnMut(f64) -> f64, mut a: f64, mut b: f64) -> Option<
     Some(if a * b <= 0.0 { 0.0 } else { 0.5 * (a + b) })
 }
 
-/// sqrt(K) at up to [`crate::tape::BATCH`] points: the integrand of chi(phi).
+/// sqrt(K) at up to [`crate::language::tape::BATCH`] points: the integrand of chi(phi).
 fn sqrt_k_batch(ev: &mut Evaluator<'_>, xs: &[f64], out: &mut [f64]) {
     ev.eval_batch(xs);
     out[..xs.len()].copy_from_slice(ev.batch_output(OUT_SQRT_K));
@@ -557,7 +557,10 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
                 "K vanishes"
             };
             return Err(AnalysisError {
-                message: format!("{what} at {field} = {} inside the range", crate::numfmt::number(x)),
+                message: format!(
+                    "{what} at {field} = {} inside the range",
+                    crate::report::numfmt::number(x)
+                ),
                 hints: vec![
                     "the kinetic term must be positive and finite inside the range".to_string(),
                     "end the range at this point with --range, or leave it out to let efold find the domain"
@@ -1068,7 +1071,7 @@ fn round_half(x: f64) -> f64 {
 /// as the local power m(rho) = 1 + rho V_rhorho / V_rho, extrapolated to rho = 0 (a negative
 /// m: V grows without bound toward the pole).
 fn flatness_at_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, w: f64) -> Option<(f64, f64, f64)> {
-    ev.eval_jet(end, crate::tape::MAX_ORDER);
+    ev.eval_jet(end, crate::language::tape::MAX_ORDER);
     let jet = *ev.jet_output(OUT_V);
     let v_p = jet[0];
     if jet.iter().all(|c| c.is_finite()) && v_p != 0.0 {

@@ -171,8 +171,8 @@ fn esc(s: &str) -> String {
 /// fallbacks. The PDF is drawn with the bundled DejaVu Sans, so it never depends on system fonts.
 pub const FONT_FAMILY: &str = "'DejaVu Sans', Helvetica, Arial, sans-serif";
 
-const FONT_REGULAR: &[u8] = include_bytes!("../assets/fonts/DejaVuSans.ttf");
-const FONT_OBLIQUE: &[u8] = include_bytes!("../assets/fonts/DejaVuSans-Oblique.ttf");
+const FONT_REGULAR: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
+const FONT_OBLIQUE: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans-Oblique.ttf");
 
 /// Greek letters by name, for `\name` in labels and for field and parameter names.
 const GREEK: [(&str, char); 27] = [

@@ -2,12 +2,12 @@
 //! every point a full prediction, run in parallel; shards for batch systems and their merge;
 //! the n_s–r figure.
 
-use crate::canonical::AnalysisError;
+use crate::analysis::single::canonical::AnalysisError;
 use crate::config::Config;
 use crate::data::DataSet;
+use crate::drivers::predict::{predict, Options, Prediction, CSV_KEYS};
 use crate::model::{Model, ModelSpec};
-use crate::plot::{Marker, Panel, Region, Series};
-use crate::predict::{predict, Options, Prediction, CSV_KEYS};
+use crate::report::plot::{Marker, Panel, Region, Series};
 use serde::Serialize;
 
 /// One varied parameter: name and values.
@@ -346,7 +346,7 @@ pub fn csv_rows(rows: &[ScanRow]) -> String {
         f.extend(r.params.iter().map(|(_, v)| format!("{v:e}")));
         match &r.result {
             Ok(p) => {
-                f.extend(crate::predict::csv_values(p));
+                f.extend(crate::drivers::predict::csv_values(p));
                 f.push(String::new());
             }
             Err(e) => {
@@ -830,13 +830,13 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet, widt
                 continue;
             }
             let name = if s.is_nan() {
-                format!("$N$ = {}", crate::numfmt::typed(n))
+                format!("$N$ = {}", crate::report::numfmt::typed(n))
             } else {
                 format!(
                     "$N$ = {}, {} = {}",
-                    crate::numfmt::typed(n),
-                    crate::plot::symbol(&axes[1].name),
-                    crate::numfmt::typed(s)
+                    crate::report::numfmt::typed(n),
+                    crate::report::plot::symbol(&axes[1].name),
+                    crate::report::numfmt::typed(s)
                 )
             };
             series.push(Series {
@@ -881,8 +881,8 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet, widt
         },
     ];
     let panel = Panel {
-        colorbar: Some(crate::plot::ColorBar {
-            label: crate::plot::symbol(&first),
+        colorbar: Some(crate::report::plot::ColorBar {
+            label: crate::report::plot::symbol(&first),
             lo,
             hi,
             log: log_axis,
@@ -896,7 +896,7 @@ pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet, widt
         regions,
         ..Panel::default()
     };
-    crate::plot::render(title, &[panel], width_pt)
+    crate::report::plot::render(title, &[panel], width_pt)
 }
 
 /// Blue to yellow.

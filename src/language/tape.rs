@@ -24,7 +24,7 @@
 //! # Ok::<(), efold::compile::ExprError>(())
 //! ```
 
-use crate::ir::{Func, Graph, Id, Node};
+use crate::language::ir::{Func, Graph, Id, Node};
 use crate::numerics::elementary;
 use std::fmt;
 
@@ -1197,8 +1197,8 @@ mod tests {
 
     #[test]
     fn sums_of_monomials_become_one_polynomial() {
-        use crate::compile::compile_one;
-        use crate::ir::Scope;
+        use crate::language::compile::compile_one;
+        use crate::language::ir::Scope;
         let scope = Scope::new("x", &["a"]);
         let polys = |src: &str| {
             let c = compile_one(src, &scope).unwrap();
@@ -1230,9 +1230,9 @@ mod tests {
     /// chain kinds, several outputs, partial batches and chunking.
     #[test]
     fn batches_are_bit_identical_to_single_points() {
-        use crate::compile::{compile, compile_one};
         use crate::config::Limits;
-        use crate::ir::Scope;
+        use crate::language::compile::{compile, compile_one};
+        use crate::language::ir::Scope;
         let scope = Scope::new("x", &["a"]);
         let cases = [
             "x^2/a - a*x^5 + x - 7",

@@ -2,15 +2,17 @@
 //! amplitude fixed by A_s, scales in GeV, the field excursion, the pivot from a reheating
 //! history, and the verdict against a data set. Reduced Planck units unless a key says GeV.
 
-use crate::canonical::{analyse_pole, find_domain, minimum_of_v, AnalysisError, CanonicalMap, EndKind, Interval};
+use crate::analysis::reheating::{Matching, Reheating};
+use crate::analysis::single::canonical::{
+    analyse_pole, find_domain, minimum_of_v, AnalysisError, CanonicalMap, EndKind, Interval,
+};
+use crate::analysis::slowroll::{branches, end_of_inflation, fail, phi_stars, Branch, Observables, SlowRoll};
 use crate::config::Config;
 use crate::data::DataSet;
-use crate::inspect::ModelSummary;
+use crate::drivers::inspect::ModelSummary;
+use crate::language::tape::Evaluator;
 use crate::model::{Model, Side};
-use crate::numfmt;
-use crate::reheating::{Matching, Reheating};
-use crate::slowroll::{branches, end_of_inflation, fail, phi_stars, Branch, Observables, SlowRoll};
-use crate::tape::Evaluator;
+use crate::report::numfmt;
 use serde::Serialize;
 use std::f64::consts::PI;
 use std::fmt::Write as _;
@@ -30,7 +32,7 @@ pub struct Options {
     pub data: DataSet,
     /// Solve the exact background and Mukhanov–Sasaki modes (with these settings) instead of
     /// using the slow-roll formulas; `None` is slow roll.
-    pub exact: Option<crate::exact::Settings>,
+    pub exact: Option<crate::analysis::exact::Settings>,
 }
 
 impl Default for Options {
@@ -121,7 +123,7 @@ pub struct Prediction {
     pub reheating: Option<Matching>,
     /// What the exact route adds, when it was used.
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub exact: Option<crate::exact::ExactExtras>,
+    pub exact: Option<crate::analysis::exact::ExactExtras>,
 }
 
 impl Prediction {
@@ -203,8 +205,8 @@ pub fn check_finite(predictions: &[Prediction], field: &str) -> Result<(), Analy
             return Err(fail(
                 format!(
                     "{key} is not a finite number ({x}) at N_* = {} ({field}_* = {})",
-                    crate::numfmt::number(p.n_star),
-                    crate::numfmt::number(p.phi_star)
+                    crate::report::numfmt::number(p.n_star),
+                    crate::report::numfmt::number(p.phi_star)
                 ),
                 &[
                     "V or K is not smooth enough there (a derivative overflows), or the numbers leave double precision",
@@ -335,14 +337,16 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
                 // a given range).
                 let bottom = all[i].bottom;
                 if bottom.is_finite() {
-                    if let Some(v) = crate::canonical::positive_minimum(&mut ev, &iv, bottom) {
-                        warnings.push(crate::inspect::positive_minimum_warning(&field, bottom, v, &iv));
+                    if let Some(v) = crate::analysis::single::canonical::positive_minimum(&mut ev, &iv, bottom) {
+                        warnings.push(crate::drivers::inspect::positive_minimum_warning(
+                            &field, bottom, v, &iv,
+                        ));
                     }
                     let v = ev.eval(bottom);
                     if v < 0.0 && v.is_finite() {
                         warnings.push(format!(
                             "V = {} < 0 where the field settles ({field} = {}): a vacuum of negative energy, which collapses rather than reheats",
-                            crate::numfmt::number(v),
+                            crate::report::numfmt::number(v),
                             fmt(bottom)
                         ));
                     }
@@ -452,7 +456,7 @@ fn run_branch(
             (vec![n], Some(m), format!("reheating: {}", reh.describe()))
         }
     };
-    let (stars, n_error) = crate::slowroll::phi_stars_with_accuracy(ev, b, phi_end, &n_stars, config, field)?;
+    let (stars, n_error) = crate::analysis::slowroll::phi_stars_with_accuracy(ev, b, phi_end, &n_stars, config, field)?;
     if n_error > 0.0 {
         let nearest = stars.iter().map(|x| (x - b.top).abs()).fold(f64::INFINITY, f64::min);
         warnings.push(format!(
@@ -471,7 +475,7 @@ fn run_branch(
     let (mut from, mut acc) = (phi_end, 0.0);
     let limit = config.quad_rounding_limit.max(config.quad_accept);
     for &i in &order {
-        let (d, _) = crate::slowroll::accept_within(map.between(from, stars[i]), limit)?;
+        let (d, _) = crate::analysis::slowroll::accept_within(map.between(from, stars[i]), limit)?;
         acc += d.abs();
         excursion[i] = acc;
         from = stars[i];
@@ -501,7 +505,7 @@ fn run_branch(
         // slow roll along the way
         let violated = (1..8).any(|k| {
             let x = phi_end + (phi_star - phi_end) * k as f64 / 8.0;
-            crate::slowroll::eps_first_order(ev, x).1 >= 1.0
+            crate::analysis::slowroll::eps_first_order(ev, x).1 >= 1.0
         });
         if violated {
             warnings.push(format!(
@@ -564,7 +568,7 @@ fn refine_exact(
     phi_end: f64,
     out: &mut [Prediction],
     opts: &Options,
-    settings: &crate::exact::Settings,
+    settings: &crate::analysis::exact::Settings,
     config: &Config,
     field: &str,
 ) -> Result<(), AnalysisError> {
@@ -572,7 +576,7 @@ fn refine_exact(
     let deepest = n_stars.iter().copied().fold(0.0f64, f64::max);
     // Start early enough for the lowest k of the tilt stencil to begin k/aH = k_start inside,
     // plus a few e-folds for the approach to the attractor.
-    let margin = settings.k_start.ln() + 2.0 * crate::exact::TILT_STEP + 4.0;
+    let margin = settings.k_start.ln() + 2.0 * crate::analysis::exact::TILT_STEP + 4.0;
     let mut phi_at = |n: f64| -> Result<f64, AnalysisError> {
         phi_stars(ev, b, phi_end, &[n], config, field)
             .map(|v| v[0])
@@ -587,8 +591,8 @@ fn refine_exact(
                 )
             })
     };
-    let (_, run) = crate::exact::start_with_room(model, deepest + margin, settings, &mut phi_at)?;
-    let points = crate::exact::observe(model, &run, &n_stars, settings)?;
+    let (_, run) = crate::analysis::exact::start_with_room(model, deepest + margin, settings, &mut phi_at)?;
+    let points = crate::analysis::exact::observe(model, &run, &n_stars, settings)?;
     let data = &opts.data;
     let mp = data.units.reduced_planck_mass_gev;
     let mut map = CanonicalMap::new(model, phi_end, config);
@@ -765,7 +769,8 @@ pub fn text(rep: &Report) -> String {
         row("pole alone: r", opt(&|x| x.pole_only.map(|q| q.r)));
     }
     if p.iter().any(|x| x.exact.is_some()) {
-        let ex = |g: &dyn Fn(&crate::exact::ExactExtras) -> f64| opt(&|x: &Prediction| x.exact.as_ref().map(g));
+        let ex =
+            |g: &dyn Fn(&crate::analysis::exact::ExactExtras) -> f64| opt(&|x: &Prediction| x.exact.as_ref().map(g));
         row("slow roll: n_s", ex(&|e| e.n_s_slow_roll));
         row("slow roll: r", ex(&|e| e.r_slow_roll));
         row(&format!("slow roll: {f}_end"), ex(&|e| e.phi_end_slow_roll));

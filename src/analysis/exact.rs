@@ -24,11 +24,11 @@
 //! Wavenumbers are measured against the pivot: a = 1 when the pivot exits, k = kappa a_* H_*,
 //! so kappa = k / k_*.
 
-use crate::canonical::AnalysisError;
+use crate::analysis::single::canonical::AnalysisError;
+use crate::analysis::slowroll::fail;
+use crate::language::tape::Evaluator;
 use crate::model::{Model, OUT_DV, OUT_SQRT_K};
 use crate::numerics::ode::{integrate, Options as OdeOptions};
-use crate::slowroll::fail;
-use crate::tape::Evaluator;
 use serde::Serialize;
 use std::f64::consts::PI;
 
@@ -251,8 +251,8 @@ pub fn mode(
             return Err(fail(
                 format!(
                     "the mode k/k_* = {} never reaches k/aH = {} before the end of inflation",
-                    crate::numfmt::number(kappa),
-                    crate::numfmt::typed(target)
+                    crate::report::numfmt::number(kappa),
+                    crate::report::numfmt::typed(target)
                 ),
                 &["ask for a smaller k, or fewer e-folds"],
             ));
@@ -261,8 +261,8 @@ pub fn mode(
             return Err(fail(
                 format!(
                     "the background starts too late for k/k_* = {} (k/aH is already below {})",
-                    crate::numfmt::number(kappa),
-                    crate::numfmt::typed(target)
+                    crate::report::numfmt::number(kappa),
+                    crate::report::numfmt::typed(target)
                 ),
                 &["ask for a larger k, or start the background earlier"],
             ));
@@ -346,7 +346,7 @@ pub fn mode(
             fail(
                 format!(
                     "the mode k/k_* = {} failed to integrate: {e}",
-                    crate::numfmt::number(kappa)
+                    crate::report::numfmt::number(kappa)
                 ),
                 &[],
             )
@@ -355,8 +355,8 @@ pub fn mode(
             return Err(fail(
                 format!(
                     "the mode k/k_* = {} does not reach k/aH = {} before inflation ends",
-                    crate::numfmt::number(kappa),
-                    crate::numfmt::typed(target)
+                    crate::report::numfmt::number(kappa),
+                    crate::report::numfmt::typed(target)
                 ),
                 &["the mode exits too close to the end of inflation: ask for smaller k"],
             ));
@@ -386,9 +386,9 @@ pub fn mode(
         return Err(fail(
             format!(
                 "the mode k/k_* = {} has not frozen: P changed by {} over its last e-fold (allowed {})",
-                crate::numfmt::number(kappa),
-                crate::numfmt::scientific(drift, 2),
-                crate::numfmt::typed(settings.freeze_tol)
+                crate::report::numfmt::number(kappa),
+                crate::report::numfmt::scientific(drift, 2),
+                crate::report::numfmt::typed(settings.freeze_tol)
             ),
             &["stop the modes further outside the horizon (a smaller k/aH at the stop)"],
         ));
@@ -416,8 +416,8 @@ pub fn pivot(bg: &Background<'_>, run: &Run, n_star: f64, settings: &Settings) -
         return Err(fail(
             format!(
                 "the exact background gives only {} e-folds from its start, fewer than N_* = {}",
-                crate::numfmt::number(n_end),
-                crate::numfmt::typed(n_star)
+                crate::report::numfmt::number(n_end),
+                crate::report::numfmt::typed(n_star)
             ),
             &["start the background earlier"],
         ));
@@ -528,7 +528,7 @@ pub fn observe(
         let (_, e2m) = flow(piv.n - d)?;
         let (_, e2p) = flow(piv.n + d)?;
         let e3 = ((e2p.abs()).ln() - (e2m.abs()).ln()) / (2.0 * d);
-        let second = crate::slowroll::second_order_from_flow(e1, e2, e2 * e3);
+        let second = crate::analysis::slowroll::second_order_from_flow(e1, e2, e2 * e3);
         let (ns2, r2, nt2) = (second.n_s, second.r, second.n_t);
         out.push(ExactPoint {
             n_star,
@@ -622,7 +622,7 @@ pub fn spectrum(
             let m = mode(&bg, run, piv, k / k_star_mpc, settings)?;
             let y = state_at(&bg, run, m.n_cross, settings)?;
             let mut ev = model.evaluator();
-            let sr = crate::slowroll::SlowRoll::at(&mut ev, y[0]);
+            let sr = crate::analysis::slowroll::SlowRoll::at(&mut ev, y[0]);
             Ok(SpectrumRow {
                 k_mpc: k,
                 p_zeta: scale * m.p_s,
@@ -670,7 +670,7 @@ fn grid_end(rows: &[SpectrumRow], at: &SpectrumRow) -> Option<&'static str> {
 
 /// What to say when the largest value is at an end of the k grid.
 fn at_grid_end(what: &str, end: &str, row: &SpectrumRow, value: f64) -> String {
-    use crate::numfmt::number;
+    use crate::report::numfmt::number;
     let side = if end == "upper" {
         "beyond k_max; raise --k-max"
     } else {
@@ -707,8 +707,8 @@ fn check_rows(rows: &[SpectrumRow], scale: f64) -> Result<(), AnalysisError> {
             return Err(fail(
                 format!(
                     "{key} is not a finite number ({x}) for the mode k = {} Mpc^-1, {} e-folds before the end",
-                    crate::numfmt::number(r.k_mpc),
-                    crate::numfmt::number(r.n_before_end)
+                    crate::report::numfmt::number(r.k_mpc),
+                    crate::report::numfmt::number(r.n_before_end)
                 ),
                 &["V or K is not smooth enough where this mode crosses the horizon, or the numbers leave double precision"],
             ));
@@ -719,7 +719,7 @@ fn check_rows(rows: &[SpectrumRow], scale: f64) -> Result<(), AnalysisError> {
 
 /// The spectrum as an aligned table, with the peak.
 pub fn text(sp: &Spectrum, name: &str) -> String {
-    use crate::numfmt::{self, number, typed};
+    use crate::report::numfmt::{self, number, typed};
     use std::fmt::Write as _;
     let mut o = String::new();
     let _ = writeln!(o, "model    {name}");
@@ -821,7 +821,7 @@ pub fn csv(sp: &Spectrum) -> String {
 
 /// Both spectra against log10 k, with the slow-roll estimate dashed.
 pub fn figure(sp: &Spectrum, name: &str, width_pt: f64) -> String {
-    use crate::plot::{Panel, Series};
+    use crate::report::plot::{Panel, Series};
     let pts = |g: &dyn Fn(&SpectrumRow) -> f64| sp.rows.iter().map(|r| (r.k_mpc.log10(), g(r))).collect::<Vec<_>>();
     let panel = Panel {
         title: "power spectra".into(),
@@ -850,19 +850,19 @@ pub fn figure(sp: &Spectrum, name: &str, width_pt: f64) -> String {
         ],
         ..Panel::default()
     };
-    crate::plot::render(name, &[panel], width_pt)
+    crate::report::plot::render(name, &[panel], width_pt)
 }
 
 /// A start given by the user must lie inside the domain (beyond a pole of K, or where K <= 0
 /// or V is not finite, there is no background to integrate).
 fn check_start(model: &Model, phi: f64) -> Result<(), AnalysisError> {
-    let domain = crate::canonical::find_domain(model, &mut model.evaluator())?;
+    let domain = crate::analysis::single::canonical::find_domain(model, &mut model.evaluator())?;
     let iv = domain.interval;
     if iv.contains(phi) {
         return Ok(());
     }
     let f = model.field();
-    let n = crate::numfmt::number;
+    let n = crate::report::numfmt::number;
     Err(fail(
         format!(
             "the start {f} = {} lies outside the domain {} < {f} < {} (lower end: {}; upper end: {})",
@@ -906,16 +906,16 @@ pub fn start_with_room(
             Some(n) => Err(fail(
                 format!(
                     "starting at phi = {} gives {} e-folds before the end, fewer than the {} needed",
-                    crate::numfmt::typed(phi),
-                    crate::numfmt::number(n),
-                    crate::numfmt::number(n_needed)
+                    crate::report::numfmt::typed(phi),
+                    crate::report::numfmt::number(n),
+                    crate::report::numfmt::number(n_needed)
                 ),
                 &["start further up the potential, or ask for fewer e-folds or a smaller k range"],
             )),
             None => Err(fail(
                 format!(
                     "starting at phi = {}, inflation does not end (eps_H never reaches 1)",
-                    crate::numfmt::typed(phi)
+                    crate::report::numfmt::typed(phi)
                 ),
                 &["check the start and the potential"],
             )),
@@ -939,7 +939,7 @@ pub fn start_with_room(
     Err(fail(
         format!(
             "could not start the exact background {} e-folds before its end",
-            crate::numfmt::number(n_needed)
+            crate::report::numfmt::number(n_needed)
         ),
         &["ask for fewer e-folds, or a smaller k range"],
     ))

@@ -3,7 +3,7 @@
 //! The pest grammar in `grammar/expr.pest` does the tokenising and precedence; this module checks
 //! the limits first (length, nesting depth, balanced parentheses, so that no input can exhaust the
 //! stack), then folds pest's flat repetitions into an [`Expr`] tree without recursion over
-//! unbounded input. Names are not resolved here (see [`crate::ir`]).
+//! unbounded input. Names are not resolved here (see [`crate::language::ir`]).
 //!
 //! ```
 //! use efold::{config::Limits, syntax};

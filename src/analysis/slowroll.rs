@@ -13,14 +13,14 @@
 //! N(phi) = integral from phi_end to phi of V K / V_phi dphi
 //! ```
 
-use crate::canonical::{chi_derivatives_normalised, AnalysisError, Interval};
+use crate::analysis::single::canonical::{chi_derivatives_normalised, AnalysisError, Interval};
 use crate::config::Config;
+use crate::language::tape::Evaluator;
+use crate::language::tape::BATCH;
 use crate::model::{OUT_DV, OUT_K, OUT_SQRT_K, OUT_V};
 use crate::numerics::quad::gauss_kronrod_batch;
 use crate::numerics::roots::brent;
 use crate::numerics::NumericError;
-use crate::tape::Evaluator;
-use crate::tape::BATCH;
 use serde::Serialize;
 
 /// The potential slow-roll parameters at one field value.
@@ -124,10 +124,10 @@ pub struct Observables {
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Branch {
     /// Where the field comes from (a maximum of V or an end of the domain).
-    #[serde(serialize_with = "crate::canonical::ser_f64")]
+    #[serde(serialize_with = "crate::analysis::single::canonical::ser_f64")]
     pub top: f64,
     /// Where it rolls to (a minimum of V or an end of the domain).
-    #[serde(serialize_with = "crate::canonical::ser_f64")]
+    #[serde(serialize_with = "crate::analysis::single::canonical::ser_f64")]
     pub bottom: f64,
 }
 
@@ -610,7 +610,7 @@ fn end_before_zero_of_v(ev: &mut Evaluator<'_>, xa: f64, xb: f64) -> Option<f64>
 }
 
 fn fmt_end(x: f64) -> String {
-    crate::numfmt::number(x)
+    crate::report::numfmt::number(x)
 }
 
 /// dN/dphi = V K / V_phi (positive uphill).
@@ -762,7 +762,7 @@ pub fn phi_stars_with_accuracy(
         return Err(fail(
             format!(
                 "the branch gives only {} e-folds between the end of inflation at {field} = {} and {field} = {}, fewer than the {need} asked",
-                crate::numfmt::number(n_prev),
+                crate::report::numfmt::number(n_prev),
                 fmt_end(phi_end),
                 fmt_end(b.top)
             ),

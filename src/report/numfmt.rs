@@ -2,7 +2,7 @@
 //!
 //! Machine outputs (CSV, JSON) do not use this module: they keep full precision in Rust's
 //! shortest round-trip form. Printing constants back in the expression language is
-//! [`crate::ir::format_number`]'s job, not this module's.
+//! [`crate::language::ir::format_number`]'s job, not this module's.
 //!
 //! # The rule
 //!
@@ -368,8 +368,8 @@ mod tests {
 
     #[test]
     fn drift_lines_show_old_and_new_apart() {
-        let d = crate::golden::Drift::Leaf {
-            at: crate::golden::At::NStar(55.0),
+        let d = crate::drivers::golden::Drift::Leaf {
+            at: crate::drivers::golden::At::NStar(55.0),
             path: "n_s".into(),
             old: Some(serde_json::json!(0.9638961170)),
             new: Some(serde_json::json!(0.9638961181)),
@@ -379,8 +379,8 @@ mod tests {
         // digits enough to tell them apart, both in one style
         assert!(line.contains("0.9638961170 -> 0.9638961181"), "{line}");
         assert!(line.ends_with("(relative 1.1e-9)"), "{line}");
-        let d = crate::golden::Drift::Leaf {
-            at: crate::golden::At::NStar(55.0),
+        let d = crate::drivers::golden::Drift::Leaf {
+            at: crate::drivers::golden::At::NStar(55.0),
             path: "verdict".into(),
             old: Some(serde_json::json!("consistent")),
             new: Some(serde_json::json!("excluded")),
