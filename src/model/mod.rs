@@ -746,31 +746,7 @@ impl Model {
     /// Compiles a model: parameters first (each an expression of `pi` and earlier ones), then V
     /// and K, then the range.
     pub fn build(spec: &ModelSpec, config: &Config) -> Result<Model, ModelError> {
-        let mut table = ParamTable::default();
-        for p in &spec.params {
-            if p.name == spec.field {
-                return Err(ModelError::plain(
-                    Diagnostic::new(format!("`{}` is both the field and a parameter", p.name))
-                        .with_hint("rename the parameter, or the field with `field = ...`"),
-                ));
-            }
-            if table.contains(&p.name) {
-                return Err(ModelError::plain(
-                    Diagnostic::new(format!("parameter `{}` is given twice", p.name))
-                        .with_hint("give each parameter once"),
-                ));
-            }
-            let v = constant(
-                &p.value,
-                &spec.field,
-                &table,
-                config,
-                &format!("parameter `{}`", p.name),
-            )
-            .map_err(|e| later_hint(e, spec, table.names().len()))?;
-            table.push(&p.name, v);
-        }
-        let (names, values) = table.into_parts();
+        let (names, values) = resolve_params(spec, config)?.into_parts();
         let refs: Vec<&str> = names.iter().map(String::as_str).collect();
         let scope = Scope::new(&spec.field, &refs);
         let mut graph = Graph::new(scope.clone());
@@ -792,21 +768,7 @@ impl Model {
         let dv = graph.derivative(v);
         let roots = vec![v, k, sqrt_k, dv];
         let tape = Tape::compile(&graph, &roots);
-        let range = match &spec.range {
-            None => None,
-            Some((lo, hi)) => {
-                let table = ParamTable::from_parts(names.clone(), values.clone());
-                let lo_v = range_end(lo, &spec.field, &table, config)?;
-                let hi_v = range_end(hi, &spec.field, &table, config)?;
-                if lo_v >= hi_v {
-                    return Err(ModelError::plain(
-                        Diagnostic::new(format!("the range is empty: {lo_v} is not below {hi_v}"))
-                            .with_hint("give the lower end first: --range LO HI"),
-                    ));
-                }
-                Some((lo_v, hi_v))
-            }
-        };
+        let range = resolve_range(spec, &names, &values, config)?;
         Ok(Model {
             spec: spec.clone(),
             scope,
@@ -819,6 +781,41 @@ impl Model {
             },
             range,
         })
+    }
+
+    /// Rebinds the model to new parameter values without compiling V and K again (the
+    /// parameters are inputs of the compiled tape): each `(name, value)` replaces that
+    /// parameter's value, then every parameter defined from others, and the range, are resolved
+    /// again. A name the model does not have is an error; the model is then unchanged.
+    ///
+    /// ```
+    /// use efold::config::Config;
+    /// use efold::model::{Model, ModelSpec};
+    /// let mut spec = ModelSpec::inline("lambda * phi^4", None);
+    /// spec.set_param("m", "2");
+    /// spec.set_param("lambda", "m^2 / 4");
+    /// let mut model = Model::build(&spec, &Config::default())?;
+    /// model.rebind(&[("m", 4.0)], &Config::default())?;
+    /// assert_eq!(model.evaluator().eval(1.0), 4.0); // lambda followed m
+    /// # Ok::<(), efold::model::ModelError>(())
+    /// ```
+    pub fn rebind(&mut self, assignments: &[(&str, f64)], config: &Config) -> Result<(), ModelError> {
+        let mut spec = self.spec.clone();
+        for &(name, value) in assignments {
+            if !self.scope.params.iter().any(|p| p == name) {
+                return Err(ModelError::plain(
+                    Diagnostic::new(format!("the model has no parameter `{name}`"))
+                        .with_hint("give it in the model's [params] table, or with --param NAME=VALUE"),
+                ));
+            }
+            spec.set_param(name, &format!("{value:e}"));
+        }
+        let (names, values) = resolve_params(&spec, config)?.into_parts();
+        debug_assert_eq!(names, self.scope.params, "set_param keeps the parameter order");
+        self.range = resolve_range(&spec, &names, &values, config)?;
+        self.params = values;
+        self.spec = spec;
+        Ok(())
     }
 
     /// An evaluator bound to the model's parameters: `eval(phi)` returns V, `output(1)` K,
@@ -850,6 +847,58 @@ impl Model {
     pub fn kinetic_ir(&self) -> String {
         self.compiled.graph.print(self.compiled.roots[OUT_K])
     }
+}
+
+/// Every parameter's value, in order: each an expression of `pi` and earlier ones.
+fn resolve_params(spec: &ModelSpec, config: &Config) -> Result<ParamTable, ModelError> {
+    let mut table = ParamTable::default();
+    for p in &spec.params {
+        if p.name == spec.field {
+            return Err(ModelError::plain(
+                Diagnostic::new(format!("`{}` is both the field and a parameter", p.name))
+                    .with_hint("rename the parameter, or the field with `field = ...`"),
+            ));
+        }
+        if table.contains(&p.name) {
+            return Err(ModelError::plain(
+                Diagnostic::new(format!("parameter `{}` is given twice", p.name)).with_hint("give each parameter once"),
+            ));
+        }
+        let v = constant(
+            &p.value,
+            &spec.field,
+            &table,
+            config,
+            &format!("parameter `{}`", p.name),
+        )
+        .map_err(|e| later_hint(e, spec, table.names().len()))?;
+        table.push(&p.name, v);
+    }
+    Ok(table)
+}
+
+/// The user's field interval, its ends evaluated with the parameters' values.
+fn resolve_range(
+    spec: &ModelSpec,
+    names: &[String],
+    values: &[f64],
+    config: &Config,
+) -> Result<Option<(f64, f64)>, ModelError> {
+    Ok(match &spec.range {
+        None => None,
+        Some((lo, hi)) => {
+            let table = ParamTable::from_parts(names.to_vec(), values.to_vec());
+            let lo_v = range_end(lo, &spec.field, &table, config)?;
+            let hi_v = range_end(hi, &spec.field, &table, config)?;
+            if lo_v >= hi_v {
+                return Err(ModelError::plain(
+                    Diagnostic::new(format!("the range is empty: {lo_v} is not below {hi_v}"))
+                        .with_hint("give the lower end first: --range LO HI"),
+                ));
+            }
+            Some((lo_v, hi_v))
+        }
+    })
 }
 
 /// Parameters resolved so far: names in order, a hash index and values. Evaluating the next
