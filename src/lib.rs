@@ -38,8 +38,27 @@ pub mod numerics;
 pub mod report;
 
 // Short paths to the stages' modules, kept from the flat layout.
-pub use analysis::single::canonical;
-pub use analysis::{exact, reheating, slowroll};
+pub use analysis::{reheating, slowroll};
 pub use drivers::{fit, golden, inspect, predict, scan};
 pub use language::{compile, ir, syntax, tape};
 pub use report::{numfmt, output, plot};
+
+/// The single-field analyses in one place, as the flat layout had them: the canonical map,
+/// the domain, poles and asymptotes ([`analysis::single`]) and the analyses' error.
+pub mod canonical {
+    pub use crate::analysis::error::*;
+    pub use crate::analysis::single::asymptote::*;
+    pub use crate::analysis::single::canonical::*;
+    pub use crate::analysis::single::domain::*;
+    pub use crate::analysis::single::pole::*;
+}
+
+/// The exact route in one place, as the flat layout had it: the background
+/// ([`analysis::background`]), the modes ([`analysis::perturbations`]) and the spectrum
+/// ([`drivers::spectrum`], [`report::spectrum`]).
+pub mod exact {
+    pub use crate::analysis::background::*;
+    pub use crate::analysis::perturbations::*;
+    pub use crate::drivers::spectrum::*;
+    pub use crate::report::spectrum::{csv, figure, text};
+}

@@ -6,8 +6,8 @@
 //! fitted in its logarithm (it stays positive, and scale-like parameters such as alpha move
 //! evenly); others linearly.
 
-use crate::analysis::single::canonical::AnalysisError;
-use crate::analysis::slowroll::fail;
+use crate::analysis::error::fail;
+use crate::analysis::error::AnalysisError;
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::predict::{predict, Options, Prediction};

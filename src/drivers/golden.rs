@@ -789,7 +789,7 @@ mod tests {
             g_star: 0.0,
             rho_end_gev4: 0.0,
         };
-        let exact = crate::analysis::exact::ExactExtras {
+        let exact = crate::analysis::perturbations::ExactExtras {
             n_total: 0.0,
             phi_end_slow_roll: 0.0,
             phi_star_slow_roll: 0.0,

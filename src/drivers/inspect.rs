@@ -2,10 +2,13 @@
 //! their leading-order predictions, the asymptotics of V(chi) at both ends, an optional table
 //! of (phi, chi, V), and a figure of V against phi and against chi.
 
-use crate::analysis::single::canonical::{
-    analyse_pole, asymptote, find_domain, minimum_of_v, negative_regions, positive_minimum, ser_f64, AnalysisError,
-    Asymptote, CanonicalMap, Domain, EndKind, Pole,
+use crate::analysis::error::AnalysisError;
+use crate::analysis::single::asymptote::{asymptote, Asymptote};
+use crate::analysis::single::canonical::CanonicalMap;
+use crate::analysis::single::domain::{
+    find_domain, minimum_of_v, negative_regions, positive_minimum, ser_f64, Domain, EndKind,
 };
+use crate::analysis::single::pole::{analyse_pole, Pole};
 use crate::config::Config;
 use crate::model::Model;
 use crate::report::numfmt;
@@ -239,7 +242,7 @@ pub fn numbers(ins: &Inspection) -> Vec<(String, f64)> {
 fn check_finite(ins: &Inspection, field: &str) -> Result<(), AnalysisError> {
     match numbers(ins).into_iter().find(|(_, x)| !x.is_finite()) {
         None => Ok(()),
-        Some((key, x)) => Err(crate::analysis::slowroll::fail(
+        Some((key, x)) => Err(crate::analysis::error::fail(
             format!("{key} is not a finite number ({x})"),
             &[
                 &format!("V or K overflows or is not smooth enough there: check them, or give a --range for {field} that avoids it"),
@@ -254,7 +257,7 @@ pub fn positive_minimum_warning(
     field: &str,
     phi: f64,
     v: f64,
-    iv: &crate::analysis::single::canonical::Interval,
+    iv: &crate::analysis::single::domain::Interval,
 ) -> String {
     if phi == iv.lo || phi == iv.hi {
         format!(
@@ -271,7 +274,7 @@ pub fn positive_minimum_warning(
     }
 }
 
-fn default_origin(iv: &crate::analysis::single::canonical::Interval) -> f64 {
+fn default_origin(iv: &crate::analysis::single::domain::Interval) -> f64 {
     match (iv.lo.is_finite(), iv.hi.is_finite()) {
         (true, true) => 0.5 * (iv.lo + iv.hi),
         (true, false) => iv.lo + iv.lo.abs().max(1.0),
@@ -282,7 +285,7 @@ fn default_origin(iv: &crate::analysis::single::canonical::Interval) -> f64 {
 
 /// The stretch of field space worth drawing: up to near a finite end, or outward from the
 /// origin until V levels off (plateau) or has grown by 10^4.
-pub fn plot_window(model: &Model, iv: &crate::analysis::single::canonical::Interval, origin: f64) -> (f64, f64) {
+pub fn plot_window(model: &Model, iv: &crate::analysis::single::domain::Interval, origin: f64) -> (f64, f64) {
     let mut ev = model.evaluator();
     let mut ends = [iv.lo, iv.hi];
     for (i, dir) in [(0usize, -1.0), (1usize, 1.0)] {
@@ -312,7 +315,7 @@ pub fn plot_window(model: &Model, iv: &crate::analysis::single::canonical::Inter
 
 fn make_table(
     model: &Model,
-    iv: &crate::analysis::single::canonical::Interval,
+    iv: &crate::analysis::single::domain::Interval,
     origin: f64,
     n: usize,
     config: &Config,

@@ -1,8 +1,9 @@
 //! Drivers: each composes analyses into one command's result ([`predict`], [`inspect`],
-//! [`scan`], [`fit`], [`golden`]).
+//! [`spectrum`], [`scan`], [`fit`], [`golden`]).
 
 pub mod fit;
 pub mod golden;
 pub mod inspect;
 pub mod predict;
 pub mod scan;
+pub mod spectrum;

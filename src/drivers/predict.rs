@@ -2,11 +2,14 @@
 //! amplitude fixed by A_s, scales in GeV, the field excursion, the pivot from a reheating
 //! history, and the verdict against a data set. Reduced Planck units unless a key says GeV.
 
+use crate::analysis::error::fail;
+use crate::analysis::error::AnalysisError;
 use crate::analysis::reheating::{Matching, Reheating};
-use crate::analysis::single::canonical::{
-    analyse_pole, find_domain, minimum_of_v, AnalysisError, CanonicalMap, EndKind, Interval,
-};
-use crate::analysis::slowroll::{branches, end_of_inflation, fail, phi_stars, Branch, Observables, SlowRoll};
+use crate::analysis::single::branches::{branches, Branch};
+use crate::analysis::single::canonical::CanonicalMap;
+use crate::analysis::single::domain::{find_domain, minimum_of_v, EndKind, Interval};
+use crate::analysis::single::pole::analyse_pole;
+use crate::analysis::slowroll::{end_of_inflation, phi_stars, Observables, SlowRoll};
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::inspect::ModelSummary;
@@ -32,7 +35,7 @@ pub struct Options {
     pub data: DataSet,
     /// Solve the exact background and Mukhanov–Sasaki modes (with these settings) instead of
     /// using the slow-roll formulas; `None` is slow roll.
-    pub exact: Option<crate::analysis::exact::Settings>,
+    pub exact: Option<crate::analysis::background::Settings>,
 }
 
 impl Default for Options {
@@ -123,7 +126,7 @@ pub struct Prediction {
     pub reheating: Option<Matching>,
     /// What the exact route adds, when it was used.
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub exact: Option<crate::analysis::exact::ExactExtras>,
+    pub exact: Option<crate::analysis::perturbations::ExactExtras>,
 }
 
 impl Prediction {
@@ -337,7 +340,7 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
                 // a given range).
                 let bottom = all[i].bottom;
                 if bottom.is_finite() {
-                    if let Some(v) = crate::analysis::single::canonical::positive_minimum(&mut ev, &iv, bottom) {
+                    if let Some(v) = crate::analysis::single::domain::positive_minimum(&mut ev, &iv, bottom) {
                         warnings.push(crate::drivers::inspect::positive_minimum_warning(
                             &field, bottom, v, &iv,
                         ));
@@ -568,7 +571,7 @@ fn refine_exact(
     phi_end: f64,
     out: &mut [Prediction],
     opts: &Options,
-    settings: &crate::analysis::exact::Settings,
+    settings: &crate::analysis::background::Settings,
     config: &Config,
     field: &str,
 ) -> Result<(), AnalysisError> {
@@ -576,7 +579,7 @@ fn refine_exact(
     let deepest = n_stars.iter().copied().fold(0.0f64, f64::max);
     // Start early enough for the lowest k of the tilt stencil to begin k/aH = k_start inside,
     // plus a few e-folds for the approach to the attractor.
-    let margin = settings.k_start.ln() + 2.0 * crate::analysis::exact::TILT_STEP + 4.0;
+    let margin = settings.k_start.ln() + 2.0 * crate::analysis::perturbations::TILT_STEP + 4.0;
     let mut phi_at = |n: f64| -> Result<f64, AnalysisError> {
         phi_stars(ev, b, phi_end, &[n], config, field)
             .map(|v| v[0])
@@ -591,8 +594,8 @@ fn refine_exact(
                 )
             })
     };
-    let (_, run) = crate::analysis::exact::start_with_room(model, deepest + margin, settings, &mut phi_at)?;
-    let points = crate::analysis::exact::observe(model, &run, &n_stars, settings)?;
+    let (_, run) = crate::analysis::background::start_with_room(model, deepest + margin, settings, &mut phi_at)?;
+    let points = crate::analysis::perturbations::observe(model, &run, &n_stars, settings)?;
     let data = &opts.data;
     let mp = data.units.reduced_planck_mass_gev;
     let mut map = CanonicalMap::new(model, phi_end, config);
@@ -769,8 +772,9 @@ pub fn text(rep: &Report) -> String {
         row("pole alone: r", opt(&|x| x.pole_only.map(|q| q.r)));
     }
     if p.iter().any(|x| x.exact.is_some()) {
-        let ex =
-            |g: &dyn Fn(&crate::analysis::exact::ExactExtras) -> f64| opt(&|x: &Prediction| x.exact.as_ref().map(g));
+        let ex = |g: &dyn Fn(&crate::analysis::perturbations::ExactExtras) -> f64| {
+            opt(&|x: &Prediction| x.exact.as_ref().map(g))
+        };
         row("slow roll: n_s", ex(&|e| e.n_s_slow_roll));
         row("slow roll: r", ex(&|e| e.r_slow_roll));
         row(&format!("slow roll: {f}_end"), ex(&|e| e.phi_end_slow_roll));

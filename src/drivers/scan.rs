@@ -2,7 +2,7 @@
 //! every point a full prediction, run in parallel; shards for batch systems and their merge;
 //! the n_s–r figure.
 
-use crate::analysis::single::canonical::AnalysisError;
+use crate::analysis::error::AnalysisError;
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::predict::{predict, Options, Prediction, CSV_KEYS};

@@ -4,3 +4,4 @@
 pub mod numfmt;
 pub mod output;
 pub mod plot;
+pub mod spectrum;

@@ -1,0 +1,281 @@
+//! The exact background in e-folds, for L = 1/2 K (d phi)^2 - V, with the canonical velocity
+//! pi = sqrt(K) dphi/dN (N counts e-folds forward in time). Reduced Planck units (M_p = 1).
+//!
+//! ```text
+//! dphi/dN = pi / sqrt(K),   dpi/dN = -(3 - eps_H) (pi + V_chi / V),
+//! eps_H = pi^2 / 2,   H^2 = V / (3 - eps_H),   V_chi = V_phi / sqrt(K).
+//! ```
+
+use crate::analysis::error::fail;
+use crate::analysis::error::AnalysisError;
+use crate::language::tape::Evaluator;
+use crate::model::{Model, OUT_DV, OUT_SQRT_K};
+use crate::numerics::ode::{integrate, Options as OdeOptions};
+use serde::Serialize;
+
+/// Settings of the exact solver, with their defaults.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Settings {
+    /// Modes start when k/aH reaches this (deep inside the horizon). Default 100; the initial
+    /// conditions carry the first two terms of the Hankel asymptotic series, so the start
+    /// changes P by well under 1e-5 (tested against 1000).
+    pub k_start: f64,
+    /// Modes stop when k/aH falls to this (far outside). Default 1e-4: the frozen amplitude
+    /// is reached up to O((k/aH)^2).
+    pub k_stop: f64,
+    /// The largest relative change of P allowed over the last e-fold before the stop: the
+    /// check that the amplitude has frozen. Default 1e-5.
+    pub freeze_tol: f64,
+    /// Integrator tolerances for the modes and the background.
+    pub ode: OdeOptions,
+    /// Start the background here, (phi, dphi/dN), instead of on the slow-roll attractor well
+    /// before the pivot; dphi/dN `None` takes the attractor's velocity at phi.
+    pub start: Option<(f64, Option<f64>)>,
+}
+
+impl Default for Settings {
+    fn default() -> Self {
+        Settings {
+            k_start: 100.0,
+            k_stop: 1e-4,
+            freeze_tol: 1e-5,
+            start: None,
+            ode: OdeOptions {
+                rtol: 1e-10,
+                atol: 1e-300,
+                h_max: 0.05,
+                max_steps: 500_000,
+            },
+        }
+    }
+}
+
+/// The background state: (phi, pi).
+pub type State = [f64; 2];
+
+/// The exact background's right-hand side, and what derives from it.
+pub struct Background<'m> {
+    ev: std::cell::RefCell<Evaluator<'m>>,
+}
+
+/// Derived quantities at a point of the background.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Point {
+    /// V.
+    pub v: f64,
+    /// eps_H = pi^2 / 2.
+    pub eps_h: f64,
+    /// H.
+    pub h: f64,
+    /// dphi/dN.
+    pub dphi: f64,
+    /// dpi/dN.
+    pub dpi: f64,
+}
+
+impl<'m> Background<'m> {
+    /// For a model.
+    pub fn new(model: &'m Model) -> Background<'m> {
+        Background {
+            ev: std::cell::RefCell::new(model.evaluator()),
+        }
+    }
+
+    /// V, eps_H, H and the derivatives at a state.
+    pub fn point(&self, y: &State) -> Point {
+        let mut ev = self.ev.borrow_mut();
+        let v = ev.eval(y[0]);
+        let (v1, s) = (ev.output(OUT_DV), ev.output(OUT_SQRT_K));
+        let pi = y[1];
+        let eps = 0.5 * pi * pi;
+        let v_chi = v1 / s;
+        Point {
+            v,
+            eps_h: eps,
+            h: (v / (3.0 - eps)).sqrt(),
+            dphi: pi / s,
+            dpi: -(3.0 - eps) * (pi + v_chi / v),
+        }
+    }
+
+    /// The slow-roll attractor's velocity at phi: pi = -V_chi / V.
+    pub fn attractor(&self, phi: f64) -> f64 {
+        let mut ev = self.ev.borrow_mut();
+        let v = ev.eval(phi);
+        // V and V_phi scaled by the same exact power of two: the same bits, and no underflow
+        // of sqrt(K) V for a tiny V.
+        let f = crate::numerics::pow2_normaliser(v);
+        -(ev.output(OUT_DV) * f) / (ev.output(OUT_SQRT_K) * (v * f))
+    }
+}
+
+/// A background run: where it started, the exact end (eps_H = 1), and checkpoints (N, state)
+/// at every accepted step for restarting the modes.
+#[derive(Debug, Clone)]
+pub struct Run {
+    /// The starting state (N = 0).
+    pub start: State,
+    /// N at the end of inflation (eps_H = 1), if it ends.
+    pub n_end: Option<f64>,
+    /// Checkpoints (N, state), ascending in N.
+    pub checkpoints: Vec<(f64, State)>,
+}
+
+/// Integrates the background from `start` until eps_H = 1 or `n_max` e-folds.
+pub fn run_background(
+    bg: &Background<'_>,
+    start: State,
+    n_max: f64,
+    settings: &Settings,
+) -> Result<Run, AnalysisError> {
+    let mut checkpoints = vec![(0.0, start)];
+    let opts = OdeOptions {
+        h_max: 0.05,
+        ..settings.ode
+    };
+    let sol = integrate(
+        |_, y: &State| {
+            let p = bg.point(y);
+            [p.dphi, p.dpi]
+        },
+        0.0,
+        start,
+        n_max,
+        &opts,
+        |n, y| {
+            checkpoints.push((n, *y));
+            Some(0.5 * y[1] * y[1] - 1.0)
+        },
+    )
+    .map_err(|e| {
+        fail(
+            format!("the background integration failed: {e}"),
+            &["check the potential along the trajectory"],
+        )
+    })?;
+    checkpoints.retain(|c| c.0 <= sol.t);
+    Ok(Run {
+        start,
+        n_end: sol.event.then_some(sol.t),
+        checkpoints,
+    })
+}
+
+/// The background state at N, integrated from the nearest checkpoint below.
+pub fn state_at(bg: &Background<'_>, run: &Run, n: f64, settings: &Settings) -> Result<State, AnalysisError> {
+    let i = run.checkpoints.partition_point(|c| c.0 <= n).saturating_sub(1);
+    let (n0, y0) = run.checkpoints[i];
+    if n0 == n {
+        return Ok(y0);
+    }
+    let sol = integrate(
+        |_, y: &State| {
+            let p = bg.point(y);
+            [p.dphi, p.dpi]
+        },
+        n0,
+        y0,
+        n,
+        &settings.ode,
+        |_, _| None,
+    )
+    .map_err(|e| {
+        fail(
+            format!("the background integration failed: {e}"),
+            &["check the potential along the trajectory"],
+        )
+    })?;
+    Ok(sol.y)
+}
+
+/// A start given by the user must lie inside the domain (beyond a pole of K, or where K <= 0
+/// or V is not finite, there is no background to integrate).
+fn check_start(model: &Model, phi: f64) -> Result<(), AnalysisError> {
+    let domain = crate::analysis::single::domain::find_domain(model, &mut model.evaluator())?;
+    let iv = domain.interval;
+    if iv.contains(phi) {
+        return Ok(());
+    }
+    let f = model.field();
+    let n = crate::report::numfmt::number;
+    Err(fail(
+        format!(
+            "the start {f} = {} lies outside the domain {} < {f} < {} (lower end: {}; upper end: {})",
+            n(phi),
+            n(iv.lo),
+            n(iv.hi),
+            iv.lo_kind.words(),
+            iv.hi_kind.words()
+        ),
+        &[
+            "start inside the domain, on the branch you want (`efold inspect` shows the domain)",
+            "or leave out --start-phi to start on the slow-roll attractor",
+        ],
+    ))
+}
+
+/// Starts the exact background on the slow-roll attractor with at least `n_needed` exact
+/// e-folds before its end. `phi_at(N)` gives the slow-roll field value N e-folds before the
+/// slow-roll end; where slow roll overestimates the e-folds (an ultra-slow-roll stretch is
+/// crossed faster than slow roll says), the start moves up by the shortfall and tries again.
+pub fn start_with_room(
+    model: &Model,
+    n_needed: f64,
+    settings: &Settings,
+    phi_at: &mut dyn FnMut(f64) -> Result<f64, AnalysisError>,
+) -> Result<(f64, Run), AnalysisError> {
+    let bg = Background::new(model);
+    if let Some((phi, velocity)) = settings.start {
+        check_start(model, phi)?;
+        let pi = match velocity {
+            Some(dphi) => {
+                let mut ev = model.evaluator();
+                ev.eval(phi);
+                dphi * ev.output(OUT_SQRT_K)
+            }
+            None => bg.attractor(phi),
+        };
+        let run = run_background(&bg, [phi, pi], 10_000.0, settings)?;
+        return match run.n_end {
+            Some(n) if n >= n_needed => Ok((phi, run)),
+            Some(n) => Err(fail(
+                format!(
+                    "starting at phi = {} gives {} e-folds before the end, fewer than the {} needed",
+                    crate::report::numfmt::typed(phi),
+                    crate::report::numfmt::number(n),
+                    crate::report::numfmt::number(n_needed)
+                ),
+                &["start further up the potential, or ask for fewer e-folds or a smaller k range"],
+            )),
+            None => Err(fail(
+                format!(
+                    "starting at phi = {}, inflation does not end (eps_H never reaches 1)",
+                    crate::report::numfmt::typed(phi)
+                ),
+                &["check the start and the potential"],
+            )),
+        };
+    }
+    let mut ask = n_needed;
+    for _ in 0..6 {
+        let phi_start = phi_at(ask)?;
+        let run = run_background(&bg, [phi_start, bg.attractor(phi_start)], 10_000.0, settings)?;
+        match run.n_end {
+            Some(n) if n >= n_needed => return Ok((phi_start, run)),
+            Some(n) => ask += (n_needed - n) + 2.0,
+            None => {
+                return Err(fail(
+                    "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
+                    &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
+                ))
+            }
+        }
+    }
+    Err(fail(
+        format!(
+            "could not start the exact background {} e-folds before its end",
+            crate::report::numfmt::number(n_needed)
+        ),
+        &["ask for fewer e-folds, or a smaller k range"],
+    ))
+}

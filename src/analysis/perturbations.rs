@@ -1,0 +1,376 @@
+//! The Mukhanov–Sasaki equations for the scalar and tensor modes on the exact background
+//! ([`crate::analysis::background`]). Reduced Planck units (M_p = 1).
+//!
+//! Modes, with R the comoving curvature perturbation and h a tensor polarisation,
+//! eps_1 = eps_H, eps_2 = d ln eps_1 / dN = 2 (dpi/dN) / pi:
+//!
+//! ```text
+//! R'' + (3 + eps_2 - eps_1) R' + (k/aH)^2 R = 0,     h'' + (3 - eps_1) h' + (k/aH)^2 h = 0,
+//! ```
+//!
+//! from the Mukhanov–Sasaki equation v'' + (k^2 - z''/z) v = 0 in conformal time with
+//! v = z R, z = a dchi/dN, and its tensor analogue v_t = a h / 2. Bunch–Davies initial
+//! conditions v = exp(-i k tau)/sqrt(2k) deep inside the horizon; P_R = k^3 |R|^2 / (2 pi^2),
+//! P_t = 2 k^3 |h|^2 / (2 pi^2) (two polarisations) once frozen.
+//!
+//! Wavenumbers are measured against the pivot: a = 1 when the pivot exits, k = kappa a_* H_*,
+//! so kappa = k / k_*.
+
+use crate::analysis::background::{state_at, Background, Run, Settings, State};
+use crate::analysis::error::fail;
+use crate::analysis::error::AnalysisError;
+use crate::model::Model;
+use crate::numerics::ode::integrate;
+use serde::Serialize;
+use std::f64::consts::PI;
+
+/// One mode's frozen power, scalar and tensor, with the freeze check.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ModePower {
+    /// k / k_*.
+    pub kappa: f64,
+    /// P_R.
+    pub p_s: f64,
+    /// P_t.
+    pub p_t: f64,
+    /// N (from the run's start) where k = aH.
+    pub n_cross: f64,
+    /// Relative change of P_R over the last e-fold before the stop.
+    pub drift: f64,
+    /// Integrator steps taken.
+    pub steps: usize,
+}
+
+/// The pivot: N (from the run's start) where it exits, and H there.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Pivot {
+    /// N of the pivot's exit.
+    pub n: f64,
+    /// H at that moment.
+    pub h: f64,
+}
+
+/// Solves one mode, kappa = k / k_*.
+pub fn mode(
+    bg: &Background<'_>,
+    run: &Run,
+    pivot: Pivot,
+    kappa: f64,
+    settings: &Settings,
+) -> Result<ModePower, AnalysisError> {
+    let k = kappa * pivot.h; // a_* = 1
+    let k_over_ah = |n: f64, y: &State| k * (pivot.n - n).exp() / bg.point(y).h;
+    // Find where k/aH = k_start along the background (it decreases with N during inflation).
+    let n_hi = run.n_end.unwrap_or_else(|| run.checkpoints.last().map_or(0.0, |c| c.0));
+    let find = |target: f64| -> Result<(f64, State), AnalysisError> {
+        let idx = run.checkpoints.iter().position(|(n, y)| k_over_ah(*n, y) < target);
+        let Some(j) = idx else {
+            return Err(fail(
+                format!(
+                    "the mode k/k_* = {} never reaches k/aH = {} before the end of inflation",
+                    crate::report::numfmt::number(kappa),
+                    crate::report::numfmt::typed(target)
+                ),
+                &["ask for a smaller k, or fewer e-folds"],
+            ));
+        };
+        if j == 0 {
+            return Err(fail(
+                format!(
+                    "the background starts too late for k/k_* = {} (k/aH is already below {})",
+                    crate::report::numfmt::number(kappa),
+                    crate::report::numfmt::typed(target)
+                ),
+                &["ask for a larger k, or start the background earlier"],
+            ));
+        }
+        let (n0, y0) = run.checkpoints[j - 1];
+        let (n1, _) = run.checkpoints[j];
+        let sol = integrate(
+            |_, y: &State| {
+                let p = bg.point(y);
+                [p.dphi, p.dpi]
+            },
+            n0,
+            y0,
+            n1,
+            &settings.ode,
+            |n, y| Some(k_over_ah(n, y) - target),
+        )
+        .map_err(|e| fail(format!("background integration failed: {e}"), &[]))?;
+        Ok((sol.t, sol.y))
+    };
+    let (n_i, y_i) = find(settings.k_start)?;
+    let n_cross = find(1.0)?.0;
+    let p = bg.point(&y_i);
+    let a = (n_i - pivot.n).exp();
+    let q = k / (a * p.h);
+    let eps2 = 2.0 * p.dpi / y_i[1];
+    let zn = 1.0 + 0.5 * eps2; // z'/z in e-folds
+                               // Bunch–Davies with the first two terms of the Hankel asymptotic series, x = -k tau:
+                               // v = C(x)/sqrt(2k), C = 1 + i mu/(2x) - mu(mu - 2)/(8x^2), mu = z''/z tau^2, with
+                               // -tau = 1/((1 - eps) aH) and z''/z = (aH)^2 ((z'/z)^2 + (1 - eps) z'/z) (eps_2 eps_3 left out).
+    let one_m = 1.0 - p.eps_h;
+    let x = q / one_m;
+    let mu_s = (zn * zn + one_m * zn) / (one_m * one_m);
+    let mu_t = (1.0 + one_m) / (one_m * one_m);
+    let sqrt2k = (2.0 * k).sqrt();
+    // returns (v, dv/dN) as (re, im) pairs
+    let bunch_davies = |mu: f64| -> ((f64, f64), (f64, f64)) {
+        let c = (1.0 - mu * (mu - 2.0) / (8.0 * x * x), mu / (2.0 * x));
+        let dc = (mu * (mu - 2.0) / (4.0 * x * x * x), -mu / (2.0 * x * x));
+        // dv/dN = (dv/dtau)/(aH) = -(k/aH) (i C + C')/sqrt(2k) ... with dx/dtau = -k
+        let ic_plus_dc = (-c.1 + dc.0, c.0 + dc.1);
+        let v = (c.0 / sqrt2k, c.1 / sqrt2k);
+        let dv = (-q * ic_plus_dc.0 / sqrt2k, -q * ic_plus_dc.1 / sqrt2k);
+        (v, dv)
+    };
+    let z = a * y_i[1];
+    let (v, dv) = bunch_davies(mu_s);
+    let r = (v.0 / z, v.1 / z);
+    let dr = (dv.0 / z - r.0 * zn, dv.1 / z - r.1 * zn);
+    let (vt, dvt) = bunch_davies(mu_t);
+    let h = (2.0 * vt.0 / a, 2.0 * vt.1 / a);
+    let dh = (2.0 * dvt.0 / a - h.0, 2.0 * dvt.1 / a - h.1);
+    let start = [y_i[0], y_i[1], r.0, r.1, dr.0, dr.1, h.0, h.1, dh.0, dh.1];
+    let rhs = |n: f64, y: &[f64; 10]| -> [f64; 10] {
+        let st = [y[0], y[1]];
+        let p = bg.point(&st);
+        let q = k * (pivot.n - n).exp() / p.h;
+        let q2 = q * q;
+        let eps2 = 2.0 * p.dpi / y[1];
+        let fr = 3.0 + eps2 - p.eps_h;
+        let ft = 3.0 - p.eps_h;
+        [
+            p.dphi,
+            p.dpi,
+            y[4],
+            y[5],
+            -fr * y[4] - q2 * y[2],
+            -fr * y[5] - q2 * y[3],
+            y[8],
+            y[9],
+            -ft * y[8] - q2 * y[6],
+            -ft * y[9] - q2 * y[7],
+        ]
+    };
+    // Integrate to one e-fold before the stop, then on to the stop, to check the freeze.
+    let leg = |n0: f64, y0: [f64; 10], target: f64| -> Result<(f64, [f64; 10], usize), AnalysisError> {
+        let sol = integrate(rhs, n0, y0, n_hi + 10.0, &settings.ode, |n, y| {
+            Some(k_over_ah(n, &[y[0], y[1]]) - target)
+        })
+        .map_err(|e| {
+            fail(
+                format!(
+                    "the mode k/k_* = {} failed to integrate: {e}",
+                    crate::report::numfmt::number(kappa)
+                ),
+                &[],
+            )
+        })?;
+        if !sol.event {
+            return Err(fail(
+                format!(
+                    "the mode k/k_* = {} does not reach k/aH = {} before inflation ends",
+                    crate::report::numfmt::number(kappa),
+                    crate::report::numfmt::typed(target)
+                ),
+                &["the mode exits too close to the end of inflation: ask for smaller k"],
+            ));
+        }
+        Ok((sol.t, sol.y, sol.steps))
+    };
+    let (n_prev, y_prev, steps_a) = leg(n_i, start, settings.k_stop * std::f64::consts::E)?;
+    let (_, y_stop, steps_b) = leg(n_prev, y_prev, settings.k_stop)?;
+    let steps = steps_a + steps_b;
+    // k scales as sqrt(V): for a tiny or huge overall scale of V, k^3 underflows or overflows
+    // while k^3 |R|^2 (which scales as V) does not. Then k |R|^2 is formed first.
+    let c = k.powi(3) / (2.0 * PI * PI);
+    let c_normal = c.is_normal();
+    let power = |y: &[f64; 10]| {
+        let (rs, rt) = (y[2] * y[2] + y[3] * y[3], y[6] * y[6] + y[7] * y[7]);
+        if c_normal {
+            (c * rs, 2.0 * c * rt)
+        } else {
+            let kk = k * k / (2.0 * PI * PI);
+            ((k * rs) * kk, 2.0 * (k * rt) * kk)
+        }
+    };
+    let (p_s, p_t) = power(&y_stop);
+    let (p_s_prev, _) = power(&y_prev);
+    let drift = ((p_s - p_s_prev) / p_s).abs();
+    if drift > settings.freeze_tol {
+        return Err(fail(
+            format!(
+                "the mode k/k_* = {} has not frozen: P changed by {} over its last e-fold (allowed {})",
+                crate::report::numfmt::number(kappa),
+                crate::report::numfmt::scientific(drift, 2),
+                crate::report::numfmt::typed(settings.freeze_tol)
+            ),
+            &["stop the modes further outside the horizon (a smaller k/aH at the stop)"],
+        ));
+    }
+    Ok(ModePower {
+        kappa,
+        p_s,
+        p_t,
+        n_cross,
+        drift,
+        steps,
+    })
+}
+
+/// H and N at the pivot, `n_star` e-folds before the end of a run.
+pub fn pivot(bg: &Background<'_>, run: &Run, n_star: f64, settings: &Settings) -> Result<Pivot, AnalysisError> {
+    let n_end = run.n_end.ok_or_else(|| {
+        fail(
+            "inflation does not end in the exact background (eps_H never reaches 1)".to_string(),
+            &["the slow-roll end of inflation was not confirmed by the exact solution"],
+        )
+    })?;
+    let n = n_end - n_star;
+    if n <= 0.0 {
+        return Err(fail(
+            format!(
+                "the exact background gives only {} e-folds from its start, fewer than N_* = {}",
+                crate::report::numfmt::number(n_end),
+                crate::report::numfmt::typed(n_star)
+            ),
+            &["start the background earlier"],
+        ));
+    }
+    let y = state_at(bg, run, n, settings)?;
+    Ok(Pivot { n, h: bg.point(&y).h })
+}
+
+/// Spectral index, running and tensor tilt from ln P on five points kappa = exp(j h),
+/// j = -2..2 (five-point stencils, error O(h^4)).
+pub fn tilts(ln_p: &[f64; 5], h: f64) -> (f64, f64) {
+    let d1 = (ln_p[0] - 8.0 * ln_p[1] + 8.0 * ln_p[3] - ln_p[4]) / (12.0 * h);
+    let d2 = (-ln_p[0] + 16.0 * ln_p[1] - 30.0 * ln_p[2] + 16.0 * ln_p[3] - ln_p[4]) / (12.0 * h * h);
+    (d1, d2)
+}
+
+/// What the exact route adds to a prediction at one N_*.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ExactExtras {
+    /// Total e-folds of the exact background from its start to its end.
+    pub n_total: f64,
+    /// phi at eps_V = 1 (the slow-roll end), beside `phi_end` (eps_H = 1).
+    pub phi_end_slow_roll: f64,
+    /// phi_* of the slow-roll route at the same N_*.
+    pub phi_star_slow_roll: f64,
+    /// n_s of the slow-roll route (first order, or second with --second-order).
+    pub n_s_slow_roll: f64,
+    /// r of the slow-roll route.
+    pub r_slow_roll: f64,
+    /// Hubble-flow parameters at the pivot's exit, from the exact background.
+    pub eps_1: f64,
+    /// eps_2 = d ln eps_1 / dN.
+    pub eps_2: f64,
+    /// eps_3 = d ln eps_2 / dN.
+    pub eps_3: f64,
+    /// n_s from the second-order formulas with these eps_i.
+    pub n_s_second_order: f64,
+    /// r from the second-order formulas.
+    pub r_second_order: f64,
+    /// n_t from the second-order formulas.
+    pub n_t_second_order: f64,
+    /// P_R at the pivot for the potential as written.
+    pub p_s_unscaled: f64,
+    /// The largest relative change of P over the last e-fold before the stop (freeze check).
+    pub freeze_drift: f64,
+}
+
+/// The exact observables at one N_*.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ExactPoint {
+    /// N_*.
+    pub n_star: f64,
+    /// phi at the pivot's exit.
+    pub phi_star: f64,
+    /// phi at eps_H = 1.
+    pub phi_end: f64,
+    /// n_s from the spectrum.
+    pub n_s: f64,
+    /// r = P_t / P_R at the pivot.
+    pub r: f64,
+    /// dn_s / dln k.
+    pub alpha_s: f64,
+    /// n_t.
+    pub n_t: f64,
+    /// Extras.
+    pub extras: ExactExtras,
+}
+
+/// Step in ln k of the five-point stencils for the tilts.
+pub const TILT_STEP: f64 = 0.05;
+
+/// Exact observables for each N_*: the background starts on the slow-roll attractor at the
+/// slow-roll field value `phi_start` (enough e-folds before the end for every mode), runs to
+/// eps_H = 1, and the modes around each pivot give the tilts.
+pub fn observe(
+    model: &Model,
+    run: &Run,
+    n_stars: &[f64],
+    settings: &Settings,
+) -> Result<Vec<ExactPoint>, AnalysisError> {
+    let bg = Background::new(model);
+    let run = run.clone();
+    let n_end = run.n_end.ok_or_else(|| {
+        fail(
+            "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
+            &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
+        )
+    })?;
+    let end = *run.checkpoints.last().map(|c| &c.1).expect("a run has checkpoints");
+    let mut out = Vec::new();
+    for &n_star in n_stars {
+        let piv = pivot(&bg, &run, n_star, settings)?;
+        let modes: Vec<ModePower> = (-2..=2)
+            .map(|j| mode(&bg, &run, piv, (j as f64 * TILT_STEP).exp(), settings))
+            .collect::<Result<_, _>>()?;
+        let ln_s: [f64; 5] = std::array::from_fn(|i| modes[i].p_s.ln());
+        let ln_t: [f64; 5] = std::array::from_fn(|i| modes[i].p_t.ln());
+        let (ns1, run_s) = tilts(&ln_s, TILT_STEP);
+        let (nt, _) = tilts(&ln_t, TILT_STEP);
+        let y = state_at(&bg, &run, piv.n, settings)?;
+        let flow = |n: f64| -> Result<(f64, f64), AnalysisError> {
+            let y = state_at(&bg, &run, n, settings)?;
+            let p = bg.point(&y);
+            Ok((p.eps_h, 2.0 * p.dpi / y[1]))
+        };
+        let (e1, e2) = flow(piv.n)?;
+        let d = 1e-3;
+        let (_, e2m) = flow(piv.n - d)?;
+        let (_, e2p) = flow(piv.n + d)?;
+        let e3 = ((e2p.abs()).ln() - (e2m.abs()).ln()) / (2.0 * d);
+        let second = crate::analysis::slowroll::second_order_from_flow(e1, e2, e2 * e3);
+        let (ns2, r2, nt2) = (second.n_s, second.r, second.n_t);
+        out.push(ExactPoint {
+            n_star,
+            phi_star: y[0],
+            phi_end: end[0],
+            n_s: 1.0 + ns1,
+            r: modes[2].p_t / modes[2].p_s,
+            alpha_s: run_s,
+            n_t: nt,
+            extras: ExactExtras {
+                n_total: n_end,
+                phi_end_slow_roll: f64::NAN,
+                phi_star_slow_roll: f64::NAN,
+                n_s_slow_roll: f64::NAN,
+                r_slow_roll: f64::NAN,
+                eps_1: e1,
+                eps_2: e2,
+                eps_3: e3,
+                n_s_second_order: ns2,
+                r_second_order: r2,
+                n_t_second_order: nt2,
+                p_s_unscaled: modes[2].p_s,
+                freeze_drift: modes.iter().map(|m| m.drift).fold(0.0, f64::max),
+            },
+        });
+    }
+    Ok(out)
+}

@@ -1,0 +1,34 @@
+//! `fit`: parameters that reach target observables.
+
+use crate::cli::*;
+use crate::config::Config;
+use crate::diag::Diagnostic;
+
+pub(crate) fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
+    check_efolds_values("--efolds", &[a.efolds])?;
+    let model = load_model(
+        &a.model,
+        "efold fit models/pole-order-2-quadratic.toml --free alpha --target r=0.01",
+        config,
+    )?;
+    let data = load_data(&a.data)?;
+    let targets = a
+        .targets
+        .iter()
+        .map(|t| crate::drivers::fit::Target::parse(t))
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(|e| Failure::from(Diagnostic::new(e)))?;
+    let f = crate::drivers::fit::fit(
+        &model.spec,
+        &a.free,
+        &targets,
+        a.efolds,
+        &data,
+        config,
+        &Default::default(),
+    )?;
+    Ok(match a.format {
+        Format::Json => format!("{}\n", serde_json::to_string_pretty(&f).expect("serialisable")),
+        Format::Text => crate::drivers::fit::text(&f),
+    })
+}
