@@ -9,7 +9,7 @@
 use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
 use crate::language::tape::Evaluator;
-use crate::model::{Model, OUT_DV, OUT_SQRT_K};
+use crate::model::{Layout, Model};
 use crate::numerics::ode::{integrate, Options as OdeOptions};
 use serde::Serialize;
 
@@ -56,6 +56,7 @@ pub type State = [f64; 2];
 /// The exact background's right-hand side, and what derives from it.
 pub struct Background<'m> {
     ev: std::cell::RefCell<Evaluator<'m>>,
+    out: Layout,
 }
 
 /// Derived quantities at a point of the background.
@@ -78,6 +79,7 @@ impl<'m> Background<'m> {
     pub fn new(model: &'m Model) -> Background<'m> {
         Background {
             ev: std::cell::RefCell::new(model.evaluator()),
+            out: model.layout(),
         }
     }
 
@@ -85,7 +87,7 @@ impl<'m> Background<'m> {
     pub fn point(&self, y: &State) -> Point {
         let mut ev = self.ev.borrow_mut();
         let v = ev.eval(y[0]);
-        let (v1, s) = (ev.output(OUT_DV), ev.output(OUT_SQRT_K));
+        let (v1, s) = (ev.output(self.out.dv()), ev.output(self.out.sqrt_k()));
         let pi = y[1];
         let eps = 0.5 * pi * pi;
         let v_chi = v1 / s;
@@ -105,7 +107,7 @@ impl<'m> Background<'m> {
         // V and V_phi scaled by the same exact power of two: the same bits, and no underflow
         // of sqrt(K) V for a tiny V.
         let f = crate::numerics::pow2_normaliser(v);
-        -(ev.output(OUT_DV) * f) / (ev.output(OUT_SQRT_K) * (v * f))
+        -(ev.output(self.out.dv()) * f) / (ev.output(self.out.sqrt_k()) * (v * f))
     }
 }
 
@@ -231,7 +233,7 @@ pub fn start_with_room(
             Some(dphi) => {
                 let mut ev = model.evaluator();
                 ev.eval(phi);
-                dphi * ev.output(OUT_SQRT_K)
+                dphi * ev.output(model.layout().sqrt_k())
             }
             None => bg.attractor(phi),
         };

@@ -21,11 +21,14 @@ use crate::analysis::single::canonical::chi_derivatives_normalised;
 use crate::config::Config;
 use crate::language::tape::Evaluator;
 use crate::language::tape::BATCH;
-use crate::model::{OUT_DV, OUT_K, OUT_SQRT_K, OUT_V};
+use crate::model::Layout;
 use crate::numerics::quad::gauss_kronrod_batch;
 use crate::numerics::roots::brent;
 use crate::numerics::NumericError;
 use serde::Serialize;
+
+/// Where the one-field evaluators this module takes hold V, K, sqrt(K) and dV/dphi.
+const OUT: Layout = Layout::ONE_FIELD;
 
 /// The potential slow-roll parameters at one field value.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -140,7 +143,7 @@ pub fn end_of_inflation(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Resu
         if i % BATCH == 0 {
             vals.clear();
             ev.eval_each(&pts[i..(i + BATCH).min(pts.len())], |_, out| {
-                vals.push(eps_from_outputs(out[OUT_V], out[OUT_DV], out[OUT_SQRT_K]))
+                vals.push(eps_from_outputs(out[OUT.v()], out[OUT.dv()], out[OUT.sqrt_k()]))
             });
         }
         let (v, e) = vals[i % BATCH];
@@ -171,7 +174,7 @@ pub fn end_of_inflation(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Resu
 /// (V, eps_V) at `x`, from V, dV/dphi and sqrt(K).
 pub fn eps_first_order(ev: &mut Evaluator<'_>, x: f64) -> (f64, f64) {
     let v = ev.eval(x);
-    eps_from_outputs(v, ev.output(OUT_DV), ev.output(OUT_SQRT_K))
+    eps_from_outputs(v, ev.output(OUT.dv()), ev.output(OUT.sqrt_k()))
 }
 
 /// (V, eps_V) from V, dV/dphi and sqrt(K): eps_V = (V_phi / (sqrt(K) V))^2 / 2.
@@ -272,7 +275,7 @@ fn end_before_zero_of_v(ev: &mut Evaluator<'_>, xa: f64, xb: f64) -> Option<f64>
     let x0 = brent(
         |t| {
             ev.eval(t);
-            ev.output(OUT_V)
+            ev.output(OUT.v())
         },
         xa,
         xb,
@@ -310,14 +313,18 @@ fn fmt_end(x: f64) -> String {
 fn dn_dphi(ev: &mut Evaluator<'_>, x: f64) -> f64 {
     let v = ev.eval(x);
     let f = crate::numerics::pow2_normaliser(v);
-    (v * f) * ev.output(OUT_K) / (ev.output(OUT_DV) * f)
+    (v * f) * ev.output(OUT.k()) / (ev.output(OUT.dv()) * f)
 }
 
 /// [`dn_dphi`] at up to [`BATCH`] points (the 15 nodes of a quadrature panel), with the
 /// same operations point by point.
 fn dn_dphi_batch(ev: &mut Evaluator<'_>, xs: &[f64], out: &mut [f64]) {
     ev.eval_batch(xs);
-    let (v, k, dv) = (ev.batch_output(OUT_V), ev.batch_output(OUT_K), ev.batch_output(OUT_DV));
+    let (v, k, dv) = (
+        ev.batch_output(OUT.v()),
+        ev.batch_output(OUT.k()),
+        ev.batch_output(OUT.dv()),
+    );
     for j in 0..xs.len() {
         // Scaled as in `dn_dphi`: the same bits, and no underflow of V K for a tiny V.
         let f = crate::numerics::pow2_normaliser(v[j]);

@@ -260,7 +260,7 @@ pub(crate) fn check_start(phi: Option<f64>, velocity: Option<f64>) -> Result<(),
 pub(crate) fn check_start_velocity(model: &crate::model::Model, phi: f64, v: f64) -> Result<(), Failure> {
     let mut ev = model.evaluator();
     let pot = ev.eval(phi);
-    let k = ev.output(1);
+    let k = ev.output(model.layout().k());
     if !(pot.is_finite() && k.is_finite() && pot > 0.0 && k > 0.0) {
         return Ok(()); // a start outside the model's domain is the exact route's own error
     }

@@ -4,9 +4,12 @@
 
 use crate::analysis::single::domain::Interval;
 use crate::language::tape::Evaluator;
-use crate::model::{OUT_DV, OUT_V};
+use crate::model::Layout;
 use crate::numerics::roots::brent;
 use serde::Serialize;
+
+/// Where the one-field evaluators this module takes hold V, K, sqrt(K) and dV/dphi.
+const OUT: Layout = Layout::ONE_FIELD;
 
 /// A stretch of field space along which V is monotonic: the field rolls from `top` down to
 /// `bottom`.
@@ -161,7 +164,9 @@ fn crowded(signs: &[f64]) -> Vec<usize> {
 pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
     let mut pts = sample_points(iv.lo, iv.hi);
     let mut signs = vec![0.0; pts.len()];
-    ev.eval_each(&pts, |i, out| signs[i] = slope_sign(pts[i], out[OUT_V], out[OUT_DV]));
+    ev.eval_each(&pts, |i, out| {
+        signs[i] = slope_sign(pts[i], out[OUT.v()], out[OUT.dv()])
+    });
     let mut hidden = crowded(&signs);
     for _ in 0..3 {
         if hidden.is_empty() {
@@ -179,7 +184,7 @@ pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
         mids.sort_by(f64::total_cmp);
         mids.dedup();
         let mut ms = vec![0.0; mids.len()];
-        ev.eval_each(&mids, |i, out| ms[i] = slope_sign(mids[i], out[OUT_V], out[OUT_DV]));
+        ev.eval_each(&mids, |i, out| ms[i] = slope_sign(mids[i], out[OUT.v()], out[OUT.dv()]));
         let mut merged: Vec<(f64, f64)> = Vec::with_capacity(pts.len() + mids.len());
         let (mut i, mut j) = (0, 0);
         while i < pts.len() || j < mids.len() {
@@ -202,7 +207,7 @@ pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
     };
     let mut dv = |x: f64| {
         ev.eval(x);
-        ev.output(OUT_DV)
+        ev.output(OUT.dv())
     };
     // Sign changes between consecutive significant samples, refined by Brent on V'; with the
     // half-width of the samples around each.

@@ -5,10 +5,13 @@
 use crate::analysis::single::domain::sqrt_k_batch;
 use crate::config::Config;
 use crate::language::tape::{Evaluator, Jet, JET_LEN};
-use crate::model::{Model, OUT_SQRT_K, OUT_V};
+use crate::model::{Layout, Model};
 use crate::numerics::quad::{gauss_kronrod_batch, tanh_sinh};
 use crate::numerics::roots::safeguarded_newton;
 use crate::numerics::{Estimate, NumericError};
+
+/// Where the one-field evaluators this module takes hold V, K, sqrt(K) and dV/dphi.
+const OUT: Layout = Layout::ONE_FIELD;
 
 /// V and its first four derivatives with respect to chi, at a point: `[V, V_chi, V_chichi,
 /// V_chichichi, V_chi^4]`, from the jets of V and sqrt(K) by the chain rule
@@ -16,8 +19,8 @@ use crate::numerics::{Estimate, NumericError};
 pub fn chi_derivatives(ev: &mut Evaluator<'_>, phi: f64, order: usize) -> [f64; 5] {
     let order = order.min(4);
     ev.eval_jet(phi, order);
-    let v = *ev.jet_output(OUT_V);
-    let s = *ev.jet_output(OUT_SQRT_K);
+    let v = *ev.jet_output(OUT.v());
+    let s = *ev.jet_output(OUT.sqrt_k());
     chain_rule(&v, &s, order)
 }
 
@@ -29,8 +32,8 @@ pub fn chi_derivatives(ev: &mut Evaluator<'_>, phi: f64, order: usize) -> [f64; 
 pub fn chi_derivatives_normalised(ev: &mut Evaluator<'_>, phi: f64, order: usize) -> ([f64; 5], f64) {
     let order = order.min(4);
     ev.eval_jet(phi, order);
-    let mut v = *ev.jet_output(OUT_V);
-    let s = *ev.jet_output(OUT_SQRT_K);
+    let mut v = *ev.jet_output(OUT.v());
+    let s = *ev.jet_output(OUT.sqrt_k());
     let factor = crate::numerics::pow2_normaliser(v[0]);
     for c in v.iter_mut() {
         *c *= factor;
@@ -103,7 +106,7 @@ impl<'m> CanonicalMap<'m> {
         let r = tanh_sinh(
             |x, _| {
                 ev.eval(x);
-                ev.output(OUT_SQRT_K)
+                ev.output(OUT.sqrt_k())
             },
             a,
             b,
@@ -155,7 +158,7 @@ impl<'m> CanonicalMap<'m> {
             let r = gauss_kronrod_batch(|ts, ys| sqrt_k_batch(ev, ts, ys), base, x, &tol);
             let c = r.map(|e| e.value).unwrap_or(f64::NAN);
             ev.eval(x);
-            (chi_base + c - target, ev.output(OUT_SQRT_K))
+            (chi_base + c - target, ev.output(OUT.sqrt_k()))
         };
         safeguarded_newton(
             &mut chi_at,

@@ -4,9 +4,12 @@
 
 use crate::analysis::error::AnalysisError;
 use crate::language::tape::Evaluator;
-use crate::model::{Model, OUT_DV, OUT_K, OUT_SQRT_K, OUT_V};
+use crate::model::{Layout, Model};
 use crate::numerics::roots::brent;
 use serde::Serialize;
+
+/// Where the one-field evaluators this module takes hold V, K, sqrt(K) and dV/dphi.
+const OUT: Layout = Layout::ONE_FIELD;
 
 /// How an end of the field interval comes about.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -94,7 +97,7 @@ enum Status {
 
 fn status(ev: &mut Evaluator<'_>, x: f64) -> Status {
     let v = ev.eval(x);
-    classify_status(v, ev.output(OUT_K))
+    classify_status(v, ev.output(OUT.k()))
 }
 
 fn classify_status(v: f64, k: f64) -> Status {
@@ -190,7 +193,7 @@ fn bisect_sign(mut g: impl FnMut(f64) -> f64, mut a: f64, mut b: f64) -> Option<
 /// sqrt(K) at up to [`crate::language::tape::BATCH`] points: the integrand of chi(phi).
 pub(crate) fn sqrt_k_batch(ev: &mut Evaluator<'_>, xs: &[f64], out: &mut [f64]) {
     ev.eval_batch(xs);
-    out[..xs.len()].copy_from_slice(ev.batch_output(OUT_SQRT_K));
+    out[..xs.len()].copy_from_slice(ev.batch_output(OUT.sqrt_k()));
 }
 
 /// Finds the domain. With a user range, checks it; otherwise surveys the real line.
@@ -201,7 +204,7 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
     }
     let grid = survey_grid();
     let mut samples = vec![(0.0, 0.0); grid.len()];
-    ev.eval_each(grid, |i, out| samples[i] = (out[OUT_V], out[OUT_K]));
+    ev.eval_each(grid, |i, out| samples[i] = (out[OUT.v()], out[OUT.k()]));
     let st: Vec<Status> = samples.iter().map(|&(v, k)| classify_status(v, k)).collect();
     // Cut points: transitions of status, and hidden poles or zeros of K between good samples.
     let mut cuts: Vec<(f64, EndKind)> = Vec::new();
@@ -304,8 +307,8 @@ fn interior_probe(lo: f64, hi: f64, grid: &[f64]) -> f64 {
 /// x_p; with no consistent finite p the growth is faster than any power (V overflows).
 fn refine_end(ev: &mut Evaluator<'_>, xb: f64, inward: f64, kind: EndKind) -> (f64, EndKind) {
     let out = match kind {
-        EndKind::Pole => OUT_K,
-        EndKind::VSingular => OUT_V,
+        EndKind::Pole => OUT.k(),
+        EndKind::VSingular => OUT.v(),
         _ => return (xb, kind),
     };
     let w = 1e-6 * xb.abs().max(1.0);
@@ -354,7 +357,7 @@ fn end_kind_beyond(ev: &mut Evaluator<'_>, x: f64, beyond: f64, st: Status) -> E
             // K -> 0 continuously (a zero), or K -> +inf then negative (an odd pole)?
             let inside = x + (x - beyond) * 1e-6;
             ev.eval(inside);
-            let k = ev.output(OUT_K);
+            let k = ev.output(OUT.k());
             if k > 1e6 {
                 EndKind::Pole
             } else if k < 1e-6 {
@@ -374,7 +377,7 @@ fn hidden_singularity(ev: &mut Evaluator<'_>, x: [f64; 3], k: [f64; 3]) -> Optio
     let [ka, km, kb] = k;
     let dk = |ev: &mut Evaluator<'_>, x: f64| {
         ev.eval_jet(x, 1);
-        let j = ev.jet_output(OUT_K);
+        let j = ev.jet_output(OUT.k());
         (j[0], j[1])
     };
     if km > ka && km > kb {
@@ -396,7 +399,7 @@ fn hidden_singularity(ev: &mut Evaluator<'_>, x: [f64; 3], k: [f64; 3]) -> Optio
         .ok()?
         .value;
         ev.eval(x);
-        let kx = ev.output(OUT_K);
+        let kx = ev.output(OUT.k());
         if !kx.is_finite() || kx > 1e12 * ka.max(kb) {
             return Some((x, EndKind::Pole));
         }
@@ -405,7 +408,7 @@ fn hidden_singularity(ev: &mut Evaluator<'_>, x: [f64; 3], k: [f64; 3]) -> Optio
             .ok()?
             .value;
         ev.eval(x);
-        let kx = ev.output(OUT_K);
+        let kx = ev.output(OUT.k());
         if kx <= 1e-12 * ka.max(kb) {
             return Some((x, EndKind::ZeroOfK));
         }
@@ -426,7 +429,7 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
     };
     let probes: Vec<f64> = (1..256).map(|i| map(i as f64 / 256.0)).collect();
     let mut vk = vec![(0.0, 0.0); probes.len()];
-    ev.eval_each(&probes, |i, out| vk[i] = (out[OUT_V], out[OUT_K]));
+    ev.eval_each(&probes, |i, out| vk[i] = (out[OUT.v()], out[OUT.k()]));
     // Toward an infinite end, V or K may leave double precision (V0 (1 - exp(-b phi))^2 at
     // phi -> -inf): the end is then where they do, of the kind the survey gives it.
     let ends = overflowing_ends(ev, lo, hi, &probes, &vk);
@@ -472,7 +475,7 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
             Status::Good => {}
             s => {
                 ev.eval(x);
-                let k = ev.output(OUT_K);
+                let k = ev.output(OUT.k());
                 let what = match s {
                     Status::KNonPositive if k == 0.0 => format!("K = 0 at {field} = {x} inside the range"),
                     Status::KNonPositive => format!("K = {k} <= 0 at {field} = {x} inside the range"),
@@ -556,7 +559,7 @@ fn probe_end(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -> EndKi
     let (d1, d2) = (1e-7 * w, 1e-5 * w);
     let mut at = |d: f64| {
         let v = ev.eval(end + inward * d);
-        (v.abs(), ev.output(OUT_K))
+        (v.abs(), ev.output(OUT.k()))
     };
     let ((v1, k1), (v2, k2)) = (at(d1), at(d2));
     let power = |f1: f64, f2: f64| (f1 / f2).ln() / (d2 / d1).ln();
@@ -641,7 +644,7 @@ pub fn minimum_of_v(ev: &mut Evaluator<'_>, iv: &Interval) -> Option<f64> {
         pts.retain(|x| iv.contains(*x));
     }
     let mut vd = vec![(f64::NAN, f64::NAN); pts.len()];
-    ev.eval_each(&pts, |i, out| vd[i] = (out[OUT_V], out[OUT_DV]));
+    ev.eval_each(&pts, |i, out| vd[i] = (out[OUT.v()], out[OUT.dv()]));
     let resolved = |v: f64, d: f64| v.is_finite() && v.abs() < V_RESOLVED && d.is_finite();
     // The sign of V' where it is significant against the rounding of V (as for branches).
     let sign = |x: f64, v: f64, d: f64| -> f64 {
@@ -654,7 +657,7 @@ pub fn minimum_of_v(ev: &mut Evaluator<'_>, iv: &Interval) -> Option<f64> {
     let signs: Vec<f64> = pts.iter().zip(&vd).map(|(&x, &(v, d))| sign(x, v, d)).collect();
     let mut dv = |x: f64| {
         ev.eval(x);
-        ev.output(OUT_DV)
+        ev.output(OUT.dv())
     };
     let mut cands: Vec<f64> = Vec::new();
     let mut prev: Option<usize> = None;

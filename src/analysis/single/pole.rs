@@ -3,8 +3,11 @@
 //! alone. Units: reduced Planck units (M_p = 1).
 
 use crate::language::tape::Evaluator;
-use crate::model::{OUT_K, OUT_V};
+use crate::model::Layout;
 use serde::Serialize;
+
+/// Where the one-field evaluators this module takes hold V, K, sqrt(K) and dV/dphi.
+const OUT: Layout = Layout::ONE_FIELD;
 
 /// A pole of K at a finite end of the domain: K ~ residue / |phi - phi_p|^order.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -128,7 +131,7 @@ fn round_half(x: f64) -> f64 {
 /// m: V grows without bound toward the pole).
 fn flatness_at_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, w: f64) -> Option<(f64, f64, f64)> {
     ev.eval_jet(end, crate::language::tape::MAX_ORDER);
-    let jet = *ev.jet_output(OUT_V);
+    let jet = *ev.jet_output(OUT.v());
     let v_p = jet[0];
     if jet.iter().all(|c| c.is_finite()) && v_p != 0.0 {
         let scale: f64 = (1..jet.len())
@@ -138,7 +141,7 @@ fn flatness_at_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, w: f64) -> Op
         if let Some(m) = first {
             let c = if m == 1 {
                 ev.eval_jet(end + inward * 1e-9 * w, 1);
-                let v = ev.jet_output(OUT_V);
+                let v = ev.jet_output(OUT.v());
                 -inward * v[1] / v[0]
             } else {
                 -jet[m] * inward.powi(m as i32) / v_p
@@ -150,7 +153,7 @@ fn flatness_at_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, w: f64) -> Op
     // Not analytic at the pole: measure the local power, and V_p = V - rho V_rho / m.
     let local = |ev: &mut Evaluator<'_>, d: f64| {
         ev.eval_jet(end + inward * d, 2);
-        let j = ev.jet_output(OUT_V);
+        let j = ev.jet_output(OUT.v());
         let (v, v1, v2) = (j[0], inward * j[1], 2.0 * j[2]);
         (1.0 + d * v2 / v1, v, v1)
     };
@@ -182,7 +185,7 @@ pub fn analyse_pole(ev: &mut Evaluator<'_>, end: f64, inward: f64, width: f64) -
     let at = |ev: &mut Evaluator<'_>, d: f64| {
         let x = end + inward * d;
         ev.eval_jet(x, 1);
-        let j = ev.jet_output(OUT_K);
+        let j = ev.jet_output(OUT.k());
         // local order -dlnK/dln(rho), rho = inward (x - end)
         (-inward * d * j[1] / j[0], j[0])
     };
