@@ -80,7 +80,9 @@ impl Model {
     /// Rebinds the model to new parameter values without compiling V and K again (the
     /// parameters are inputs of the compiled tape): each `(name, value)` replaces that
     /// parameter's value, then every parameter defined from others, and the range, are resolved
-    /// again. A name the model does not have is an error; the model is then unchanged.
+    /// again. A name the model does not have, or a value that is not finite, is an error; so
+    /// is a new value that leaves a derived parameter or the range without a value. After an
+    /// error the model is unchanged.
     ///
     /// ```
     /// use efold::config::Config;
@@ -100,6 +102,12 @@ impl Model {
                 return Err(ModelError::plain(
                     Diagnostic::new(format!("the model has no parameter `{name}`"))
                         .with_hint("give it in the model's [params] table, or with --param NAME=VALUE"),
+                ));
+            }
+            if !value.is_finite() {
+                return Err(ModelError::plain(
+                    Diagnostic::new(format!("parameter `{name}`: {value} is not a finite number"))
+                        .with_hint("give every parameter a finite value"),
                 ));
             }
             spec.set_param(name, &format!("{value:e}"));
@@ -142,5 +150,86 @@ impl Model {
             .iter()
             .map(String::as_str)
             .zip(self.params.iter().copied())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::ModelSpec;
+
+    /// lambda is defined from m, and the range's upper end is m.
+    fn derived() -> Model {
+        let text = "potential = \"lambda*phi^4\"\n[params]\nm = 2\nlambda = \"m^2/4\"\n\
+                    [settings]\nrange = [\"0\", \"m\"]\n";
+        Model::build(&ModelSpec::from_toml(text, "m.toml").unwrap(), &Config::default()).unwrap()
+    }
+
+    /// Every output at a few points, as bits.
+    fn outputs(m: &Model) -> Vec<u64> {
+        let mut ev = m.evaluator();
+        let mut bits = Vec::new();
+        for phi in [0.25, 1.0, 1.5] {
+            ev.eval_each(&[phi], |_, out| bits.extend(out.iter().map(|x| x.to_bits())));
+        }
+        bits
+    }
+
+    #[test]
+    fn the_tape_has_the_layout_of_one_field() {
+        let m = derived();
+        assert_eq!(m.layout(), Layout::ONE_FIELD);
+        assert_eq!(m.compiled.tape.n_outputs(), m.layout().n_outputs());
+        let mut ev = m.evaluator();
+        // lambda = 1 at m = 2: V = phi^4, K = 1, dV/dphi = 4 phi^3 (own derivation).
+        assert_eq!(ev.eval(1.5), 1.5f64.powi(4));
+        assert_eq!(ev.output(m.layout().k()), 1.0);
+        assert_eq!(ev.output(m.layout().sqrt_k()), 1.0);
+        assert_eq!(ev.output(m.layout().dv()), 4.0 * 1.5f64.powi(3));
+    }
+
+    #[test]
+    fn a_parameter_defined_from_another_follows_a_rebind() {
+        let mut m = derived();
+        let tape = m.compiled.tape.to_string();
+        m.rebind(&[("m", 4.0)], &Config::default()).unwrap();
+        assert_eq!(m.params, vec![4.0, 4.0]); // lambda = m^2/4
+        assert_eq!(m.range, Some((0.0, 4.0)));
+        assert_eq!(m.evaluator().eval(1.0), 4.0);
+        assert_eq!(m.compiled.tape.to_string(), tape, "the tape is not compiled again");
+        // The same numbers as a model built with m = 4 from the start.
+        let mut spec = derived().spec;
+        spec.set_param("m", "4");
+        let fresh = Model::build(&spec, &Config::default()).unwrap();
+        assert_eq!((&fresh.params, fresh.range), (&m.params, m.range));
+        assert_eq!(outputs(&fresh), outputs(&m));
+        // A value that is not a short decimal comes through exactly.
+        m.rebind(&[("m", 1.0 / 3.0)], &Config::default()).unwrap();
+        assert_eq!(m.params, vec![1.0 / 3.0, (1.0 / 3.0) * (1.0 / 3.0) / 4.0]);
+        // Rebinding the derived parameter itself fixes it, whatever m is.
+        m.rebind(&[("lambda", 0.5), ("m", 3.0)], &Config::default()).unwrap();
+        assert_eq!(m.params, vec![3.0, 0.5]);
+    }
+
+    #[test]
+    fn a_failed_rebind_leaves_the_model_unchanged() {
+        let mut m = derived();
+        let before = (m.spec.clone(), m.params.clone(), m.range, outputs(&m));
+        let unchanged = |m: &Model| (m.spec.clone(), m.params.clone(), m.range, outputs(m));
+        // An unknown name, after a known one: nothing is applied.
+        let e = m.rebind(&[("m", 3.0), ("mu", 1.0)], &Config::default()).unwrap_err();
+        assert_eq!(e.to_string(), "the model has no parameter `mu`");
+        assert!(e.render().contains("--param NAME=VALUE"), "{}", e.render());
+        assert_eq!(unchanged(&m), before);
+        // A value that empties the range [0, m].
+        let e = m.rebind(&[("m", -1.0)], &Config::default()).unwrap_err();
+        assert!(e.to_string().contains("the range is empty"), "{e}");
+        assert_eq!(unchanged(&m), before);
+        // A value that is not a finite number.
+        for x in [f64::NAN, f64::INFINITY] {
+            let e = m.rebind(&[("m", x)], &Config::default()).unwrap_err();
+            assert_eq!(e.to_string(), format!("parameter `m`: {x} is not a finite number"));
+            assert_eq!(unchanged(&m), before);
+        }
     }
 }
