@@ -114,9 +114,12 @@ struct RawModel {
     settings: Option<RawSettings>,
 }
 
+/// `range` as written: a list of spanned values.
+type RawRange = toml::Spanned<Vec<toml::Spanned<RawValue>>>;
+
 #[derive(Deserialize)]
 struct RawSettings {
-    range: Option<toml::Spanned<Vec<toml::Spanned<RawValue>>>>,
+    range: Option<RawRange>,
     start: Option<toml::Spanned<String>>,
     efolds: Option<toml::Spanned<Vec<toml::Spanned<f64>>>>,
 }
@@ -290,142 +293,35 @@ impl ModelSpec {
         let table: toml::Table = toml::from_str(text).map_err(|e| toml_error(e, text, file))?;
         check_keys(&table, text, file)?;
         let raw: RawModel = toml::from_str(text).map_err(|e| toml_error(e, text, file))?;
-        let shared: std::sync::Arc<str> = std::sync::Arc::from(text);
-        let origin_of = |s: &toml::Spanned<String>, key: &str| -> Text {
-            let value = s.get_ref().clone();
-            match verbatim_offset(text, s.span(), &value) {
-                Some(offset) => Text {
-                    text: value,
-                    origin: Origin {
-                        name: file.to_string(),
-                        file_text: Some(shared.clone()),
-                        offset,
-                    },
-                },
-                None => Text::inline(&format!("{file}: {key}"), &value),
-            }
+        let reader = Reader {
+            text,
+            file,
+            shared: std::sync::Arc::from(text),
         };
-        let raw_text = |v: &toml::Spanned<RawValue>, key: &str| -> Text {
-            match v.get_ref() {
-                RawValue::Number(x) => Text::inline(&format!("{file}: {key}"), &crate::language::ir::format_number(*x)),
-                RawValue::Text(s) => origin_of(&toml::Spanned::new(v.span(), s.clone()), key),
-            }
-        };
-        let mut params = Vec::new();
-        for (name, value) in &raw.params {
-            check_identifier(name, text, file, Some("params"))?;
-            if let RawValue::Number(x) = value.get_ref() {
-                finite_number(
-                    *x,
-                    value.span(),
-                    &format!("parameter `{name}`"),
-                    "write a finite number, or an expression in quotes such as \"1/3\"",
-                    text,
-                    file,
-                )?;
-            }
-            params.push(ParamSpec {
-                name: name.clone(),
-                value: raw_text(value, &format!("params.{name}")),
-                scan: None,
-            });
-        }
-        for (name, range) in &raw.scan {
-            let Some(p) = params.iter_mut().find(|p| &p.name == name) else {
-                let span = key_span(text, Some("scan"), name).unwrap_or_default();
-                return Err(ModelError::in_file(
-                    Diagnostic::new(format!("scan range for `{name}`, which is not a parameter"))
-                        .with_span(span, "not in [params]")
-                        .with_hint("add it under [params], or remove this range"),
-                    file,
-                    text,
-                ));
-            };
-            p.scan = Some(scan_range(range, text, file)?);
-        }
+        let params = reader.params(&raw.params, &raw.scan)?;
         let settings = raw.settings.unwrap_or(RawSettings {
             range: None,
             start: None,
             efolds: None,
         });
-        let range = match &settings.range {
-            None => None,
-            Some(r) if r.get_ref().len() == 2 => {
-                let v = r.get_ref();
-                // An end may be infinite (`inf`, `-inf`), never NaN.
-                for end in v {
-                    if let RawValue::Number(x) = end.get_ref() {
-                        if x.is_nan() {
-                            finite_number(
-                                *x,
-                                end.span(),
-                                "range",
-                                "write two numbers or expressions; `-inf` and `inf` are allowed",
-                                text,
-                                file,
-                            )?;
-                        }
-                    }
-                }
-                Some((raw_text(&v[0], "settings.range"), raw_text(&v[1], "settings.range")))
-            }
-            Some(r) => {
-                return Err(ModelError::in_file(
-                    Diagnostic::new("`range` needs two values")
-                        .with_span(Span::new(r.span().start, r.span().end), "here")
-                        .with_hint("write `range = [\"0\", \"sqrt(6*alpha)\"]`"),
-                    file,
-                    text,
-                ))
-            }
-        };
-        let start = match &settings.start {
-            None => None,
-            Some(s) => Some(match s.get_ref().as_str() {
-                "above" => Side::Above,
-                "below" => Side::Below,
-                other => {
-                    return Err(ModelError::in_file(
-                        Diagnostic::new(format!("unknown start side `{other}`"))
-                            .with_span(
-                                Span::new(s.span().start, s.span().end),
-                                "expected \"above\" or \"below\"",
-                            )
-                            .with_hint("\"above\": the field starts at larger values than the minimum of V"),
-                        file,
-                        text,
-                    ))
-                }
-            }),
-        };
+        let range = reader.range(settings.range.as_ref())?;
+        let start = reader.start(settings.start.as_ref())?;
         let field = raw.field.map(|f| f.into_inner()).unwrap_or_else(|| "phi".to_string());
         check_identifier(&field, text, file, None)?;
         Ok(ModelSpec {
             name: raw.name.unwrap_or_default(),
             description: raw.description.unwrap_or_default(),
             field,
-            potential: origin_of(&raw.potential, "potential"),
+            potential: reader.origin_of(&raw.potential, "potential"),
             kinetic: raw
                 .kinetic
                 .as_ref()
-                .map(|k| origin_of(k, "kinetic"))
+                .map(|k| reader.origin_of(k, "kinetic"))
                 .unwrap_or_else(|| Text::inline("kinetic (default)", "1")),
             params,
             range,
             start,
-            efolds: match settings.efolds {
-                None => None,
-                Some(e) if e.get_ref().is_empty() => {
-                    return Err(ModelError::in_file(
-                        Diagnostic::new("efolds: the list is empty: no N_* to predict at")
-                            .with_span(Span::new(e.span().start, e.span().end), "empty")
-                            .with_hint("write `efolds = [50, 55, 60]`, or leave the key out for those defaults"),
-                        file,
-                        text,
-                    ))
-                }
-                Some(e) => Some(efolds(e.into_inner(), text, file)?),
-            },
+            efolds: reader.efolds(settings.efolds)?,
         })
     }
 
@@ -451,6 +347,158 @@ impl ModelSpec {
                 value: text,
                 scan: None,
             }),
+        }
+    }
+}
+
+/// The text of a model file being read, its name, and the copy every expression of it shares.
+struct Reader<'a> {
+    text: &'a str,
+    file: &'a str,
+    shared: std::sync::Arc<str>,
+}
+
+impl Reader<'_> {
+    /// An expression of the file: its errors point into the file where the string appears
+    /// verbatim, at the string itself otherwise.
+    fn origin_of(&self, s: &toml::Spanned<String>, key: &str) -> Text {
+        let value = s.get_ref().clone();
+        match verbatim_offset(self.text, s.span(), &value) {
+            Some(offset) => Text {
+                text: value,
+                origin: Origin {
+                    name: self.file.to_string(),
+                    file_text: Some(self.shared.clone()),
+                    offset,
+                },
+            },
+            None => Text::inline(&format!("{}: {key}", self.file), &value),
+        }
+    }
+
+    /// A number or an expression of the file, as an expression.
+    fn raw_text(&self, v: &toml::Spanned<RawValue>, key: &str) -> Text {
+        match v.get_ref() {
+            RawValue::Number(x) => Text::inline(
+                &format!("{}: {key}", self.file),
+                &crate::language::ir::format_number(*x),
+            ),
+            RawValue::Text(s) => self.origin_of(&toml::Spanned::new(v.span(), s.clone()), key),
+        }
+    }
+
+    /// The [params] table, with the ranges of [scan] attached.
+    fn params(
+        &self,
+        params: &IndexMap<String, toml::Spanned<RawValue>>,
+        scan: &IndexMap<String, toml::Spanned<Vec<RawValue>>>,
+    ) -> Result<Vec<ParamSpec>, ModelError> {
+        let (text, file) = (self.text, self.file);
+        let mut out = Vec::new();
+        for (name, value) in params {
+            check_identifier(name, text, file, Some("params"))?;
+            if let RawValue::Number(x) = value.get_ref() {
+                finite_number(
+                    *x,
+                    value.span(),
+                    &format!("parameter `{name}`"),
+                    "write a finite number, or an expression in quotes such as \"1/3\"",
+                    text,
+                    file,
+                )?;
+            }
+            out.push(ParamSpec {
+                name: name.clone(),
+                value: self.raw_text(value, &format!("params.{name}")),
+                scan: None,
+            });
+        }
+        for (name, range) in scan {
+            let Some(p) = out.iter_mut().find(|p| &p.name == name) else {
+                let span = key_span(text, Some("scan"), name).unwrap_or_default();
+                return Err(ModelError::in_file(
+                    Diagnostic::new(format!("scan range for `{name}`, which is not a parameter"))
+                        .with_span(span, "not in [params]")
+                        .with_hint("add it under [params], or remove this range"),
+                    file,
+                    text,
+                ));
+            };
+            p.scan = Some(scan_range(range, text, file)?);
+        }
+        Ok(out)
+    }
+
+    /// `range` in [settings]: two ends, each a number or an expression; infinite allowed.
+    fn range(&self, range: Option<&RawRange>) -> Result<Option<(Text, Text)>, ModelError> {
+        let (text, file) = (self.text, self.file);
+        let Some(r) = range else {
+            return Ok(None);
+        };
+        let v = r.get_ref();
+        if v.len() != 2 {
+            return Err(ModelError::in_file(
+                Diagnostic::new("`range` needs two values")
+                    .with_span(Span::new(r.span().start, r.span().end), "here")
+                    .with_hint("write `range = [\"0\", \"sqrt(6*alpha)\"]`"),
+                file,
+                text,
+            ));
+        }
+        // An end may be infinite (`inf`, `-inf`), never NaN.
+        for end in v {
+            if let RawValue::Number(x) = end.get_ref() {
+                if x.is_nan() {
+                    finite_number(
+                        *x,
+                        end.span(),
+                        "range",
+                        "write two numbers or expressions; `-inf` and `inf` are allowed",
+                        text,
+                        file,
+                    )?;
+                }
+            }
+        }
+        Ok(Some((
+            self.raw_text(&v[0], "settings.range"),
+            self.raw_text(&v[1], "settings.range"),
+        )))
+    }
+
+    /// `start` in [settings]: "above" or "below".
+    fn start(&self, start: Option<&toml::Spanned<String>>) -> Result<Option<Side>, ModelError> {
+        let Some(s) = start else {
+            return Ok(None);
+        };
+        match s.get_ref().as_str() {
+            "above" => Ok(Some(Side::Above)),
+            "below" => Ok(Some(Side::Below)),
+            other => Err(ModelError::in_file(
+                Diagnostic::new(format!("unknown start side `{other}`"))
+                    .with_span(
+                        Span::new(s.span().start, s.span().end),
+                        "expected \"above\" or \"below\"",
+                    )
+                    .with_hint("\"above\": the field starts at larger values than the minimum of V"),
+                self.file,
+                self.text,
+            )),
+        }
+    }
+
+    /// `efolds` in [settings]: a non-empty list of positive numbers.
+    fn efolds(&self, e: Option<toml::Spanned<Vec<toml::Spanned<f64>>>>) -> Result<Option<Vec<f64>>, ModelError> {
+        match e {
+            None => Ok(None),
+            Some(e) if e.get_ref().is_empty() => Err(ModelError::in_file(
+                Diagnostic::new("efolds: the list is empty: no N_* to predict at")
+                    .with_span(Span::new(e.span().start, e.span().end), "empty")
+                    .with_hint("write `efolds = [50, 55, 60]`, or leave the key out for those defaults"),
+                self.file,
+                self.text,
+            )),
+            Some(e) => Ok(Some(efolds(e.into_inner(), self.text, self.file)?)),
         }
     }
 }
