@@ -140,9 +140,8 @@ impl Metric {
         }
     }
 
-    /// The metric at `point` from all of that point's tape `outputs` (as
-    /// [`Evaluator::eval_each`] gives them), checked to be finite and positive definite.
-    /// `point` only names the place in an error.
+    /// The metric at `point` from all of that point's tape `outputs`, checked to be finite and
+    /// positive definite. `point` only names the place in an error.
     pub fn read(&self, outputs: &[f64], point: &[f64]) -> Result<MetricValue, MetricError> {
         let need = self.last_output() + 1;
         if outputs.len() < need {
@@ -151,36 +150,46 @@ impl Metric {
                 need,
             });
         }
+        self.read_with(|i| outputs[i], point)
+    }
+
+    /// Evaluates the tape at `phi` (a one-input tape) and reads the metric there.
+    ///
+    /// # Panics
+    ///
+    /// If the evaluator's tape has fewer outputs than the metric names, as
+    /// [`Evaluator::output`] does for an index out of range: an evaluator of the model whose
+    /// [`Layout`] made the metric always has them.
+    pub fn at(&self, ev: &mut Evaluator<'_>, phi: f64) -> Result<MetricValue, MetricError> {
+        ev.eval(phi);
+        self.read_with(|i| ev.output(i), &[phi])
+    }
+
+    /// The metric from the outputs `output(i)` it names.
+    fn read_with(&self, output: impl Fn(usize) -> f64, point: &[f64]) -> Result<MetricValue, MetricError> {
         let n = self.fields();
         let mut g = DMatrix::zeros(n, n);
         let sqrt_diagonal = match self {
             Metric::Scalar { k, sqrt_k } => {
-                g[(0, 0)] = outputs[*k];
-                vec![outputs[*sqrt_k]]
+                g[(0, 0)] = output(*k);
+                vec![output(*sqrt_k)]
             }
             Metric::Diagonal { components, sqrt } => {
                 for (a, &i) in components.iter().enumerate() {
-                    g[(a, a)] = outputs[i];
+                    g[(a, a)] = output(i);
                 }
-                sqrt.iter().map(|&i| outputs[i]).collect()
+                sqrt.iter().map(|&i| output(i)).collect()
             }
             Metric::Full { components, sqrt, .. } => {
                 let pairs = (0..n).flat_map(|a| (a..n).map(move |b| (a, b)));
                 for ((a, b), &i) in pairs.zip(components) {
-                    g[(a, b)] = outputs[i];
-                    g[(b, a)] = outputs[i];
+                    g[(a, b)] = output(i);
+                    g[(b, a)] = output(i);
                 }
-                sqrt.iter().map(|&i| outputs[i]).collect()
+                sqrt.iter().map(|&i| output(i)).collect()
             }
         };
         MetricValue::new(g, sqrt_diagonal, point)
-    }
-
-    /// Evaluates the tape at `phi` (a one-input tape) and reads the metric there.
-    pub fn at(&self, ev: &mut Evaluator<'_>, phi: f64) -> Result<MetricValue, MetricError> {
-        let mut value = None;
-        ev.eval_each(&[phi], |_, out| value = Some(self.read(out, &[phi])));
-        value.unwrap_or(Err(MetricError::MissingOutputs { have: 0, need: 1 }))
     }
 }
 
@@ -239,14 +248,20 @@ impl MetricValue {
         self.sqrt_diagonal[0]
     }
 
-    /// det G, from the Cholesky factor (positive).
+    /// det G (positive): K itself for one field, from the Cholesky factor otherwise.
     pub fn determinant(&self) -> f64 {
-        self.factor.determinant()
+        match self.fields() {
+            1 => self.k(),
+            _ => self.factor.determinant(),
+        }
     }
 
-    /// The inverse metric G^ab, from the Cholesky factor.
+    /// The inverse metric G^ab: 1/K for one field, from the Cholesky factor otherwise.
     pub fn inverse(&self) -> DMatrix<f64> {
-        self.factor.inverse()
+        match self.fields() {
+            1 => DMatrix::from_element(1, 1, 1.0 / self.k()),
+            _ => self.factor.inverse(),
+        }
     }
 }
 
@@ -365,8 +380,8 @@ mod tests {
             assert_eq!(g.k().to_bits(), ev.output(layout.k()).to_bits());
             assert_eq!(g.sqrt_k().to_bits(), ev.output(layout.sqrt_k()).to_bits());
             let k = 1.0 + phi * phi / 3.0;
-            assert!(close(g.k(), k) && close(g.determinant(), k), "{phi}");
-            assert!(close(g.inverse()[(0, 0)], 1.0 / k), "{phi}");
+            assert!(close(g.k(), k), "{phi}");
+            assert_eq!((g.determinant(), g.inverse()[(0, 0)]), (g.k(), 1.0 / g.k()));
         }
     }
 
@@ -518,6 +533,35 @@ mod tests {
         let e = metric.at(&mut tape.evaluator(&[]), 0.0).unwrap_err();
         assert!(matches!(e, MetricError::NotFinite { a: 0, b: 1, .. }), "{e:?}");
         assert!(e.to_string().contains("G_01 = inf"), "{e}");
+    }
+
+    /// Three fields, full and constant: G = [[4, 1, 0], [1, 3, 1], [0, 1, 2]]. By cofactors
+    /// along the first row, det G = 4 (3*2 - 1) - 1 (1*2 - 0) = 18 (own derivation); the
+    /// inverse times G is the identity.
+    #[test]
+    fn a_three_field_metric_is_read_row_by_row() {
+        let layout = Layout::full(3).unwrap();
+        // V, three slopes, G_00 G_01 G_02 G_11 G_12 G_22, three square roots.
+        let tape = tape_of(&[
+            "0", "0", "0", "0", "4", "1", "0", "3", "1", "2", "2", "sqrt(3)", "sqrt(2)",
+        ]);
+        assert_eq!(tape.n_outputs(), layout.n_outputs());
+        let g = layout.metric().at(&mut tape.evaluator(&[]), 0.0).unwrap();
+        let want = [[4.0, 1.0, 0.0], [1.0, 3.0, 1.0], [0.0, 1.0, 2.0]];
+        for a in 0..3 {
+            for b in 0..3 {
+                assert_eq!(g.component(a, b), want[a][b]);
+            }
+        }
+        assert!(close(g.determinant(), 18.0), "{}", g.determinant());
+        let eye = g.inverse() * g.matrix();
+        for a in 0..3 {
+            for b in 0..3 {
+                let id = if a == b { 1.0 } else { 0.0 };
+                assert!((eye[(a, b)] - id).abs() < 1e-15, "({a}, {b}): {}", eye[(a, b)]);
+            }
+        }
+        assert_eq!(g.sqrt_diagonal(2), 2f64.sqrt());
     }
 
     #[test]

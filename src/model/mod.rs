@@ -1,6 +1,6 @@
-//! Stage 4: a model: field name, parameters, V(phi), K(phi) and an optional field range, read
+//! Stage 2: a model: field name, parameters, V(phi), K(phi) and an optional field range, read
 //! from a TOML file or given inline, then compiled to one tape with outputs V, K, sqrt(K) and
-//! dV/dphi.
+//! dV/dphi, which the model's [`Layout`] names.
 //!
 //! The file format (all keys but `potential` optional):
 //!
@@ -29,7 +29,8 @@
 //! let model = Model::build(&spec, &Default::default())?;
 //! let mut ev = model.evaluator();
 //! assert_eq!(ev.eval(3.0), 9.0); // V
-//! assert_eq!(ev.output(1), 1.0); // K
+//! assert_eq!(ev.output(model.layout().k()), 1.0); // K
+//! assert_eq!(ev.output(model.layout().dv()), 6.0); // dV/dphi
 //! # Ok::<(), efold::model::ModelError>(())
 //! ```
 
