@@ -262,7 +262,6 @@ fn header_span(file: &str, path: &[&str]) -> Option<Span> {
 }
 
 impl ModelSpec {
-    /// Reads a model file.
     /// Reads a model file of at most the default [`crate::config::Limits::max_file_bytes`].
     pub fn load(path: &Path) -> Result<ModelSpec, ModelError> {
         ModelSpec::load_with(path, &crate::config::Limits::default())
