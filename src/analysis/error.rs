@@ -738,3 +738,299 @@ impl fmt::Display for ErrorKind {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Each kind against the message and hints the analyses built by hand before the kinds
+    /// existed: the `format!` calls below are those of the old call sites, kept as the
+    /// reference (the numbers through the same `numfmt` functions).
+    #[test]
+    fn each_kind_gives_the_message_and_hints_it_gave_before() {
+        let (field, x, top, bottom) = ("phi", 0.1234567891, 12.5, 1e-3);
+        let inf_err = NumericError::NotFinite {
+            at: 2.0,
+            value: f64::INFINITY,
+        };
+        let table: Vec<(ErrorKind, String, Vec<&str>)> = vec![
+            (
+                ErrorKind::Numerical(inf_err.clone()),
+                format!("numerical failure: {inf_err}"),
+                vec!["tighten the range with --range, or report the model"],
+            ),
+            (
+                ErrorKind::KSingularInRange {
+                    field: field.into(),
+                    at: x,
+                    pole: true,
+                },
+                format!("K has a pole at {field} = {} inside the range", number(x)),
+                vec![
+                    "the kinetic term must be positive and finite inside the range",
+                    "end the range at this point with --range, or leave it out to let efold find the domain",
+                ],
+            ),
+            (
+                ErrorKind::KSingularInRange {
+                    field: field.into(),
+                    at: x,
+                    pole: false,
+                },
+                format!("K vanishes at {field} = {} inside the range", number(x)),
+                vec![
+                    "the kinetic term must be positive and finite inside the range",
+                    "end the range at this point with --range, or leave it out to let efold find the domain",
+                ],
+            ),
+            (
+                ErrorKind::BadInRange {
+                    field: field.into(),
+                    at: x,
+                    defect: RangeDefect::KNegative(-0.5),
+                },
+                format!("K = {} <= 0 at {field} = {x} inside the range", -0.5),
+                vec![
+                    "the kinetic term must be positive and V finite everywhere in the range",
+                    "narrow it with --range LO HI, or leave it out to let efold find the domain",
+                ],
+            ),
+            (
+                ErrorKind::BadInRange {
+                    field: field.into(),
+                    at: x,
+                    defect: RangeDefect::VNotFinite(f64::INFINITY),
+                },
+                format!("V is {} at {field} = {x} inside the range", f64::INFINITY),
+                vec![
+                    "the kinetic term must be positive and V finite everywhere in the range",
+                    "narrow it with --range LO HI, or leave it out to let efold find the domain",
+                ],
+            ),
+            (
+                ErrorKind::NoSlowRoll {
+                    field: field.into(),
+                    top,
+                    bottom,
+                },
+                format!(
+                    "eps_V >= 1 everywhere on the branch from {field} = {} to {}: it does not inflate",
+                    number(top),
+                    number(bottom)
+                ),
+                vec!["choose another branch with --branch, or check the potential"],
+            ),
+            (
+                ErrorKind::NeverEnds {
+                    field: field.into(),
+                    top,
+                    bottom,
+                },
+                format!(
+                    "inflation never ends on the branch from {field} = {} to {}: eps_V stays below 1 down to the bottom",
+                    number(top),
+                    number(bottom)
+                ),
+                vec!["inflation would have to end by another mechanism (a second field, a phase transition)"],
+            ),
+            (
+                ErrorKind::TooFewEfolds {
+                    field: field.into(),
+                    available: 41.234567,
+                    asked: 60.0,
+                    end: x,
+                    top,
+                },
+                format!(
+                    "the branch gives only {} e-folds between the end of inflation at {field} = {} and {field} = {}, fewer than the {} asked",
+                    number(41.234567),
+                    number(x),
+                    number(top),
+                    60.0
+                ),
+                vec!["ask for fewer e-folds with --efolds, or choose another branch or parameters"],
+            ),
+            (
+                ErrorKind::RoundingNearTop {
+                    field: field.into(),
+                    top,
+                    distance: 3.2e-9,
+                    error: 4.5e-6,
+                    allowed: 1e-6,
+                },
+                format!(
+                    "the e-fold integral cannot be resolved in double precision within {:.1e} of {field} = {}: rounding in V K / V' there leaves a relative error of {:.1e} (allowed {:.0e}), and the pivot lies that close",
+                    3.2e-9,
+                    number(top),
+                    4.5e-6,
+                    1e-6
+                ),
+                vec![
+                    "write the model in a variable in which the top of the branch is not so close (the distance to a pole, or the canonical field)",
+                    "or ask for fewer e-folds with --efolds",
+                ],
+            ),
+            (
+                ErrorKind::StartOutsideDomain {
+                    field: field.into(),
+                    phi: -3.0,
+                    lo: 0.0,
+                    hi: f64::INFINITY,
+                    lo_kind: EndKind::Pole,
+                    hi_kind: EndKind::Infinite,
+                },
+                format!(
+                    "the start {field} = {} lies outside the domain {} < {field} < {} (lower end: {}; upper end: {})",
+                    number(-3.0),
+                    number(0.0),
+                    number(f64::INFINITY),
+                    EndKind::Pole.words(),
+                    EndKind::Infinite.words()
+                ),
+                vec![
+                    "start inside the domain, on the branch you want (`efold inspect` shows the domain)",
+                    "or leave out --start-phi to start on the slow-roll attractor",
+                ],
+            ),
+            (
+                ErrorKind::StartTooFewEfolds {
+                    phi: 15.5,
+                    available: 20.25,
+                    needed: 66.0,
+                },
+                format!(
+                    "starting at phi = {} gives {} e-folds before the end, fewer than the {} needed",
+                    typed(15.5),
+                    number(20.25),
+                    number(66.0)
+                ),
+                vec!["start further up the potential, or ask for fewer e-folds or a smaller k range"],
+            ),
+            (
+                ErrorKind::ExactNeverEnds,
+                "inflation does not end in the exact background: eps_H never reaches 1".into(),
+                vec!["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
+            ),
+            (
+                ErrorKind::ExactNeverEndsAtPivot,
+                "inflation does not end in the exact background (eps_H never reaches 1)".into(),
+                vec!["the slow-roll end of inflation was not confirmed by the exact solution"],
+            ),
+            (
+                ErrorKind::NotFrozen {
+                    kappa: 1.0512710963760241,
+                    drift: 3.25e-4,
+                    allowed: 1e-5,
+                },
+                format!(
+                    "the mode k/k_* = {} has not frozen: P changed by {} over its last e-fold (allowed {})",
+                    number(1.0512710963760241),
+                    scientific(3.25e-4, 2),
+                    typed(1e-5)
+                ),
+                vec!["stop the modes further outside the horizon (a smaller k/aH at the stop)"],
+            ),
+            (
+                ErrorKind::ModeIntegration {
+                    kappa: 2.0,
+                    error: inf_err.clone(),
+                },
+                format!("the mode k/k_* = {} failed to integrate: {inf_err}", number(2.0)),
+                vec![],
+            ),
+            (
+                ErrorKind::NoRoomForExact {
+                    needed: 70.0,
+                    cause: Box::new(ErrorKind::NeverEnds {
+                        field: field.into(),
+                        top,
+                        bottom,
+                    }),
+                },
+                format!(
+                    "the exact solver needs {} e-folds of slow roll before the end: {}",
+                    number(70.0),
+                    format_args!(
+                        "inflation never ends on the branch from {field} = {} to {}: eps_V stays below 1 down to the bottom",
+                        number(top),
+                        number(bottom)
+                    )
+                ),
+                vec!["ask for fewer e-folds"],
+            ),
+            (
+                ErrorKind::Matching(crate::analysis::reheating::MatchingError::BadW { w: -0.5 }),
+                format!(
+                    "equation of state w = {} is outside (-1/3, 1]: the universe would still be inflating",
+                    -0.5
+                ),
+                vec!["change the reheating assumptions (--reheat ...)"],
+            ),
+            (
+                ErrorKind::InspectionNotFinite {
+                    key: "minimum.v".into(),
+                    value: f64::NEG_INFINITY,
+                    field: "x".into(),
+                },
+                format!("{} is not a finite number ({})", "minimum.v", f64::NEG_INFINITY),
+                vec!["V or K overflows or is not smooth enough there: check them, or give a --range for x that avoids it"],
+            ),
+            (
+                ErrorKind::FitNoSolution {
+                    at: vec![("alpha".into(), 1.0 / 3.0)],
+                    misses: vec![Miss {
+                        observable: "r",
+                        reached: 0.0123456789,
+                        wanted: 0.01,
+                        residual: 0.2107210,
+                    }],
+                },
+                format!(
+                    "no parameter values reproduce the targets: the best found, at {}, gives {}",
+                    format_args!(
+                        "alpha = {}",
+                        crate::report::numfmt::number_digits(1.0 / 3.0, FIT_PARAM_DIGITS)
+                    ),
+                    format_args!(
+                        "r = {} (wanted {}, scaled residual {})",
+                        number(0.0123456789),
+                        typed(0.01),
+                        scientific(0.2107210, 3)
+                    )
+                ),
+                vec![
+                    "the targets may be out of the model's reach at this N_*: check them against a scan",
+                    "or start from other values with --param",
+                ],
+            ),
+        ];
+        for (kind, message, hints) in table {
+            let e = AnalysisError::from(kind.clone());
+            assert_eq!(e.message, message, "{kind:?}");
+            assert_eq!(e.hints, hints, "{kind:?}");
+            assert_eq!(e.kind, kind);
+            // The diagnostic carries both, drawn by the one renderer.
+            let d = e.diagnostic();
+            assert_eq!((d.message, d.hints), (e.message.clone(), e.hints.clone()));
+        }
+    }
+
+    /// A few messages written out in full (the numbers as `numfmt` writes them).
+    #[test]
+    fn messages_in_full() {
+        let e = AnalysisError::from(ErrorKind::NoSuchBranch { asked: 4, count: 2 });
+        assert_eq!(e.message, "--branch 4: the domain has 2 branch(es), numbered 1 to 2");
+        assert_eq!(e.hints, ["run without --branch to see them listed"]);
+        let e = AnalysisError::from(ErrorKind::BadEfolds { n_star: -5.0 });
+        assert_eq!(e.to_string(), "N_* = -5 is not a positive number of e-folds");
+        let e = AnalysisError::from(ErrorKind::BadInRange {
+            field: "phi".into(),
+            at: 0.5,
+            defect: RangeDefect::KZero,
+        });
+        assert_eq!(e.message, "K = 0 at phi = 0.5 inside the range");
+        let e = AnalysisError::from(NumericError::NoBracket { lo: 1.0, hi: 2.0 });
+        assert_eq!(e.message, "numerical failure: no sign change between 1 and 2");
+        assert!(matches!(e.kind, ErrorKind::Numerical(NumericError::NoBracket { .. })));
+    }
+}

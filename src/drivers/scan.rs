@@ -1509,6 +1509,47 @@ mod tests {
         assert_eq!(json(&[]), "[]\n");
     }
 
+    /// A failed point keeps its whole diagnosis, message and hints, as the prediction at that
+    /// point gives it; the CSV and JSON rows print the message alone.
+    #[test]
+    fn failed_rows_keep_the_hints() {
+        let mut spec = ModelSpec::inline("m*phi^2", None);
+        spec.set_param("m", "1");
+        let axes = [Axis::new("m", -1.0, -1.0, 1, false).unwrap()];
+        let config = Config::default();
+        let rows = run(&spec, &axes, &[50.0], &DataSet::builtin(), None, &config, false);
+        let Err(e) = &rows[0].result else {
+            panic!("V = -phi^2 predicts: {:?}", rows[0].result)
+        };
+        let mut at = spec.clone();
+        at.set_param("m", &format!("{:e}", -1.0));
+        let opts = Options {
+            n_stars: vec![50.0],
+            data: DataSet::builtin(),
+            ..Default::default()
+        };
+        let direct = predict(&Model::build(&at, &config).unwrap(), &opts, &config).unwrap_err();
+        assert_eq!(e, &PointError::Analysis(direct.clone()));
+        assert!(!e.hints().is_empty());
+        assert_eq!(e.hints(), &direct.hints[..]);
+        assert_eq!(e.diagnostic(), direct.diagnostic());
+        let csv = csv_rows(&rows);
+        assert!(csv.trim_end().ends_with(&csv_field(&direct.message)), "{csv}");
+        assert!(!csv.contains(&direct.hints[0]), "{csv}");
+        assert_eq!(json_row(&rows[0])["error"], serde_json::json!(direct.message));
+    }
+
+    /// A point whose model does not build keeps the model error's hints.
+    #[test]
+    fn model_errors_keep_their_hints() {
+        let e = Model::build(&ModelSpec::inline("1 - tanhh(phi)^2", None), &Config::default()).unwrap_err();
+        let hints = e.diagnostic.hints.clone();
+        assert!(!hints.is_empty(), "{}", e.render());
+        let p = PointError::from(e);
+        assert_eq!(p.hints(), &hints[..]);
+        assert!(matches!(p, PointError::Model(_)));
+    }
+
     #[test]
     fn quoted_csv_fields() {
         let recs = csv_records("1,\"a, \"\"b\"\"\n c\",2\n3,4\n", 1).unwrap();
