@@ -510,6 +510,60 @@ impl fmt::Display for ErrorKind {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         use ErrorKind::*;
         match self {
+            Numerical(_)
+            | NoDomain
+            | KSingularInRange { .. }
+            | BadInRange { .. }
+            | NoBranch
+            | NoSuchBranch { .. }
+            | RollsIntoPole { .. } => self.fmt_domain(f),
+            NegativeBeforeEnd { .. } | NegativeAtTop { .. } | NoSlowRoll { .. } | NeverEnds { .. } => self.fmt_end(f),
+            RoundingNearTop { .. }
+            | EfoldIntegral { .. }
+            | TooFewEfolds { .. }
+            | PhiStarNoConvergence { .. }
+            | BadEfolds { .. }
+            | NoEfolds
+            | PredictionNotFinite { .. }
+            | InspectionNotFinite { .. }
+            | Matching(_)
+            | MatchingBadEfolds { .. }
+            | MatchingNoConvergence => self.fmt_efolds(f),
+            BackgroundIntegration(_)
+            | StartOutsideDomain { .. }
+            | StartTooFewEfolds { .. }
+            | StartNeverEnds { .. }
+            | ExactNeverEnds
+            | ExactNeverEndsAtPivot
+            | ExactTooFewEfolds { .. }
+            | NoStart { .. }
+            | NoRoomForExact { .. } => self.fmt_background(f),
+            ModeNeverReaches { .. }
+            | StartsTooLate { .. }
+            | ModeBackground(_)
+            | ModeIntegration { .. }
+            | ModeExitsLate { .. }
+            | NotFrozen { .. }
+            | ScaleNotFinite { .. }
+            | SpectrumNotFinite { .. }
+            | NoWavenumbers => self.fmt_modes(f),
+            FitEmpty
+            | FitNotUnique { .. }
+            | FitModel { .. }
+            | FitUnknownFree { .. }
+            | FitStart { .. }
+            | FitJacobian { .. }
+            | FitJacobianAtSolution { .. }
+            | FitNoSolution { .. } => self.fmt_fit(f),
+        }
+    }
+}
+
+impl ErrorKind {
+    /// The messages of the domain and the branches.
+    fn fmt_domain(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        match self {
             Numerical(e) => write!(f, "numerical failure: {e}"),
             NoDomain => f.write_str("no interval of field space has K > 0 with V finite"),
             KSingularInRange { field, at, pole } => {
@@ -534,6 +588,14 @@ impl fmt::Display for ErrorKind {
                 number(*top),
                 number(*pole)
             ),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages of the end of inflation.
+    fn fmt_end(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        match self {
             NegativeBeforeEnd { field, at } => write!(
                 f,
                 "V becomes negative at {field} = {} before eps_V reaches 1",
@@ -558,6 +620,14 @@ impl fmt::Display for ErrorKind {
                 number(*top),
                 number(*bottom)
             ),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages of e-folds, predictions and reheating.
+    fn fmt_efolds(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        match self {
             RoundingNearTop {
                 field,
                 top,
@@ -607,6 +677,14 @@ impl fmt::Display for ErrorKind {
             Matching(e) => write!(f, "{e}"),
             MatchingBadEfolds { n_star } => write!(f, "the matching gives N_* = {n_star}"),
             MatchingNoConvergence => f.write_str("the reheating matching did not converge in 60 steps"),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages of the exact background.
+    fn fmt_background(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        match self {
             BackgroundIntegration(e) => write!(f, "the background integration failed: {e}"),
             StartOutsideDomain {
                 field: fl,
@@ -656,6 +734,14 @@ impl fmt::Display for ErrorKind {
                 "the exact solver needs {} e-folds of slow roll before the end: {cause}",
                 number(*needed)
             ),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages of the modes and the spectrum.
+    fn fmt_modes(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        match self {
             ModeNeverReaches { kappa, k_over_ah } => write!(
                 f,
                 "the mode k/k_* = {} never reaches k/aH = {} before the end of inflation",
@@ -701,6 +787,14 @@ impl fmt::Display for ErrorKind {
                 number(*n_before_end)
             ),
             NoWavenumbers => f.write_str("no wavenumbers asked for"),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages of fits.
+    fn fmt_fit(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        match self {
             FitEmpty => f.write_str("a fit needs at least one --free parameter and one --target"),
             FitNotUnique { free, targets } => write!(
                 f,
@@ -735,6 +829,7 @@ impl fmt::Display for ErrorKind {
                     parts.join("; ")
                 )
             }
+            _ => unreachable!("{self:?} is not formatted here"),
         }
     }
 }

@@ -952,7 +952,35 @@ pub enum MergeError {
 impl std::fmt::Display for MergeError {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         use MergeError::*;
-        let format = |json: bool| if json { "JSON" } else { "CSV" };
+        match self {
+            NoFiles
+            | ShardLine { .. }
+            | NoHeader { .. }
+            | CutShort { .. }
+            | Fields { .. }
+            | IncompleteJson { .. }
+            | ShardObject { .. }
+            | NotAShard { .. }
+            | WrongPoint { .. }
+            | RowCount { .. }
+            | NoPointIndex { .. } => self.fmt_file(f),
+            MixedFormats { .. }
+            | OtherScan { .. }
+            | CutDifferently { .. }
+            | BadIndex { .. }
+            | HeaderDiffers { .. }
+            | WrongRange { .. }
+            | GivenTwice { .. }
+            | ShardAgain { .. }
+            | Missing { .. } => self.fmt_set(f),
+        }
+    }
+}
+
+impl MergeError {
+    /// The messages about one file on its own.
+    fn fmt_file(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        use MergeError::*;
         match self {
             NoFiles => f.write_str("no files to merge"),
             ShardLine { name, error } => write!(f, "{name}: its shard line cannot be read ({error}): the file is damaged"),
@@ -1007,6 +1035,15 @@ impl std::fmt::Display for MergeError {
                 )
             }
             NoPointIndex { name, row } => write!(f, "{name}: row {row} has no point index"),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages about a file among the others.
+    fn fmt_set(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        use MergeError::*;
+        let format = |json: bool| if json { "JSON" } else { "CSV" };
+        match self {
             MixedFormats { name, json } => write!(
                 f,
                 "{name}: a {} shard among {} ones: give all CSV or all JSON",
@@ -1063,6 +1100,7 @@ impl std::fmt::Display for MergeError {
                     if *more { ", ..." } else { "" }
                 )
             }
+            _ => unreachable!("{self:?} is not formatted here"),
         }
     }
 }
