@@ -13,8 +13,8 @@ use std::fmt;
 /// hints it gives (filled from the kind).
 #[derive(Debug, Clone, PartialEq)]
 pub struct AnalysisError {
-    /// What went wrong, with its numbers.
-    pub kind: ErrorKind,
+    /// What went wrong, with its numbers (boxed: a `Result` of an analysis stays small).
+    pub kind: Box<ErrorKind>,
     /// What went wrong, in words (the kind's [`fmt::Display`]).
     pub message: String,
     /// How to fix or what it means ([`ErrorKind::hints`]).
@@ -37,7 +37,7 @@ impl From<ErrorKind> for AnalysisError {
         AnalysisError {
             message: kind.to_string(),
             hints: kind.hints(),
-            kind,
+            kind: Box::new(kind),
         }
     }
 }
@@ -1103,7 +1103,7 @@ mod tests {
             let e = AnalysisError::from(kind.clone());
             assert_eq!(e.message, message, "{kind:?}");
             assert_eq!(e.hints, hints, "{kind:?}");
-            assert_eq!(e.kind, kind);
+            assert_eq!(*e.kind, kind);
             // The diagnostic carries both, drawn by the one renderer.
             let d = e.diagnostic();
             assert_eq!((d.message, d.hints), (e.message.clone(), e.hints.clone()));
@@ -1126,6 +1126,6 @@ mod tests {
         assert_eq!(e.message, "K = 0 at phi = 0.5 inside the range");
         let e = AnalysisError::from(NumericError::NoBracket { lo: 1.0, hi: 2.0 });
         assert_eq!(e.message, "numerical failure: no sign change between 1 and 2");
-        assert!(matches!(e.kind, ErrorKind::Numerical(NumericError::NoBracket { .. })));
+        assert!(matches!(*e.kind, ErrorKind::Numerical(NumericError::NoBracket { .. })));
     }
 }

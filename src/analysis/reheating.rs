@@ -157,3 +157,51 @@ impl Reheating {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The matching's refusals against the messages built by hand before they were typed (the
+    /// old `format!` calls kept as the reference), and the refusals themselves.
+    #[test]
+    fn refusals_keep_their_messages() {
+        let data = DataSet::builtin();
+        let bad_w = Reheating::Efolds {
+            w: -0.5,
+            n_reh: 1.0,
+            g_star: 100.0,
+        };
+        let e = bad_w.match_pivot(1e-5, 1e-10, &data).unwrap_err();
+        assert_eq!(e, MatchingError::BadW { w: -0.5 });
+        assert_eq!(
+            e.to_string(),
+            format!(
+                "equation of state w = {} is outside (-1/3, 1]: the universe would still be inflating",
+                -0.5
+            )
+        );
+        let e = Reheating::Instant { g_star: 0.0 }
+            .match_pivot(1e-5, 1e-10, &data)
+            .unwrap_err();
+        assert_eq!(e.to_string(), format!("g_* = {} must be positive", 0.0));
+        // T_reh = 1e19 GeV is above the energy of V_end = 1e-10 (in M_p^4).
+        let hot = Reheating::Temperature {
+            w: 0.0,
+            t_reh_gev: 1e19,
+            g_star: 100.0,
+        };
+        let e = hot.match_pivot(1e-5, 1e-10, &data).unwrap_err();
+        let MatchingError::TooHot { t_max_gev } = e else {
+            panic!("{e:?}")
+        };
+        assert!(t_max_gev < 1e19);
+        assert_eq!(
+            e.to_string(),
+            format!(
+                "the reheating temperature is above the energy at the end of inflation: T_reh can be at most {} GeV",
+                crate::report::numfmt::number(t_max_gev)
+            )
+        );
+    }
+}

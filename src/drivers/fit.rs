@@ -487,3 +487,33 @@ pub fn text(f: &FitResult) -> String {
     );
     o
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// `--target` values that cannot be read, each with the message it had as a plain string.
+    #[test]
+    fn bad_targets_keep_their_messages() {
+        let cases = [
+            ("n_s", "`--target n_s`: write NAME=VALUE, e.g. `--target n_s=0.965`"),
+            (
+                "tau=0.05",
+                "`tau` cannot be targeted: the targets are n_s, r, alpha_s and A_s",
+            ),
+            ("r=small", "`small` is not a number in `--target r=small`"),
+            ("r=-0.01", "`--target r=-0.01`: r must be positive"),
+            ("A_s=0", "`--target A_s=0`: A_s must be positive"),
+        ];
+        for (text, message) in cases {
+            assert_eq!(Target::parse(text).unwrap_err().to_string(), message, "{text}");
+        }
+        assert_eq!(
+            Target::parse("alpha_s=-0.001"),
+            Ok(Target {
+                observable: Observable::AlphaS,
+                value: -0.001
+            })
+        );
+    }
+}

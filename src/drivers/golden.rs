@@ -586,6 +586,21 @@ mod tests {
     use super::*;
     use serde_json::json;
 
+    /// A directory that cannot be read is an error naming it, drawn by the one renderer as
+    /// its plain message was before.
+    #[test]
+    fn an_unreadable_directory_is_named() {
+        let dir = std::env::temp_dir().join(format!("efold-no-such-dir-{}", std::process::id()));
+        let e = model_files(&dir).unwrap_err();
+        let GoldenError::Directory { path, error } = &e else {
+            panic!("{e:?}")
+        };
+        assert_eq!(path, &dir);
+        let message = format!("cannot read directory `{}`: {error}", dir.display());
+        assert_eq!(e.to_string(), message);
+        assert_eq!(e.render(), crate::diag::Diagnostic::new(message).render(None));
+    }
+
     fn prediction(n_star: f64, n_s: f64, r: f64) -> serde_json::Value {
         json!({
             "n_star": n_star, "phi_star": 2.4, "n_s": n_s, "r": r, "alpha_s": -6e-4,

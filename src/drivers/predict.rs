@@ -566,7 +566,7 @@ fn refine_exact(
             .map_err(|e| {
                 AnalysisError::from(ErrorKind::NoRoomForExact {
                     needed: n,
-                    cause: Box::new(e.kind),
+                    cause: e.kind,
                 })
             })
     };
