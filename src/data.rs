@@ -106,6 +106,40 @@ pub struct Verdict {
 
 const DEFAULT: &str = include_str!("../data/planck2018-bk18.toml");
 
+/// Why a data file cannot be used: the diagnostic, and the file text its span points into.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DataError {
+    /// The error in words, with its place and hints.
+    pub diagnostic: Box<Diagnostic>,
+    /// The file it points into: (name, text).
+    pub source: Option<(String, String)>,
+}
+
+impl DataError {
+    /// Drawn by the one renderer, with carets under the value when it points into the file.
+    pub fn render(&self) -> String {
+        match &self.source {
+            Some((name, text)) => self.diagnostic.render(Some(&Source::new(name, text))),
+            None => self.diagnostic.render(None),
+        }
+    }
+
+    fn in_file(d: Box<Diagnostic>, name: &str, text: &str) -> DataError {
+        DataError {
+            diagnostic: d,
+            source: Some((name.to_string(), text.to_string())),
+        }
+    }
+}
+
+impl std::fmt::Display for DataError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.diagnostic.message)
+    }
+}
+
+impl std::error::Error for DataError {}
+
 /// What a value of the data file must be.
 #[derive(Clone, Copy)]
 enum Rule {
@@ -133,20 +167,22 @@ impl DataSet {
 
     /// Reads a data file (at most the default [`crate::config::Limits::max_file_bytes`]);
     /// errors are rendered against it.
-    pub fn load(path: &std::path::Path) -> Result<DataSet, String> {
+    pub fn load(path: &std::path::Path) -> Result<DataSet, DataError> {
         DataSet::load_with(path, &crate::config::Limits::default())
     }
 
     /// Reads a data file within `limits.max_file_bytes`; errors are rendered against it.
-    pub fn load_with(path: &std::path::Path, limits: &crate::config::Limits) -> Result<DataSet, String> {
+    pub fn load_with(path: &std::path::Path, limits: &crate::config::Limits) -> Result<DataSet, DataError> {
         let name = path.display().to_string();
         let text = limits.read_file(path).map_err(|e| {
             let mut d = Diagnostic::new(format!("cannot read data file `{name}`: {e}"));
             if let crate::config::ReadError::TooLarge(_) = e {
                 d = d.with_hint("a data file is a few lines of TOML: check the path");
             }
-            d.with_hint("give the path of a TOML data file (see data/ for the format)")
-                .render(None)
+            DataError {
+                diagnostic: Box::new(d.with_hint("give the path of a TOML data file (see data/ for the format)")),
+                source: None,
+            }
         })?;
         let mut d = DataSet::parse(&text, &name)?;
         d.source = name;
@@ -154,17 +190,16 @@ impl DataSet {
     }
 
     /// Parses and validates data-file text; `name` names it in errors.
-    pub fn parse(text: &str, name: &str) -> Result<DataSet, String> {
+    pub fn parse(text: &str, name: &str) -> Result<DataSet, DataError> {
         let d: DataSet = toml::from_str(text).map_err(|e| {
             let mut diag = Diagnostic::new(format!("bad data file: {}", e.message().trim()));
             if let Some(s) = e.span() {
                 diag = diag.with_span(Span::new(s.start, s.end.max(s.start + 1)), "here");
             }
-            diag.with_hint("start from data/planck2018-bk18.toml: every table and key there is required")
-                .render(Some(&Source::new(name, text)))
+            let diag = diag.with_hint("start from data/planck2018-bk18.toml: every table and key there is required");
+            DataError::in_file(Box::new(diag), name, text)
         })?;
-        d.validate(text)
-            .map_err(|diag| diag.render(Some(&Source::new(name, text))))?;
+        d.validate(text).map_err(|diag| DataError::in_file(diag, name, text))?;
         Ok(d)
     }
 
@@ -347,7 +382,7 @@ mod tests {
     }
 
     fn error(from: &str, to: &str) -> String {
-        DataSet::parse(&edited(from, to), "d.toml").unwrap_err()
+        DataSet::parse(&edited(from, to), "d.toml").unwrap_err().render()
     }
 
     #[test]

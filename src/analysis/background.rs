@@ -6,8 +6,8 @@
 //! eps_H = pi^2 / 2,   H^2 = V / (3 - eps_H),   V_chi = V_phi / sqrt(K).
 //! ```
 
-use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
+use crate::analysis::error::ErrorKind;
 use crate::language::tape::Evaluator;
 use crate::model::{Layout, Model};
 use crate::numerics::ode::{integrate, Options as OdeOptions};
@@ -149,12 +149,7 @@ pub fn run_background(
             Some(0.5 * y[1] * y[1] - 1.0)
         },
     )
-    .map_err(|e| {
-        fail(
-            format!("the background integration failed: {e}"),
-            &["check the potential along the trajectory"],
-        )
-    })?;
+    .map_err(|e| AnalysisError::from(ErrorKind::BackgroundIntegration(e)))?;
     checkpoints.retain(|c| c.0 <= sol.t);
     Ok(Run {
         start,
@@ -181,12 +176,7 @@ pub fn state_at(bg: &Background<'_>, run: &Run, n: f64, settings: &Settings) -> 
         &settings.ode,
         |_, _| None,
     )
-    .map_err(|e| {
-        fail(
-            format!("the background integration failed: {e}"),
-            &["check the potential along the trajectory"],
-        )
-    })?;
+    .map_err(|e| AnalysisError::from(ErrorKind::BackgroundIntegration(e)))?;
     Ok(sol.y)
 }
 
@@ -198,22 +188,15 @@ fn check_start(model: &Model, phi: f64) -> Result<(), AnalysisError> {
     if iv.contains(phi) {
         return Ok(());
     }
-    let f = model.field();
-    let n = crate::report::numfmt::number;
-    Err(fail(
-        format!(
-            "the start {f} = {} lies outside the domain {} < {f} < {} (lower end: {}; upper end: {})",
-            n(phi),
-            n(iv.lo),
-            n(iv.hi),
-            iv.lo_kind.words(),
-            iv.hi_kind.words()
-        ),
-        &[
-            "start inside the domain, on the branch you want (`efold inspect` shows the domain)",
-            "or leave out --start-phi to start on the slow-roll attractor",
-        ],
-    ))
+    Err(ErrorKind::StartOutsideDomain {
+        field: model.field().to_string(),
+        phi,
+        lo: iv.lo,
+        hi: iv.hi,
+        lo_kind: iv.lo_kind,
+        hi_kind: iv.hi_kind,
+    }
+    .into())
 }
 
 /// Starts the exact background on the slow-roll attractor with at least `n_needed` exact
@@ -240,22 +223,13 @@ pub fn start_with_room(
         let run = run_background(&bg, [phi, pi], 10_000.0, settings)?;
         return match run.n_end {
             Some(n) if n >= n_needed => Ok((phi, run)),
-            Some(n) => Err(fail(
-                format!(
-                    "starting at phi = {} gives {} e-folds before the end, fewer than the {} needed",
-                    crate::report::numfmt::typed(phi),
-                    crate::report::numfmt::number(n),
-                    crate::report::numfmt::number(n_needed)
-                ),
-                &["start further up the potential, or ask for fewer e-folds or a smaller k range"],
-            )),
-            None => Err(fail(
-                format!(
-                    "starting at phi = {}, inflation does not end (eps_H never reaches 1)",
-                    crate::report::numfmt::typed(phi)
-                ),
-                &["check the start and the potential"],
-            )),
+            Some(n) => Err(ErrorKind::StartTooFewEfolds {
+                phi,
+                available: n,
+                needed: n_needed,
+            }
+            .into()),
+            None => Err(ErrorKind::StartNeverEnds { phi }.into()),
         };
     }
     let mut ask = n_needed;
@@ -265,19 +239,8 @@ pub fn start_with_room(
         match run.n_end {
             Some(n) if n >= n_needed => return Ok((phi_start, run)),
             Some(n) => ask += (n_needed - n) + 2.0,
-            None => {
-                return Err(fail(
-                    "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
-                    &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
-                ))
-            }
+            None => return Err(ErrorKind::ExactNeverEnds.into()),
         }
     }
-    Err(fail(
-        format!(
-            "could not start the exact background {} e-folds before its end",
-            crate::report::numfmt::number(n_needed)
-        ),
-        &["ask for fewer e-folds, or a smaller k range"],
-    ))
+    Err(ErrorKind::NoStart { needed: n_needed }.into())
 }

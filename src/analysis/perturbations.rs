@@ -17,8 +17,8 @@
 //! so kappa = k / k_*.
 
 use crate::analysis::background::{state_at, Background, Run, Settings, State};
-use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
+use crate::analysis::error::ErrorKind;
 use crate::model::Model;
 use crate::numerics::ode::integrate;
 use serde::Serialize;
@@ -58,85 +58,131 @@ pub fn mode(
     kappa: f64,
     settings: &Settings,
 ) -> Result<ModePower, AnalysisError> {
-    let k = kappa * pivot.h; // a_* = 1
-    let k_over_ah = |n: f64, y: &State| k * (pivot.n - n).exp() / bg.point(y).h;
+    let m = Mode {
+        bg,
+        pivot,
+        kappa,
+        k: kappa * pivot.h, // a_* = 1
+    };
     // Find where k/aH = k_start along the background (it decreases with N during inflation).
     let n_hi = run.n_end.unwrap_or_else(|| run.checkpoints.last().map_or(0.0, |c| c.0));
-    let find = |target: f64| -> Result<(f64, State), AnalysisError> {
-        let idx = run.checkpoints.iter().position(|(n, y)| k_over_ah(*n, y) < target);
+    let (n_i, y_i) = m.find(run, settings.k_start, settings)?;
+    let n_cross = m.find(run, 1.0, settings)?.0;
+    let start = m.bunch_davies_start(n_i, &y_i);
+    // Integrate to one e-fold before the stop, then on to the stop, to check the freeze.
+    let (n_prev, y_prev, steps_a) = m.leg(n_i, start, n_hi, settings.k_stop * std::f64::consts::E, settings)?;
+    let (_, y_stop, steps_b) = m.leg(n_prev, y_prev, n_hi, settings.k_stop, settings)?;
+    let steps = steps_a + steps_b;
+    let (p_s, p_t) = m.power(&y_stop);
+    let (p_s_prev, _) = m.power(&y_prev);
+    let drift = ((p_s - p_s_prev) / p_s).abs();
+    if drift > settings.freeze_tol {
+        return Err(ErrorKind::NotFrozen {
+            kappa,
+            drift,
+            allowed: settings.freeze_tol,
+        }
+        .into());
+    }
+    Ok(ModePower {
+        kappa,
+        p_s,
+        p_t,
+        n_cross,
+        drift,
+        steps,
+    })
+}
+
+/// One mode on a background: k = kappa a_* H_* with a_* = 1.
+struct Mode<'a, 'm> {
+    bg: &'a Background<'m>,
+    pivot: Pivot,
+    kappa: f64,
+    k: f64,
+}
+
+impl Mode<'_, '_> {
+    /// k/aH at (N, state).
+    fn k_over_ah(&self, n: f64, y: &State) -> f64 {
+        self.k * (self.pivot.n - n).exp() / self.bg.point(y).h
+    }
+
+    /// (N, state) where k/aH falls to `target`, located on the background run.
+    fn find(&self, run: &Run, target: f64, settings: &Settings) -> Result<(f64, State), AnalysisError> {
+        let idx = run.checkpoints.iter().position(|(n, y)| self.k_over_ah(*n, y) < target);
         let Some(j) = idx else {
-            return Err(fail(
-                format!(
-                    "the mode k/k_* = {} never reaches k/aH = {} before the end of inflation",
-                    crate::report::numfmt::number(kappa),
-                    crate::report::numfmt::typed(target)
-                ),
-                &["ask for a smaller k, or fewer e-folds"],
-            ));
+            return Err(ErrorKind::ModeNeverReaches {
+                kappa: self.kappa,
+                k_over_ah: target,
+            }
+            .into());
         };
         if j == 0 {
-            return Err(fail(
-                format!(
-                    "the background starts too late for k/k_* = {} (k/aH is already below {})",
-                    crate::report::numfmt::number(kappa),
-                    crate::report::numfmt::typed(target)
-                ),
-                &["ask for a larger k, or start the background earlier"],
-            ));
+            return Err(ErrorKind::StartsTooLate {
+                kappa: self.kappa,
+                k_over_ah: target,
+            }
+            .into());
         }
         let (n0, y0) = run.checkpoints[j - 1];
         let (n1, _) = run.checkpoints[j];
         let sol = integrate(
             |_, y: &State| {
-                let p = bg.point(y);
+                let p = self.bg.point(y);
                 [p.dphi, p.dpi]
             },
             n0,
             y0,
             n1,
             &settings.ode,
-            |n, y| Some(k_over_ah(n, y) - target),
+            |n, y| Some(self.k_over_ah(n, y) - target),
         )
-        .map_err(|e| fail(format!("background integration failed: {e}"), &[]))?;
+        .map_err(|e| AnalysisError::from(ErrorKind::ModeBackground(e)))?;
         Ok((sol.t, sol.y))
-    };
-    let (n_i, y_i) = find(settings.k_start)?;
-    let n_cross = find(1.0)?.0;
-    let p = bg.point(&y_i);
-    let a = (n_i - pivot.n).exp();
-    let q = k / (a * p.h);
-    let eps2 = 2.0 * p.dpi / y_i[1];
-    let zn = 1.0 + 0.5 * eps2; // z'/z in e-folds
-                               // Bunch–Davies with the first two terms of the Hankel asymptotic series, x = -k tau:
-                               // v = C(x)/sqrt(2k), C = 1 + i mu/(2x) - mu(mu - 2)/(8x^2), mu = z''/z tau^2, with
-                               // -tau = 1/((1 - eps) aH) and z''/z = (aH)^2 ((z'/z)^2 + (1 - eps) z'/z) (eps_2 eps_3 left out).
-    let one_m = 1.0 - p.eps_h;
-    let x = q / one_m;
-    let mu_s = (zn * zn + one_m * zn) / (one_m * one_m);
-    let mu_t = (1.0 + one_m) / (one_m * one_m);
-    let sqrt2k = (2.0 * k).sqrt();
-    // returns (v, dv/dN) as (re, im) pairs
-    let bunch_davies = |mu: f64| -> ((f64, f64), (f64, f64)) {
-        let c = (1.0 - mu * (mu - 2.0) / (8.0 * x * x), mu / (2.0 * x));
-        let dc = (mu * (mu - 2.0) / (4.0 * x * x * x), -mu / (2.0 * x * x));
-        // dv/dN = (dv/dtau)/(aH) = -(k/aH) (i C + C')/sqrt(2k) ... with dx/dtau = -k
-        let ic_plus_dc = (-c.1 + dc.0, c.0 + dc.1);
-        let v = (c.0 / sqrt2k, c.1 / sqrt2k);
-        let dv = (-q * ic_plus_dc.0 / sqrt2k, -q * ic_plus_dc.1 / sqrt2k);
-        (v, dv)
-    };
-    let z = a * y_i[1];
-    let (v, dv) = bunch_davies(mu_s);
-    let r = (v.0 / z, v.1 / z);
-    let dr = (dv.0 / z - r.0 * zn, dv.1 / z - r.1 * zn);
-    let (vt, dvt) = bunch_davies(mu_t);
-    let h = (2.0 * vt.0 / a, 2.0 * vt.1 / a);
-    let dh = (2.0 * dvt.0 / a - h.0, 2.0 * dvt.1 / a - h.1);
-    let start = [y_i[0], y_i[1], r.0, r.1, dr.0, dr.1, h.0, h.1, dh.0, dh.1];
-    let rhs = |n: f64, y: &[f64; 10]| -> [f64; 10] {
+    }
+
+    /// The mode's state (phi, pi, R, R', h, h') at (n_i, y_i), deep inside the horizon.
+    fn bunch_davies_start(&self, n_i: f64, y_i: &State) -> [f64; 10] {
+        let k = self.k;
+        let p = self.bg.point(y_i);
+        let a = (n_i - self.pivot.n).exp();
+        let q = k / (a * p.h);
+        let eps2 = 2.0 * p.dpi / y_i[1];
+        let zn = 1.0 + 0.5 * eps2; // z'/z in e-folds
+                                   // Bunch–Davies with the first two terms of the Hankel asymptotic series, x = -k tau:
+                                   // v = C(x)/sqrt(2k), C = 1 + i mu/(2x) - mu(mu - 2)/(8x^2), mu = z''/z tau^2, with
+                                   // -tau = 1/((1 - eps) aH) and z''/z = (aH)^2 ((z'/z)^2 + (1 - eps) z'/z) (eps_2 eps_3 left out).
+        let one_m = 1.0 - p.eps_h;
+        let x = q / one_m;
+        let mu_s = (zn * zn + one_m * zn) / (one_m * one_m);
+        let mu_t = (1.0 + one_m) / (one_m * one_m);
+        let sqrt2k = (2.0 * k).sqrt();
+        // returns (v, dv/dN) as (re, im) pairs
+        let bunch_davies = |mu: f64| -> ((f64, f64), (f64, f64)) {
+            let c = (1.0 - mu * (mu - 2.0) / (8.0 * x * x), mu / (2.0 * x));
+            let dc = (mu * (mu - 2.0) / (4.0 * x * x * x), -mu / (2.0 * x * x));
+            // dv/dN = (dv/dtau)/(aH) = -(k/aH) (i C + C')/sqrt(2k) ... with dx/dtau = -k
+            let ic_plus_dc = (-c.1 + dc.0, c.0 + dc.1);
+            let v = (c.0 / sqrt2k, c.1 / sqrt2k);
+            let dv = (-q * ic_plus_dc.0 / sqrt2k, -q * ic_plus_dc.1 / sqrt2k);
+            (v, dv)
+        };
+        let z = a * y_i[1];
+        let (v, dv) = bunch_davies(mu_s);
+        let r = (v.0 / z, v.1 / z);
+        let dr = (dv.0 / z - r.0 * zn, dv.1 / z - r.1 * zn);
+        let (vt, dvt) = bunch_davies(mu_t);
+        let h = (2.0 * vt.0 / a, 2.0 * vt.1 / a);
+        let dh = (2.0 * dvt.0 / a - h.0, 2.0 * dvt.1 / a - h.1);
+        [y_i[0], y_i[1], r.0, r.1, dr.0, dr.1, h.0, h.1, dh.0, dh.1]
+    }
+
+    /// The right-hand side of the background and both modes in e-folds.
+    fn rhs(&self, n: f64, y: &[f64; 10]) -> [f64; 10] {
         let st = [y[0], y[1]];
-        let p = bg.point(&st);
-        let q = k * (pivot.n - n).exp() / p.h;
+        let p = self.bg.point(&st);
+        let q = self.k * (self.pivot.n - n).exp() / p.h;
         let q2 = q * q;
         let eps2 = 2.0 * p.dpi / y[1];
         let fr = 3.0 + eps2 - p.eps_h;
@@ -153,91 +199,70 @@ pub fn mode(
             -ft * y[8] - q2 * y[6],
             -ft * y[9] - q2 * y[7],
         ]
-    };
-    // Integrate to one e-fold before the stop, then on to the stop, to check the freeze.
-    let leg = |n0: f64, y0: [f64; 10], target: f64| -> Result<(f64, [f64; 10], usize), AnalysisError> {
-        let sol = integrate(rhs, n0, y0, n_hi + 10.0, &settings.ode, |n, y| {
-            Some(k_over_ah(n, &[y[0], y[1]]) - target)
-        })
+    }
+
+    /// Integrates from (n0, y0) until k/aH falls to `target` (at most to `n_hi` + 10):
+    /// (N, state, steps).
+    fn leg(
+        &self,
+        n0: f64,
+        y0: [f64; 10],
+        n_hi: f64,
+        target: f64,
+        settings: &Settings,
+    ) -> Result<(f64, [f64; 10], usize), AnalysisError> {
+        let sol = integrate(
+            |n, y: &[f64; 10]| self.rhs(n, y),
+            n0,
+            y0,
+            n_hi + 10.0,
+            &settings.ode,
+            |n, y| Some(self.k_over_ah(n, &[y[0], y[1]]) - target),
+        )
         .map_err(|e| {
-            fail(
-                format!(
-                    "the mode k/k_* = {} failed to integrate: {e}",
-                    crate::report::numfmt::number(kappa)
-                ),
-                &[],
-            )
+            AnalysisError::from(ErrorKind::ModeIntegration {
+                kappa: self.kappa,
+                error: e,
+            })
         })?;
         if !sol.event {
-            return Err(fail(
-                format!(
-                    "the mode k/k_* = {} does not reach k/aH = {} before inflation ends",
-                    crate::report::numfmt::number(kappa),
-                    crate::report::numfmt::typed(target)
-                ),
-                &["the mode exits too close to the end of inflation: ask for smaller k"],
-            ));
+            return Err(ErrorKind::ModeExitsLate {
+                kappa: self.kappa,
+                k_over_ah: target,
+            }
+            .into());
         }
         Ok((sol.t, sol.y, sol.steps))
-    };
-    let (n_prev, y_prev, steps_a) = leg(n_i, start, settings.k_stop * std::f64::consts::E)?;
-    let (_, y_stop, steps_b) = leg(n_prev, y_prev, settings.k_stop)?;
-    let steps = steps_a + steps_b;
-    // k scales as sqrt(V): for a tiny or huge overall scale of V, k^3 underflows or overflows
-    // while k^3 |R|^2 (which scales as V) does not. Then k |R|^2 is formed first.
-    let c = k.powi(3) / (2.0 * PI * PI);
-    let c_normal = c.is_normal();
-    let power = |y: &[f64; 10]| {
+    }
+
+    /// (P_R, P_t) of a frozen state.
+    fn power(&self, y: &[f64; 10]) -> (f64, f64) {
+        let k = self.k;
+        // k scales as sqrt(V): for a tiny or huge overall scale of V, k^3 underflows or
+        // overflows while k^3 |R|^2 (which scales as V) does not. Then k |R|^2 is formed first.
+        let c = k.powi(3) / (2.0 * PI * PI);
         let (rs, rt) = (y[2] * y[2] + y[3] * y[3], y[6] * y[6] + y[7] * y[7]);
-        if c_normal {
+        if c.is_normal() {
             (c * rs, 2.0 * c * rt)
         } else {
             let kk = k * k / (2.0 * PI * PI);
             ((k * rs) * kk, 2.0 * (k * rt) * kk)
         }
-    };
-    let (p_s, p_t) = power(&y_stop);
-    let (p_s_prev, _) = power(&y_prev);
-    let drift = ((p_s - p_s_prev) / p_s).abs();
-    if drift > settings.freeze_tol {
-        return Err(fail(
-            format!(
-                "the mode k/k_* = {} has not frozen: P changed by {} over its last e-fold (allowed {})",
-                crate::report::numfmt::number(kappa),
-                crate::report::numfmt::scientific(drift, 2),
-                crate::report::numfmt::typed(settings.freeze_tol)
-            ),
-            &["stop the modes further outside the horizon (a smaller k/aH at the stop)"],
-        ));
     }
-    Ok(ModePower {
-        kappa,
-        p_s,
-        p_t,
-        n_cross,
-        drift,
-        steps,
-    })
 }
 
 /// H and N at the pivot, `n_star` e-folds before the end of a run.
 pub fn pivot(bg: &Background<'_>, run: &Run, n_star: f64, settings: &Settings) -> Result<Pivot, AnalysisError> {
-    let n_end = run.n_end.ok_or_else(|| {
-        fail(
-            "inflation does not end in the exact background (eps_H never reaches 1)".to_string(),
-            &["the slow-roll end of inflation was not confirmed by the exact solution"],
-        )
-    })?;
+    let n_end = run
+        .n_end
+        .ok_or_else(|| AnalysisError::from(ErrorKind::ExactNeverEndsAtPivot))?;
     let n = n_end - n_star;
     if n <= 0.0 {
-        return Err(fail(
-            format!(
-                "the exact background gives only {} e-folds from its start, fewer than N_* = {}",
-                crate::report::numfmt::number(n_end),
-                crate::report::numfmt::typed(n_star)
-            ),
-            &["start the background earlier"],
-        ));
+        return Err(ErrorKind::ExactTooFewEfolds {
+            available: n_end,
+            n_star,
+        }
+        .into());
     }
     let y = state_at(bg, run, n, settings)?;
     Ok(Pivot { n, h: bg.point(&y).h })
@@ -317,12 +342,9 @@ pub fn observe(
 ) -> Result<Vec<ExactPoint>, AnalysisError> {
     let bg = Background::new(model);
     let run = run.clone();
-    let n_end = run.n_end.ok_or_else(|| {
-        fail(
-            "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
-            &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
-        )
-    })?;
+    let n_end = run
+        .n_end
+        .ok_or_else(|| AnalysisError::from(ErrorKind::ExactNeverEnds))?;
     let end = *run.checkpoints.last().map(|c| &c.1).expect("a run has checkpoints");
     let mut out = Vec::new();
     for &n_star in n_stars {

@@ -68,8 +68,43 @@ pub struct Matching {
 }
 
 /// Why the matching failed.
-#[derive(Debug, Clone, PartialEq)]
-pub struct MatchingError(pub String);
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum MatchingError {
+    /// The equation of state is outside (-1/3, 1].
+    BadW {
+        /// The equation of state.
+        w: f64,
+    },
+    /// g_* is not positive.
+    BadGStar {
+        /// g_*.
+        g_star: f64,
+    },
+    /// The reheating temperature is above the energy at the end of inflation.
+    TooHot {
+        /// The highest reheating temperature possible, GeV.
+        t_max_gev: f64,
+    },
+}
+
+impl std::fmt::Display for MatchingError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            MatchingError::BadW { w } => write!(
+                f,
+                "equation of state w = {w} is outside (-1/3, 1]: the universe would still be inflating"
+            ),
+            MatchingError::BadGStar { g_star } => write!(f, "g_* = {g_star} must be positive"),
+            MatchingError::TooHot { t_max_gev } => write!(
+                f,
+                "the reheating temperature is above the energy at the end of inflation: T_reh can be at most {} GeV",
+                crate::report::numfmt::number(*t_max_gev)
+            ),
+        }
+    }
+}
+
+impl std::error::Error for MatchingError {}
 
 impl Reheating {
     /// N_* for a pivot that exits with Hubble rate `h_star` when inflation ends with potential
@@ -85,19 +120,14 @@ impl Reheating {
             Reheating::Efolds { w, n_reh, g_star } => (w, g_star, rho_end * (-3.0 * (1.0 + w) * n_reh).exp()),
         };
         if !(w > -1.0 / 3.0 && w <= 1.0) {
-            return Err(MatchingError(format!(
-                "equation of state w = {w} is outside (-1/3, 1]: the universe would still be inflating"
-            )));
+            return Err(MatchingError::BadW { w });
         }
         if g <= 0.0 {
-            return Err(MatchingError(format!("g_* = {g} must be positive")));
+            return Err(MatchingError::BadGStar { g_star: g });
         }
         if rho_reh > rho_end * (1.0 + 1e-12) {
             let t_max = (30.0 * rho_end / (PI * PI * g)).powf(0.25) * data.units.reduced_planck_mass_gev;
-            return Err(MatchingError(format!(
-                "the reheating temperature is above the energy at the end of inflation: T_reh can be at most {} GeV",
-                crate::report::numfmt::number(t_max)
-            )));
+            return Err(MatchingError::TooHot { t_max_gev: t_max });
         }
         let n_reh = (rho_end / rho_reh).ln() / (3.0 * (1.0 + w));
         let t_reh = (30.0 * rho_reh / (PI * PI * g)).powf(0.25);
@@ -125,5 +155,53 @@ impl Reheating {
                 format!("reheating with w = {w} for {n_reh} e-folds, g_* = {g_star}")
             }
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The matching's refusals against the messages built by hand before they were typed (the
+    /// old `format!` calls kept as the reference), and the refusals themselves.
+    #[test]
+    fn refusals_keep_their_messages() {
+        let data = DataSet::builtin();
+        let bad_w = Reheating::Efolds {
+            w: -0.5,
+            n_reh: 1.0,
+            g_star: 100.0,
+        };
+        let e = bad_w.match_pivot(1e-5, 1e-10, &data).unwrap_err();
+        assert_eq!(e, MatchingError::BadW { w: -0.5 });
+        assert_eq!(
+            e.to_string(),
+            format!(
+                "equation of state w = {} is outside (-1/3, 1]: the universe would still be inflating",
+                -0.5
+            )
+        );
+        let e = Reheating::Instant { g_star: 0.0 }
+            .match_pivot(1e-5, 1e-10, &data)
+            .unwrap_err();
+        assert_eq!(e.to_string(), format!("g_* = {} must be positive", 0.0));
+        // T_reh = 1e19 GeV is above the energy of V_end = 1e-10 (in M_p^4).
+        let hot = Reheating::Temperature {
+            w: 0.0,
+            t_reh_gev: 1e19,
+            g_star: 100.0,
+        };
+        let e = hot.match_pivot(1e-5, 1e-10, &data).unwrap_err();
+        let MatchingError::TooHot { t_max_gev } = e else {
+            panic!("{e:?}")
+        };
+        assert!(t_max_gev < 1e19);
+        assert_eq!(
+            e.to_string(),
+            format!(
+                "the reheating temperature is above the energy at the end of inflation: T_reh can be at most {} GeV",
+                crate::report::numfmt::number(t_max_gev)
+            )
+        );
     }
 }

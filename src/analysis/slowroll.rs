@@ -13,8 +13,8 @@
 //! N(phi) = integral from phi_end to phi of V K / V_phi dphi
 //! ```
 
-use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
+use crate::analysis::error::ErrorKind;
 use crate::analysis::single::branches::sample_points;
 use crate::analysis::single::branches::Branch;
 use crate::analysis::single::canonical::chi_derivatives_normalised;
@@ -212,21 +212,20 @@ fn end_of_inflation_walk(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Res
                 if let Some(end) = end_before_zero_of_v(ev, xa, x) {
                     return Ok(end);
                 }
-                return Err(fail(
-                    format!("V becomes negative at {field} = {} before eps_V reaches 1", fmt_end(x)),
-                    &["inflation would end in a region of negative potential energy: check the potential's minimum"],
-                ));
+                return Err(ErrorKind::NegativeBeforeEnd {
+                    field: field.to_string(),
+                    at: x,
+                }
+                .into());
             }
             if !seen_inflation && crossing.is_none() {
-                return Err(fail(
-                    format!(
-                        "V <= 0 at {field} = {}, near the top of the branch from {field} = {} to {}: a negative potential does not inflate",
-                        fmt_end(x),
-                        fmt_end(b.top),
-                        fmt_end(b.bottom)
-                    ),
-                    &["inflation needs V > 0 where the field starts: check the sign and the constant term of V"],
-                ));
+                return Err(ErrorKind::NegativeAtTop {
+                    field: field.to_string(),
+                    at: x,
+                    top: b.top,
+                    bottom: b.bottom,
+                }
+                .into());
             }
             break;
         }
@@ -240,23 +239,19 @@ fn end_of_inflation_walk(ev: &mut Evaluator<'_>, b: &Branch, field: &str) -> Res
     }
     let Some((a, c)) = crossing else {
         if !seen_inflation {
-            return Err(fail(
-                format!(
-                    "eps_V >= 1 everywhere on the branch from {field} = {} to {}: it does not inflate",
-                    fmt_end(b.top),
-                    fmt_end(b.bottom)
-                ),
-                &["choose another branch with --branch, or check the potential"],
-            ));
+            return Err(ErrorKind::NoSlowRoll {
+                field: field.to_string(),
+                top: b.top,
+                bottom: b.bottom,
+            }
+            .into());
         }
-        return Err(fail(
-            format!(
-                "inflation never ends on the branch from {field} = {} to {}: eps_V stays below 1 down to the bottom",
-                fmt_end(b.top),
-                fmt_end(b.bottom)
-            ),
-            &["inflation would have to end by another mechanism (a second field, a phase transition)"],
-        ));
+        return Err(ErrorKind::NeverEnds {
+            field: field.to_string(),
+            top: b.top,
+            bottom: b.bottom,
+        }
+        .into());
     };
     let root = brent(
         |x| SlowRoll::at(ev, x).eps_v - 1.0,
@@ -303,10 +298,6 @@ fn end_before_zero_of_v(ev: &mut Evaluator<'_>, xa: f64, xb: f64) -> Option<f64>
     )
     .ok()
     .map(|r| r.value)
-}
-
-fn fmt_end(x: f64) -> String {
-    crate::report::numfmt::number(x)
 }
 
 /// dN/dphi = V K / V_phi (positive uphill).
@@ -413,27 +404,21 @@ pub fn phi_stars_with_accuracy(
             (NumericError::NoConvergence { estimate, error, .. }, Some(top)) => {
                 let (pa, px) = (coord.phi(a), coord.phi(x));
                 let d = (pa - top).abs().min((px - top).abs());
-                fail(
-                    format!(
-                        "the e-fold integral cannot be resolved in double precision within {d:.1e} of {field} = {}: rounding in V K / V' there leaves a relative error of {:.1e} (allowed {:.0e}), and the pivot lies that close",
-                        fmt_end(top),
-                        error / estimate.abs(),
-                        limit
-                    ),
-                    &[
-                        "write the model in a variable in which the top of the branch is not so close (the distance to a pole, or the canonical field)",
-                        "or ask for fewer e-folds with --efolds",
-                    ],
-                )
+                AnalysisError::from(ErrorKind::RoundingNearTop {
+                    field: field.to_string(),
+                    top,
+                    distance: d,
+                    error: error / estimate.abs(),
+                    allowed: limit,
+                })
             }
-            _ => fail(
-                format!(
-                    "e-fold integral failed between {field} = {} and {}: {e}",
-                    fmt_end(coord.phi(a)),
-                    fmt_end(coord.phi(x))
-                ),
-                &["the slow-roll integrand V K / V' must stay finite up the branch"],
-            ),
+            _ => ErrorKind::EfoldIntegral {
+                field: field.to_string(),
+                from: coord.phi(a),
+                to: coord.phi(x),
+                error: e.clone(),
+            }
+            .into(),
         })?;
         Ok(r)
     };
@@ -459,15 +444,14 @@ pub fn phi_stars_with_accuracy(
         }
     }
     if out.iter().any(|x| x.is_nan()) {
-        return Err(fail(
-            format!(
-                "the branch gives only {} e-folds between the end of inflation at {field} = {} and {field} = {}, fewer than the {need} asked",
-                crate::report::numfmt::number(n_prev),
-                fmt_end(phi_end),
-                fmt_end(b.top)
-            ),
-            &["ask for fewer e-folds with --efolds, or choose another branch or parameters"],
-        ));
+        return Err(ErrorKind::TooFewEfolds {
+            field: field.to_string(),
+            available: n_prev,
+            asked: need,
+            end: phi_end,
+            top: b.top,
+        }
+        .into());
     }
     Ok((out, worst.get()))
 }
@@ -580,10 +564,7 @@ fn solve_n(
         nk = n;
         x = next;
     }
-    Err(fail(
-        format!("finding phi_* for N_* = {target} did not converge"),
-        &["report the model: the e-fold integral is not monotonic on this branch"],
-    ))
+    Err(ErrorKind::PhiStarNoConvergence { n_star: target }.into())
 }
 
 #[cfg(test)]

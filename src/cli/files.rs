@@ -51,7 +51,7 @@ pub(crate) fn write_figure(
         write_output_file(path, svg)?;
     }
     if let Some(path) = pdf_path {
-        let pdf = crate::report::plot::to_pdf(svg).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+        let pdf = crate::report::plot::to_pdf(svg).map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
         crate::report::output::write_file(path, pdf).map_err(|e| cannot_write(path, e))?;
     }
     Ok(())

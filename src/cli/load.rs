@@ -48,7 +48,7 @@ pub fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<crate
 
 pub(crate) fn load_data(path: &Option<std::path::PathBuf>) -> Result<crate::data::DataSet, Failure> {
     match path {
-        Some(p) => crate::data::DataSet::load(p).map_err(Failure::input),
+        Some(p) => crate::data::DataSet::load(p).map_err(Failure::from),
         None => Ok(crate::data::DataSet::builtin()),
     }
 }

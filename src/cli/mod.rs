@@ -1,13 +1,15 @@
 //! The command line: arguments as plain data (clap), then one function per command that returns
-//! the text to print. The binary only calls [`main`]. Exit codes are chosen in one place,
-//! [`Failure::code`]:
+//! the text to print. The binary only calls [`main`].
+//!
+//! Exit codes. This table is their one description; the codes are chosen by the constructors
+//! of [`Failure`] ([`Failure::input`], [`Failure::drifted`], [`Failure::quiet`]) and by clap
+//! for the arguments it refuses:
 //!
 //! | code | meaning |
 //! |------|---------|
-//! | 0 | success; also a closed standard output (the reader went away): efold stops quietly |
-//! | 1 | `golden check`: predictions drifted beyond the tolerance |
-//! | 2 | bad input (an expression, a flag, a file, a size beyond its limit, a value outside its
-//! range), an output that cannot be written, or a numerical failure |
+//! | 0 | success; `--help` and `--version`; a closed standard output (the reader went away): efold stops quietly, nothing on stderr |
+//! | 1 | `golden check` only: a model's predictions drifted beyond the tolerance, a model that has golden predictions now fails to predict, or a model has no readable golden file; the report on stderr lists every model |
+//! | 2 | every other failure, with a diagnosis on stderr: a malformed or unknown flag (clap's own message), bad input (an expression, a model or data file, a flag value outside its range, a size beyond its limit, `merge` inputs that are not one set of shards), an output that cannot be written, and an analysis that fails (no end of inflation, too few e-folds, K <= 0 or a pole in the range, a mode that does not freeze, a numerical failure, ...) |
 
 use crate::config::Config;
 use crate::diag::Diagnostic;
@@ -73,14 +75,23 @@ pub struct Failure {
 }
 
 impl Failure {
-    /// Predictions drifted from their golden values: exit code 1.
+    /// `golden check` found drift (or a model that now fails, or no golden file): exit
+    /// code 1.
     pub fn drifted(message: String) -> Failure {
         Failure { message, code: 1 }
     }
 
-    /// Bad input or a numerical failure: exit code 2.
+    /// Bad input, an output that cannot be written, or a failed analysis: exit code 2.
     pub fn input(message: String) -> Failure {
         Failure { message, code: 2 }
+    }
+
+    /// The reader of standard output went away: stop quietly, exit code 0.
+    pub fn quiet() -> Failure {
+        Failure {
+            message: String::new(),
+            code: 0,
+        }
     }
 
     /// The exit code.
@@ -107,6 +118,12 @@ impl From<crate::analysis::error::AnalysisError> for Failure {
     }
 }
 
+impl From<crate::data::DataError> for Failure {
+    fn from(e: crate::data::DataError) -> Failure {
+        Failure::input(e.render())
+    }
+}
+
 impl From<Diagnostic> for Failure {
     fn from(d: Diagnostic) -> Failure {
         Failure::input(d.render(None))
@@ -117,10 +134,7 @@ impl From<crate::report::output::WriteError> for Failure {
     fn from(e: crate::report::output::WriteError) -> Failure {
         match e {
             // The reader went away: stop quietly, as a filter does.
-            crate::report::output::WriteError::Closed => Failure {
-                message: String::new(),
-                code: 0,
-            },
+            crate::report::output::WriteError::Closed => Failure::quiet(),
             crate::report::output::WriteError::Failed(m) => Diagnostic::new(m)
                 .with_hint("check the disk or device standard output goes to")
                 .into(),

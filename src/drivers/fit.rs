@@ -6,8 +6,8 @@
 //! fitted in its logarithm (it stays positive, and scale-like parameters such as alpha move
 //! evenly); others linearly.
 
-use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
+use crate::analysis::error::{ErrorKind, Miss};
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::predict::{predict, Options, Prediction};
@@ -63,6 +63,55 @@ impl Observable {
     }
 }
 
+/// Why a `--target` cannot be read.
+#[derive(Debug, Clone, PartialEq)]
+pub enum TargetError {
+    /// Not `NAME=VALUE`.
+    Form {
+        /// The flag's value.
+        text: String,
+    },
+    /// Not an observable that can be targeted.
+    Unknown {
+        /// The flag's value.
+        text: String,
+        /// The name given.
+        name: String,
+    },
+    /// The value is not a number.
+    NotANumber {
+        /// The flag's value.
+        text: String,
+        /// The value given.
+        value: String,
+    },
+    /// r or A_s not positive.
+    NotPositive {
+        /// The flag's value.
+        text: String,
+        /// Which.
+        observable: Observable,
+    },
+}
+
+impl std::fmt::Display for TargetError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            TargetError::Form { text } => write!(f, "`--target {text}`: write NAME=VALUE, e.g. `--target n_s=0.965`"),
+            TargetError::Unknown { name, .. } => write!(
+                f,
+                "`{name}` cannot be targeted: the targets are n_s, r, alpha_s and A_s"
+            ),
+            TargetError::NotANumber { text, value } => write!(f, "`{value}` is not a number in `--target {text}`"),
+            TargetError::NotPositive { text, observable } => {
+                write!(f, "`--target {text}`: {} must be positive", observable.name())
+            }
+        }
+    }
+}
+
+impl std::error::Error for TargetError {}
+
 /// A target: `n_s=0.965`.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Target {
@@ -74,27 +123,31 @@ pub struct Target {
 
 impl Target {
     /// Parses `NAME=VALUE`.
-    pub fn parse(text: &str) -> Result<Target, String> {
+    pub fn parse(text: &str) -> Result<Target, TargetError> {
         let (name, value) = text
             .split_once('=')
-            .ok_or_else(|| format!("`--target {text}`: write NAME=VALUE, e.g. `--target n_s=0.965`"))?;
+            .ok_or_else(|| TargetError::Form { text: text.to_string() })?;
         let observable = match name.trim() {
             "n_s" => Observable::NS,
             "r" => Observable::R,
             "alpha_s" => Observable::AlphaS,
             "A_s" | "a_s" => Observable::As,
             other => {
-                return Err(format!(
-                    "`{other}` cannot be targeted: the targets are n_s, r, alpha_s and A_s"
-                ))
+                return Err(TargetError::Unknown {
+                    text: text.to_string(),
+                    name: other.to_string(),
+                })
             }
         };
-        let value: f64 = value
-            .trim()
-            .parse()
-            .map_err(|_| format!("`{value}` is not a number in `--target {text}`"))?;
+        let value: f64 = value.trim().parse().map_err(|_| TargetError::NotANumber {
+            text: text.to_string(),
+            value: value.to_string(),
+        })?;
         if matches!(observable, Observable::R | Observable::As) && value <= 0.0 {
-            return Err(format!("`--target {text}`: {} must be positive", observable.name()));
+            return Err(TargetError::NotPositive {
+                text: text.to_string(),
+                observable,
+            });
         }
         Ok(Target { observable, value })
     }
@@ -139,6 +192,25 @@ impl Default for FitSettings {
     }
 }
 
+/// Why the fit's problem has no residuals at a point: no prediction there, or a target
+/// observable that is not finite.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ProblemError {
+    /// The model does not build or predict there.
+    Point(crate::drivers::scan::PointError),
+    /// A target observable is not finite there.
+    NotFinite,
+}
+
+impl std::fmt::Display for ProblemError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            ProblemError::Point(e) => write!(f, "{e}"),
+            ProblemError::NotFinite => f.write_str("a target observable is not finite here"),
+        }
+    }
+}
+
 struct Problem<'a> {
     spec: &'a ModelSpec,
     free: &'a [String],
@@ -157,17 +229,18 @@ impl Problem<'_> {
             .collect()
     }
 
-    fn predict(&self, theta: &DVector<f64>) -> Result<Prediction, String> {
+    fn predict(&self, theta: &DVector<f64>) -> Result<Prediction, ProblemError> {
         let mut spec = self.spec.clone();
         for (name, v) in self.free.iter().zip(self.params(theta)) {
             spec.set_param(name, &format!("{v:e}"));
         }
-        let model = Model::build(&spec, self.config).map_err(|e| e.diagnostic.message.clone())?;
-        let rep = predict(&model, &self.opts, self.config).map_err(|e| e.message)?;
+        use crate::drivers::scan::PointError;
+        let model = Model::build(&spec, self.config).map_err(|e| ProblemError::Point(PointError::from(e)))?;
+        let rep = predict(&model, &self.opts, self.config).map_err(|e| ProblemError::Point(PointError::from(e)))?;
         Ok(rep.predictions[0].clone())
     }
 
-    fn residuals(&self, theta: &DVector<f64>) -> Result<(DVector<f64>, Prediction), String> {
+    fn residuals(&self, theta: &DVector<f64>) -> Result<(DVector<f64>, Prediction), ProblemError> {
         let p = self.predict(theta)?;
         let r = DVector::from_iterator(
             self.targets.len(),
@@ -176,13 +249,13 @@ impl Problem<'_> {
                 .map(|t| t.observable.residual(t.observable.value(&p), t.value)),
         );
         if r.iter().any(|x| !x.is_finite()) {
-            return Err("a target observable is not finite here".to_string());
+            return Err(ProblemError::NotFinite);
         }
         Ok((r, p))
     }
 
     /// Central differences, step 1e-6 in each fitted variable (relative for linear ones).
-    fn jacobian(&self, theta: &DVector<f64>) -> Result<DMatrix<f64>, String> {
+    fn jacobian(&self, theta: &DVector<f64>) -> Result<DMatrix<f64>, ProblemError> {
         let (m, n) = (self.targets.len(), theta.len());
         let mut j = DMatrix::zeros(m, n);
         for c in 0..n {
@@ -217,34 +290,27 @@ pub fn fit(
     settings: &FitSettings,
 ) -> Result<FitResult, AnalysisError> {
     if free.is_empty() || targets.is_empty() {
-        return Err(fail(
-            "a fit needs at least one --free parameter and one --target".to_string(),
-            &[],
-        ));
+        return Err(ErrorKind::FitEmpty.into());
     }
     if free.len() > targets.len() {
-        return Err(fail(
-            format!(
-                "{} free parameters for {} target(s): the solution would not be unique",
-                free.len(),
-                targets.len()
-            ),
-            &["free at most as many parameters as there are targets"],
-        ));
+        return Err(ErrorKind::FitNotUnique {
+            free: free.len(),
+            targets: targets.len(),
+        }
+        .into());
     }
-    let start_model = Model::build(spec, config).map_err(|e| fail(e.diagnostic.message.clone(), &[]))?;
+    let start_model = Model::build(spec, config).map_err(|e| {
+        AnalysisError::from(ErrorKind::FitModel {
+            message: e.diagnostic.message.clone(),
+        })
+    })?;
     let mut start = Vec::new();
     for name in free {
         let v = start_model
             .param_pairs()
             .find(|(n, _)| n == name)
             .map(|(_, v)| v)
-            .ok_or_else(|| {
-                fail(
-                    format!("`{name}` is not a parameter of the model"),
-                    &["--free takes a parameter's name"],
-                )
-            })?;
+            .ok_or_else(|| AnalysisError::from(ErrorKind::FitUnknownFree { name: name.clone() }))?;
         start.push(v);
     }
     let log: Vec<bool> = start.iter().map(|v| *v > 0.0).collect();
@@ -264,23 +330,17 @@ pub fn fit(
         start.len(),
         start.iter().zip(&log).map(|(v, l)| if *l { v.ln() } else { *v }),
     );
-    let (mut r, mut pred) = problem.residuals(&theta).map_err(|e| {
-        fail(
-            format!("the model does not predict at the starting values: {e}"),
-            &["start the fit from values that predict"],
-        )
-    })?;
+    let (mut r, mut pred) = problem
+        .residuals(&theta)
+        .map_err(|e| AnalysisError::from(ErrorKind::FitStart { cause: e.to_string() }))?;
     let mut lambda = 1e-3;
     let mut iterations = 0;
     let cost = |r: &DVector<f64>| r.norm_squared();
     while r.amax() > settings.tol && iterations < settings.max_iter {
         iterations += 1;
-        let j = problem.jacobian(&theta).map_err(|e| {
-            fail(
-                format!("the Jacobian could not be formed: {e}"),
-                &["start closer to a solution"],
-            )
-        })?;
+        let j = problem
+            .jacobian(&theta)
+            .map_err(|e| AnalysisError::from(ErrorKind::FitJacobian { cause: e.to_string() }))?;
         let jt = j.transpose();
         let jtj = &jt * &j;
         let g = &jt * &r;
@@ -320,36 +380,25 @@ pub fn fit(
     let values = problem.params(&theta);
     let named = |v: &[f64]| -> IndexMap<String, f64> { free.iter().cloned().zip(v.iter().copied()).collect() };
     if r.amax() > settings.tol.max(1e-8) {
-        let parts: Vec<String> = targets
+        let misses = targets
             .iter()
             .zip(r.iter())
-            .map(|(t, x)| {
-                format!(
-                    "{} = {} (wanted {}, scaled residual {})",
-                    t.observable.name(),
-                    numfmt::number(t.observable.value(&pred)),
-                    numfmt::typed(t.value),
-                    numfmt::scientific(*x, 3)
-                )
+            .map(|(t, x)| Miss {
+                observable: t.observable.name(),
+                reached: t.observable.value(&pred),
+                wanted: t.value,
+                residual: *x,
             })
             .collect();
-        let at: Vec<String> = named(&values)
-            .iter()
-            .map(|(k, v)| format!("{k} = {}", numfmt::number_digits(*v, PARAM_DIGITS)))
-            .collect();
-        return Err(fail(
-            format!(
-                "no parameter values reproduce the targets: the best found, at {}, gives {}",
-                at.join(", "),
-                parts.join("; ")
-            ),
-            &[
-                "the targets may be out of the model's reach at this N_*: check them against a scan",
-                "or start from other values with --param",
-            ],
-        ));
+        return Err(ErrorKind::FitNoSolution {
+            at: named(&values).into_iter().collect(),
+            misses,
+        }
+        .into());
     }
-    let j = problem.jacobian(&theta).map_err(|e| fail(e, &[]))?;
+    let j = problem
+        .jacobian(&theta)
+        .map_err(|e| AnalysisError::from(ErrorKind::FitJacobianAtSolution { cause: e.to_string() }))?;
     let sv = j.svd(false, false).singular_values;
     let (smax, smin) = (sv.max(), sv.min());
     Ok(FitResult {
@@ -375,7 +424,7 @@ pub fn fit(
 }
 
 /// Significant digits of fitted parameter values in human output.
-const PARAM_DIGITS: usize = 12;
+const PARAM_DIGITS: usize = crate::analysis::error::FIT_PARAM_DIGITS;
 
 /// The fit as text: parameters to `PARAM_DIGITS` (12) significant digits, targets as typed, reached values with
 /// enough digits to show how far they are from the target, residuals in scientific notation.
@@ -437,4 +486,34 @@ pub fn text(f: &FitResult) -> String {
         value(f.prediction.potential_scale)
     );
     o
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// `--target` values that cannot be read, each with the message it had as a plain string.
+    #[test]
+    fn bad_targets_keep_their_messages() {
+        let cases = [
+            ("n_s", "`--target n_s`: write NAME=VALUE, e.g. `--target n_s=0.965`"),
+            (
+                "tau=0.05",
+                "`tau` cannot be targeted: the targets are n_s, r, alpha_s and A_s",
+            ),
+            ("r=small", "`small` is not a number in `--target r=small`"),
+            ("r=-0.01", "`--target r=-0.01`: r must be positive"),
+            ("A_s=0", "`--target A_s=0`: A_s must be positive"),
+        ];
+        for (text, message) in cases {
+            assert_eq!(Target::parse(text).unwrap_err().to_string(), message, "{text}");
+        }
+        assert_eq!(
+            Target::parse("alpha_s=-0.001"),
+            Ok(Target {
+                observable: Observable::AlphaS,
+                value: -0.001
+            })
+        );
+    }
 }

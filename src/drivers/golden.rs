@@ -13,16 +13,59 @@ use crate::drivers::predict::{predict, Options, Report};
 use crate::model::{Model, ModelSpec};
 use std::path::{Path, PathBuf};
 
+/// Why a model file has no predictions, or a directory cannot be walked.
+#[derive(Debug, Clone, PartialEq)]
+pub enum GoldenError {
+    /// A directory cannot be read.
+    Directory {
+        /// The directory.
+        path: PathBuf,
+        /// The system's message.
+        error: String,
+    },
+    /// The model file cannot be read or compiled.
+    Model(crate::model::ModelError),
+    /// The prediction failed.
+    Analysis(crate::analysis::error::AnalysisError),
+}
+
+impl GoldenError {
+    /// Drawn by the one renderer (a model error against its file).
+    pub fn render(&self) -> String {
+        match self {
+            GoldenError::Directory { .. } => crate::diag::Diagnostic::new(self.to_string()).render(None),
+            GoldenError::Model(e) => e.render(),
+            GoldenError::Analysis(e) => e.diagnostic().render(None),
+        }
+    }
+}
+
+impl std::fmt::Display for GoldenError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            GoldenError::Directory { path, error } => {
+                write!(f, "cannot read directory `{}`: {error}", path.display())
+            }
+            GoldenError::Model(e) => write!(f, "{e}"),
+            GoldenError::Analysis(e) => write!(f, "{e}"),
+        }
+    }
+}
+
+impl std::error::Error for GoldenError {}
+
 /// The model files (`*.toml`) under `dir`, recursively, sorted.
-pub fn model_files(dir: &Path) -> Result<Vec<PathBuf>, String> {
+pub fn model_files(dir: &Path) -> Result<Vec<PathBuf>, GoldenError> {
     let mut out = Vec::new();
     let mut stack = vec![dir.to_path_buf()];
     while let Some(d) = stack.pop() {
-        let entries = std::fs::read_dir(&d).map_err(|e| format!("cannot read directory `{}`: {e}", d.display()))?;
+        let unreadable = |e: std::io::Error| GoldenError::Directory {
+            path: d.clone(),
+            error: e.to_string(),
+        };
+        let entries = std::fs::read_dir(&d).map_err(unreadable)?;
         for e in entries {
-            let p = e
-                .map_err(|e| format!("cannot read directory `{}`: {e}", d.display()))?
-                .path();
+            let p = e.map_err(unreadable)?.path();
             // Symbolic links to directories are not followed, so a link loop cannot make the
             // walk endless; links to model files are read like files.
             let is_link = std::fs::symlink_metadata(&p).is_ok_and(|m| m.file_type().is_symlink());
@@ -45,14 +88,14 @@ pub fn golden_path(model: &Path) -> PathBuf {
 }
 
 /// Predicts one model file with its own N_* setting (or 50, 55, 60).
-pub fn predict_file(path: &Path, base: &Options, config: &Config) -> Result<Report, String> {
-    let spec = ModelSpec::load(path).map_err(|e| e.render())?;
-    let model = Model::build(&spec, config).map_err(|e| e.render())?;
+pub fn predict_file(path: &Path, base: &Options, config: &Config) -> Result<Report, GoldenError> {
+    let spec = ModelSpec::load(path).map_err(GoldenError::Model)?;
+    let model = Model::build(&spec, config).map_err(GoldenError::Model)?;
     let opts = Options {
         n_stars: spec.efolds.clone().unwrap_or_else(|| base.n_stars.clone()),
         ..base.clone()
     };
-    predict(&model, &opts, config).map_err(|e| e.diagnostic().render(None))
+    predict(&model, &opts, config).map_err(GoldenError::Analysis)
 }
 
 /// Where a difference lies: in the report around the predictions, or in the prediction at
@@ -542,6 +585,21 @@ pub fn diff(old: &serde_json::Value, new: &serde_json::Value, tolerance: f64) ->
 mod tests {
     use super::*;
     use serde_json::json;
+
+    /// A directory that cannot be read is an error naming it, drawn by the one renderer as
+    /// its plain message was before.
+    #[test]
+    fn an_unreadable_directory_is_named() {
+        let dir = std::env::temp_dir().join(format!("efold-no-such-dir-{}", std::process::id()));
+        let e = model_files(&dir).unwrap_err();
+        let GoldenError::Directory { path, error } = &e else {
+            panic!("{e:?}")
+        };
+        assert_eq!(path, &dir);
+        let message = format!("cannot read directory `{}`: {error}", dir.display());
+        assert_eq!(e.to_string(), message);
+        assert_eq!(e.render(), crate::diag::Diagnostic::new(message).render(None));
+    }
 
     fn prediction(n_star: f64, n_s: f64, r: f64) -> serde_json::Value {
         json!({

@@ -242,12 +242,12 @@ pub fn numbers(ins: &Inspection) -> Vec<(String, f64)> {
 fn check_finite(ins: &Inspection, field: &str) -> Result<(), AnalysisError> {
     match numbers(ins).into_iter().find(|(_, x)| !x.is_finite()) {
         None => Ok(()),
-        Some((key, x)) => Err(crate::analysis::error::fail(
-            format!("{key} is not a finite number ({x})"),
-            &[
-                &format!("V or K overflows or is not smooth enough there: check them, or give a --range for {field} that avoids it"),
-            ],
-        )),
+        Some((key, value)) => Err(crate::analysis::error::ErrorKind::InspectionNotFinite {
+            key,
+            value,
+            field: field.to_string(),
+        }
+        .into()),
     }
 }
 

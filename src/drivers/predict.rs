@@ -2,8 +2,8 @@
 //! amplitude fixed by A_s, scales in GeV, the field excursion, the pivot from a reheating
 //! history, and the verdict against a data set. Reduced Planck units unless a key says GeV.
 
-use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
+use crate::analysis::error::ErrorKind;
 use crate::analysis::reheating::{Matching, Reheating};
 use crate::analysis::single::branches::{branches, Branch};
 use crate::analysis::single::canonical::CanonicalMap;
@@ -205,17 +205,14 @@ impl Prediction {
 pub fn check_finite(predictions: &[Prediction], field: &str) -> Result<(), AnalysisError> {
     for p in predictions {
         if let Some((key, x)) = p.numbers().into_iter().find(|(_, x)| !x.is_finite()) {
-            return Err(fail(
-                format!(
-                    "{key} is not a finite number ({x}) at N_* = {} ({field}_* = {})",
-                    crate::report::numfmt::number(p.n_star),
-                    crate::report::numfmt::number(p.phi_star)
-                ),
-                &[
-                    "V or K is not smooth enough there (a derivative overflows), or the numbers leave double precision",
-                    "check the potential and the kinetic function near that point",
-                ],
-            ));
+            return Err(ErrorKind::PredictionNotFinite {
+                key,
+                value: x,
+                n_star: p.n_star,
+                field: field.to_string(),
+                phi_star: p.phi_star,
+            }
+            .into());
         }
     }
     Ok(())
@@ -273,10 +270,7 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
     let iv = domain.interval;
     let all = branches(&mut ev, &iv);
     if all.is_empty() {
-        return Err(fail(
-            "V is constant on the domain: the field does not roll".to_string(),
-            &["check the potential"],
-        ));
+        return Err(ErrorKind::NoBranch.into());
     }
     let n_wanted: Vec<f64> = if opts.reheating.is_some() {
         vec![55.0]
@@ -284,29 +278,20 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
         opts.n_stars.clone()
     };
     if n_wanted.is_empty() {
-        return Err(fail(
-            "no N_* to predict at: the list of e-folds is empty".to_string(),
-            &["use --efolds 50,55,60"],
-        ));
+        return Err(ErrorKind::NoEfolds.into());
     }
     if let Some(bad) = n_wanted.iter().find(|n| !(n.is_finite() && **n > 0.0)) {
-        return Err(fail(
-            format!("N_* = {bad} is not a positive number of e-folds"),
-            &["use --efolds 50,55,60"],
-        ));
+        return Err(ErrorKind::BadEfolds { n_star: *bad }.into());
     }
     // Which branches to try, in order.
     let order: Vec<usize> = match (opts.branch, model.spec.start) {
         (Some(k), _) => {
             if k == 0 || k > all.len() {
-                return Err(fail(
-                    format!(
-                        "--branch {k}: the domain has {} branch(es), numbered 1 to {}",
-                        all.len(),
-                        all.len()
-                    ),
-                    &["run without --branch to see them listed"],
-                ));
+                return Err(ErrorKind::NoSuchBranch {
+                    asked: k,
+                    count: all.len(),
+                }
+                .into());
             }
             vec![k - 1]
         }
@@ -417,17 +402,12 @@ fn run_branch(
         None
     };
     if bottom_kind == Some(EndKind::Pole) {
-        return Err(fail(
-            format!(
-                "on the branch from {field} = {} the field rolls into the pole of K at {field} = {}",
-                fmt(b.top),
-                fmt(b.bottom)
-            ),
-            &[
-                "V decreases toward the pole, so the field runs into it instead of reaching a minimum",
-                "choose another branch with --branch, or change the potential",
-            ],
-        ));
+        return Err(ErrorKind::RollsIntoPole {
+            field: field.to_string(),
+            top: b.top,
+            pole: b.bottom,
+        }
+        .into());
     }
     let phi_end = end_of_inflation(ev, b, field)?;
     let top_kind = if b.top == iv.lo {
@@ -584,14 +564,10 @@ fn refine_exact(
         phi_stars(ev, b, phi_end, &[n], config, field)
             .map(|v| v[0])
             .map_err(|e| {
-                fail(
-                    format!(
-                        "the exact solver needs {} e-folds of slow roll before the end: {}",
-                        numfmt::number(n),
-                        e.message
-                    ),
-                    &["ask for fewer e-folds"],
-                )
+                AnalysisError::from(ErrorKind::NoRoomForExact {
+                    needed: n,
+                    cause: e.kind,
+                })
             })
     };
     let (_, run) = crate::analysis::background::start_with_room(model, deepest + margin, settings, &mut phi_at)?;
@@ -667,22 +643,16 @@ fn solve_matching(
         let h = (scale * sr.v / 3.0).sqrt();
         let m = reh
             .match_pivot(h, scale * v_end_user, data)
-            .map_err(|e| fail(e.0, &["change the reheating assumptions (--reheat ...)"]))?;
+            .map_err(|e| AnalysisError::from(ErrorKind::Matching(e)))?;
         if (m.n_star - n).abs() < 1e-10 {
             return Ok((m.n_star, m));
         }
         if !(m.n_star.is_finite() && m.n_star > 0.0) {
-            return Err(fail(
-                format!("the matching gives N_* = {}", m.n_star),
-                &["check the reheating assumptions"],
-            ));
+            return Err(ErrorKind::MatchingBadEfolds { n_star: m.n_star }.into());
         }
         n = m.n_star;
     }
-    Err(fail(
-        "the reheating matching did not converge in 60 steps".to_string(),
-        &["check the reheating assumptions"],
-    ))
+    Err(ErrorKind::MatchingNoConvergence.into())
 }
 
 fn fmt(x: f64) -> String {

@@ -5,10 +5,139 @@
 use crate::analysis::error::AnalysisError;
 use crate::config::Config;
 use crate::data::DataSet;
+use crate::diag::Diagnostic;
 use crate::drivers::predict::{predict, Options, Prediction, CSV_KEYS};
 use crate::model::{Model, ModelSpec};
 use crate::report::plot::{Marker, Panel, Region, Series};
 use serde::Serialize;
+
+/// Why a `--vary` axis cannot be made.
+#[derive(Debug, Clone, PartialEq)]
+pub enum AxisError {
+    /// The range is empty, not finite, or not positive on a logarithmic axis.
+    BadRange {
+        /// The parameter.
+        name: String,
+        /// Lower end.
+        lo: f64,
+        /// Upper end.
+        hi: f64,
+        /// Points.
+        count: usize,
+        /// Logarithmic.
+        log: bool,
+    },
+    /// More values than `Limits::max_axis_points`.
+    TooMany {
+        /// The flag's value.
+        text: String,
+        /// Values asked for.
+        count: usize,
+        /// The limit.
+        max: usize,
+    },
+    /// Not a parameter of the model.
+    NotAParameter {
+        /// The name given.
+        name: String,
+        /// The model's parameters.
+        params: Vec<String>,
+    },
+    /// No range given and none in the model file.
+    NoRange {
+        /// The parameter.
+        name: String,
+    },
+    /// An end is not a number.
+    NotANumber {
+        /// The flag's value.
+        text: String,
+        /// The field that is not a number.
+        field: String,
+    },
+    /// Not `NAME=LO:HI[:COUNT[:log]]`.
+    Form {
+        /// The flag's value.
+        text: String,
+    },
+    /// The count is not a point count.
+    NotACount {
+        /// The flag's value.
+        text: String,
+        /// The field given as count.
+        field: String,
+    },
+    /// The fourth field is not `log` (or `lin`).
+    NotLog {
+        /// The flag's value.
+        text: String,
+        /// The field given.
+        field: String,
+    },
+    /// More than four fields.
+    TooManyFields {
+        /// The flag's value.
+        text: String,
+    },
+}
+
+impl std::fmt::Display for AxisError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            AxisError::BadRange {
+                name,
+                lo,
+                hi,
+                count,
+                log,
+            } => write!(
+                f,
+                "bad range for `{name}`: {lo}:{hi}:{count}{}",
+                if *log { ":log" } else { "" }
+            ),
+            AxisError::TooMany { text, count, max } => write!(
+                f,
+                "`--vary {text}` asks for {count} values; at most {max} per parameter (config::Limits::max_axis_points)"
+            ),
+            AxisError::NotAParameter { name, params } => write!(
+                f,
+                "`{name}` is not a parameter of the model (its parameters: {})",
+                if params.is_empty() {
+                    "none".to_string()
+                } else {
+                    params.join(", ")
+                }
+            ),
+            AxisError::NoRange { name } => write!(
+                f,
+                "no range for `{name}`: give `--vary {name}=LO:HI:COUNT`, or a [scan] range in the model file"
+            ),
+            AxisError::NotANumber { text, field } => write!(f, "`{field}` is not a number in `--vary {text}`"),
+            AxisError::Form { text } => write!(
+                f,
+                "`--vary {text}`: write NAME=LO:HI:COUNT, with `:log` for a logarithmic grid"
+            ),
+            AxisError::NotACount { text, field } => write!(f, "`{field}` is not a point count in `--vary {text}`"),
+            AxisError::NotLog { text, field } => {
+                write!(f, "`{field}` in `--vary {text}`: the fourth field may only be `log`")
+            }
+            AxisError::TooManyFields { text } => write!(f, "`--vary {text}` has too many fields"),
+        }
+    }
+}
+
+impl std::error::Error for AxisError {}
+
+impl AxisError {
+    /// As a diagnostic, with how to fix it.
+    pub fn diagnostic(&self) -> Diagnostic {
+        let hint = match self {
+            AxisError::TooMany { .. } => "give this parameter fewer values",
+            _ => "write `--vary alpha=0.1:10:30:log`",
+        };
+        Diagnostic::new(self.to_string()).with_hint(hint)
+    }
+}
 
 /// One varied parameter: name and values.
 #[derive(Debug, Clone, PartialEq)]
@@ -21,12 +150,15 @@ pub struct Axis {
 
 impl Axis {
     /// `count` values from `lo` to `hi`, evenly spaced, or evenly in the logarithm.
-    pub fn new(name: &str, lo: f64, hi: f64, count: usize, log: bool) -> Result<Axis, String> {
+    pub fn new(name: &str, lo: f64, hi: f64, count: usize, log: bool) -> Result<Axis, AxisError> {
         if count == 0 || !(lo.is_finite() && hi.is_finite()) || (log && (lo <= 0.0 || hi <= 0.0)) {
-            return Err(format!(
-                "bad range for `{name}`: {lo}:{hi}:{count}{}",
-                if log { ":log" } else { "" }
-            ));
+            return Err(AxisError::BadRange {
+                name: name.to_string(),
+                lo,
+                hi,
+                count,
+                log,
+            });
         }
         let values = (0..count)
             .map(|i| {
@@ -54,33 +186,27 @@ impl Axis {
     /// `default_count` points.
     /// A count above `max_count` (`Limits::max_axis_points`) is refused before anything is
     /// allocated.
-    pub fn parse(text: &str, spec: &ModelSpec, default_count: usize, max_count: usize) -> Result<Axis, String> {
-        let too_many = |count: usize| {
-            format!(
-                "`--vary {text}` asks for {count} values; at most {max_count} per parameter (config::Limits::max_axis_points)"
-            )
+    pub fn parse(text: &str, spec: &ModelSpec, default_count: usize, max_count: usize) -> Result<Axis, AxisError> {
+        let too_many = |count: usize| AxisError::TooMany {
+            text: text.to_string(),
+            count,
+            max: max_count,
         };
+        let with_field = |field: &str| (text.to_string(), field.to_string());
         let (name, range) = match text.split_once('=') {
             Some((n, r)) => (n.trim(), Some(r.trim())),
             None => (text.trim(), None),
         };
         if !spec.params.iter().any(|p| p.name == name) {
-            let names: Vec<&str> = spec.params.iter().map(|p| p.name.as_str()).collect();
-            return Err(format!(
-                "`{name}` is not a parameter of the model (its parameters: {})",
-                if names.is_empty() {
-                    "none".to_string()
-                } else {
-                    names.join(", ")
-                }
-            ));
+            return Err(AxisError::NotAParameter {
+                name: name.to_string(),
+                params: spec.params.iter().map(|p| p.name.clone()).collect(),
+            });
         }
         let Some(range) = range else {
             let p = spec.params.iter().find(|p| p.name == name).expect("checked above");
             let Some((lo, hi, log)) = p.scan else {
-                return Err(format!(
-                    "no range for `{name}`: give `--vary {name}=LO:HI:COUNT`, or a [scan] range in the model file"
-                ));
+                return Err(AxisError::NoRange { name: name.to_string() });
             };
             if default_count > max_count {
                 return Err(too_many(default_count));
@@ -89,23 +215,20 @@ impl Axis {
         };
         let parts: Vec<&str> = range.split(':').collect();
         let num = |s: &str| {
-            s.trim()
-                .parse::<f64>()
-                .map_err(|_| format!("`{s}` is not a number in `--vary {text}`"))
+            s.trim().parse::<f64>().map_err(|_| {
+                let (text, field) = with_field(s);
+                AxisError::NotANumber { text, field }
+            })
         };
         let (lo, hi) = match parts.as_slice() {
             [lo, hi, ..] => (num(lo)?, num(hi)?),
-            _ => {
-                return Err(format!(
-                    "`--vary {text}`: write NAME=LO:HI:COUNT, with `:log` for a logarithmic grid"
-                ))
-            }
+            _ => return Err(AxisError::Form { text: text.to_string() }),
         };
         let count = match parts.get(2) {
-            Some(c) => c
-                .trim()
-                .parse::<usize>()
-                .map_err(|_| format!("`{c}` is not a point count in `--vary {text}`"))?,
+            Some(c) => c.trim().parse::<usize>().map_err(|_| {
+                let (text, field) = with_field(c);
+                AxisError::NotACount { text, field }
+            })?,
             None => default_count,
         };
         let log = match parts.get(3).map(|s| s.trim()) {
@@ -113,13 +236,12 @@ impl Axis {
             Some("log") => true,
             Some("lin") | Some("linear") => false,
             Some(other) => {
-                return Err(format!(
-                    "`{other}` in `--vary {text}`: the fourth field may only be `log`"
-                ))
+                let (text, field) = with_field(other);
+                return Err(AxisError::NotLog { text, field });
             }
         };
         if parts.len() > 4 {
-            return Err(format!("`--vary {text}` has too many fields"));
+            return Err(AxisError::TooManyFields { text: text.to_string() });
         }
         if count > max_count {
             return Err(too_many(count));
@@ -127,6 +249,25 @@ impl Axis {
         Axis::new(name, lo, hi, count, log)
     }
 }
+
+/// A `--shard` value that is not K/N with 1 <= K <= N.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ShardError {
+    /// The flag's value.
+    pub text: String,
+}
+
+impl std::fmt::Display for ShardError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "`--shard {}`: write K/N with 1 <= K <= N, e.g. `--shard 3/8`",
+            self.text
+        )
+    }
+}
+
+impl std::error::Error for ShardError {}
 
 /// A shard: the K-th (1-based) of N contiguous slices of the grid's points.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -139,8 +280,8 @@ pub struct Shard {
 
 impl Shard {
     /// Parses `K/N`.
-    pub fn parse(text: &str) -> Result<Shard, String> {
-        let bad = || format!("`--shard {text}`: write K/N with 1 <= K <= N, e.g. `--shard 3/8`");
+    pub fn parse(text: &str) -> Result<Shard, ShardError> {
+        let bad = || ShardError { text: text.to_string() };
         let (k, n) = text.split_once('/').ok_or_else(bad)?;
         let (k, n) = (
             k.trim().parse::<usize>().map_err(|_| bad())?,
@@ -160,6 +301,69 @@ impl Shard {
     }
 }
 
+/// Why a grid point has no prediction, with the whole diagnosis (message and hints): its
+/// model does not build, or an analysis failed. Tables print the message alone.
+#[derive(Debug, Clone, PartialEq)]
+pub enum PointError {
+    /// The model does not build with these values.
+    Model(Box<Diagnostic>),
+    /// The prediction failed.
+    Analysis(AnalysisError),
+}
+
+impl PointError {
+    /// What went wrong, in one line.
+    pub fn message(&self) -> &str {
+        match self {
+            PointError::Model(d) => &d.message,
+            PointError::Analysis(e) => &e.message,
+        }
+    }
+
+    /// How to fix it.
+    pub fn hints(&self) -> &[String] {
+        match self {
+            PointError::Model(d) => &d.hints,
+            PointError::Analysis(e) => &e.hints,
+        }
+    }
+
+    /// As a diagnostic (no source: a grid point's model is not a file).
+    pub fn diagnostic(&self) -> Diagnostic {
+        match self {
+            PointError::Model(d) => (**d).clone(),
+            PointError::Analysis(e) => e.diagnostic(),
+        }
+    }
+}
+
+impl std::fmt::Display for PointError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.message())
+    }
+}
+
+impl std::error::Error for PointError {}
+
+impl From<crate::model::ModelError> for PointError {
+    fn from(e: crate::model::ModelError) -> Self {
+        PointError::Model(e.diagnostic)
+    }
+}
+
+impl From<AnalysisError> for PointError {
+    fn from(e: AnalysisError) -> Self {
+        PointError::Analysis(e)
+    }
+}
+
+/// Serialised as its message, as the tables print it.
+impl Serialize for PointError {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(self.message())
+    }
+}
+
 /// One row: a grid point at one N_*.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ScanRow {
@@ -168,7 +372,7 @@ pub struct ScanRow {
     /// The varied parameters' values, in axis order.
     pub params: Vec<(String, f64)>,
     /// The prediction, or why there is none.
-    pub result: Result<Prediction, String>,
+    pub result: Result<Prediction, PointError>,
     /// The N_* of the row (kept when the prediction failed).
     pub n_star: f64,
 }
@@ -306,13 +510,13 @@ fn predict_at(
     params: &[(String, f64)],
     opts: &Options,
     config: &Config,
-) -> Result<Vec<Prediction>, String> {
+) -> Result<Vec<Prediction>, PointError> {
     let mut spec = spec.clone();
     for (name, v) in params {
         spec.set_param(name, &format!("{v:e}"));
     }
-    let model = Model::build(&spec, config).map_err(|e| e.diagnostic.message.clone())?;
-    let rep = predict(&model, opts, config).map_err(|e: AnalysisError| e.message)?;
+    let model = Model::build(&spec, config)?;
+    let rep = predict(&model, opts, config)?;
     Ok(rep.predictions)
 }
 
@@ -352,7 +556,7 @@ pub fn csv_rows(rows: &[ScanRow]) -> String {
             Err(e) => {
                 f.push(format!("{}", r.n_star));
                 f.extend((1..CSV_KEYS.len()).map(|_| String::new()));
-                f.push(csv_field(e));
+                f.push(csv_field(e.message()));
             }
         }
         o.push_str(&f.join(","));
@@ -381,7 +585,7 @@ fn json_row(r: &ScanRow) -> serde_json::Value {
         }
         Err(e) => {
             m.insert("n_star".into(), serde_json::json!(r.n_star));
-            m.insert("error".into(), serde_json::json!(e));
+            m.insert("error".into(), serde_json::json!(e.message()));
         }
     }
     serde_json::Value::Object(m)
@@ -569,23 +773,362 @@ fn csv_records(text: &str, first_line: usize) -> Result<Vec<(usize, &str, usize)
     Ok(out)
 }
 
-fn read_shard<'a>(name: &'a str, text: &'a str) -> Result<ShardFile<'a>, String> {
+/// Why `merge` refuses its files: each names the file (and the row or shard) at fault.
+#[derive(Debug, Clone, PartialEq)]
+pub enum MergeError {
+    /// No files were given.
+    NoFiles,
+    /// The shard line is not readable JSON.
+    ShardLine {
+        /// The file.
+        name: String,
+        /// The parser's message.
+        error: String,
+    },
+    /// No header line after the shard line.
+    NoHeader {
+        /// The file.
+        name: String,
+    },
+    /// The last record does not end with a newline.
+    CutShort {
+        /// The file.
+        name: String,
+        /// The record's first line.
+        line: usize,
+    },
+    /// A record with another number of fields than the header.
+    Fields {
+        /// The file.
+        name: String,
+        /// The record's first line.
+        line: usize,
+        /// Its fields.
+        fields: usize,
+        /// The header's.
+        columns: usize,
+    },
+    /// A JSON file that does not parse.
+    IncompleteJson {
+        /// The file.
+        name: String,
+        /// The parser's message.
+        error: String,
+    },
+    /// The `shard` object of a JSON shard is not readable.
+    ShardObject {
+        /// The file.
+        name: String,
+        /// The parser's message.
+        error: String,
+    },
+    /// Not a shard at all.
+    NotAShard {
+        /// The file.
+        name: String,
+        /// What it looks like.
+        what: &'static str,
+    },
+    /// A row of another point than the one that belongs there.
+    WrongPoint {
+        /// The file.
+        name: String,
+        /// The row (1-based).
+        row: usize,
+        /// Its point.
+        point: u64,
+        /// The point that belongs there.
+        want: u64,
+        /// The row's place among its point's rows (1-based).
+        of_point: usize,
+        /// Rows per point.
+        per: usize,
+    },
+    /// Another number of rows than the shard's points make.
+    RowCount {
+        /// The file.
+        name: String,
+        /// Rows found.
+        rows: usize,
+        /// The shard's points: [first, one past the last].
+        points: [usize; 2],
+        /// Rows per point.
+        per: usize,
+        /// Rows expected.
+        expected: usize,
+        /// Fewer rows than expected (else more).
+        incomplete: bool,
+    },
+    /// A row without a point index.
+    NoPointIndex {
+        /// The file.
+        name: String,
+        /// The row (1-based).
+        row: usize,
+    },
+    /// CSV and JSON shards mixed.
+    MixedFormats {
+        /// The file.
+        name: String,
+        /// This file is JSON.
+        json: bool,
+    },
+    /// A shard of another scan.
+    OtherScan {
+        /// The file.
+        name: String,
+        /// The first file.
+        first: String,
+    },
+    /// A shard of a scan cut into another number of shards.
+    CutDifferently {
+        /// The file.
+        name: String,
+        /// Its index.
+        shard: usize,
+        /// Its count.
+        shards: usize,
+        /// The first file's count.
+        first_shards: usize,
+    },
+    /// A shard index outside 1..=N.
+    BadIndex {
+        /// The file.
+        name: String,
+        /// Its index.
+        shard: usize,
+        /// Its count.
+        shards: usize,
+    },
+    /// A CSV header unlike the first file's.
+    HeaderDiffers {
+        /// The file.
+        name: String,
+        /// The first file.
+        first: String,
+    },
+    /// A point range that is not the shard's.
+    WrongRange {
+        /// The file.
+        name: String,
+        /// The range it states.
+        points: [usize; 2],
+        /// Its index.
+        shard: usize,
+        /// Its count.
+        shards: usize,
+        /// The shard's range.
+        range: [usize; 2],
+    },
+    /// The same file twice.
+    GivenTwice {
+        /// The file.
+        name: String,
+    },
+    /// The same shard in two files.
+    ShardAgain {
+        /// The file.
+        name: String,
+        /// Its index.
+        shard: usize,
+        /// Its count.
+        shards: usize,
+        /// The other file.
+        other: String,
+    },
+    /// Shards missing.
+    Missing {
+        /// The scan's shard count.
+        shards: usize,
+        /// Files given.
+        given: usize,
+        /// The first missing indices (at most ten).
+        missing: Vec<usize>,
+        /// More are missing than listed.
+        more: bool,
+    },
+}
+
+impl std::fmt::Display for MergeError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        use MergeError::*;
+        match self {
+            NoFiles
+            | ShardLine { .. }
+            | NoHeader { .. }
+            | CutShort { .. }
+            | Fields { .. }
+            | IncompleteJson { .. }
+            | ShardObject { .. }
+            | NotAShard { .. }
+            | WrongPoint { .. }
+            | RowCount { .. }
+            | NoPointIndex { .. } => self.fmt_file(f),
+            MixedFormats { .. }
+            | OtherScan { .. }
+            | CutDifferently { .. }
+            | BadIndex { .. }
+            | HeaderDiffers { .. }
+            | WrongRange { .. }
+            | GivenTwice { .. }
+            | ShardAgain { .. }
+            | Missing { .. } => self.fmt_set(f),
+        }
+    }
+}
+
+impl MergeError {
+    /// The messages about one file on its own.
+    fn fmt_file(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        use MergeError::*;
+        match self {
+            NoFiles => f.write_str("no files to merge"),
+            ShardLine { name, error } => write!(f, "{name}: its shard line cannot be read ({error}): the file is damaged"),
+            NoHeader { name } => write!(f, "{name}: no header after the shard line: the file is cut short"),
+            CutShort { name, line } => write!(
+                f,
+                "{name}: line {line} does not end with a newline: the last row is cut short"
+            ),
+            Fields {
+                name,
+                line,
+                fields,
+                columns,
+            } => write!(
+                f,
+                "{name}: line {line} has {fields} fields, the header {columns}: not a row of this scan"
+            ),
+            IncompleteJson { name, error } => write!(f, "{name}: not a complete JSON file ({error}): is it cut short?"),
+            ShardObject { name, error } => write!(
+                f,
+                "{name}: its `shard` object cannot be read ({error}): the file is damaged"
+            ),
+            NotAShard { name, what } => write!(f, "{name}: not a scan shard: {what}"),
+            WrongPoint {
+                name,
+                row,
+                point,
+                want,
+                of_point,
+                per,
+            } => write!(
+                f,
+                "{name}: row {row} is of point {point}, where point {want} (row {of_point} of its {per}) belongs: each point needs one row per N_*"
+            ),
+            RowCount {
+                name,
+                rows,
+                points: [lo, hi],
+                per,
+                expected,
+                incomplete,
+            } => {
+                let span = match hi - lo {
+                    0 => "no points".to_string(),
+                    1 => format!("point {lo}"),
+                    _ => format!("points {lo} to {}", hi - 1),
+                };
+                let tail = if *incomplete { ": the file is incomplete" } else { "" };
+                write!(
+                    f,
+                    "{name}: {rows} rows, but its {span} with {per} N_* each make {expected}{tail}"
+                )
+            }
+            NoPointIndex { name, row } => write!(f, "{name}: row {row} has no point index"),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages about a file among the others.
+    fn fmt_set(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        use MergeError::*;
+        let format = |json: bool| if json { "JSON" } else { "CSV" };
+        match self {
+            MixedFormats { name, json } => write!(
+                f,
+                "{name}: a {} shard among {} ones: give all CSV or all JSON",
+                format(*json),
+                format(!json)
+            ),
+            OtherScan { name, first } => write!(
+                f,
+                "{name}: a shard of another scan than {first} (model, grid, N_* or data differ)"
+            ),
+            CutDifferently {
+                name,
+                shard,
+                shards,
+                first_shards,
+            } => write!(
+                f,
+                "{name}: shard {shard}/{shards} among shards of {first_shards}: the scan was cut into shards differently"
+            ),
+            BadIndex { name, shard, shards } => write!(f, "{name}: shard index {shard} of {shards}: the file is damaged"),
+            HeaderDiffers { name, first } => write!(f, "{name}: its header differs from {first}'s"),
+            WrongRange {
+                name,
+                points,
+                shard,
+                shards,
+                range,
+            } => write!(
+                f,
+                "{name}: points {}..{} are not shard {shard}/{shards}'s ({}..{}): the file is damaged",
+                points[0], points[1], range[0], range[1]
+            ),
+            GivenTwice { name } => write!(f, "{name}: given twice: give each shard once"),
+            ShardAgain {
+                name,
+                shard,
+                shards,
+                other,
+            } => write!(
+                f,
+                "{name}: shard {shard}/{shards} again (also {other}): give each shard once"
+            ),
+            Missing {
+                shards,
+                given,
+                missing,
+                more,
+            } => {
+                let list: Vec<String> = missing.iter().map(|k| k.to_string()).collect();
+                write!(
+                    f,
+                    "the scan has {shards} shards and {given} file(s) were given: shard(s) {}{} missing",
+                    list.join(", "),
+                    if *more { ", ..." } else { "" }
+                )
+            }
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+}
+
+impl std::error::Error for MergeError {}
+
+fn read_shard<'a>(name: &'a str, text: &'a str) -> Result<ShardFile<'a>, MergeError> {
+    let named = || name.to_string();
     if let Some(rest) = text.strip_prefix(SHARD_LINE) {
         let (line, body) = rest.split_once('\n').unwrap_or((rest, ""));
-        let prov: Provenance = serde_json::from_str(line)
-            .map_err(|e| format!("{name}: its shard line cannot be read ({e}): the file is damaged"))?;
+        let prov: Provenance = serde_json::from_str(line).map_err(|e| MergeError::ShardLine {
+            name: named(),
+            error: e.to_string(),
+        })?;
         let (header, body) = body
             .split_once('\n')
-            .ok_or_else(|| format!("{name}: no header after the shard line: the file is cut short"))?;
+            .ok_or_else(|| MergeError::NoHeader { name: named() })?;
         let columns = header.split(',').count();
-        let records = csv_records(body, 3)
-            .map_err(|l| format!("{name}: line {l} does not end with a newline: the last row is cut short"))?;
+        let records = csv_records(body, 3).map_err(|line| MergeError::CutShort { name: named(), line })?;
         let mut csv_rows = Vec::with_capacity(records.len());
-        for (l, rec, fields) in records {
+        for (line, rec, fields) in records {
             if fields != columns {
-                return Err(format!(
-                    "{name}: line {l} has {fields} fields, the header {columns}: not a row of this scan"
-                ));
+                return Err(MergeError::Fields {
+                    name: named(),
+                    line,
+                    fields,
+                    columns,
+                });
             }
             csv_rows.push(rec);
         }
@@ -599,11 +1142,15 @@ fn read_shard<'a>(name: &'a str, text: &'a str) -> Result<ShardFile<'a>, String>
         });
     }
     if text.trim_start().starts_with('{') {
-        let v: serde_json::Value = serde_json::from_str(text)
-            .map_err(|e| format!("{name}: not a complete JSON file ({e}): is it cut short?"))?;
+        let v: serde_json::Value = serde_json::from_str(text).map_err(|e| MergeError::IncompleteJson {
+            name: named(),
+            error: e.to_string(),
+        })?;
         if let (Some(prov), Some(rows)) = (v.get("shard"), v.get("rows").and_then(|r| r.as_array())) {
-            let prov: Provenance = serde_json::from_value(prov.clone())
-                .map_err(|e| format!("{name}: its `shard` object cannot be read ({e}): the file is damaged"))?;
+            let prov: Provenance = serde_json::from_value(prov.clone()).map_err(|e| MergeError::ShardObject {
+                name: named(),
+                error: e.to_string(),
+            })?;
             return Ok(ShardFile {
                 name,
                 json: true,
@@ -614,49 +1161,151 @@ fn read_shard<'a>(name: &'a str, text: &'a str) -> Result<ShardFile<'a>, String>
             });
         }
     }
-    Err(format!("{name}: not a scan shard: {}", what_it_is(text)))
+    Err(MergeError::NotAShard {
+        name: named(),
+        what: what_it_is(text),
+    })
 }
 
 /// Checks that a shard holds exactly its points, each with one row per N_*, in order.
-fn check_points(f: &ShardFile<'_>, points: &[Option<u64>]) -> Result<(), String> {
+fn check_points(f: &ShardFile<'_>, points: &[Option<u64>]) -> Result<(), MergeError> {
     let (lo, hi) = (f.prov.points[0], f.prov.points[1]);
-    let span = match hi - lo {
-        0 => "no points".to_string(),
-        1 => format!("point {lo}"),
-        _ => format!("points {lo} to {}", hi - 1),
-    };
     let per = f.prov.efolds.len().max(1);
     let expected = (hi - lo).saturating_mul(per);
+    let count = |incomplete: bool| MergeError::RowCount {
+        name: f.name.to_string(),
+        rows: points.len(),
+        points: [lo, hi],
+        per,
+        expected,
+        incomplete,
+    };
     for (i, p) in points.iter().enumerate() {
         let want = (lo + i / per) as u64;
         match p {
             Some(p) if *p == want && i < expected => {}
             Some(p) if i < expected => {
-                return Err(format!(
-                    "{}: row {} is of point {p}, where point {want} (row {} of its {per}) belongs: each point needs one row per N_*",
-                    f.name,
-                    i + 1,
-                    i % per + 1
-                ))
+                return Err(MergeError::WrongPoint {
+                    name: f.name.to_string(),
+                    row: i + 1,
+                    point: *p,
+                    want,
+                    of_point: i % per + 1,
+                    per,
+                })
             }
-            Some(_) => {
-                return Err(format!(
-                    "{}: {} rows, but its {span} with {per} N_* each make {expected}",
-                    f.name,
-                    points.len()
-                ))
+            Some(_) => return Err(count(false)),
+            None => {
+                return Err(MergeError::NoPointIndex {
+                    name: f.name.to_string(),
+                    row: i + 1,
+                })
             }
-            None => return Err(format!("{}: row {} has no point index", f.name, i + 1)),
         }
     }
     if points.len() != expected {
-        return Err(format!(
-            "{}: {} rows, but its {span} with {per} N_* each make {expected}: the file is incomplete",
-            f.name,
-            points.len()
-        ));
+        return Err(count(true));
     }
     Ok(())
+}
+
+/// Checks one shard's provenance against the first file's: the same format, scan, cut and
+/// header, and the point range its index gives.
+fn check_provenance(f: &ShardFile<'_>, first: &ShardFile<'_>) -> Result<(), MergeError> {
+    let p = &f.prov;
+    let name = || f.name.to_string();
+    if f.json != first.json {
+        return Err(MergeError::MixedFormats {
+            name: name(),
+            json: f.json,
+        });
+    }
+    if p.scan != first.prov.scan || p.total != first.prov.total || p.efolds != first.prov.efolds {
+        return Err(MergeError::OtherScan {
+            name: name(),
+            first: first.name.to_string(),
+        });
+    }
+    if p.shards != first.prov.shards {
+        return Err(MergeError::CutDifferently {
+            name: name(),
+            shard: p.shard,
+            shards: p.shards,
+            first_shards: first.prov.shards,
+        });
+    }
+    if p.shard == 0 || p.shard > p.shards {
+        return Err(MergeError::BadIndex {
+            name: name(),
+            shard: p.shard,
+            shards: p.shards,
+        });
+    }
+    if !f.json && f.header != first.header {
+        return Err(MergeError::HeaderDiffers {
+            name: name(),
+            first: first.name.to_string(),
+        });
+    }
+    let range = Shard {
+        k: p.shard,
+        n: p.shards,
+    }
+    .range(p.total);
+    if p.points != [range.start, range.end] {
+        return Err(MergeError::WrongRange {
+            name: name(),
+            points: p.points,
+            shard: p.shard,
+            shards: p.shards,
+            range: [range.start, range.end],
+        });
+    }
+    Ok(())
+}
+
+/// The files' indices in shard order, each file checked against the first
+/// ([`check_provenance`]) in turn: refused when a shard is given twice or missing.
+fn shard_order(files: &[ShardFile<'_>]) -> Result<Vec<usize>, MergeError> {
+    let shards = files[0].prov.shards;
+    let mut by_index: Vec<Option<usize>> = vec![None; shards.min(files.len())];
+    for (i, f) in files.iter().enumerate() {
+        check_provenance(f, &files[0])?;
+        if shards > files.len() {
+            continue; // some are missing: reported below, after the per-file checks
+        }
+        let slot = &mut by_index[f.prov.shard - 1];
+        if let Some(j) = *slot {
+            return Err(if files[j].name == f.name {
+                MergeError::GivenTwice {
+                    name: f.name.to_string(),
+                }
+            } else {
+                MergeError::ShardAgain {
+                    name: f.name.to_string(),
+                    shard: f.prov.shard,
+                    shards: f.prov.shards,
+                    other: files[j].name.to_string(),
+                }
+            });
+        }
+        *slot = Some(i);
+    }
+    if shards > files.len() {
+        // At most files.len() indices are present, so the first ten missing ones are found
+        // within files.len() + 10 steps, however large the count.
+        let missing: Vec<usize> = (1..=shards)
+            .filter(|k| !files.iter().any(|f| f.prov.shard == *k))
+            .take(10)
+            .collect();
+        return Err(MergeError::Missing {
+            shards,
+            given: files.len(),
+            more: shards - files.len() > missing.len(),
+            missing,
+        });
+    }
+    Ok(by_index.into_iter().map(|i| i.expect("every slot is filled")).collect())
 }
 
 /// Joins the shard files of one scan (all CSV or all JSON, as `scan --shard K/N` writes them)
@@ -664,96 +1313,16 @@ fn check_points(f: &ShardFile<'_>, points: &[Option<u64>]) -> Result<(), String>
 /// that is not a shard, shards of different scans or cut differently, a shard missing or given
 /// twice, a file that does not hold exactly its point range (one row per N_* per point), a row
 /// with another number of fields than the header, a file cut short.
-pub fn merge(texts: &[(String, String)]) -> Result<String, String> {
+pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
     if texts.is_empty() {
-        return Err("no files to merge".to_string());
+        return Err(MergeError::NoFiles);
     }
     let mut files = Vec::with_capacity(texts.len());
     for (name, text) in texts {
         files.push(read_shard(name, text)?);
     }
-    let first = &files[0];
-    let json = first.json;
-    let mut by_index: Vec<Option<usize>> = vec![None; first.prov.shards.min(texts.len())];
-    for (i, f) in files.iter().enumerate() {
-        let p = &f.prov;
-        let this_json = f.json;
-        if this_json != json {
-            return Err(format!(
-                "{}: a {} shard among {} ones: give all CSV or all JSON",
-                f.name,
-                if this_json { "JSON" } else { "CSV" },
-                if json { "JSON" } else { "CSV" }
-            ));
-        }
-        if p.scan != first.prov.scan || p.total != first.prov.total || p.efolds != first.prov.efolds {
-            return Err(format!(
-                "{}: a shard of another scan than {} (model, grid, N_* or data differ)",
-                f.name, first.name
-            ));
-        }
-        if p.shards != first.prov.shards {
-            return Err(format!(
-                "{}: shard {}/{} among shards of {}: the scan was cut into shards differently",
-                f.name, p.shard, p.shards, first.prov.shards
-            ));
-        }
-        if p.shard == 0 || p.shard > p.shards {
-            return Err(format!(
-                "{}: shard index {} of {}: the file is damaged",
-                f.name, p.shard, p.shards
-            ));
-        }
-        if !json && f.header != first.header {
-            return Err(format!("{}: its header differs from {}'s", f.name, first.name));
-        }
-        let range = Shard {
-            k: p.shard,
-            n: p.shards,
-        }
-        .range(p.total);
-        if p.points != [range.start, range.end] {
-            return Err(format!(
-                "{}: points {}..{} are not shard {}/{}'s ({}..{}): the file is damaged",
-                f.name, p.points[0], p.points[1], p.shard, p.shards, range.start, range.end
-            ));
-        }
-        if p.shards > texts.len() {
-            continue; // some are missing: reported below, after the per-file checks
-        }
-        let slot = &mut by_index[p.shard - 1];
-        if let Some(j) = *slot {
-            return Err(if files[j].name == f.name {
-                format!("{}: given twice: give each shard once", f.name)
-            } else {
-                format!(
-                    "{}: shard {}/{} again (also {}): give each shard once",
-                    f.name, p.shard, p.shards, files[j].name
-                )
-            });
-        }
-        *slot = Some(i);
-    }
-    let shards = first.prov.shards;
-    if shards > texts.len() {
-        // At most texts.len() indices are present, so the first ten missing ones are found
-        // within texts.len() + 10 steps, however large the count.
-        let missing: Vec<String> = (1..=shards)
-            .filter(|k| !files.iter().any(|f| f.prov.shard == *k))
-            .take(10)
-            .map(|k| k.to_string())
-            .collect();
-        let more = if shards - texts.len() > missing.len() {
-            ", ..."
-        } else {
-            ""
-        };
-        return Err(format!(
-            "the scan has {shards} shards and {} file(s) were given: shard(s) {}{more} missing",
-            texts.len(),
-            missing.join(", ")
-        ));
-    }
+    let order = shard_order(&files)?;
+    let json = files[0].json;
     for f in &files {
         let points: Vec<Option<u64>> = if json {
             f.json_rows.iter().map(|r| r["point"].as_u64()).collect()
@@ -765,7 +1334,7 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, String> {
         };
         check_points(f, &points)?;
     }
-    let order: Vec<&ShardFile<'_>> = by_index.iter().map(|i| &files[i.expect("checked above")]).collect();
+    let order: Vec<&ShardFile<'_>> = order.iter().map(|&i| &files[i]).collect();
     if json {
         let rows: Vec<serde_json::Value> = order.iter().flat_map(|f| f.json_rows.iter().cloned()).collect();
         return Ok(format!(
@@ -773,7 +1342,7 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, String> {
             serde_json::to_string_pretty(&rows).expect("serialisable")
         ));
     }
-    let mut o = format!("{}\n", first.header);
+    let mut o = format!("{}\n", files[0].header);
     for f in order {
         for r in &f.csv_rows {
             o.push_str(r);
@@ -962,7 +1531,9 @@ mod tests {
             false,
         );
         assert!(rows.iter().any(|r| r.result.is_ok()) && rows.iter().any(|r| r.result.is_err()));
-        rows[0].result = Err("a \"quoted\" reason\non two lines".into());
+        rows[0].result = Err(PointError::Model(Box::new(Diagnostic::new(
+            "a \"quoted\" reason\non two lines",
+        ))));
         let whole: Vec<serde_json::Value> = rows.iter().map(json_row).collect();
         let expected = format!("{}\n", serde_json::to_string_pretty(&whole).unwrap());
         assert_eq!(json(&rows), expected);
@@ -974,6 +1545,47 @@ mod tests {
         chunked.push_str(&t.end());
         assert_eq!(chunked, expected);
         assert_eq!(json(&[]), "[]\n");
+    }
+
+    /// A failed point keeps its whole diagnosis, message and hints, as the prediction at that
+    /// point gives it; the CSV and JSON rows print the message alone.
+    #[test]
+    fn failed_rows_keep_the_hints() {
+        let mut spec = ModelSpec::inline("m*phi^2", None);
+        spec.set_param("m", "1");
+        let axes = [Axis::new("m", -1.0, -1.0, 1, false).unwrap()];
+        let config = Config::default();
+        let rows = run(&spec, &axes, &[50.0], &DataSet::builtin(), None, &config, false);
+        let Err(e) = &rows[0].result else {
+            panic!("V = -phi^2 predicts: {:?}", rows[0].result)
+        };
+        let mut at = spec.clone();
+        at.set_param("m", &format!("{:e}", -1.0));
+        let opts = Options {
+            n_stars: vec![50.0],
+            data: DataSet::builtin(),
+            ..Default::default()
+        };
+        let direct = predict(&Model::build(&at, &config).unwrap(), &opts, &config).unwrap_err();
+        assert_eq!(e, &PointError::Analysis(direct.clone()));
+        assert!(!e.hints().is_empty());
+        assert_eq!(e.hints(), &direct.hints[..]);
+        assert_eq!(e.diagnostic(), direct.diagnostic());
+        let csv = csv_rows(&rows);
+        assert!(csv.trim_end().ends_with(&csv_field(&direct.message)), "{csv}");
+        assert!(!csv.contains(&direct.hints[0]), "{csv}");
+        assert_eq!(json_row(&rows[0])["error"], serde_json::json!(direct.message));
+    }
+
+    /// A point whose model does not build keeps the model error's hints.
+    #[test]
+    fn model_errors_keep_their_hints() {
+        let e = Model::build(&ModelSpec::inline("1 - tanhh(phi)^2", None), &Config::default()).unwrap_err();
+        let hints = e.diagnostic.hints.clone();
+        assert!(!hints.is_empty(), "{}", e.render());
+        let p = PointError::from(e);
+        assert_eq!(p.hints(), &hints[..]);
+        assert!(matches!(p, PointError::Model(_)));
     }
 
     #[test]

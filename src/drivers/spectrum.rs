@@ -2,8 +2,8 @@
 //! with the potential scaled to the observed amplitude at the pivot.
 
 use crate::analysis::background::{state_at, Background, Run, Settings};
-use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
+use crate::analysis::error::ErrorKind;
 use crate::analysis::perturbations::{mode, pivot};
 use crate::model::Model;
 #[cfg(test)]
@@ -59,12 +59,9 @@ pub fn spectrum(
 ) -> Result<Spectrum, AnalysisError> {
     use rayon::prelude::*;
     let bg = Background::new(model);
-    let n_end = run.n_end.ok_or_else(|| {
-        fail(
-            "inflation does not end in the exact background: eps_H never reaches 1".to_string(),
-            &["slow roll found an end (eps_V = 1) that the exact solution does not reach"],
-        )
-    })?;
+    let n_end = run
+        .n_end
+        .ok_or_else(|| AnalysisError::from(ErrorKind::ExactNeverEnds))?;
     let piv = pivot(&bg, run, n_star, settings)?;
     let pivot_mode = mode(&bg, run, piv, 1.0, settings)?;
     let scale = a_s / pivot_mode.p_s;
@@ -90,7 +87,7 @@ pub fn spectrum(
     let peak = *rows
         .iter()
         .max_by(|a, b| a.p_zeta.total_cmp(&b.p_zeta))
-        .ok_or_else(|| fail("no wavenumbers asked for".to_string(), &["give --points 2 or more"]))?;
+        .ok_or_else(|| AnalysisError::from(ErrorKind::NoWavenumbers))?;
     let peak_slow_roll = *rows
         .iter()
         .max_by(|a, b| a.p_zeta_slow_roll.total_cmp(&b.p_zeta_slow_roll))
@@ -112,10 +109,7 @@ pub fn spectrum(
 /// NaN or an overflow is an error naming the quantity and the mode, never a `null`).
 fn check_rows(rows: &[SpectrumRow], scale: f64) -> Result<(), AnalysisError> {
     if !scale.is_finite() {
-        return Err(fail(
-            format!("the factor on V that gives the observed A_s is not a finite number ({scale})"),
-            &["P_zeta at the pivot is zero or not finite: check the potential"],
-        ));
+        return Err(ErrorKind::ScaleNotFinite { scale }.into());
     }
     for r in rows {
         let numbers = [
@@ -126,14 +120,13 @@ fn check_rows(rows: &[SpectrumRow], scale: f64) -> Result<(), AnalysisError> {
             ("drift", r.drift),
         ];
         if let Some((key, x)) = numbers.into_iter().find(|(_, x)| !x.is_finite()) {
-            return Err(fail(
-                format!(
-                    "{key} is not a finite number ({x}) for the mode k = {} Mpc^-1, {} e-folds before the end",
-                    crate::report::numfmt::number(r.k_mpc),
-                    crate::report::numfmt::number(r.n_before_end)
-                ),
-                &["V or K is not smooth enough where this mode crosses the horizon, or the numbers leave double precision"],
-            ));
+            return Err(ErrorKind::SpectrumNotFinite {
+                key,
+                value: x,
+                k_mpc: r.k_mpc,
+                n_before_end: r.n_before_end,
+            }
+            .into());
         }
     }
     Ok(())

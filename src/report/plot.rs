@@ -114,16 +114,33 @@ pub const SINGLE_COLUMN_PT: f64 = 8.6 / 2.54 * 72.0;
 /// A two-column figure: 17.8 cm.
 pub const DOUBLE_COLUMN_PT: f64 = 17.8 / 2.54 * 72.0;
 
+/// A `--figure-width` that is not `single`, `double` or centimetres from 3 to 60.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct FigureWidthError {
+    /// The value given.
+    pub text: String,
+}
+
+impl std::fmt::Display for FigureWidthError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "`{}` is not a figure width: give single, double or centimetres from 3 to 60",
+            self.text
+        )
+    }
+}
+
+impl std::error::Error for FigureWidthError {}
+
 /// `single`, `double` or a width in centimetres, as points.
-pub fn parse_figure_width(s: &str) -> Result<f64, String> {
+pub fn parse_figure_width(s: &str) -> Result<f64, FigureWidthError> {
     match s {
         "single" => Ok(SINGLE_COLUMN_PT),
         "double" => Ok(DOUBLE_COLUMN_PT),
         _ => match s.parse::<f64>() {
             Ok(cm) if (3.0..=60.0).contains(&cm) => Ok(cm / 2.54 * 72.0),
-            _ => Err(format!(
-                "`{s}` is not a figure width: give single, double or centimetres from 3 to 60"
-            )),
+            _ => Err(FigureWidthError { text: s.to_string() }),
         },
     }
 }
@@ -349,7 +366,7 @@ pub fn plain_text(s: &str) -> String {
 
 /// Converts a figure (the SVG this module writes) to PDF, with the bundled fonts embedded
 /// (subset), independent of the fonts installed on the machine.
-pub fn to_pdf(svg: &str) -> Result<Vec<u8>, String> {
+pub fn to_pdf(svg: &str) -> Result<Vec<u8>, PdfError> {
     let mut db = usvg::fontdb::Database::new();
     db.load_font_data(FONT_REGULAR.to_vec());
     db.load_font_data(FONT_OBLIQUE.to_vec());
@@ -359,12 +376,31 @@ pub fn to_pdf(svg: &str) -> Result<Vec<u8>, String> {
         fontdb: std::sync::Arc::new(db),
         ..usvg::Options::default()
     };
-    let tree = usvg::Tree::from_str(svg, &opt).map_err(|e| format!("the figure is not valid SVG: {e}"))?;
+    let tree = usvg::Tree::from_str(svg, &opt).map_err(|e| PdfError::Svg(e.to_string()))?;
     // usvg measures in CSS pixels (96 per inch); the page keeps the figure's physical size.
     let page = svg2pdf::PageOptions { dpi: 96.0 };
-    svg2pdf::to_pdf(&tree, svg2pdf::ConversionOptions::default(), page)
-        .map_err(|e| format!("cannot convert the figure to PDF: {e}"))
+    svg2pdf::to_pdf(&tree, svg2pdf::ConversionOptions::default(), page).map_err(|e| PdfError::Conversion(e.to_string()))
 }
+
+/// Why a figure could not become a PDF (the converter's message).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum PdfError {
+    /// The figure is not valid SVG.
+    Svg(String),
+    /// The conversion failed.
+    Conversion(String),
+}
+
+impl std::fmt::Display for PdfError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            PdfError::Svg(e) => write!(f, "the figure is not valid SVG: {e}"),
+            PdfError::Conversion(e) => write!(f, "cannot convert the figure to PDF: {e}"),
+        }
+    }
+}
+
+impl std::error::Error for PdfError {}
 
 /// Renders panels into one SVG document `width_pt` points wide: side by side where each is wide
 /// enough for its text, stacked otherwise; each panel's height follows from its width.

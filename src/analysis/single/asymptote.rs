@@ -200,6 +200,13 @@ fn best_stable(est: &[f64]) -> Option<(usize, f64)> {
     best
 }
 
+/// Sets the kind and its certainty.
+fn set(out: &mut Asymptote, kind: AsymptoteKind, u: f64) {
+    out.kind = kind;
+    out.uncertainty = u;
+    out.confidence = confidence(u);
+}
+
 fn classify(end: f64, s: &[Sample], unbounded: bool) -> Asymptote {
     let mut out = Asymptote {
         end,
@@ -217,11 +224,6 @@ fn classify(end: f64, s: &[Sample], unbounded: bool) -> Asymptote {
         return out;
     }
     let last = s[s.len() - 1];
-    let set = |out: &mut Asymptote, kind, u: f64| {
-        out.kind = kind;
-        out.uncertainty = u;
-        out.confidence = confidence(u);
-    };
     // Falling below zero.
     if last.v < 0.0 {
         set(&mut out, AsymptoteKind::Negative, 0.0);
@@ -252,34 +254,47 @@ fn classify(end: f64, s: &[Sample], unbounded: bool) -> Asymptote {
         return out;
     }
     let ell: Vec<f64> = s.iter().map(|x| x.vt / x.v).collect();
-    let m_est: Vec<f64> = s.iter().map(|x| -x.vt / x.vtt).collect();
     let vmax = s.iter().fold(0.0f64, |m, x| m.max(x.v.abs()));
-    // Exponential plateau: M = -V_t / V_tt stable and positive, V -> V_inf != 0.
-    if let Some((j, rel)) = best_stable(&m_est) {
-        let m = m_est[j];
-        let height = s[j].v + m * s[j].vt;
-        if m > 0.0 && rel < 1e-3 && height.abs() > 1e-6 * vmax && (ell[j] * m).abs() < 1e-2 {
-            // Extrapolate M to the plateau against u = M |V_t| / V (the relative distance).
-            let u = |k: usize| (m_est[k] * s[k].vt / s[k].v).abs();
-            let (u1, u2) = (u(j - 1), u(j));
-            let m0 = if (u1 - u2).abs() > 0.0 {
-                m_est[j] - u2 * (m_est[j] - m_est[j - 1]) / (u2 - u1)
-            } else {
-                m
-            };
-            let m0 = if ((m0 - m) / m).abs() < 10.0 * rel.max(1e-9) {
-                m0
-            } else {
-                m
-            };
-            out.height = Some(s[j].v + m0 * s[j].vt);
-            out.scale = Some(m0);
-            out.alpha = Some(2.0 * m0 * m0 / 3.0);
-            set(&mut out, AsymptoteKind::ExponentialPlateau, rel);
-            return out;
-        }
+    if exponential_plateau(&mut out, s, &ell, vmax) || power_plateau(&mut out, s, &ell, vmax) {
+        return out;
     }
-    // Power plateau: q + 1 = kappa^2 / (dkappa/dt) stable, with V_t / V -> 0.
+    growth_or_decay(&mut out, s, &ell);
+    out
+}
+
+/// Exponential plateau: M = -V_t / V_tt stable and positive, V -> V_inf != 0. True if found.
+fn exponential_plateau(out: &mut Asymptote, s: &[Sample], ell: &[f64], vmax: f64) -> bool {
+    let m_est: Vec<f64> = s.iter().map(|x| -x.vt / x.vtt).collect();
+    let Some((j, rel)) = best_stable(&m_est) else {
+        return false;
+    };
+    let m = m_est[j];
+    let height = s[j].v + m * s[j].vt;
+    if !(m > 0.0 && rel < 1e-3 && height.abs() > 1e-6 * vmax && (ell[j] * m).abs() < 1e-2) {
+        return false;
+    }
+    // Extrapolate M to the plateau against u = M |V_t| / V (the relative distance).
+    let u = |k: usize| (m_est[k] * s[k].vt / s[k].v).abs();
+    let (u1, u2) = (u(j - 1), u(j));
+    let m0 = if (u1 - u2).abs() > 0.0 {
+        m_est[j] - u2 * (m_est[j] - m_est[j - 1]) / (u2 - u1)
+    } else {
+        m
+    };
+    let m0 = if ((m0 - m) / m).abs() < 10.0 * rel.max(1e-9) {
+        m0
+    } else {
+        m
+    };
+    out.height = Some(s[j].v + m0 * s[j].vt);
+    out.scale = Some(m0);
+    out.alpha = Some(2.0 * m0 * m0 / 3.0);
+    set(out, AsymptoteKind::ExponentialPlateau, rel);
+    true
+}
+
+/// Power plateau: q + 1 = kappa^2 / (dkappa/dt) stable, with V_t / V -> 0. True if found.
+fn power_plateau(out: &mut Asymptote, s: &[Sample], ell: &[f64], vmax: f64) -> bool {
     let q_est: Vec<f64> = s
         .iter()
         .map(|x| {
@@ -288,19 +303,25 @@ fn classify(end: f64, s: &[Sample], unbounded: bool) -> Asymptote {
             kappa * kappa / dk - 1.0
         })
         .collect();
-    if let Some((j, rel)) = best_stable(&q_est) {
-        let q = q_est[j];
-        let kappa = s[j].vtt / s[j].vt;
-        let height = s[j].v - s[j].vt * (q + 1.0) / (q * kappa);
-        if q > 0.0 && rel < 1e-2 && ell[j].abs() < 1e-2 && height.abs() > 1e-6 * vmax {
-            out.height = Some(height);
-            out.power = Some(q);
-            set(&mut out, AsymptoteKind::PowerPlateau, rel);
-            return out;
-        }
+    let Some((j, rel)) = best_stable(&q_est) else {
+        return false;
+    };
+    let q = q_est[j];
+    let kappa = s[j].vtt / s[j].vt;
+    let height = s[j].v - s[j].vt * (q + 1.0) / (q * kappa);
+    if q > 0.0 && rel < 1e-2 && ell[j].abs() < 1e-2 && height.abs() > 1e-6 * vmax {
+        out.height = Some(height);
+        out.power = Some(q);
+        set(out, AsymptoteKind::PowerPlateau, rel);
+        return true;
     }
-    // Exponential growth or decay: V_t / V stable and not tending to zero.
-    if let Some((j, rel)) = best_stable(&ell) {
+    false
+}
+
+/// Exponential growth or decay (V_t / V stable and not tending to zero), else power-law
+/// growth or decay (n = ell^2 / (ell^2 - V_tt/V) stable); `out` unchanged if neither.
+fn growth_or_decay(out: &mut Asymptote, s: &[Sample], ell: &[f64]) {
+    if let Some((j, rel)) = best_stable(ell) {
         if rel < 1e-4 && ell[j].abs() > 1e-6 {
             out.rate = Some(ell[j].abs());
             let kind = if ell[j] > 0.0 {
@@ -308,12 +329,11 @@ fn classify(end: f64, s: &[Sample], unbounded: bool) -> Asymptote {
             } else {
                 AsymptoteKind::ExponentialDecay
             };
-            set(&mut out, kind, rel);
-            return out;
+            set(out, kind, rel);
+            return;
         }
     }
-    // Power-law growth or decay: n = ell^2 / (ell^2 - V_tt/V) stable.
-    let n_est: Vec<f64> = s.iter().zip(&ell).map(|(x, l)| l * l / (l * l - x.vtt / x.v)).collect();
+    let n_est: Vec<f64> = s.iter().zip(ell).map(|(x, l)| l * l / (l * l - x.vtt / x.v)).collect();
     if let Some((j, rel)) = best_stable(&n_est) {
         if rel < 1e-3 {
             out.power = Some(n_est[j]);
@@ -322,9 +342,7 @@ fn classify(end: f64, s: &[Sample], unbounded: bool) -> Asymptote {
             } else {
                 AsymptoteKind::PowerDecay
             };
-            set(&mut out, kind, rel);
-            return out;
+            set(out, kind, rel);
         }
     }
-    out
 }

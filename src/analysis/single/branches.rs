@@ -162,6 +162,48 @@ fn crowded(signs: &[f64]) -> Vec<usize> {
 /// one period P and the same values of V, only the branches whose middle lies within P/2 of
 /// phi = 0 are kept.
 pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
+    let (pts, signs) = refined_samples(ev, iv);
+    let centre = if iv.contains(0.0) {
+        0.0
+    } else {
+        0.5 * (pts[0] + pts[pts.len() - 1])
+    };
+    let stationary = stationary_points(ev, &pts, &signs);
+    let (lo_cut, hi_cut) = resolution_cuts(&stationary, centre);
+    let stationary: Vec<f64> = stationary
+        .iter()
+        .map(|s| s.0)
+        .filter(|&x| x > lo_cut && x < hi_cut)
+        .collect();
+    let mut edges = Vec::new();
+    if lo_cut == f64::NEG_INFINITY {
+        edges.push(iv.lo);
+    }
+    edges.extend(stationary.iter().copied());
+    if hi_cut == f64::INFINITY {
+        edges.push(iv.hi);
+    }
+    let mut out = branches_between(&edges, &pts, &signs);
+    // The period, from the five stationary points nearest the centre (far out the samples
+    // may not resolve an oscillating V).
+    let mut inner = stationary.clone();
+    inner.sort_by(|a, b| (a - centre).abs().total_cmp(&(b - centre).abs()));
+    inner.truncate(5);
+    inner.sort_by(f64::total_cmp);
+    let period = period_of(ev, &inner);
+    if let Some(p) = period {
+        out.retain(|b| (0.5 * (b.top + b.bottom) - centre).abs() <= 0.5 * p);
+    }
+    BranchSurvey {
+        branches: out,
+        resolved: (lo_cut.max(iv.lo), hi_cut.min(iv.hi)),
+        period,
+    }
+}
+
+/// The samples of [`sample_points`] with the sign of V' at each ([`slope_sign`]), the
+/// crowded intervals halved up to three times (see [`branch_survey`]).
+fn refined_samples(ev: &mut Evaluator<'_>, iv: &Interval) -> (Vec<f64>, Vec<f64>) {
     let mut pts = sample_points(iv.lo, iv.hi);
     let mut signs = vec![0.0; pts.len()];
     ev.eval_each(&pts, |i, out| {
@@ -200,17 +242,16 @@ pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
         signs = merged.iter().map(|p| p.1).collect();
         hidden = crowded(&signs);
     }
-    let centre = if iv.contains(0.0) {
-        0.0
-    } else {
-        0.5 * (pts[0] + pts[pts.len() - 1])
-    };
+    (pts, signs)
+}
+
+/// Sign changes between consecutive significant samples, refined by Brent on V'; with the
+/// half-width of the samples around each: (x, spacing).
+fn stationary_points(ev: &mut Evaluator<'_>, pts: &[f64], signs: &[f64]) -> Vec<(f64, f64)> {
     let mut dv = |x: f64| {
         ev.eval(x);
         ev.output(OUT.dv())
     };
-    // Sign changes between consecutive significant samples, refined by Brent on V'; with the
-    // half-width of the samples around each.
     let mut stationary: Vec<(f64, f64)> = Vec::new();
     let mut prev: Option<usize> = None;
     for i in 0..pts.len() {
@@ -234,9 +275,13 @@ pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
         }
         prev = Some(i);
     }
-    // Outward from the centre, the survey stops at the first stationary point closer to its
-    // inner neighbour than 1.5 times the local sample spacing: beyond, the samples no longer
-    // resolve V (an oscillating potential far out).
+    stationary
+}
+
+/// Outward from the centre, the survey stops at the first stationary point closer to its
+/// inner neighbour than 1.5 times the local sample spacing: beyond, the samples no longer
+/// resolve V (an oscillating potential far out). (lower cut, upper cut), infinite where none.
+fn resolution_cuts(stationary: &[(f64, f64)], centre: f64) -> (f64, f64) {
     let close = |a: usize, b: usize| stationary[b].0 - stationary[a].0 < 1.5 * stationary[a].1.max(stationary[b].1);
     let split = stationary.partition_point(|s| s.0 < centre);
     let mut hi_cut = f64::INFINITY;
@@ -253,19 +298,12 @@ pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
             break;
         }
     }
-    let stationary: Vec<f64> = stationary
-        .iter()
-        .map(|s| s.0)
-        .filter(|&x| x > lo_cut && x < hi_cut)
-        .collect();
-    let mut edges = Vec::new();
-    if lo_cut == f64::NEG_INFINITY {
-        edges.push(iv.lo);
-    }
-    edges.extend(stationary.iter().copied());
-    if hi_cut == f64::INFINITY {
-        edges.push(iv.hi);
-    }
+    (lo_cut, hi_cut)
+}
+
+/// A branch between each pair of neighbouring edges that holds a significant sample, rolling
+/// the way the middle one of them says.
+fn branches_between(edges: &[f64], pts: &[f64], signs: &[f64]) -> Vec<Branch> {
     let mut out = Vec::new();
     for w in edges.windows(2) {
         let (a, b) = (w[0], w[1]);
@@ -283,21 +321,7 @@ pub fn branch_survey(ev: &mut Evaluator<'_>, iv: &Interval) -> BranchSurvey {
             Branch { top: a, bottom: b }
         });
     }
-    // The period, from the five stationary points nearest the centre (far out the samples
-    // may not resolve an oscillating V).
-    let mut inner = stationary.clone();
-    inner.sort_by(|a, b| (a - centre).abs().total_cmp(&(b - centre).abs()));
-    inner.truncate(5);
-    inner.sort_by(f64::total_cmp);
-    let period = period_of(ev, &inner);
-    if let Some(p) = period {
-        out.retain(|b| (0.5 * (b.top + b.bottom) - centre).abs() <= 0.5 * p);
-    }
-    BranchSurvey {
-        branches: out,
-        resolved: (lo_cut.max(iv.lo), hi_cut.min(iv.hi)),
-        period,
-    }
+    out
 }
 
 /// The period of V from its stationary points: at least five, every second one P apart

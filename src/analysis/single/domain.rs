@@ -2,7 +2,7 @@
 //! a zero of K, a singularity of V, infinity, a range end), and the minima and negative regions
 //! of V inside it. Units: reduced Planck units (M_p = 1).
 
-use crate::analysis::error::AnalysisError;
+use crate::analysis::error::{AnalysisError, ErrorKind, RangeDefect};
 use crate::language::tape::Evaluator;
 use crate::model::{Layout, Model};
 use crate::numerics::roots::brent;
@@ -253,13 +253,7 @@ pub fn find_domain(model: &Model, ev: &mut Evaluator<'_>) -> Result<Domain, Anal
         }
     }
     if intervals.is_empty() {
-        return Err(AnalysisError {
-            message: "no interval of field space has K > 0 with V finite".to_string(),
-            hints: vec![
-                "check the kinetic function: L = 1/2 K (d phi)^2 - V needs K > 0".to_string(),
-                "or give the interval with --range LO HI".to_string(),
-            ],
-        });
+        return Err(ErrorKind::NoDomain.into());
     }
     // The interval to use: one whose V has a minimum with V >= 0 inside (where inflation can
     // end), the lowest such; failing that, the one holding phi = 0; failing that, the first.
@@ -452,22 +446,12 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
         }
         let x3 = [probes[i - 1], probes[i], probes[i + 1]];
         if let Some((x, kind)) = hidden_singularity(ev, x3, k3) {
-            let what = if kind == EndKind::Pole {
-                "K has a pole"
-            } else {
-                "K vanishes"
-            };
-            return Err(AnalysisError {
-                message: format!(
-                    "{what} at {field} = {} inside the range",
-                    crate::report::numfmt::number(x)
-                ),
-                hints: vec![
-                    "the kinetic term must be positive and finite inside the range".to_string(),
-                    "end the range at this point with --range, or leave it out to let efold find the domain"
-                        .to_string(),
-                ],
-            });
+            return Err(ErrorKind::KSingularInRange {
+                field: field.to_string(),
+                at: x,
+                pole: kind == EndKind::Pole,
+            }
+            .into());
         }
     }
     for (&x, &(v, k)) in probes.iter().zip(&vk) {
@@ -476,20 +460,19 @@ fn check_range(ev: &mut Evaluator<'_>, lo: f64, hi: f64, field: &str) -> Result<
             s => {
                 ev.eval(x);
                 let k = ev.output(OUT.k());
-                let what = match s {
-                    Status::KNonPositive if k == 0.0 => format!("K = 0 at {field} = {x} inside the range"),
-                    Status::KNonPositive => format!("K = {k} <= 0 at {field} = {x} inside the range"),
-                    Status::KNotFinite => format!("K is {k} at {field} = {x} inside the range (a pole?)"),
-                    Status::VNotReal => format!("V is not real (NaN) at {field} = {x} inside the range"),
-                    _ => format!("V is {} at {field} = {x} inside the range", ev.eval(x)),
+                let defect = match s {
+                    Status::KNonPositive if k == 0.0 => RangeDefect::KZero,
+                    Status::KNonPositive => RangeDefect::KNegative(k),
+                    Status::KNotFinite => RangeDefect::KNotFinite(k),
+                    Status::VNotReal => RangeDefect::VNotReal,
+                    _ => RangeDefect::VNotFinite(ev.eval(x)),
                 };
-                return Err(AnalysisError {
-                    message: what,
-                    hints: vec![
-                        "the kinetic term must be positive and V finite everywhere in the range".to_string(),
-                        "narrow it with --range LO HI, or leave it out to let efold find the domain".to_string(),
-                    ],
-                });
+                return Err(ErrorKind::BadInRange {
+                    field: field.to_string(),
+                    at: x,
+                    defect,
+                }
+                .into());
             }
         }
     }

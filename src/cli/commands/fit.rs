@@ -17,7 +17,7 @@ pub(crate) fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
         .iter()
         .map(|t| crate::drivers::fit::Target::parse(t))
         .collect::<Result<Vec<_>, _>>()
-        .map_err(|e| Failure::from(Diagnostic::new(e)))?;
+        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
     let f = crate::drivers::fit::fit(
         &model.spec,
         &a.free,

@@ -17,7 +17,7 @@ pub(crate) fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Fail
         data: load_data(data)?,
         ..Default::default()
     };
-    let files = model_files(dir).map_err(|e| Failure::from(Diagnostic::new(e)))?;
+    let files = model_files(dir).map_err(|e| Failure::input(e.render()))?;
     if files.is_empty() {
         return Err(Diagnostic::new(format!("no model files (*.toml) under `{}`", dir.display())).into());
     }
@@ -25,8 +25,8 @@ pub(crate) fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Fail
     match &a.action {
         GoldenAction::Write { .. } => {
             for f in &files {
-                let rep =
-                    predict_file(f, &base, config).map_err(|e| Failure::input(format!("{}: {e}", f.display())))?;
+                let rep = predict_file(f, &base, config)
+                    .map_err(|e| Failure::input(format!("{}: {}", f.display(), e.render())))?;
                 let text = format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable"));
                 write_output_file(&golden_path(f), &text)?;
                 let _ = writeln!(out, "wrote {}", golden_path(f).display());
@@ -54,7 +54,7 @@ pub(crate) fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Fail
                 match predict_file(f, &base, config) {
                     Err(e) => {
                         drifted += 1;
-                        let _ = writeln!(out, "{}: now fails to predict:\n{e}", f.display());
+                        let _ = writeln!(out, "{}: now fails to predict:\n{}", f.display(), e.render());
                     }
                     Ok(rep) => {
                         let new = serde_json::to_value(&rep).expect("serialisable");

@@ -12,7 +12,7 @@ pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Fa
         check_start_velocity(&model, phi, v)?;
     }
     let data = match &a.data {
-        Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
+        Some(p) => crate::data::DataSet::load(p).map_err(Failure::from)?,
         None => crate::data::DataSet::builtin(),
     };
     let n_stars = if !a.efolds.is_empty() {

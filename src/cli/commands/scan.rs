@@ -27,21 +27,14 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
         .iter()
         .map(|v| crate::drivers::scan::Axis::parse(v, &spec, a.points, limit))
         .collect::<Result<Vec<_>, _>>()
-        .map_err(|e| {
-            let hint = if e.contains("max_axis_points") {
-                "give this parameter fewer values"
-            } else {
-                "write `--vary alpha=0.1:10:30:log`"
-            };
-            Failure::from(Diagnostic::new(e).with_hint(hint))
-        })?;
+        .map_err(|e| Failure::from(e.diagnostic()))?;
     let total = check_grid_size(&axes, config)?;
     let shard = a
         .shard
         .as_deref()
         .map(crate::drivers::scan::Shard::parse)
         .transpose()
-        .map_err(|e| Failure::from(Diagnostic::new(e)))?;
+        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
     let n_stars = if a.efolds.is_empty() {
         spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
     } else {
@@ -128,7 +121,7 @@ pub(crate) fn merge_cmd(a: &MergeArgs, config: &Config) -> Result<String, Failur
     }
     let merged = crate::drivers::scan::merge(&texts).map_err(|e| {
         Failure::from(
-            Diagnostic::new(e)
+            Diagnostic::new(e.to_string())
                 .with_hint("give every file of one `efold scan --shard K/N` run, K = 1..N, each once, as written"),
         )
     })?;

@@ -18,7 +18,7 @@ pub(crate) fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, 
         check_start_velocity(&model, phi, v)?;
     }
     let data = match &a.data {
-        Some(p) => crate::data::DataSet::load(p).map_err(Failure::input)?,
+        Some(p) => crate::data::DataSet::load(p).map_err(Failure::from)?,
         None => crate::data::DataSet::builtin(),
     };
     let settings = crate::analysis::background::Settings {

@@ -5,24 +5,24 @@ use crate::config::Config;
 use crate::diag::Diagnostic;
 
 pub(crate) fn watch_cmd(a: &WatchArgs, config: &Config) -> Result<String, Failure> {
-    use crate::drivers::golden::{diff, model_files, predict_file};
+    use crate::drivers::golden::{diff, model_files, predict_file, GoldenError};
     use notify::{RecursiveMode, Watcher};
     check_tolerance(a.tolerance)?;
     let base = crate::drivers::predict::Options::default();
     let files = || -> Result<Vec<std::path::PathBuf>, Failure> {
         if a.path.is_dir() {
-            model_files(&a.path).map_err(|e| Failure::from(Diagnostic::new(e)))
+            model_files(&a.path).map_err(|e| Failure::input(e.render()))
         } else {
             Ok(vec![a.path.clone()])
         }
     };
-    let mut last: std::collections::BTreeMap<std::path::PathBuf, Result<serde_json::Value, String>> =
+    let mut last: std::collections::BTreeMap<std::path::PathBuf, Result<serde_json::Value, GoldenError>> =
         Default::default();
     let round = |last: &mut std::collections::BTreeMap<_, _>, first: bool| -> Result<(), Failure> {
         for f in files()? {
             let now = predict_file(&f, &base, config).map(|r| serde_json::to_value(&r).expect("serialisable"));
             let line = match (last.get(&f), &now) {
-                (_, Err(e)) => format!("{}: fails to predict\n{e}", f.display()),
+                (_, Err(e)) => format!("{}: fails to predict\n{}", f.display(), e.render()),
                 (Some(Ok(old)), Ok(new)) => {
                     let d = diff(old, new, a.tolerance);
                     if d.is_empty() {
