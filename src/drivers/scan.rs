@@ -6,6 +6,7 @@ use crate::analysis::error::AnalysisError;
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::predict::{predict, Options, Prediction, CSV_KEYS};
+use crate::drivers::prepared::Prepared;
 use crate::model::{Model, ModelSpec};
 use crate::report::plot::{Marker, Panel, Region, Series};
 use serde::Serialize;
@@ -183,6 +184,25 @@ pub fn total_points(axes: &[Axis]) -> Option<usize> {
     axes.iter().try_fold(1usize, |acc, a| acc.checked_mul(a.values.len()))
 }
 
+/// One scan: the model, the grid, the N_* values and data every point shares, and how to run.
+#[derive(Debug, Clone, Copy)]
+pub struct ScanJob<'a> {
+    /// The model as written (the varied parameters are set at each point).
+    pub spec: &'a ModelSpec,
+    /// The varied parameters.
+    pub axes: &'a [Axis],
+    /// N_* values, one row each per point.
+    pub n_stars: &'a [f64],
+    /// The data to judge against.
+    pub data: &'a DataSet,
+    /// Only this slice of the points, if given.
+    pub shard: Option<Shard>,
+    /// Limits and tolerances.
+    pub config: &'a Config,
+    /// Show a progress bar.
+    pub progress: bool,
+}
+
 /// Runs the grid (or one shard of it) and returns every row. Points fail independently: a
 /// failed point keeps its rows, with the error. See [`run_chunks`] for the streaming form.
 pub fn run(
@@ -194,12 +214,20 @@ pub fn run(
     config: &Config,
     progress: bool,
 ) -> Vec<ScanRow> {
+    let job = ScanJob {
+        spec,
+        axes,
+        n_stars,
+        data,
+        shard,
+        config,
+        progress,
+    };
     let mut all = Vec::new();
-    let done: Result<(), std::convert::Infallible> =
-        run_chunks(spec, axes, n_stars, data, shard, config, progress, &mut |rows| {
-            all.extend_from_slice(rows);
-            Ok(())
-        });
+    let done: Result<(), std::convert::Infallible> = run_chunks(&job, &mut |rows| {
+        all.extend_from_slice(rows);
+        Ok(())
+    });
     let Ok(()) = done;
     all
 }
@@ -207,41 +235,43 @@ pub fn run(
 /// Runs the grid (or one shard of it) in chunks of points (see [`CHUNK_ROWS`]), each chunk's
 /// points in parallel, and hands each chunk's rows to `sink` in point order as it completes.
 /// The first error of `sink` stops the scan and is returned.
-#[allow(clippy::too_many_arguments)]
-pub fn run_chunks<E>(
-    spec: &ModelSpec,
-    axes: &[Axis],
-    n_stars: &[f64],
-    data: &DataSet,
-    shard: Option<Shard>,
-    config: &Config,
-    progress: bool,
-    sink: &mut dyn FnMut(&[ScanRow]) -> Result<(), E>,
-) -> Result<(), E> {
+///
+/// The model is compiled once: each worker rebinds its own copy to the parameters of each of
+/// its points ([`Prepared::rebind`]), which gives the values, predictions and error messages
+/// of a model built afresh at that point. Should the model not build at its own parameter
+/// values, or an axis vary a name the model does not have, every point builds its model
+/// afresh instead.
+pub fn run_chunks<E>(job: &ScanJob<'_>, sink: &mut dyn FnMut(&[ScanRow]) -> Result<(), E>) -> Result<(), E> {
     use rayon::prelude::*;
-    let total = total_points(axes).unwrap_or(usize::MAX);
-    let range = shard.map_or(0..total, |s| s.range(total));
-    let bar = if progress {
+    let total = total_points(job.axes).unwrap_or(usize::MAX);
+    let range = job.shard.map_or(0..total, |s| s.range(total));
+    let bar = if job.progress {
         indicatif::ProgressBar::new(range.len() as u64)
     } else {
         indicatif::ProgressBar::hidden()
     };
     let opts = Options {
-        n_stars: n_stars.to_vec(),
-        data: data.clone(),
+        n_stars: job.n_stars.to_vec(),
+        data: job.data.clone(),
         ..Default::default()
     };
-    let per_chunk = (CHUNK_ROWS / n_stars.len().max(1)).max(1);
+    let base = Model::build(job.spec, job.config)
+        .ok()
+        .filter(|m| job.axes.iter().all(|a| m.scope.params.contains(&a.name)));
+    let per_chunk = (CHUNK_ROWS / job.n_stars.len().max(1)).max(1);
     let mut lo = range.start;
     while lo < range.end {
         let hi = lo + per_chunk.min(range.end - lo);
         let rows: Vec<Vec<ScanRow>> = (lo..hi)
             .into_par_iter()
-            .map(|point| {
-                let rows = point_rows(spec, axes, n_stars, &opts, config, point);
-                bar.inc(1);
-                rows
-            })
+            .map_init(
+                || base.as_ref().map(Prepared::new),
+                |prep, point| {
+                    let rows = point_rows(job, prep.as_mut(), &opts, point);
+                    bar.inc(1);
+                    rows
+                },
+            )
             .collect();
         let rows: Vec<ScanRow> = rows.into_iter().flatten().collect();
         if let Err(e) = sink(&rows) {
@@ -254,22 +284,17 @@ pub fn run_chunks<E>(
     Ok(())
 }
 
-/// The rows of one grid point: one per N_*, with the error when the point fails.
-fn point_rows(
-    spec: &ModelSpec,
-    axes: &[Axis],
-    n_stars: &[f64],
-    opts: &Options,
-    config: &Config,
-    point: usize,
-) -> Vec<ScanRow> {
-    let values = grid_point(axes, point);
-    let params: Vec<(String, f64)> = axes
+/// The rows of one grid point: one per N_*, with the error when the point fails. `prep` is the
+/// worker's model to rebind, if it has one.
+fn point_rows(job: &ScanJob<'_>, prep: Option<&mut Prepared<'_>>, opts: &Options, point: usize) -> Vec<ScanRow> {
+    let values = grid_point(job.axes, point);
+    let params: Vec<(String, f64)> = job
+        .axes
         .iter()
         .map(|a| a.name.clone())
         .zip(values.iter().copied())
         .collect();
-    match predict_at(spec, &params, opts, config) {
+    match predict_at(job, prep, &params, opts) {
         Ok(preds) => preds
             .into_iter()
             .map(|p| ScanRow {
@@ -279,7 +304,8 @@ fn point_rows(
                 result: Ok(p),
             })
             .collect(),
-        Err(e) => n_stars
+        Err(e) => job
+            .n_stars
             .iter()
             .map(|&n| ScanRow {
                 point,
@@ -301,19 +327,31 @@ fn grid_point(axes: &[Axis], mut index: usize) -> Vec<f64> {
     out
 }
 
+/// The predictions at one point: `prep` rebound to its parameters, or (without one) the model
+/// built afresh with them. The error is the model's or the prediction's message.
 fn predict_at(
-    spec: &ModelSpec,
+    job: &ScanJob<'_>,
+    prep: Option<&mut Prepared<'_>>,
     params: &[(String, f64)],
     opts: &Options,
-    config: &Config,
 ) -> Result<Vec<Prediction>, String> {
-    let mut spec = spec.clone();
-    for (name, v) in params {
-        spec.set_param(name, &format!("{v:e}"));
-    }
-    let model = Model::build(&spec, config).map_err(|e| e.diagnostic.message.clone())?;
-    let rep = predict(&model, opts, config).map_err(|e: AnalysisError| e.message)?;
-    Ok(rep.predictions)
+    let rep = match prep {
+        Some(prep) => {
+            let pairs: Vec<(&str, f64)> = params.iter().map(|(n, v)| (n.as_str(), *v)).collect();
+            prep.rebind(&pairs, job.config)
+                .map_err(|e| e.diagnostic.message.clone())?;
+            prep.predict(opts, job.config)
+        }
+        None => {
+            let mut spec = job.spec.clone();
+            for (name, v) in params {
+                spec.set_param(name, &format!("{v:e}"));
+            }
+            let model = Model::build(&spec, job.config).map_err(|e| e.diagnostic.message.clone())?;
+            predict(&model, opts, job.config)
+        }
+    };
+    rep.map(|r| r.predictions).map_err(|e: AnalysisError| e.message)
 }
 
 fn csv_field(s: &str) -> String {

@@ -93,7 +93,16 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
     // The figure needs every row; the table alone is streamed chunk by chunk.
     let mut kept: Vec<crate::drivers::scan::ScanRow> = Vec::new();
     let progress = std::io::stderr().is_terminal();
-    crate::drivers::scan::run_chunks(&spec, &axes, &n_stars, &data, shard, config, progress, &mut |rows| {
+    let job = crate::drivers::scan::ScanJob {
+        spec: &spec,
+        axes: &axes,
+        n_stars: &n_stars,
+        data: &data,
+        shard,
+        config,
+        progress,
+    };
+    crate::drivers::scan::run_chunks(&job, &mut |rows| {
         rows_done += rows.len();
         failed += rows.iter().filter(|r| r.result.is_err()).count();
         if a.svg.is_some() || a.pdf.is_some() {
