@@ -369,11 +369,34 @@ fn branch_order(prep: &Prepared<'_>, all: &[Branch], opts: &Options) -> Result<V
                     (None, _) => true,
                 })
                 .collect();
+            if v.is_empty() {
+                return Err(no_branch_on_side(prep, side, min));
+            }
             v.reverse();
             v
         }
         (None, None) => (0..all.len()).rev().collect(),
     })
+}
+
+/// The error when the model's `start` side of the minimum of V holds no branch (the minimum
+/// is at that end of a given range).
+fn no_branch_on_side(prep: &Prepared<'_>, side: Side, min: Option<f64>) -> AnalysisError {
+    let field = prep.model().field();
+    let (word, other) = match side {
+        Side::Above => ("above", "below"),
+        Side::Below => ("below", "above"),
+    };
+    fail(
+        format!(
+            "the model starts the field {word} the minimum of V ({field} = {}), and no branch lies {word} it",
+            fmt(min.unwrap_or(f64::NAN))
+        ),
+        &[
+            &format!("set `start = \"{other}\"` in the model's [settings], or choose a branch with --branch"),
+            "or widen the range past the minimum (`efold inspect` shows the domain and the minimum)",
+        ],
+    )
 }
 
 type BranchResult = (Vec<Prediction>, Vec<String>, String);

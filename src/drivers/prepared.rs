@@ -125,7 +125,9 @@ impl<'m> Prepared<'m> {
     /// The branch survey of the domain's interval ([`branch_survey`]).
     pub fn branch_survey(&self) -> Result<&BranchSurvey, AnalysisError> {
         let iv = self.interval()?;
-        Ok(self.survey.get_or_init(|| branch_survey(&mut self.model.evaluator(), &iv)))
+        Ok(self
+            .survey
+            .get_or_init(|| branch_survey(&mut self.model.evaluator(), &iv)))
     }
 
     /// The branches, in ascending order of position.
@@ -136,7 +138,9 @@ impl<'m> Prepared<'m> {
     /// The minimum of V in the domain's interval ([`minimum_of_v`]), if there is one.
     pub fn minimum_of_v(&self) -> Result<Option<f64>, AnalysisError> {
         let iv = self.interval()?;
-        Ok(*self.minimum.get_or_init(|| minimum_of_v(&mut self.model.evaluator(), &iv)))
+        Ok(*self
+            .minimum
+            .get_or_init(|| minimum_of_v(&mut self.model.evaluator(), &iv)))
     }
 
     /// The predictions ([`crate::drivers::predict::predict`]) from this analysis.
@@ -148,5 +152,147 @@ impl<'m> Prepared<'m> {
     /// `table` asks for that many rows of (phi, chi, V).
     pub fn inspect(&self, config: &Config, table: Option<usize>) -> Result<Inspection, AnalysisError> {
         crate::drivers::inspect::inspect_prepared(self, config, table)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::drivers::predict::{predict, Prediction};
+    use crate::model::{ModelSpec, Text};
+
+    /// The order-2 pole in the field phi with the pole at phi = w, w = sqrt(6 alpha) a derived
+    /// parameter, and the range [0, w] following it.
+    fn pole_spec() -> ModelSpec {
+        let mut spec = ModelSpec::inline("phi^2/(6*alpha)", Some("1/(1 - (phi/w)^2)^2"));
+        spec.set_param("alpha", "1");
+        spec.set_param("w", "sqrt(6*alpha)");
+        spec.range = Some((Text::inline("lo", "0"), Text::inline("hi", "w")));
+        spec
+    }
+
+    /// Every number of a prediction, as bits, and its verdict.
+    fn bits(p: &Prediction) -> (Vec<(&'static str, u64)>, &'static str) {
+        (
+            p.numbers().into_iter().map(|(k, x)| (k, x.to_bits())).collect(),
+            p.verdict,
+        )
+    }
+
+    fn built_at(spec: &ModelSpec, alpha: f64, config: &Config) -> Result<Model, ModelError> {
+        let mut spec = spec.clone();
+        spec.set_param("alpha", &format!("{alpha:e}"));
+        Model::build(&spec, config)
+    }
+
+    #[test]
+    fn a_rebound_model_predicts_the_bits_of_a_fresh_build() {
+        let config = Config::default();
+        let spec = pole_spec();
+        let model = Model::build(&spec, &config).unwrap();
+        let mut prep = Prepared::new(&model);
+        let opts = Options {
+            n_stars: vec![50.0, 60.0],
+            second_order: true,
+            ..Default::default()
+        };
+        // alpha values whose `{:e}` text is not the shortest form of the value (1/3), far
+        // from the start in both directions, and the start itself again at the end.
+        for alpha in [1.0 / 3.0, 0.01, 2.5, 40.0, 1.0] {
+            prep.rebind(&[("alpha", alpha)], &config).unwrap();
+            let fresh = built_at(&spec, alpha, &config).unwrap();
+            assert_eq!(prep.model().params, fresh.params, "alpha = {alpha}");
+            assert_eq!(
+                prep.model().params[1].to_bits(),
+                (6.0 * alpha).sqrt().to_bits(),
+                "the derived w followed alpha = {alpha}"
+            );
+            assert_eq!(prep.model().range, fresh.range, "alpha = {alpha}");
+            let want = predict(&fresh, &opts, &config).unwrap();
+            let got = prep.predict(&opts, &config).unwrap();
+            assert_eq!(got.predictions.len(), 2);
+            for (g, w) in got.predictions.iter().zip(&want.predictions) {
+                assert_eq!(bits(g), bits(w), "alpha = {alpha}");
+            }
+            assert_eq!(got.warnings, want.warnings);
+            assert_eq!(got.branch.branch, want.branch.branch);
+            // the prepared analysis is reused, not changed, by a second use
+            let again = prep.predict(&opts, &config).unwrap();
+            assert_eq!(bits(&again.predictions[0]), bits(&want.predictions[0]));
+            let (ins_got, ins_want) = (
+                prep.inspect(&config, Some(4)).unwrap(),
+                crate::drivers::inspect::inspect(&fresh, &config, Some(4)).unwrap(),
+            );
+            assert_eq!(
+                serde_json::to_string(&ins_got).unwrap(),
+                serde_json::to_string(&ins_want).unwrap(),
+                "alpha = {alpha}"
+            );
+        }
+    }
+
+    #[test]
+    fn what_is_kept_is_what_the_analyses_return() {
+        let config = Config::default();
+        let model = Model::build(&pole_spec(), &config).unwrap();
+        let prep = Prepared::new(&model);
+        let mut ev = model.evaluator();
+        let domain = find_domain(&model, &mut ev).unwrap();
+        assert_eq!(prep.domain().unwrap(), &domain);
+        let iv = domain.interval;
+        assert_eq!(prep.branch_survey().unwrap(), &branch_survey(&mut ev, &iv));
+        assert_eq!(prep.minimum_of_v().unwrap(), minimum_of_v(&mut ev, &iv));
+        assert_eq!(
+            prep.negative_regions().unwrap(),
+            negative_regions(&mut ev, &iv).as_slice()
+        );
+        // the pole at sqrt(6) is the top of the one branch, which rolls to the minimum at 0
+        assert_eq!(prep.branches().unwrap().len(), 1);
+        assert_eq!(prep.minimum_of_v().unwrap(), Some(0.0));
+    }
+
+    #[test]
+    fn a_failed_rebind_says_what_a_failed_build_says_and_stops_the_analysis() {
+        let config = Config::default();
+        let spec = pole_spec();
+        let model = Model::build(&spec, &config).unwrap();
+        let mut prep = Prepared::new(&model);
+        // alpha < 0: w = sqrt(6 alpha) is not a number, so the derived parameter fails.
+        let fresh = built_at(&spec, -1.0, &config).unwrap_err();
+        let rebound = prep.rebind(&[("alpha", -1.0)], &config).unwrap_err();
+        assert_eq!(rebound.diagnostic.message, fresh.diagnostic.message);
+        // no prediction from the values before the failed rebind
+        let e = prep.predict(&Options::default(), &config).unwrap_err();
+        assert_eq!(e.message, fresh.diagnostic.message);
+        assert!(prep.inspect(&config, None).is_err());
+        // a good rebind makes it usable again
+        prep.rebind(&[("alpha", 2.0)], &config).unwrap();
+        let want = predict(&built_at(&spec, 2.0, &config).unwrap(), &Options::default(), &config).unwrap();
+        let got = prep.predict(&Options::default(), &config).unwrap();
+        assert_eq!(bits(&got.predictions[1]), bits(&want.predictions[1]));
+        // an unknown name is an error, and the model is unchanged
+        assert!(prep.rebind(&[("beta", 1.0)], &config).is_err());
+        assert!(prep.predict(&Options::default(), &config).is_err());
+    }
+
+    #[test]
+    fn no_branch_on_the_start_side_is_an_error_not_a_panic() {
+        // V falls toward the upper end of the given range, where V is lowest: the minimum is
+        // that end, and no branch lies above it.
+        let mut spec = ModelSpec::inline("2 - phi", None);
+        spec.range = Some((Text::inline("lo", "0"), Text::inline("hi", "1")));
+        spec.start = Some(crate::model::Side::Above);
+        let model = Model::build(&spec, &Config::default()).unwrap();
+        let e = predict(&model, &Options::default(), &Config::default()).unwrap_err();
+        assert_eq!(
+            e.message,
+            "the model starts the field above the minimum of V (phi = 1), and no branch lies above it"
+        );
+        assert!(e.hints[0].contains("start = \"below\""), "{:?}", e.hints);
+        // from below, the one branch is tried (where V = 2 - phi never ends inflation)
+        spec.start = Some(crate::model::Side::Below);
+        let model = Model::build(&spec, &Config::default()).unwrap();
+        let e = predict(&model, &Options::default(), &Config::default()).unwrap_err();
+        assert!(!e.message.contains("no branch lies"), "{}", e.message);
     }
 }

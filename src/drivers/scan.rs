@@ -1025,3 +1025,80 @@ mod tests {
         assert_eq!(csv_records("1,\"open\n", 1), Err(1));
     }
 }
+
+#[cfg(test)]
+mod run_tests {
+    use super::*;
+    use crate::model::Text;
+
+    /// The order-2 pole with the pole at w = sqrt(6 alpha), a derived parameter that fails for
+    /// alpha < 0, and the range [0, w] following it.
+    fn pole_spec() -> ModelSpec {
+        let mut spec = ModelSpec::inline("phi^2/(6*alpha)", Some("1/(1 - (phi/w)^2)^2"));
+        spec.set_param("alpha", "1");
+        spec.set_param("w", "sqrt(6*alpha)");
+        spec.range = Some((Text::inline("lo", "0"), Text::inline("hi", "w")));
+        spec
+    }
+
+    /// Rows of a rebound model and of a model built afresh at each point are the same, in
+    /// every digit the CSV keeps (Rust's shortest round-trip form) and every error message.
+    #[test]
+    fn rebound_points_give_the_rows_of_fresh_builds() {
+        let config = Config::default();
+        let spec = pole_spec();
+        let axes = [Axis {
+            name: "alpha".into(),
+            values: vec![-1.0, 0.1, 1.0 / 3.0, -0.5, 3.7, 40.0],
+        }];
+        let data = DataSet::builtin();
+        let job = ScanJob {
+            spec: &spec,
+            axes: &axes,
+            n_stars: &[50.0, 60.0],
+            data: &data,
+            shard: None,
+            config: &config,
+            progress: false,
+        };
+        let opts = Options {
+            n_stars: job.n_stars.to_vec(),
+            data: data.clone(),
+            ..Default::default()
+        };
+        let model = Model::build(&spec, &config).unwrap();
+        let mut prep = Prepared::new(&model);
+        let (mut rebound, mut fresh) = (Vec::new(), Vec::new());
+        for point in 0..axes[0].values.len() {
+            rebound.extend(point_rows(&job, Some(&mut prep), &opts, point));
+            fresh.extend(point_rows(&job, None, &opts, point));
+        }
+        assert_eq!(csv_rows(&rebound), csv_rows(&fresh));
+        assert_eq!(rebound, fresh);
+        assert_eq!(rebound.iter().filter(|r| r.result.is_err()).count(), 4);
+        assert_eq!(rebound.iter().filter(|r| r.result.is_ok()).count(), 8);
+        // and the parallel run, with its per-worker models, gives the same rows in order
+        assert_eq!(
+            csv_rows(&run(&spec, &axes, job.n_stars, &data, None, &config, false)),
+            csv_rows(&fresh)
+        );
+    }
+
+    /// An axis over a name the model does not have keeps its old meaning (a parameter added to
+    /// the model and unused), rather than failing every point.
+    #[test]
+    fn an_axis_over_an_unknown_name_builds_each_point() {
+        let config = Config::default();
+        let spec = pole_spec();
+        let axes = [Axis::new("unused", 1.0, 2.0, 2, false).unwrap()];
+        let rows = run(&spec, &axes, &[55.0], &DataSet::builtin(), None, &config, false);
+        assert!(rows.iter().all(|r| r.result.is_ok()), "{rows:?}");
+        let model = Model::build(&spec, &config).unwrap();
+        let opts = Options {
+            n_stars: vec![55.0],
+            ..Default::default()
+        };
+        let want = predict(&model, &opts, &config).unwrap().predictions.remove(0);
+        assert_eq!(rows[1].result, Ok(want));
+    }
+}
