@@ -476,3 +476,86 @@ pub fn text(f: &FitResult) -> String {
     );
     o
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::Text;
+
+    fn problem<'a>(spec: &ModelSpec, free: &'a [String], targets: &'a [Target], config: &'a Config) -> Problem<'a> {
+        let model = Model::build(spec, config).unwrap();
+        let log = start_values(&model, free).unwrap().iter().map(|v| *v > 0.0).collect();
+        Problem {
+            prep: Prepared::owned(model),
+            free,
+            log,
+            targets,
+            opts: Options {
+                n_stars: vec![55.0],
+                ..Default::default()
+            },
+            config,
+        }
+    }
+
+    /// What the model built afresh with the parameter set as text says at these values.
+    fn fresh(spec: &ModelSpec, name: &str, v: f64, config: &Config) -> Result<Prediction, String> {
+        let mut spec = spec.clone();
+        spec.set_param(name, &format!("{v:e}"));
+        let model = Model::build(&spec, config).map_err(|e| e.diagnostic.message.clone())?;
+        let rep = crate::drivers::predict::predict(
+            &model,
+            &Options {
+                n_stars: vec![55.0],
+                ..Default::default()
+            },
+            config,
+        );
+        rep.map(|mut r| r.predictions.swap_remove(0)).map_err(|e| e.message)
+    }
+
+    #[test]
+    fn each_trial_point_predicts_what_a_fresh_build_predicts() {
+        let config = Config::default();
+        let mut spec = ModelSpec::inline("phi^2/(6*alpha)", Some("1/(1 - phi^2/(6*alpha))^2"));
+        spec.set_param("alpha", "1");
+        let (free, targets) = (
+            ["alpha".to_string()],
+            [Target {
+                observable: Observable::R,
+                value: 0.01,
+            }],
+        );
+        let mut p = problem(&spec, &free, &targets, &config);
+        assert_eq!(p.log, [true]);
+        // in the logarithm, as the solver steps: the value is exp(theta), not a round number
+        for theta in [0.3f64.ln(), 2.5f64.ln(), 2.5f64.ln() + 1e-6, 0.0] {
+            let got = p.predict(&DVector::from_element(1, theta)).unwrap();
+            let want = fresh(&spec, "alpha", theta.exp(), &config).unwrap();
+            let bits = |q: &Prediction| q.numbers().iter().map(|(_, x)| x.to_bits()).collect::<Vec<_>>();
+            assert_eq!(bits(&got), bits(&want), "theta = {theta}");
+        }
+    }
+
+    #[test]
+    fn a_trial_point_that_does_not_build_fails_with_the_builds_message() {
+        let config = Config::default();
+        // c starts negative, so it is fitted linearly; at c = 2 the range [c, 1] is empty
+        let mut spec = ModelSpec::inline("phi^2", None);
+        spec.set_param("c", "-1");
+        spec.range = Some((Text::inline("lo", "c"), Text::inline("hi", "1")));
+        let (free, targets) = (
+            ["c".to_string()],
+            [Target {
+                observable: Observable::NS,
+                value: 0.96,
+            }],
+        );
+        let mut p = problem(&spec, &free, &targets, &config);
+        assert_eq!(p.log, [false]);
+        let got = p.predict(&DVector::from_element(1, 2.0)).unwrap_err();
+        let want = fresh(&spec, "c", 2.0, &config).unwrap_err();
+        assert_eq!(got, want);
+        assert!(got.contains("the range is empty"), "{got}");
+    }
+}
