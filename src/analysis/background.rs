@@ -8,6 +8,7 @@
 
 use crate::analysis::error::AnalysisError;
 use crate::analysis::error::ErrorKind;
+use crate::analysis::single::domain::Interval;
 use crate::language::tape::Evaluator;
 use crate::model::{Layout, Model};
 use crate::numerics::ode::{integrate, Options as OdeOptions};
@@ -180,11 +181,14 @@ pub fn state_at(bg: &Background<'_>, run: &Run, n: f64, settings: &Settings) -> 
     Ok(sol.y)
 }
 
+/// The domain's interval, asked for only when a start is given (`domain` of
+/// [`start_with_room_in`]).
+pub type DomainOf<'a> = &'a dyn Fn() -> Result<Interval, AnalysisError>;
+
 /// A start given by the user must lie inside the domain (beyond a pole of K, or where K <= 0
 /// or V is not finite, there is no background to integrate).
-fn check_start(model: &Model, phi: f64) -> Result<(), AnalysisError> {
-    let domain = crate::analysis::single::domain::find_domain(model, &mut model.evaluator())?;
-    let iv = domain.interval;
+fn check_start(model: &Model, phi: f64, domain: DomainOf<'_>) -> Result<(), AnalysisError> {
+    let iv = domain()?;
     if iv.contains(phi) {
         return Ok(());
     }
@@ -203,15 +207,32 @@ fn check_start(model: &Model, phi: f64) -> Result<(), AnalysisError> {
 /// e-folds before its end. `phi_at(N)` gives the slow-roll field value N e-folds before the
 /// slow-roll end; where slow roll overestimates the e-folds (an ultra-slow-roll stretch is
 /// crossed faster than slow roll says), the start moves up by the shortfall and tries again.
+///
+/// A start given in `settings` is checked against the domain that
+/// [`crate::analysis::single::domain::find_domain`] finds; [`start_with_room_in`] takes a
+/// domain already known.
 pub fn start_with_room(
     model: &Model,
     n_needed: f64,
     settings: &Settings,
     phi_at: &mut dyn FnMut(f64) -> Result<f64, AnalysisError>,
 ) -> Result<(f64, Run), AnalysisError> {
+    let domain = || crate::analysis::single::domain::find_domain(model, &mut model.evaluator()).map(|d| d.interval);
+    start_with_room_in(model, &domain, n_needed, settings, phi_at)
+}
+
+/// [`start_with_room`] with the model's domain given: `domain()` returns its interval, and is
+/// called only to check a start given in `settings`.
+pub fn start_with_room_in(
+    model: &Model,
+    domain: DomainOf<'_>,
+    n_needed: f64,
+    settings: &Settings,
+    phi_at: &mut dyn FnMut(f64) -> Result<f64, AnalysisError>,
+) -> Result<(f64, Run), AnalysisError> {
     let bg = Background::new(model);
     if let Some((phi, velocity)) = settings.start {
-        check_start(model, phi)?;
+        check_start(model, phi, domain)?;
         let pi = match velocity {
             Some(dphi) => {
                 let mut ev = model.evaluator();

@@ -132,6 +132,21 @@ pub enum ErrorKind {
         /// The pole at its bottom.
         pole: f64,
     },
+    /// The model's `start` side of the minimum of V holds no branch (the minimum is at that
+    /// end of a given range).
+    NoBranchOnStartSide {
+        /// The field's name.
+        field: String,
+        /// The start is above the minimum (else below).
+        above: bool,
+        /// The minimum of V, if there is one.
+        minimum: Option<f64>,
+    },
+    /// A prepared analysis whose last rebinding failed: the build's message.
+    Rebound {
+        /// What the model's build said.
+        message: String,
+    },
     /// V falls through zero after an inflating stretch before eps_V reaches 1.
     NegativeBeforeEnd {
         /// The field's name.
@@ -417,6 +432,13 @@ impl ErrorKind {
     /// How to fix it, or what it means: one line each.
     pub fn hints(&self) -> Vec<String> {
         use ErrorKind::*;
+        if let NoBranchOnStartSide { above, .. } = self {
+            let other = if *above { "below" } else { "above" };
+            return vec![
+                format!("set `start = \"{other}\"` in the model's [settings], or choose a branch with --branch"),
+                "or widen the range past the minimum (`efold inspect` shows the domain and the minimum)".to_string(),
+            ];
+        }
         let hints: &[&str] = match self {
             Numerical(_) => &["tighten the range with --range, or report the model"],
             NoDomain => &[
@@ -432,6 +454,7 @@ impl ErrorKind {
                 "narrow it with --range LO HI, or leave it out to let efold find the domain",
             ],
             NoBranch => &["check the potential"],
+            NoBranchOnStartSide { .. } | Rebound { .. } => &[],
             NoSuchBranch { .. } => &["run without --branch to see them listed"],
             RollsIntoPole { .. } => &[
                 "V decreases toward the pole, so the field runs into it instead of reaching a minimum",
@@ -516,7 +539,9 @@ impl fmt::Display for ErrorKind {
             | BadInRange { .. }
             | NoBranch
             | NoSuchBranch { .. }
-            | RollsIntoPole { .. } => self.fmt_domain(f),
+            | RollsIntoPole { .. }
+            | NoBranchOnStartSide { .. }
+            | Rebound { .. } => self.fmt_domain(f),
             NegativeBeforeEnd { .. } | NegativeAtTop { .. } | NoSlowRoll { .. } | NeverEnds { .. } => self.fmt_end(f),
             RoundingNearTop { .. }
             | EfoldIntegral { .. }
@@ -588,6 +613,15 @@ impl ErrorKind {
                 number(*top),
                 number(*pole)
             ),
+            NoBranchOnStartSide { field, above, minimum } => {
+                let word = if *above { "above" } else { "below" };
+                write!(
+                    f,
+                    "the model starts the field {word} the minimum of V ({field} = {}), and no branch lies {word} it",
+                    number(minimum.unwrap_or(f64::NAN))
+                )
+            }
+            Rebound { message } => f.write_str(message),
             _ => unreachable!("{self:?} is not formatted here"),
         }
     }

@@ -10,7 +10,8 @@ use crate::analysis::error::AnalysisError;
 use crate::analysis::error::{ErrorKind, Miss};
 use crate::config::Config;
 use crate::data::DataSet;
-use crate::drivers::predict::{predict, Options, Prediction};
+use crate::drivers::predict::{Options, Prediction};
+use crate::drivers::prepared::Prepared;
 use crate::model::{Model, ModelSpec};
 use crate::report::numfmt;
 use indexmap::IndexMap;
@@ -211,13 +212,25 @@ impl std::fmt::Display for ProblemError {
     }
 }
 
+/// The fit's model and targets. Every trial point and every finite-difference step rebinds the
+/// one compiled model ([`Prepared::rebind`]): the values, predictions and error messages of a
+/// model built afresh with `ModelSpec::set_param(name, "{value:e}")`, without parsing or
+/// compiling V and K again.
 struct Problem<'a> {
-    spec: &'a ModelSpec,
+    prep: Prepared<'static>,
     free: &'a [String],
     log: Vec<bool>,
     targets: &'a [Target],
     opts: Options,
     config: &'a Config,
+}
+
+/// Where the solver stands: the fitted variables, their scaled residuals and prediction.
+struct Solution {
+    theta: DVector<f64>,
+    r: DVector<f64>,
+    pred: Prediction,
+    iterations: usize,
 }
 
 impl Problem<'_> {
@@ -229,18 +242,21 @@ impl Problem<'_> {
             .collect()
     }
 
-    fn predict(&self, theta: &DVector<f64>) -> Result<Prediction, ProblemError> {
-        let mut spec = self.spec.clone();
-        for (name, v) in self.free.iter().zip(self.params(theta)) {
-            spec.set_param(name, &format!("{v:e}"));
-        }
+    fn predict(&mut self, theta: &DVector<f64>) -> Result<Prediction, ProblemError> {
         use crate::drivers::scan::PointError;
-        let model = Model::build(&spec, self.config).map_err(|e| ProblemError::Point(PointError::from(e)))?;
-        let rep = predict(&model, &self.opts, self.config).map_err(|e| ProblemError::Point(PointError::from(e)))?;
-        Ok(rep.predictions[0].clone())
+        let values = self.params(theta);
+        let pairs: Vec<(&str, f64)> = self.free.iter().map(String::as_str).zip(values).collect();
+        self.prep
+            .rebind(&pairs, self.config)
+            .map_err(|e| ProblemError::Point(PointError::from(e)))?;
+        let mut rep = self
+            .prep
+            .predict(&self.opts, self.config)
+            .map_err(|e| ProblemError::Point(PointError::from(e)))?;
+        Ok(rep.predictions.swap_remove(0))
     }
 
-    fn residuals(&self, theta: &DVector<f64>) -> Result<(DVector<f64>, Prediction), ProblemError> {
+    fn residuals(&mut self, theta: &DVector<f64>) -> Result<(DVector<f64>, Prediction), ProblemError> {
         let p = self.predict(theta)?;
         let r = DVector::from_iterator(
             self.targets.len(),
@@ -255,7 +271,7 @@ impl Problem<'_> {
     }
 
     /// Central differences, step 1e-6 in each fitted variable (relative for linear ones).
-    fn jacobian(&self, theta: &DVector<f64>) -> Result<DMatrix<f64>, ProblemError> {
+    fn jacobian(&mut self, theta: &DVector<f64>) -> Result<DMatrix<f64>, ProblemError> {
         let (m, n) = (self.targets.len(), theta.len());
         let mut j = DMatrix::zeros(m, n);
         for c in 0..n {
@@ -276,6 +292,93 @@ impl Problem<'_> {
         }
         Ok(j)
     }
+
+    /// One Levenberg–Marquardt step from `s` with the Jacobian `j`: up to 30 tries of the
+    /// damped normal equations, `lambda` raised fourfold after each try that does not lower
+    /// the cost and lowered threefold after one that does (which moves `s`). False when no try
+    /// lowered the cost.
+    fn damped_step(&mut self, s: &mut Solution, j: &DMatrix<f64>, lambda: &mut f64) -> bool {
+        let cost = |r: &DVector<f64>| r.norm_squared();
+        let jt = j.transpose();
+        let jtj = &jt * j;
+        let g = &jt * &s.r;
+        for _ in 0..30 {
+            let mut a = jtj.clone();
+            for d in 0..a.nrows() {
+                a[(d, d)] += *lambda * jtj[(d, d)].max(1e-12);
+            }
+            let Some(mut step) = a.lu().solve(&(-&g)) else {
+                *lambda *= 4.0;
+                continue;
+            };
+            // A trust region: no variable moves by more than 1 per step (a factor e for the
+            // logarithmic ones), so a far start walks rather than leaps past the solution.
+            let biggest = step.amax();
+            if biggest > 1.0 {
+                step /= biggest;
+            }
+            let trial = &s.theta + &step;
+            match self.residuals(&trial) {
+                Ok((rt, pt)) if cost(&rt) < cost(&s.r) => {
+                    s.theta = trial;
+                    s.r = rt;
+                    s.pred = pt;
+                    *lambda = (*lambda / 3.0).max(1e-12);
+                    return true;
+                }
+                _ => *lambda *= 4.0,
+            }
+        }
+        false
+    }
+
+    /// Iterates from `s` until every scaled residual is below `settings.tol`, the iteration
+    /// cap is reached or no step lowers the cost.
+    fn solve(&mut self, mut s: Solution, settings: &FitSettings) -> Result<Solution, AnalysisError> {
+        let mut lambda = 1e-3;
+        while s.r.amax() > settings.tol && s.iterations < settings.max_iter {
+            s.iterations += 1;
+            let j = self
+                .jacobian(&s.theta)
+                .map_err(|e| AnalysisError::from(ErrorKind::FitJacobian { cause: e.to_string() }))?;
+            if !self.damped_step(&mut s, &j, &mut lambda) {
+                break;
+            }
+        }
+        Ok(s)
+    }
+}
+
+/// The model's values of the free parameters, in order.
+fn start_values(model: &Model, free: &[String]) -> Result<Vec<f64>, AnalysisError> {
+    free.iter()
+        .map(|name| {
+            model
+                .param_pairs()
+                .find(|(n, _)| n == name)
+                .map(|(_, v)| v)
+                .ok_or_else(|| AnalysisError::from(ErrorKind::FitUnknownFree { name: name.clone() }))
+        })
+        .collect()
+}
+
+/// The error of a fit that stopped short of the targets: where it stopped and what it reached.
+fn no_solution(targets: &[Target], s: &Solution, at: &IndexMap<String, f64>) -> AnalysisError {
+    let misses = targets
+        .iter()
+        .zip(s.r.iter())
+        .map(|(t, x)| Miss {
+            observable: t.observable.name(),
+            reached: t.observable.value(&s.pred),
+            wanted: t.value,
+            residual: *x,
+        })
+        .collect();
+    ErrorKind::FitNoSolution {
+        at: at.clone().into_iter().collect(),
+        misses,
+    }
+    .into()
 }
 
 /// Solves for the free parameters that reproduce the targets at N_* = `n_star`, starting from
@@ -304,18 +407,10 @@ pub fn fit(
             message: e.diagnostic.message.clone(),
         })
     })?;
-    let mut start = Vec::new();
-    for name in free {
-        let v = start_model
-            .param_pairs()
-            .find(|(n, _)| n == name)
-            .map(|(_, v)| v)
-            .ok_or_else(|| AnalysisError::from(ErrorKind::FitUnknownFree { name: name.clone() }))?;
-        start.push(v);
-    }
+    let start = start_values(&start_model, free)?;
     let log: Vec<bool> = start.iter().map(|v| *v > 0.0).collect();
-    let problem = Problem {
-        spec,
+    let mut problem = Problem {
+        prep: Prepared::owned(start_model),
         free,
         log: log.clone(),
         targets,
@@ -326,100 +421,46 @@ pub fn fit(
         },
         config,
     };
-    let mut theta = DVector::from_iterator(
+    let theta = DVector::from_iterator(
         start.len(),
         start.iter().zip(&log).map(|(v, l)| if *l { v.ln() } else { *v }),
     );
-    let (mut r, mut pred) = problem
+    let (r, pred) = problem
         .residuals(&theta)
         .map_err(|e| AnalysisError::from(ErrorKind::FitStart { cause: e.to_string() }))?;
-    let mut lambda = 1e-3;
-    let mut iterations = 0;
-    let cost = |r: &DVector<f64>| r.norm_squared();
-    while r.amax() > settings.tol && iterations < settings.max_iter {
-        iterations += 1;
-        let j = problem
-            .jacobian(&theta)
-            .map_err(|e| AnalysisError::from(ErrorKind::FitJacobian { cause: e.to_string() }))?;
-        let jt = j.transpose();
-        let jtj = &jt * &j;
-        let g = &jt * &r;
-        let mut improved = false;
-        for _ in 0..30 {
-            let mut a = jtj.clone();
-            for d in 0..a.nrows() {
-                a[(d, d)] += lambda * jtj[(d, d)].max(1e-12);
-            }
-            let Some(mut step) = a.lu().solve(&(-&g)) else {
-                lambda *= 4.0;
-                continue;
-            };
-            // A trust region: no variable moves by more than 1 per step (a factor e for the
-            // logarithmic ones), so a far start walks rather than leaps past the solution.
-            let biggest = step.amax();
-            if biggest > 1.0 {
-                step /= biggest;
-            }
-            let trial = &theta + &step;
-            match problem.residuals(&trial) {
-                Ok((rt, pt)) if cost(&rt) < cost(&r) => {
-                    theta = trial;
-                    r = rt;
-                    pred = pt;
-                    lambda = (lambda / 3.0).max(1e-12);
-                    improved = true;
-                    break;
-                }
-                _ => lambda *= 4.0,
-            }
-        }
-        if !improved {
-            break;
-        }
-    }
-    let values = problem.params(&theta);
-    let named = |v: &[f64]| -> IndexMap<String, f64> { free.iter().cloned().zip(v.iter().copied()).collect() };
-    if r.amax() > settings.tol.max(1e-8) {
-        let misses = targets
-            .iter()
-            .zip(r.iter())
-            .map(|(t, x)| Miss {
-                observable: t.observable.name(),
-                reached: t.observable.value(&pred),
-                wanted: t.value,
-                residual: *x,
-            })
-            .collect();
-        return Err(ErrorKind::FitNoSolution {
-            at: named(&values).into_iter().collect(),
-            misses,
-        }
-        .into());
+    let first = Solution {
+        theta,
+        r,
+        pred,
+        iterations: 0,
+    };
+    let s = problem.solve(first, settings)?;
+    let values = problem.params(&s.theta);
+    let parameters: IndexMap<String, f64> = free.iter().cloned().zip(values.iter().copied()).collect();
+    if s.r.amax() > settings.tol.max(1e-8) {
+        return Err(no_solution(targets, &s, &parameters));
     }
     let j = problem
-        .jacobian(&theta)
+        .jacobian(&s.theta)
         .map_err(|e| AnalysisError::from(ErrorKind::FitJacobianAtSolution { cause: e.to_string() }))?;
     let sv = j.svd(false, false).singular_values;
     let (smax, smin) = (sv.max(), sv.min());
+    let by_target = |g: &dyn Fn(usize, &Target) -> f64| -> IndexMap<String, f64> {
+        targets
+            .iter()
+            .enumerate()
+            .map(|(i, t)| (t.observable.name().to_string(), g(i, t)))
+            .collect()
+    };
     Ok(FitResult {
-        parameters: named(&values),
-        residuals: targets
-            .iter()
-            .map(|t| t.observable.name().to_string())
-            .zip(r.iter().copied())
-            .collect(),
-        achieved: targets
-            .iter()
-            .map(|t| (t.observable.name().to_string(), t.observable.value(&pred)))
-            .collect(),
-        targets: targets
-            .iter()
-            .map(|t| (t.observable.name().to_string(), t.value))
-            .collect(),
+        parameters,
+        residuals: by_target(&|i, _| s.r[i]),
+        achieved: by_target(&|_, t| t.observable.value(&s.pred)),
+        targets: by_target(&|_, t| t.value),
         n_star,
-        iterations,
+        iterations: s.iterations,
         condition_number: if smin > 0.0 { smax / smin } else { f64::INFINITY },
-        prediction: pred,
+        prediction: s.pred,
     })
 }
 
@@ -515,5 +556,84 @@ mod tests {
                 value: -0.001
             })
         );
+    }
+
+    use crate::model::Text;
+
+    fn problem<'a>(spec: &ModelSpec, free: &'a [String], targets: &'a [Target], config: &'a Config) -> Problem<'a> {
+        let model = Model::build(spec, config).unwrap();
+        let log = start_values(&model, free).unwrap().iter().map(|v| *v > 0.0).collect();
+        Problem {
+            prep: Prepared::owned(model),
+            free,
+            log,
+            targets,
+            opts: Options {
+                n_stars: vec![55.0],
+                ..Default::default()
+            },
+            config,
+        }
+    }
+
+    /// What the model built afresh with the parameter set as text says at these values.
+    fn fresh(spec: &ModelSpec, name: &str, v: f64, config: &Config) -> Result<Prediction, String> {
+        let mut spec = spec.clone();
+        spec.set_param(name, &format!("{v:e}"));
+        let model = Model::build(&spec, config).map_err(|e| e.diagnostic.message.clone())?;
+        let rep = crate::drivers::predict::predict(
+            &model,
+            &Options {
+                n_stars: vec![55.0],
+                ..Default::default()
+            },
+            config,
+        );
+        rep.map(|mut r| r.predictions.swap_remove(0)).map_err(|e| e.message)
+    }
+
+    #[test]
+    fn each_trial_point_predicts_what_a_fresh_build_predicts() {
+        let config = Config::default();
+        let mut spec = ModelSpec::inline("phi^2/(6*alpha)", Some("1/(1 - phi^2/(6*alpha))^2"));
+        spec.set_param("alpha", "1");
+        let (free, targets) = (
+            ["alpha".to_string()],
+            [Target {
+                observable: Observable::R,
+                value: 0.01,
+            }],
+        );
+        let mut p = problem(&spec, &free, &targets, &config);
+        assert_eq!(p.log, [true]);
+        // in the logarithm, as the solver steps: the value is exp(theta), not a round number
+        for theta in [0.3f64.ln(), 2.5f64.ln(), 2.5f64.ln() + 1e-6, 0.0] {
+            let got = p.predict(&DVector::from_element(1, theta)).unwrap();
+            let want = fresh(&spec, "alpha", theta.exp(), &config).unwrap();
+            let bits = |q: &Prediction| q.numbers().iter().map(|(_, x)| x.to_bits()).collect::<Vec<_>>();
+            assert_eq!(bits(&got), bits(&want), "theta = {theta}");
+        }
+    }
+
+    #[test]
+    fn a_trial_point_that_does_not_build_fails_with_the_builds_message() {
+        let config = Config::default();
+        // c starts negative, so it is fitted linearly; at c = 2 the range [c, 1] is empty
+        let mut spec = ModelSpec::inline("phi^2", None);
+        spec.set_param("c", "-1");
+        spec.range = Some((Text::inline("lo", "c"), Text::inline("hi", "1")));
+        let (free, targets) = (
+            ["c".to_string()],
+            [Target {
+                observable: Observable::NS,
+                value: 0.96,
+            }],
+        );
+        let mut p = problem(&spec, &free, &targets, &config);
+        assert_eq!(p.log, [false]);
+        let got = p.predict(&DVector::from_element(1, 2.0)).unwrap_err().to_string();
+        let want = fresh(&spec, "c", 2.0, &config).unwrap_err();
+        assert_eq!(got, want);
+        assert!(got.contains("the range is empty"), "{got}");
     }
 }

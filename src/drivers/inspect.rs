@@ -5,11 +5,10 @@
 use crate::analysis::error::AnalysisError;
 use crate::analysis::single::asymptote::{asymptote, Asymptote};
 use crate::analysis::single::canonical::CanonicalMap;
-use crate::analysis::single::domain::{
-    find_domain, minimum_of_v, negative_regions, positive_minimum, ser_f64, Domain, EndKind,
-};
+use crate::analysis::single::domain::{positive_minimum, ser_f64, Domain, EndKind};
 use crate::analysis::single::pole::{analyse_pole, Pole};
 use crate::config::Config;
+use crate::drivers::prepared::Prepared;
 use crate::model::Model;
 use crate::report::numfmt;
 use crate::report::plot::{self, Marker, Panel, Series, VLine};
@@ -118,14 +117,27 @@ pub struct Inspection {
     pub warnings: Vec<String>,
 }
 
-/// Runs the canonical analysis. `table` asks for that many rows of (phi, chi, V).
+/// Runs the canonical analysis: prepares the model's analysis ([`Prepared`]) and inspects it.
+/// `table` asks for that many rows of (phi, chi, V).
 pub fn inspect(model: &Model, config: &Config, table: Option<usize>) -> Result<Inspection, AnalysisError> {
+    Prepared::new(model).inspect(config, table)
+}
+
+/// The canonical analysis of a prepared model, whose domain, negative regions and minimum of V
+/// are surveyed once ([`Prepared::inspect`] calls it). `table` asks for that many rows of
+/// (phi, chi, V).
+pub fn inspect_prepared(
+    prep: &Prepared<'_>,
+    config: &Config,
+    table: Option<usize>,
+) -> Result<Inspection, AnalysisError> {
+    let model = prep.model();
+    let mut domain = prep.domain()?.clone();
+    domain.negative_v = prep.negative_regions()?.to_vec();
     let mut ev = model.evaluator();
-    let mut domain = find_domain(model, &mut ev)?;
-    domain.negative_v = negative_regions(&mut ev, &domain.interval);
     let iv = domain.interval;
     let field = model.field();
-    let min_phi = minimum_of_v(&mut ev, &iv);
+    let min_phi = prep.minimum_of_v()?;
     let chi_origin = min_phi.unwrap_or_else(|| default_origin(&iv));
     let minimum = min_phi.map(|phi| Minimum { phi, v: ev.eval(phi) });
     let mut poles = Vec::new();

@@ -5,5 +5,6 @@ pub mod fit;
 pub mod golden;
 pub mod inspect;
 pub mod predict;
+pub mod prepared;
 pub mod scan;
 pub mod spectrum;

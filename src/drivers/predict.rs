@@ -2,17 +2,18 @@
 //! amplitude fixed by A_s, scales in GeV, the field excursion, the pivot from a reheating
 //! history, and the verdict against a data set. Reduced Planck units unless a key says GeV.
 
-use crate::analysis::error::AnalysisError;
 use crate::analysis::error::ErrorKind;
+use crate::analysis::error::AnalysisError;
 use crate::analysis::reheating::{Matching, Reheating};
-use crate::analysis::single::branches::{branches, Branch};
+use crate::analysis::single::branches::Branch;
 use crate::analysis::single::canonical::CanonicalMap;
-use crate::analysis::single::domain::{find_domain, minimum_of_v, EndKind, Interval};
+use crate::analysis::single::domain::{EndKind, Interval};
 use crate::analysis::single::pole::analyse_pole;
 use crate::analysis::slowroll::{end_of_inflation, phi_stars, Observables, SlowRoll};
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::inspect::ModelSummary;
+use crate::drivers::prepared::Prepared;
 use crate::language::tape::Evaluator;
 use crate::model::{Model, Side};
 use crate::report::numfmt;
@@ -262,105 +263,40 @@ pub struct DataSummary {
     pub source: String,
 }
 
-/// Runs the predictions.
+/// Runs the predictions: prepares the model's analysis ([`Prepared`]) and predicts from it.
+/// To predict several times for one model, or for many parameter values, keep a
+/// [`Prepared`] instead (and [`Prepared::rebind`] it).
 pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report, AnalysisError> {
+    Prepared::new(model).predict(opts, config)
+}
+
+/// The predictions from a prepared analysis, whose domain and branches are surveyed once
+/// ([`Prepared::predict`] calls it). The branches are tried in order (the one chosen, or those
+/// on the model's side of the minimum of V, from the last); the first that gives the requested
+/// e-folds is used.
+pub fn predict_prepared(prep: &Prepared<'_>, opts: &Options, config: &Config) -> Result<Report, AnalysisError> {
+    let model = prep.model();
     let field = model.field().to_string();
-    let mut ev = model.evaluator();
-    let domain = find_domain(model, &mut ev)?;
-    let iv = domain.interval;
-    let all = branches(&mut ev, &iv);
+    let iv = prep.interval()?;
+    let all = prep.branches()?;
     if all.is_empty() {
         return Err(ErrorKind::NoBranch.into());
     }
-    let n_wanted: Vec<f64> = if opts.reheating.is_some() {
-        vec![55.0]
-    } else {
-        opts.n_stars.clone()
+    let n_wanted = wanted_efolds(opts)?;
+    let order = branch_order(prep, all, opts)?;
+    let job = Job {
+        model,
+        iv,
+        n_wanted: &n_wanted,
+        opts,
+        config,
+        field: &field,
     };
-    if n_wanted.is_empty() {
-        return Err(ErrorKind::NoEfolds.into());
-    }
-    if let Some(bad) = n_wanted.iter().find(|n| !(n.is_finite() && **n > 0.0)) {
-        return Err(ErrorKind::BadEfolds { n_star: *bad }.into());
-    }
-    // Which branches to try, in order.
-    let order: Vec<usize> = match (opts.branch, model.spec.start) {
-        (Some(k), _) => {
-            if k == 0 || k > all.len() {
-                return Err(ErrorKind::NoSuchBranch {
-                    asked: k,
-                    count: all.len(),
-                }
-                .into());
-            }
-            vec![k - 1]
-        }
-        (None, Some(side)) => {
-            let min = minimum_of_v(&mut ev, &iv);
-            let mut v: Vec<usize> = (0..all.len())
-                .filter(|&i| match (min, side) {
-                    (Some(m), Side::Above) => all[i].top > m,
-                    (Some(m), Side::Below) => all[i].top < m,
-                    (None, _) => true,
-                })
-                .collect();
-            v.reverse();
-            v
-        }
-        (None, None) => (0..all.len()).rev().collect(),
-    };
+    let mut ev = model.evaluator();
     let mut first_err: Option<AnalysisError> = None;
     for &i in &order {
-        let b = all[i];
-        match run_branch(model, &mut ev, &b, &iv, &n_wanted, opts, config, &field) {
-            Ok((predictions, warnings, n_from)) => {
-                check_finite(&predictions, &field)?;
-                let info = |j: usize| BranchInfo {
-                    index: j + 1,
-                    count: all.len(),
-                    branch: all[j],
-                };
-                let mut warnings = warnings;
-                // Where the field settles: the bottom of its branch (a minimum of V, or an end of
-                // a given range).
-                let bottom = all[i].bottom;
-                if bottom.is_finite() {
-                    if let Some(v) = crate::analysis::single::domain::positive_minimum(&mut ev, &iv, bottom) {
-                        warnings.push(crate::drivers::inspect::positive_minimum_warning(
-                            &field, bottom, v, &iv,
-                        ));
-                    }
-                    let v = ev.eval(bottom);
-                    if v < 0.0 && v.is_finite() {
-                        warnings.push(format!(
-                            "V = {} < 0 where the field settles ({field} = {}): a vacuum of negative energy, which collapses rather than reheats",
-                            crate::report::numfmt::number(v),
-                            fmt(bottom)
-                        ));
-                    }
-                }
-                if order.len() > 1 && i != order[0] {
-                    warnings.push(format!(
-                        "branch {} was the first choice but does not give the requested e-folds; branch {} was used",
-                        order[0] + 1,
-                        i + 1
-                    ));
-                }
-                return Ok(Report {
-                    model: ModelSummary::of(model),
-                    method: if opts.exact.is_some() { "exact" } else { "slow-roll" },
-                    order: if opts.second_order { 2 } else { 1 },
-                    branch: info(i),
-                    other_branches: (0..all.len()).filter(|&j| j != i).map(info).collect(),
-                    data: DataSummary {
-                        name: opts.data.name.clone(),
-                        source: opts.data.source.clone(),
-                    },
-                    n_star_from: n_from,
-                    predictions,
-                    warnings,
-                });
-            }
+        match job.run_branch(&mut ev, &all[i]) {
+            Ok(found) => return job.report(&mut ev, all, &order, i, found),
             Err(e) => {
                 if first_err.is_none() {
                     first_err = Some(e);
@@ -380,93 +316,291 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
     Err(e)
 }
 
+/// The N_* values to predict at (55 as the reheating matching's first guess), each checked.
+fn wanted_efolds(opts: &Options) -> Result<Vec<f64>, AnalysisError> {
+    let n_wanted: Vec<f64> = if opts.reheating.is_some() {
+        vec![55.0]
+    } else {
+        opts.n_stars.clone()
+    };
+    if n_wanted.is_empty() {
+        return Err(ErrorKind::NoEfolds.into());
+    }
+    if let Some(bad) = n_wanted.iter().find(|n| !(n.is_finite() && **n > 0.0)) {
+        return Err(ErrorKind::BadEfolds { n_star: *bad }.into());
+    }
+    Ok(n_wanted)
+}
+
+/// Which branches to try, in order (indices into `all`).
+fn branch_order(prep: &Prepared<'_>, all: &[Branch], opts: &Options) -> Result<Vec<usize>, AnalysisError> {
+    Ok(match (opts.branch, prep.model().spec.start) {
+        (Some(k), _) => {
+            if k == 0 || k > all.len() {
+                return Err(ErrorKind::NoSuchBranch {
+                    asked: k,
+                    count: all.len(),
+                }
+                .into());
+            }
+            vec![k - 1]
+        }
+        (None, Some(side)) => {
+            let min = prep.minimum_of_v()?;
+            let mut v: Vec<usize> = (0..all.len())
+                .filter(|&i| match (min, side) {
+                    (Some(m), Side::Above) => all[i].top > m,
+                    (Some(m), Side::Below) => all[i].top < m,
+                    (None, _) => true,
+                })
+                .collect();
+            if v.is_empty() {
+                return Err(no_branch_on_side(prep, side, min));
+            }
+            v.reverse();
+            v
+        }
+        (None, None) => (0..all.len()).rev().collect(),
+    })
+}
+
+/// The error when the model's `start` side of the minimum of V holds no branch (the minimum
+/// is at that end of a given range).
+fn no_branch_on_side(prep: &Prepared<'_>, side: Side, min: Option<f64>) -> AnalysisError {
+    let field = prep.model().field();
+    ErrorKind::NoBranchOnStartSide {
+        field: field.to_string(),
+        above: matches!(side, Side::Above),
+        minimum: min,
+    }
+    .into()
+}
+
 type BranchResult = (Vec<Prediction>, Vec<String>, String);
 
-#[allow(clippy::too_many_arguments)]
-fn run_branch(
-    model: &Model,
-    ev: &mut Evaluator<'_>,
-    b: &Branch,
-    iv: &Interval,
-    n_wanted: &[f64],
-    opts: &Options,
-    config: &Config,
-    field: &str,
-) -> Result<BranchResult, AnalysisError> {
-    // A branch that rolls into a pole of K: V levels off there, and the field never gets out.
-    let bottom_kind = if b.bottom == iv.lo {
-        Some(iv.lo_kind)
-    } else if b.bottom == iv.hi {
-        Some(iv.hi_kind)
+/// What every branch of one prediction shares.
+struct Job<'a> {
+    model: &'a Model,
+    iv: Interval,
+    n_wanted: &'a [f64],
+    opts: &'a Options,
+    config: &'a Config,
+    field: &'a str,
+}
+
+/// Where one prediction is made: N_*, the field there, and the canonical excursion to the end.
+#[derive(Clone, Copy)]
+struct Pivot {
+    n_star: f64,
+    phi_star: f64,
+    delta_chi: f64,
+}
+
+/// The data's verdict on (n_s pull, r).
+fn verdict(data: &DataSet, pull: f64, r: f64) -> &'static str {
+    if pull.abs() > data.verdict.excluded_sigma || r > data.r.upper {
+        "excluded"
+    } else if pull.abs() > data.verdict.tension_sigma {
+        "tension"
     } else {
-        None
-    };
-    if bottom_kind == Some(EndKind::Pole) {
-        return Err(ErrorKind::RollsIntoPole {
-            field: field.to_string(),
-            top: b.top,
-            pole: b.bottom,
-        }
-        .into());
+        "consistent"
     }
-    let phi_end = end_of_inflation(ev, b, field)?;
-    let top_kind = if b.top == iv.lo {
-        Some(iv.lo_kind)
-    } else if b.top == iv.hi {
-        Some(iv.hi_kind)
-    } else {
-        None
-    };
-    let mut warnings = Vec::new();
-    let pole = if top_kind == Some(EndKind::Pole) {
+}
+
+impl Job<'_> {
+    /// The report of branch `i` of `all`, whose predictions are `found`: the final check that
+    /// every number is finite, and the warnings about where the field settles.
+    fn report(
+        &self,
+        ev: &mut Evaluator<'_>,
+        all: &[Branch],
+        order: &[usize],
+        i: usize,
+        found: BranchResult,
+    ) -> Result<Report, AnalysisError> {
+        let (predictions, mut warnings, n_from) = found;
+        let (field, iv, opts) = (self.field, &self.iv, self.opts);
+        check_finite(&predictions, field)?;
+        let info = |j: usize| BranchInfo {
+            index: j + 1,
+            count: all.len(),
+            branch: all[j],
+        };
+        // Where the field settles: the bottom of its branch (a minimum of V, or an end of a
+        // given range).
+        let bottom = all[i].bottom;
+        if bottom.is_finite() {
+            if let Some(v) = crate::analysis::single::domain::positive_minimum(ev, iv, bottom) {
+                warnings.push(crate::drivers::inspect::positive_minimum_warning(field, bottom, v, iv));
+            }
+            let v = ev.eval(bottom);
+            if v < 0.0 && v.is_finite() {
+                warnings.push(format!(
+                    "V = {} < 0 where the field settles ({field} = {}): a vacuum of negative energy, which collapses rather than reheats",
+                    crate::report::numfmt::number(v),
+                    fmt(bottom)
+                ));
+            }
+        }
+        if order.len() > 1 && i != order[0] {
+            warnings.push(format!(
+                "branch {} was the first choice but does not give the requested e-folds; branch {} was used",
+                order[0] + 1,
+                i + 1
+            ));
+        }
+        Ok(Report {
+            model: ModelSummary::of(self.model),
+            method: if opts.exact.is_some() { "exact" } else { "slow-roll" },
+            order: if opts.second_order { 2 } else { 1 },
+            branch: info(i),
+            other_branches: (0..all.len()).filter(|&j| j != i).map(info).collect(),
+            data: DataSummary {
+                name: opts.data.name.clone(),
+                source: opts.data.source.clone(),
+            },
+            n_star_from: n_from,
+            predictions,
+            warnings,
+        })
+    }
+
+    /// The kind of the domain's end at `x`, if `x` is one.
+    fn end_kind(&self, x: f64) -> Option<EndKind> {
+        if x == self.iv.lo {
+            Some(self.iv.lo_kind)
+        } else if x == self.iv.hi {
+            Some(self.iv.hi_kind)
+        } else {
+            None
+        }
+    }
+
+    /// The predictions on one branch, with their warnings and how N_* was fixed.
+    fn run_branch(&self, ev: &mut Evaluator<'_>, b: &Branch) -> Result<BranchResult, AnalysisError> {
+        let (field, opts, config) = (self.field, self.opts, self.config);
+        // A branch that rolls into a pole of K: V levels off there, and the field never gets out.
+        if self.end_kind(b.bottom) == Some(EndKind::Pole) {
+            return Err(ErrorKind::RollsIntoPole {
+                field: field.to_string(),
+                top: b.top,
+                pole: b.bottom,
+            }
+            .into());
+        }
+        let phi_end = end_of_inflation(ev, b, field)?;
+        let mut warnings = Vec::new();
+        let pole = self.pole_alone(ev, b, &mut warnings);
+        let (n_stars, matching, n_from) = match &opts.reheating {
+            None => (self.n_wanted.to_vec(), None, "given".to_string()),
+            Some(reh) => {
+                let (n, m) = self.solve_matching(ev, b, phi_end, reh)?;
+                (vec![n], Some(m), format!("reheating: {}", reh.describe()))
+            }
+        };
+        let (stars, n_error) =
+            crate::analysis::slowroll::phi_stars_with_accuracy(ev, b, phi_end, &n_stars, config, field)?;
+        if n_error > 0.0 {
+            let nearest = stars.iter().map(|x| (x - b.top).abs()).fold(f64::INFINITY, f64::min);
+            warnings.push(format!(
+                "rounding in V K / V' limits the e-fold integral to a relative accuracy of {n_error:.1e} (the pivot lies {nearest:.1e} from {field} = {}, where the integrand loses digits); phi_* and the observables are good to about that",
+                fmt(b.top)
+            ));
+        }
+        let excursion = self.excursions(phi_end, &stars)?;
+        let v_end_user = ev.eval(phi_end);
+        let mut out = Vec::new();
+        for (idx, (&n_star, &phi_star)) in n_stars.iter().zip(&stars).enumerate() {
+            let at = Pivot {
+                n_star,
+                phi_star,
+                delta_chi: excursion[idx],
+            };
+            let mut p = self.slow_roll_prediction(ev, at, phi_end, v_end_user);
+            // slow roll along the way
+            let violated = (1..8).any(|k| {
+                let x = phi_end + (phi_star - phi_end) * k as f64 / 8.0;
+                crate::analysis::slowroll::eps_first_order(ev, x).1 >= 1.0
+            });
+            if violated {
+                warnings.push(format!(
+                    "N_* = {n_star}: eps_V exceeds 1 somewhere between phi_* and phi_end; slow roll is not reliable there"
+                ));
+            }
+            p.pole_only = pole.as_ref().map(|(order, residue, lo)| {
+                let (n_s, r) = lo.predict(n_star);
+                PoleOnly {
+                    order: *order,
+                    residue: *residue,
+                    n_s,
+                    r,
+                    flatness: lo.flatness,
+                }
+            });
+            p.reheating = matching;
+            out.push(p);
+        }
+        if let Some(settings) = &opts.exact {
+            self.refine_exact(ev, b, phi_end, &mut out, settings)?;
+        }
+        warnings.dedup();
+        Ok((out, warnings, n_from))
+    }
+
+    /// The leading order of a pole of K at the top of the branch alone: (order, residue, the
+    /// leading order), when there is a pole there and it has one (a warning says why not).
+    fn pole_alone(
+        &self,
+        ev: &mut Evaluator<'_>,
+        b: &Branch,
+        warnings: &mut Vec<String>,
+    ) -> Option<(f64, f64, crate::analysis::single::pole::PoleLeadingOrder)> {
+        if self.end_kind(b.top) != Some(EndKind::Pole) {
+            return None;
+        }
+        let iv = &self.iv;
         let inward = if b.top == iv.lo { 1.0 } else { -1.0 };
         let p = analyse_pole(ev, b.top, inward, iv.hi - iv.lo);
         if let Some(why) = p.as_ref().and_then(|p| p.no_leading_order) {
             warnings.push(format!(
-                "no pole-alone prediction from the pole of K at {field} = {} at the top of the branch: {}",
+                "no pole-alone prediction from the pole of K at {} = {} at the top of the branch: {}",
+                self.field,
                 fmt(b.top),
                 why.words()
             ));
         }
         p.and_then(|p| p.leading_order.map(|lo| (p.order, p.residue, lo)))
-    } else {
-        None
-    };
-    let (n_stars, matching, n_from) = match &opts.reheating {
-        None => (n_wanted.to_vec(), None, "given".to_string()),
-        Some(reh) => {
-            let (n, m) = solve_matching(ev, b, phi_end, reh, opts, config, field)?;
-            (vec![n], Some(m), format!("reheating: {}", reh.describe()))
+    }
+
+    /// Canonical excursions |chi_* - chi_end| for each field value of `stars`, integrated
+    /// piecewise in order of distance from the end.
+    fn excursions(&self, phi_end: f64, stars: &[f64]) -> Result<Vec<f64>, AnalysisError> {
+        let mut map = CanonicalMap::new(self.model, phi_end, self.config);
+        let mut order: Vec<usize> = (0..stars.len()).collect();
+        order.sort_by(|&i, &j| (stars[i] - phi_end).abs().total_cmp(&(stars[j] - phi_end).abs()));
+        let mut excursion = vec![0.0; stars.len()];
+        let (mut from, mut acc) = (phi_end, 0.0);
+        let limit = self.config.quad_rounding_limit.max(self.config.quad_accept);
+        for &i in &order {
+            let (d, _) = crate::analysis::slowroll::accept_within(map.between(from, stars[i]), limit)?;
+            acc += d.abs();
+            excursion[i] = acc;
+            from = stars[i];
         }
-    };
-    let (stars, n_error) = crate::analysis::slowroll::phi_stars_with_accuracy(ev, b, phi_end, &n_stars, config, field)?;
-    if n_error > 0.0 {
-        let nearest = stars.iter().map(|x| (x - b.top).abs()).fold(f64::INFINITY, f64::min);
-        warnings.push(format!(
-            "rounding in V K / V' limits the e-fold integral to a relative accuracy of {n_error:.1e} (the pivot lies {nearest:.1e} from {field} = {}, where the integrand loses digits); phi_* and the observables are good to about that",
-            fmt(b.top)
-        ));
+        Ok(excursion)
     }
-    let mut map = CanonicalMap::new(model, phi_end, config);
-    let data = &opts.data;
-    let mp = data.units.reduced_planck_mass_gev;
-    let v_end_user = ev.eval(phi_end);
-    // Canonical excursions, integrated piecewise in order of distance from the end.
-    let mut order: Vec<usize> = (0..stars.len()).collect();
-    order.sort_by(|&i, &j| (stars[i] - phi_end).abs().total_cmp(&(stars[j] - phi_end).abs()));
-    let mut excursion = vec![0.0; stars.len()];
-    let (mut from, mut acc) = (phi_end, 0.0);
-    let limit = config.quad_rounding_limit.max(config.quad_accept);
-    for &i in &order {
-        let (d, _) = crate::analysis::slowroll::accept_within(map.between(from, stars[i]), limit)?;
-        acc += d.abs();
-        excursion[i] = acc;
-        from = stars[i];
-    }
-    let mut out = Vec::new();
-    for (idx, (&n_star, &phi_star)) in n_stars.iter().zip(&stars).enumerate() {
+
+    /// The slow-roll prediction at one pivot (without the pole-alone and reheating parts).
+    fn slow_roll_prediction(&self, ev: &mut Evaluator<'_>, at: Pivot, phi_end: f64, v_end_user: f64) -> Prediction {
+        let data = &self.opts.data;
+        let mp = data.units.reduced_planck_mass_gev;
+        let Pivot {
+            n_star,
+            phi_star,
+            delta_chi,
+        } = at;
         let sr = SlowRoll::at(ev, phi_star);
-        let obs: Observables = if opts.second_order {
+        let obs: Observables = if self.opts.second_order {
             sr.second_order()
         } else {
             sr.first_order()
@@ -476,26 +610,8 @@ fn run_branch(
         let v_star = scale * sr.v;
         let h_star = (v_star / 3.0).sqrt();
         let v_end = scale * v_end_user;
-        let delta_chi = excursion[idx];
         let pull = (obs.n_s - data.n_s.mean) / data.n_s.sigma;
-        let verdict = if pull.abs() > data.verdict.excluded_sigma || obs.r > data.r.upper {
-            "excluded"
-        } else if pull.abs() > data.verdict.tension_sigma {
-            "tension"
-        } else {
-            "consistent"
-        };
-        // slow roll along the way
-        let violated = (1..8).any(|k| {
-            let x = phi_end + (phi_star - phi_end) * k as f64 / 8.0;
-            crate::analysis::slowroll::eps_first_order(ev, x).1 >= 1.0
-        });
-        if violated {
-            warnings.push(format!(
-                "N_* = {n_star}: eps_V exceeds 1 somewhere between phi_* and phi_end; slow roll is not reliable there"
-            ));
-        }
-        out.push(Prediction {
+        Prediction {
             n_star,
             phi_star,
             phi_end,
@@ -519,140 +635,120 @@ fn run_branch(
             v_end_quarter_gev: v_end.max(0.0).powf(0.25) * mp,
             n_s_pull: pull,
             r_limit: data.r.upper,
-            verdict,
-            pole_only: pole.as_ref().map(|(order, residue, lo)| {
-                let (n_s, r) = lo.predict(n_star);
-                PoleOnly {
-                    order: *order,
-                    residue: *residue,
-                    n_s,
-                    r,
-                    flatness: lo.flatness,
-                }
-            }),
-            reheating: matching,
+            verdict: verdict(data, pull, obs.r),
+            pole_only: None,
+            reheating: None,
             exact: None,
-        });
+        }
     }
-    if let Some(settings) = &opts.exact {
-        refine_exact(model, ev, b, phi_end, &mut out, opts, settings, config, field)?;
-    }
-    warnings.dedup();
-    Ok((out, warnings, n_from))
-}
 
-/// Replaces the slow-roll observables by those of the exact background and modes, keeping
-/// the slow-roll values in `exact` for comparison. N_* counts from the exact end (eps_H = 1).
-#[allow(clippy::too_many_arguments)]
-fn refine_exact(
-    model: &Model,
-    ev: &mut Evaluator<'_>,
-    b: &Branch,
-    phi_end: f64,
-    out: &mut [Prediction],
-    opts: &Options,
-    settings: &crate::analysis::background::Settings,
-    config: &Config,
-    field: &str,
-) -> Result<(), AnalysisError> {
-    let n_stars: Vec<f64> = out.iter().map(|p| p.n_star).collect();
-    let deepest = n_stars.iter().copied().fold(0.0f64, f64::max);
-    // Start early enough for the lowest k of the tilt stencil to begin k/aH = k_start inside,
-    // plus a few e-folds for the approach to the attractor.
-    let margin = settings.k_start.ln() + 2.0 * crate::analysis::perturbations::TILT_STEP + 4.0;
-    let mut phi_at = |n: f64| -> Result<f64, AnalysisError> {
-        phi_stars(ev, b, phi_end, &[n], config, field)
-            .map(|v| v[0])
-            .map_err(|e| {
-                AnalysisError::from(ErrorKind::NoRoomForExact {
-                    needed: n,
-                    cause: e.kind,
+    /// Replaces the slow-roll observables by those of the exact background and modes, keeping
+    /// the slow-roll values in `exact` for comparison. N_* counts from the exact end (eps_H = 1).
+    fn refine_exact(
+        &self,
+        ev: &mut Evaluator<'_>,
+        b: &Branch,
+        phi_end: f64,
+        out: &mut [Prediction],
+        settings: &crate::analysis::background::Settings,
+    ) -> Result<(), AnalysisError> {
+        let (model, config, field) = (self.model, self.config, self.field);
+        let n_stars: Vec<f64> = out.iter().map(|p| p.n_star).collect();
+        let deepest = n_stars.iter().copied().fold(0.0f64, f64::max);
+        // Start early enough for the lowest k of the tilt stencil to begin k/aH = k_start inside,
+        // plus a few e-folds for the approach to the attractor.
+        let margin = settings.k_start.ln() + 2.0 * crate::analysis::perturbations::TILT_STEP + 4.0;
+        let mut phi_at = |n: f64| -> Result<f64, AnalysisError> {
+            phi_stars(ev, b, phi_end, &[n], config, field)
+                .map(|v| v[0])
+                .map_err(|e| {
+                    AnalysisError::from(ErrorKind::NoRoomForExact {
+                        needed: n,
+                        cause: e.kind,
+                    })
                 })
-            })
-    };
-    let (_, run) = crate::analysis::background::start_with_room(model, deepest + margin, settings, &mut phi_at)?;
-    let points = crate::analysis::perturbations::observe(model, &run, &n_stars, settings)?;
-    let data = &opts.data;
-    let mp = data.units.reduced_planck_mass_gev;
-    let mut map = CanonicalMap::new(model, phi_end, config);
-    for (p, e) in out.iter_mut().zip(points) {
-        let sr = SlowRoll::at(ev, e.phi_star);
-        let scale = data.a_s() / e.extras.p_s_unscaled;
-        let v_star = scale * sr.v;
-        let h_star = (v_star / (3.0 - e.extras.eps_1)).sqrt();
-        let v_end = scale * ev.eval(e.phi_end);
-        let mut extras = e.extras;
-        extras.phi_end_slow_roll = p.phi_end;
-        extras.phi_star_slow_roll = p.phi_star;
-        extras.n_s_slow_roll = p.n_s;
-        extras.r_slow_roll = p.r;
-        let pull = (e.n_s - data.n_s.mean) / data.n_s.sigma;
-        p.phi_star = e.phi_star;
-        p.phi_end = e.phi_end;
-        p.n_s = e.n_s;
-        p.r = e.r;
-        p.alpha_s = e.alpha_s;
-        p.n_t = e.n_t;
-        p.eps_v = sr.eps_v;
-        p.eta_v = sr.eta_v;
-        p.xi2_v = sr.xi2_v;
-        p.omega3_v = sr.omega3_v;
-        p.delta_chi = map.between(e.phi_end, e.phi_star)?.value.abs();
-        p.delta_phi = (e.phi_star - e.phi_end).abs();
-        p.lyth_bound = p.n_star * (e.r / 8.0).sqrt();
-        p.a_s_unscaled = e.extras.p_s_unscaled;
-        p.potential_scale = scale;
-        p.v_star_quarter_gev = v_star.powf(0.25) * mp;
-        p.h_star_gev = h_star * mp;
-        p.t_ds_gev = h_star * mp / (2.0 * PI);
-        p.v_end = v_end;
-        p.v_end_quarter_gev = v_end.max(0.0).powf(0.25) * mp;
-        p.n_s_pull = pull;
-        p.verdict = if pull.abs() > data.verdict.excluded_sigma || e.r > data.r.upper {
-            "excluded"
-        } else if pull.abs() > data.verdict.tension_sigma {
-            "tension"
-        } else {
-            "consistent"
         };
-        p.exact = Some(extras);
+        let (_, run) = crate::analysis::background::start_with_room_in(
+            model,
+            &|| Ok(self.iv),
+            deepest + margin,
+            settings,
+            &mut phi_at,
+        )?;
+        let points = crate::analysis::perturbations::observe(model, &run, &n_stars, settings)?;
+        let data = &self.opts.data;
+        let mp = data.units.reduced_planck_mass_gev;
+        let mut map = CanonicalMap::new(model, phi_end, config);
+        for (p, e) in out.iter_mut().zip(points) {
+            let sr = SlowRoll::at(ev, e.phi_star);
+            let scale = data.a_s() / e.extras.p_s_unscaled;
+            let v_star = scale * sr.v;
+            let h_star = (v_star / (3.0 - e.extras.eps_1)).sqrt();
+            let v_end = scale * ev.eval(e.phi_end);
+            let mut extras = e.extras;
+            extras.phi_end_slow_roll = p.phi_end;
+            extras.phi_star_slow_roll = p.phi_star;
+            extras.n_s_slow_roll = p.n_s;
+            extras.r_slow_roll = p.r;
+            let pull = (e.n_s - data.n_s.mean) / data.n_s.sigma;
+            p.phi_star = e.phi_star;
+            p.phi_end = e.phi_end;
+            p.n_s = e.n_s;
+            p.r = e.r;
+            p.alpha_s = e.alpha_s;
+            p.n_t = e.n_t;
+            p.eps_v = sr.eps_v;
+            p.eta_v = sr.eta_v;
+            p.xi2_v = sr.xi2_v;
+            p.omega3_v = sr.omega3_v;
+            p.delta_chi = map.between(e.phi_end, e.phi_star)?.value.abs();
+            p.delta_phi = (e.phi_star - e.phi_end).abs();
+            p.lyth_bound = p.n_star * (e.r / 8.0).sqrt();
+            p.a_s_unscaled = e.extras.p_s_unscaled;
+            p.potential_scale = scale;
+            p.v_star_quarter_gev = v_star.powf(0.25) * mp;
+            p.h_star_gev = h_star * mp;
+            p.t_ds_gev = h_star * mp / (2.0 * PI);
+            p.v_end = v_end;
+            p.v_end_quarter_gev = v_end.max(0.0).powf(0.25) * mp;
+            p.n_s_pull = pull;
+            p.verdict = verdict(data, pull, e.r);
+            p.exact = Some(extras);
+        }
+        Ok(())
     }
-    Ok(())
-}
 
-/// N_* consistent with a reheating history: V_* (and so H_*) depends on N_*, N_* on H_* and
-/// V_end; iterated to a fixed point (the dependence is logarithmic, so it converges in a few
-/// steps), to 1e-10 e-folds.
-#[allow(clippy::too_many_arguments)]
-fn solve_matching(
-    ev: &mut Evaluator<'_>,
-    b: &Branch,
-    phi_end: f64,
-    reh: &Reheating,
-    opts: &Options,
-    config: &Config,
-    field: &str,
-) -> Result<(f64, Matching), AnalysisError> {
-    let data = &opts.data;
-    let v_end_user = ev.eval(phi_end);
-    let mut n = 55.0;
-    for _ in 0..60 {
-        let phi = phi_stars(ev, b, phi_end, &[n], config, field)?[0];
-        let sr = SlowRoll::at(ev, phi);
-        let scale = data.a_s() * 24.0 * PI * PI * sr.eps_v / sr.v;
-        let h = (scale * sr.v / 3.0).sqrt();
-        let m = reh
-            .match_pivot(h, scale * v_end_user, data)
-            .map_err(|e| AnalysisError::from(ErrorKind::Matching(e)))?;
-        if (m.n_star - n).abs() < 1e-10 {
-            return Ok((m.n_star, m));
+    /// N_* consistent with a reheating history: V_* (and so H_*) depends on N_*, N_* on H_* and
+    /// V_end; iterated to a fixed point (the dependence is logarithmic, so it converges in a few
+    /// steps), to 1e-10 e-folds.
+    fn solve_matching(
+        &self,
+        ev: &mut Evaluator<'_>,
+        b: &Branch,
+        phi_end: f64,
+        reh: &Reheating,
+    ) -> Result<(f64, Matching), AnalysisError> {
+        let data = &self.opts.data;
+        let v_end_user = ev.eval(phi_end);
+        let mut n = 55.0;
+        for _ in 0..60 {
+            let phi = phi_stars(ev, b, phi_end, &[n], self.config, self.field)?[0];
+            let sr = SlowRoll::at(ev, phi);
+            let scale = data.a_s() * 24.0 * PI * PI * sr.eps_v / sr.v;
+            let h = (scale * sr.v / 3.0).sqrt();
+            let m = reh
+                .match_pivot(h, scale * v_end_user, data)
+                .map_err(|e| AnalysisError::from(ErrorKind::Matching(e)))?;
+            if (m.n_star - n).abs() < 1e-10 {
+                return Ok((m.n_star, m));
+            }
+            if !(m.n_star.is_finite() && m.n_star > 0.0) {
+                return Err(ErrorKind::MatchingBadEfolds { n_star: m.n_star }.into());
+            }
+            n = m.n_star;
         }
-        if !(m.n_star.is_finite() && m.n_star > 0.0) {
-            return Err(ErrorKind::MatchingBadEfolds { n_star: m.n_star }.into());
-        }
-        n = m.n_star;
+        Err(ErrorKind::MatchingNoConvergence.into())
     }
-    Err(ErrorKind::MatchingNoConvergence.into())
 }
 
 fn fmt(x: f64) -> String {

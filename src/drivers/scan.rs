@@ -7,6 +7,7 @@ use crate::config::Config;
 use crate::data::DataSet;
 use crate::diag::Diagnostic;
 use crate::drivers::predict::{predict, Options, Prediction, CSV_KEYS};
+use crate::drivers::prepared::Prepared;
 use crate::model::{Model, ModelSpec};
 use crate::report::plot::{Marker, Panel, Region, Series};
 use serde::Serialize;
@@ -387,6 +388,25 @@ pub fn total_points(axes: &[Axis]) -> Option<usize> {
     axes.iter().try_fold(1usize, |acc, a| acc.checked_mul(a.values.len()))
 }
 
+/// One scan: the model, the grid, the N_* values and data every point shares, and how to run.
+#[derive(Debug, Clone, Copy)]
+pub struct ScanJob<'a> {
+    /// The model as written (the varied parameters are set at each point).
+    pub spec: &'a ModelSpec,
+    /// The varied parameters.
+    pub axes: &'a [Axis],
+    /// N_* values, one row each per point.
+    pub n_stars: &'a [f64],
+    /// The data to judge against.
+    pub data: &'a DataSet,
+    /// Only this slice of the points, if given.
+    pub shard: Option<Shard>,
+    /// Limits and tolerances.
+    pub config: &'a Config,
+    /// Show a progress bar.
+    pub progress: bool,
+}
+
 /// Runs the grid (or one shard of it) and returns every row. Points fail independently: a
 /// failed point keeps its rows, with the error. See [`run_chunks`] for the streaming form.
 pub fn run(
@@ -398,12 +418,20 @@ pub fn run(
     config: &Config,
     progress: bool,
 ) -> Vec<ScanRow> {
+    let job = ScanJob {
+        spec,
+        axes,
+        n_stars,
+        data,
+        shard,
+        config,
+        progress,
+    };
     let mut all = Vec::new();
-    let done: Result<(), std::convert::Infallible> =
-        run_chunks(spec, axes, n_stars, data, shard, config, progress, &mut |rows| {
-            all.extend_from_slice(rows);
-            Ok(())
-        });
+    let done: Result<(), std::convert::Infallible> = run_chunks(&job, &mut |rows| {
+        all.extend_from_slice(rows);
+        Ok(())
+    });
     let Ok(()) = done;
     all
 }
@@ -411,41 +439,43 @@ pub fn run(
 /// Runs the grid (or one shard of it) in chunks of points (see [`CHUNK_ROWS`]), each chunk's
 /// points in parallel, and hands each chunk's rows to `sink` in point order as it completes.
 /// The first error of `sink` stops the scan and is returned.
-#[allow(clippy::too_many_arguments)]
-pub fn run_chunks<E>(
-    spec: &ModelSpec,
-    axes: &[Axis],
-    n_stars: &[f64],
-    data: &DataSet,
-    shard: Option<Shard>,
-    config: &Config,
-    progress: bool,
-    sink: &mut dyn FnMut(&[ScanRow]) -> Result<(), E>,
-) -> Result<(), E> {
+///
+/// The model is compiled once: each worker rebinds its own copy to the parameters of each of
+/// its points ([`Prepared::rebind`]), which gives the values, predictions and error messages
+/// of a model built afresh at that point. Should the model not build at its own parameter
+/// values, or an axis vary a name the model does not have, every point builds its model
+/// afresh instead.
+pub fn run_chunks<E>(job: &ScanJob<'_>, sink: &mut dyn FnMut(&[ScanRow]) -> Result<(), E>) -> Result<(), E> {
     use rayon::prelude::*;
-    let total = total_points(axes).unwrap_or(usize::MAX);
-    let range = shard.map_or(0..total, |s| s.range(total));
-    let bar = if progress {
+    let total = total_points(job.axes).unwrap_or(usize::MAX);
+    let range = job.shard.map_or(0..total, |s| s.range(total));
+    let bar = if job.progress {
         indicatif::ProgressBar::new(range.len() as u64)
     } else {
         indicatif::ProgressBar::hidden()
     };
     let opts = Options {
-        n_stars: n_stars.to_vec(),
-        data: data.clone(),
+        n_stars: job.n_stars.to_vec(),
+        data: job.data.clone(),
         ..Default::default()
     };
-    let per_chunk = (CHUNK_ROWS / n_stars.len().max(1)).max(1);
+    let base = Model::build(job.spec, job.config)
+        .ok()
+        .filter(|m| job.axes.iter().all(|a| m.scope.params.contains(&a.name)));
+    let per_chunk = (CHUNK_ROWS / job.n_stars.len().max(1)).max(1);
     let mut lo = range.start;
     while lo < range.end {
         let hi = lo + per_chunk.min(range.end - lo);
         let rows: Vec<Vec<ScanRow>> = (lo..hi)
             .into_par_iter()
-            .map(|point| {
-                let rows = point_rows(spec, axes, n_stars, &opts, config, point);
-                bar.inc(1);
-                rows
-            })
+            .map_init(
+                || base.as_ref().map(Prepared::new),
+                |prep, point| {
+                    let rows = point_rows(job, prep.as_mut(), &opts, point);
+                    bar.inc(1);
+                    rows
+                },
+            )
             .collect();
         let rows: Vec<ScanRow> = rows.into_iter().flatten().collect();
         if let Err(e) = sink(&rows) {
@@ -458,22 +488,17 @@ pub fn run_chunks<E>(
     Ok(())
 }
 
-/// The rows of one grid point: one per N_*, with the error when the point fails.
-fn point_rows(
-    spec: &ModelSpec,
-    axes: &[Axis],
-    n_stars: &[f64],
-    opts: &Options,
-    config: &Config,
-    point: usize,
-) -> Vec<ScanRow> {
-    let values = grid_point(axes, point);
-    let params: Vec<(String, f64)> = axes
+/// The rows of one grid point: one per N_*, with the error when the point fails. `prep` is the
+/// worker's model to rebind, if it has one.
+fn point_rows(job: &ScanJob<'_>, prep: Option<&mut Prepared<'_>>, opts: &Options, point: usize) -> Vec<ScanRow> {
+    let values = grid_point(job.axes, point);
+    let params: Vec<(String, f64)> = job
+        .axes
         .iter()
         .map(|a| a.name.clone())
         .zip(values.iter().copied())
         .collect();
-    match predict_at(spec, &params, opts, config) {
+    match predict_at(job, prep, &params, opts) {
         Ok(preds) => preds
             .into_iter()
             .map(|p| ScanRow {
@@ -483,7 +508,8 @@ fn point_rows(
                 result: Ok(p),
             })
             .collect(),
-        Err(e) => n_stars
+        Err(e) => job
+            .n_stars
             .iter()
             .map(|&n| ScanRow {
                 point,
@@ -505,19 +531,30 @@ fn grid_point(axes: &[Axis], mut index: usize) -> Vec<f64> {
     out
 }
 
+/// The predictions at one point: `prep` rebound to its parameters, or (without one) the model
+/// built afresh with them. The error is the model's or the prediction's message.
 fn predict_at(
-    spec: &ModelSpec,
+    job: &ScanJob<'_>,
+    prep: Option<&mut Prepared<'_>>,
     params: &[(String, f64)],
     opts: &Options,
-    config: &Config,
 ) -> Result<Vec<Prediction>, PointError> {
-    let mut spec = spec.clone();
-    for (name, v) in params {
-        spec.set_param(name, &format!("{v:e}"));
-    }
-    let model = Model::build(&spec, config)?;
-    let rep = predict(&model, opts, config)?;
-    Ok(rep.predictions)
+    let rep = match prep {
+        Some(prep) => {
+            let pairs: Vec<(&str, f64)> = params.iter().map(|(n, v)| (n.as_str(), *v)).collect();
+            prep.rebind(&pairs, job.config)?;
+            prep.predict(opts, job.config)
+        }
+        None => {
+            let mut spec = job.spec.clone();
+            for (name, v) in params {
+                spec.set_param(name, &format!("{v:e}"));
+            }
+            let model = Model::build(&spec, job.config)?;
+            predict(&model, opts, job.config)
+        }
+    };
+    Ok(rep?.predictions)
 }
 
 fn csv_field(s: &str) -> String {
@@ -1597,5 +1634,82 @@ mod tests {
         );
         assert_eq!(csv_records("1,2\n3,4", 1), Err(2));
         assert_eq!(csv_records("1,\"open\n", 1), Err(1));
+    }
+}
+
+#[cfg(test)]
+mod run_tests {
+    use super::*;
+    use crate::model::Text;
+
+    /// The order-2 pole with the pole at w = sqrt(6 alpha), a derived parameter that fails for
+    /// alpha < 0, and the range [0, w] following it.
+    fn pole_spec() -> ModelSpec {
+        let mut spec = ModelSpec::inline("phi^2/(6*alpha)", Some("1/(1 - (phi/w)^2)^2"));
+        spec.set_param("alpha", "1");
+        spec.set_param("w", "sqrt(6*alpha)");
+        spec.range = Some((Text::inline("lo", "0"), Text::inline("hi", "w")));
+        spec
+    }
+
+    /// Rows of a rebound model and of a model built afresh at each point are the same, in
+    /// every digit the CSV keeps (Rust's shortest round-trip form) and every error message.
+    #[test]
+    fn rebound_points_give_the_rows_of_fresh_builds() {
+        let config = Config::default();
+        let spec = pole_spec();
+        let axes = [Axis {
+            name: "alpha".into(),
+            values: vec![-1.0, 0.1, 1.0 / 3.0, -0.5, 3.7, 40.0],
+        }];
+        let data = DataSet::builtin();
+        let job = ScanJob {
+            spec: &spec,
+            axes: &axes,
+            n_stars: &[50.0, 60.0],
+            data: &data,
+            shard: None,
+            config: &config,
+            progress: false,
+        };
+        let opts = Options {
+            n_stars: job.n_stars.to_vec(),
+            data: data.clone(),
+            ..Default::default()
+        };
+        let model = Model::build(&spec, &config).unwrap();
+        let mut prep = Prepared::new(&model);
+        let (mut rebound, mut fresh) = (Vec::new(), Vec::new());
+        for point in 0..axes[0].values.len() {
+            rebound.extend(point_rows(&job, Some(&mut prep), &opts, point));
+            fresh.extend(point_rows(&job, None, &opts, point));
+        }
+        assert_eq!(csv_rows(&rebound), csv_rows(&fresh));
+        assert_eq!(rebound, fresh);
+        assert_eq!(rebound.iter().filter(|r| r.result.is_err()).count(), 4);
+        assert_eq!(rebound.iter().filter(|r| r.result.is_ok()).count(), 8);
+        // and the parallel run, with its per-worker models, gives the same rows in order
+        assert_eq!(
+            csv_rows(&run(&spec, &axes, job.n_stars, &data, None, &config, false)),
+            csv_rows(&fresh)
+        );
+    }
+
+    /// An axis over a name the model does not have keeps its old meaning (a parameter added to
+    /// the model and unused), rather than failing every point.
+    #[test]
+    fn an_axis_over_an_unknown_name_builds_each_point() {
+        let config = Config::default();
+        let spec = pole_spec();
+        let axes = [Axis::new("unused", 1.0, 2.0, 2, false).unwrap()];
+        let rows = run(&spec, &axes, &[55.0], &DataSet::builtin(), None, &config, false);
+        assert!(rows.iter().all(|r| r.result.is_ok()), "{rows:?}");
+        let model = Model::build(&spec, &config).unwrap();
+        let opts = Options {
+            n_stars: vec![55.0],
+            ..Default::default()
+        };
+        let want = predict(&model, &opts, &config).unwrap().predictions.remove(0);
+        assert_eq!(rows[1].result, Ok(want));
     }
 }

@@ -5,6 +5,10 @@ use crate::analysis::background::{state_at, Background, Run, Settings};
 use crate::analysis::error::AnalysisError;
 use crate::analysis::error::ErrorKind;
 use crate::analysis::perturbations::{mode, pivot};
+use crate::config::Config;
+use crate::data::DataSet;
+use crate::drivers::predict::Options;
+use crate::drivers::prepared::Prepared;
 use crate::model::Model;
 #[cfg(test)]
 use crate::report::spectrum::text;
@@ -45,6 +49,35 @@ pub struct Spectrum {
     pub peak: SpectrumRow,
     /// The row with the largest slow-roll estimate (where slow roll puts the peak).
     pub peak_slow_roll: SpectrumRow,
+}
+
+/// Starts the exact background for a spectrum with at least `n_needed` e-folds before its end
+/// ([`crate::analysis::background::start_with_room_in`]): on the slow-roll attractor where the
+/// slow-roll prediction on `branch` (the default choice when `None`) puts the field that many
+/// e-folds before the end, or at the start given in `settings`, checked against the domain.
+/// Every prediction it asks for reuses the prepared domain and branches.
+pub fn start_background(
+    prep: &Prepared<'_>,
+    n_needed: f64,
+    settings: &Settings,
+    branch: Option<usize>,
+    data: &DataSet,
+    config: &Config,
+) -> Result<Run, AnalysisError> {
+    let mut opts = Options {
+        n_stars: Vec::new(),
+        branch,
+        data: data.clone(),
+        ..Default::default()
+    };
+    let mut phi_at = |n: f64| -> Result<f64, AnalysisError> {
+        opts.n_stars = vec![n];
+        Ok(prep.predict(&opts, config)?.predictions[0].phi_star)
+    };
+    let domain = || prep.interval();
+    let (_, run) =
+        crate::analysis::background::start_with_room_in(prep.model(), &domain, n_needed, settings, &mut phi_at)?;
+    Ok(run)
 }
 
 /// Computes P_zeta(k) and P_t(k) for `k_mpc` (Mpc^-1), modes in parallel.

@@ -51,7 +51,9 @@ pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Fa
         data,
         exact,
     };
-    let mut rep = crate::drivers::predict::predict(&model, &opts, config)?;
+    // One analysis for the prediction and the figure.
+    let prep = crate::drivers::prepared::Prepared::new(&model);
+    let mut rep = prep.predict(&opts, config)?;
     if a.method == Method::SlowRoll {
         let limit = crate::config::SLOW_ROLL_WARN_EFOLDS;
         if let Some(p) = rep.predictions.iter().find(|p| p.n_star < limit) {
@@ -62,7 +64,7 @@ pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Fa
         }
     }
     if a.svg.is_some() || a.pdf.is_some() {
-        let ins = crate::drivers::inspect::inspect(&model, config, None)?;
+        let ins = prep.inspect(config, None)?;
         let mut marks = crate::drivers::inspect::FigureMarks::default();
         if let Some(p) = rep.predictions.first() {
             marks.points.push((p.phi_end, "end".to_string()));

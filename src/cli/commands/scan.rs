@@ -15,19 +15,7 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
     )?;
     let spec = model.spec.clone();
     let data = load_data(&a.data)?;
-    if a.vary.len() > 2 {
-        return Err(Diagnostic::new("at most two parameters can be varied at once")
-            .with_hint("give --vary once or twice")
-            .into());
-    }
-    check_vary_names(&a.vary)?;
-    let limit = config.limits.max_axis_points;
-    let axes = a
-        .vary
-        .iter()
-        .map(|v| crate::drivers::scan::Axis::parse(v, &spec, a.points, limit))
-        .collect::<Result<Vec<_>, _>>()
-        .map_err(|e| Failure::from(e.diagnostic()))?;
+    let axes = scan_axes(a, &spec, config)?;
     let total = check_grid_size(&axes, config)?;
     let shard = a
         .shard
@@ -35,17 +23,7 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
         .map(crate::drivers::scan::Shard::parse)
         .transpose()
         .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
-    let n_stars = if a.efolds.is_empty() {
-        spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
-    } else {
-        a.efolds.clone()
-    };
-    check_efolds_count(&n_stars, config)?;
-    if a.efolds.is_empty() {
-        check_efolds_values("the model's `efolds` setting", &n_stars)?;
-    } else {
-        check_efolds_values("--efolds", &n_stars)?;
-    }
+    let n_stars = scan_efolds(a, &spec, config)?;
     for fig in [&a.svg, &a.pdf] {
         let (Some(out), Some(svg)) = (&a.out, fig) else {
             continue;
@@ -86,7 +64,16 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
     // The figure needs every row; the table alone is streamed chunk by chunk.
     let mut kept: Vec<crate::drivers::scan::ScanRow> = Vec::new();
     let progress = std::io::stderr().is_terminal();
-    crate::drivers::scan::run_chunks(&spec, &axes, &n_stars, &data, shard, config, progress, &mut |rows| {
+    let job = crate::drivers::scan::ScanJob {
+        spec: &spec,
+        axes: &axes,
+        n_stars: &n_stars,
+        data: &data,
+        shard,
+        config,
+        progress,
+    };
+    crate::drivers::scan::run_chunks(&job, &mut |rows| {
         rows_done += rows.len();
         failed += rows.iter().filter(|r| r.result.is_err()).count();
         if a.svg.is_some() || a.pdf.is_some() {
@@ -111,6 +98,42 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
         f.commit().map_err(|e| cannot_write(path, e))?;
     }
     Ok(String::new())
+}
+
+/// The grid's axes from `--vary` (at most two), each checked against the model and the limit.
+fn scan_axes(
+    a: &ScanArgs,
+    spec: &crate::model::ModelSpec,
+    config: &Config,
+) -> Result<Vec<crate::drivers::scan::Axis>, Failure> {
+    if a.vary.len() > 2 {
+        return Err(Diagnostic::new("at most two parameters can be varied at once")
+            .with_hint("give --vary once or twice")
+            .into());
+    }
+    check_vary_names(&a.vary)?;
+    let limit = config.limits.max_axis_points;
+    a.vary
+        .iter()
+        .map(|v| crate::drivers::scan::Axis::parse(v, spec, a.points, limit))
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(|e| Failure::from(e.diagnostic()))
+}
+
+/// The N_* values of a scan: `--efolds`, or the model's `efolds` setting, or 50, 55, 60.
+fn scan_efolds(a: &ScanArgs, spec: &crate::model::ModelSpec, config: &Config) -> Result<Vec<f64>, Failure> {
+    let n_stars = if a.efolds.is_empty() {
+        spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
+    } else {
+        a.efolds.clone()
+    };
+    check_efolds_count(&n_stars, config)?;
+    if a.efolds.is_empty() {
+        check_efolds_values("the model's `efolds` setting", &n_stars)?;
+    } else {
+        check_efolds_values("--efolds", &n_stars)?;
+    }
+    Ok(n_stars)
 }
 
 pub(crate) fn merge_cmd(a: &MergeArgs, config: &Config) -> Result<String, Failure> {

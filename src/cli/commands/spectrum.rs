@@ -51,16 +51,8 @@ pub(crate) fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, 
         .into());
     }
     let needed = a.efolds + (k_star / a.k_min).ln().max(0.0) + settings.k_start.ln() + 4.0;
-    let mut phi_at = |n: f64| -> Result<f64, crate::analysis::error::AnalysisError> {
-        let opts = crate::drivers::predict::Options {
-            n_stars: vec![n],
-            branch: a.branch,
-            data: data.clone(),
-            ..Default::default()
-        };
-        Ok(crate::drivers::predict::predict(&model, &opts, config)?.predictions[0].phi_star)
-    };
-    let (_, run) = crate::analysis::background::start_with_room(&model, needed, &settings, &mut phi_at)?;
+    let prep = crate::drivers::prepared::Prepared::new(&model);
+    let run = crate::drivers::spectrum::start_background(&prep, needed, &settings, a.branch, &data, config)?;
     let n = a.points;
     let ks: Vec<f64> = (0..n)
         .map(|i| (a.k_min.ln() + (k_max.ln() - a.k_min.ln()) * i as f64 / (n - 1) as f64).exp())
