@@ -728,7 +728,7 @@ impl Graph {
                 Node::Mul(a, b) => v(a) * v(b),
                 Node::Div(a, b) => v(a) / v(b),
                 Node::Neg(a) => -v(a),
-                Node::PowI(a, n) => crate::language::tape::powi(v(a), n),
+                Node::PowI(a, n) => elementary::powi(v(a), n),
                 Node::Pow(a, b) => v(a).powf(v(b)),
                 Node::Func(f, a) => f.apply(v(a)),
             };

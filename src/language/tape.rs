@@ -26,6 +26,9 @@
 
 use crate::language::ir::{Func, Graph, Id, Node};
 use crate::numerics::elementary;
+/// x^n for a small integer n: the kernel now lives with the other elementary functions, which
+/// the IR's evaluator shares; kept here under its old path.
+pub use crate::numerics::elementary::powi;
 use std::fmt;
 
 /// Highest Taylor order the jet evaluator supports.
@@ -506,41 +509,6 @@ fn poly_f64(c: &[f64], x: f64) -> f64 {
         odd = odd * x2 + pair[1];
     }
     even + x * odd
-}
-
-/// x^n for a small integer n; the one definition the folder, the tape and the jets share.
-#[inline(always)]
-pub fn powi(x: f64, n: i32) -> f64 {
-    if n < 0 {
-        return 1.0 / powi(x, -n);
-    }
-    // Binary powering, unrolled for the exponents the IR keeps (|n| <= MAX_POWI = 16).
-    let x2 = x * x;
-    match n {
-        0 => 1.0,
-        1 => x,
-        2 => x2,
-        3 => x2 * x,
-        4 => x2 * x2,
-        5 => x2 * x2 * x,
-        6 => x2 * x2 * x2,
-        7 => x2 * x2 * x2 * x,
-        8 => {
-            let x4 = x2 * x2;
-            x4 * x4
-        }
-        _ => {
-            let (mut acc, mut base, mut e) = (1.0, x, n as u32);
-            while e > 0 {
-                if e & 1 == 1 {
-                    acc *= base;
-                }
-                base *= base;
-                e >>= 1;
-            }
-            acc
-        }
-    }
 }
 
 /// Points evaluated together by [`Evaluator::eval_batch`].
