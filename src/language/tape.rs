@@ -35,8 +35,35 @@ use std::fmt;
 pub const MAX_ORDER: usize = 8;
 /// Coefficients in a jet: orders 0 to [`MAX_ORDER`].
 pub const JET_LEN: usize = MAX_ORDER + 1;
-/// A truncated Taylor series: `c[k] = f^(k)(x) / k!`.
+/// A truncated Taylor series: `c[k] = f^(k)(x) / k!`; along a direction d of field space,
+/// the series in t of f(p + t d).
 pub type Jet = [f64; JET_LEN];
+
+/// The quotient a / b of two truncated Taylor series, to `order` (at most [`MAX_ORDER`];
+/// coefficients above it are zero): `c_k = (a_k - sum_{j<k} c_j b_{k-j}) / b_0`, the
+/// recurrence and the order of operations of the tape's own division, so a caller dividing
+/// jets gets the tape's bits. `b[0]` must not be zero (else infinities or NaN, as in f64).
+pub fn jet_div(a: &Jet, b: &Jet, order: usize) -> Jet {
+    div(a, b, order.min(MAX_ORDER))
+}
+
+/// The product a b of two truncated Taylor series, to `order` (at most [`MAX_ORDER`]), by the
+/// tape's convolution.
+pub fn jet_mul(a: &Jet, b: &Jet, order: usize) -> Jet {
+    mul(a, b, order.min(MAX_ORDER))
+}
+
+/// The series of the derivative a' (with respect to the series' variable), to `order`:
+/// `c_j = (j + 1) a_{j+1}`. Differentiating loses one order, so `order` is at most
+/// `MAX_ORDER - 1`, and at most one less than the order `a` is known to; coefficients above
+/// are zero.
+pub fn jet_derivative(a: &Jet, order: usize) -> Jet {
+    let mut c = [0.0; JET_LEN];
+    for j in 0..(order + 1).min(MAX_ORDER) {
+        c[j] = (j + 1) as f64 * a[j + 1];
+    }
+    c
+}
 
 /// One instruction; operands are register numbers, the destination is implied by position.
 #[derive(Debug, Clone, Copy, PartialEq)]
