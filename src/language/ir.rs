@@ -285,7 +285,7 @@ impl ScopeError {
                     what(*first_is_field),
                     what(*second_is_field)
                 ))
-                .with_hint(format!("rename one of them: each name is one field or one parameter"))
+                .with_hint("rename one of them: each name is one field or one parameter")
             }
         }
     }
@@ -888,8 +888,7 @@ impl Graph {
         let mut d: HashMap<Id, Id> = HashMap::default();
         for id in order {
             let n = self.node(id);
-            depends[id.index()] =
-                n == Node::Var(field as u32) || self.children(id).any(|c| depends[c.index()]);
+            depends[id.index()] = n == Node::Var(field as u32) || self.children(id).any(|c| depends[c.index()]);
             let dv = self.derivative_of(id, field, &depends, &d);
             d.insert(id, dv);
         }
@@ -1184,5 +1183,57 @@ mod tests {
             let d = g.derivative(id);
             assert_eq!(g.print(d), want, "{src}");
         }
+    }
+
+    fn lowered_in(scope: Scope, src: &str) -> (Graph, Id) {
+        let mut g = Graph::new(scope);
+        let id = g.lower(&parse(src, &Limits::default()).unwrap()).unwrap();
+        (g, id)
+    }
+
+    #[test]
+    fn partials_by_rule_in_three_fields() {
+        let scope = Scope::with_fields(&["x", "y", "z"], &["a"]).unwrap();
+        let cases = [
+            ("x*y + z", ["y", "x", "1"]),
+            ("a*x^2*y^3", ["y^3*(a*(2*x))", "a*x^2*(3*y^2)", "0"]),
+            ("exp(x*z)", ["z*exp(x*z)", "0", "x*exp(x*z)"]),
+            ("x/y", ["1/y", "-x/y^2", "0"]),
+            ("y^z", ["0", "z*y^(z - 1)", "y^z*log(y)"]),
+            ("sin(y) + a", ["0", "cos(y)", "0"]),
+        ];
+        for (src, want) in cases {
+            let (mut g, id) = lowered_in(scope.clone(), src);
+            for (i, w) in want.iter().enumerate() {
+                let d = g.partial(id, i);
+                assert_eq!(g.print(d), *w, "d/d{} {src}", scope.fields[i]);
+            }
+        }
+    }
+
+    #[test]
+    fn derivative_is_the_partial_in_the_first_field() {
+        for src in ["phi^2*exp(-alpha*phi)", "tanh(phi/b)^2", "alpha", "phi^phi"] {
+            let (mut g, id) = lowered(src);
+            let (d, p) = (g.derivative(id), g.partial(id, 0));
+            assert_eq!(d, p, "{src}");
+        }
+    }
+
+    #[test]
+    fn varying_means_any_field() {
+        let (g, id) = lowered_in(Scope::with_fields(&["x", "y"], &["a"]).unwrap(), "a*y");
+        assert!(g.is_varying(id));
+        let (g, id) = lowered_in(Scope::with_fields(&["x", "y"], &["a"]).unwrap(), "sqrt(a) + pi");
+        assert!(!g.is_varying(id));
+    }
+
+    #[test]
+    fn first_non_finite_at_a_point_of_field_space() {
+        let (g, id) = lowered_in(Scope::with_fields(&["x", "y"], &[]).unwrap(), "x + log(y - 1)");
+        let (bad, v) = g.first_non_finite_at(id, &[2.0, 0.5], &[]).unwrap();
+        assert_eq!(g.print(bad), "log(y - 1)");
+        assert!(v.is_nan());
+        assert_eq!(g.first_non_finite_at(id, &[0.5, 2.0], &[]), None);
     }
 }

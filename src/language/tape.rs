@@ -232,6 +232,7 @@ impl Tape {
             batch_len: 0,
             coeffs: vec![0.0; self.poly_regs.len()],
             out: vec![0.0; self.outputs.len()],
+            jet_order: 0,
         };
         ev.set_params(params);
         ev
@@ -579,6 +580,9 @@ pub struct Evaluator<'t> {
     coeffs: Vec<f64>,
     /// One value per output: the point handed to `eval_each`'s callback.
     out: Vec<f64>,
+    /// Highest order the per-point jet registers may hold non-zero coefficients to (the
+    /// instructions write only up to the order they run at).
+    jet_order: usize,
 }
 
 impl Evaluator<'_> {
@@ -821,6 +825,14 @@ impl Evaluator<'_> {
     /// Runs the body on the seeded jets, truncated at `order`.
     fn run_jet(&mut self, order: usize) -> &Jet {
         let t = self.tape;
+        if self.jet_order > order {
+            // A run at a higher order left coefficients above this one: clear them once, so
+            // that coefficients above `order` read as zero.
+            for j in &mut self.jets[t.body_start as usize..] {
+                j[order + 1..].fill(0.0);
+            }
+        }
+        self.jet_order = order;
         let run = match order {
             0 => run_jets::<0>,
             1 => run_jets::<1>,
@@ -832,7 +844,13 @@ impl Evaluator<'_> {
             7 => run_jets::<7>,
             _ => run_jets::<8>,
         };
-        run(&t.body, &mut self.jets, t.var_reg as usize, t.body_start as usize, &t.poly_regs);
+        run(
+            &t.body,
+            &mut self.jets,
+            t.var_reg as usize,
+            t.body_start as usize,
+            &t.poly_regs,
+        );
         &self.jets[t.outputs[0] as usize]
     }
 
@@ -1455,5 +1473,84 @@ mod tests {
         for k in 0..MAX_ORDER + 1 {
             assert!((t[k] - want[k]).abs() < 1e-15, "order {k}: {} vs {}", t[k], want[k]);
         }
+    }
+
+    /// The public jet arithmetic is the tape's own: dividing the jets of two expressions gives
+    /// the bits of the jet of their quotient compiled as one tape, and likewise the product.
+    #[test]
+    fn public_jet_arithmetic_is_the_tapes() {
+        use crate::config::Limits;
+        use crate::language::compile::compile;
+        use crate::language::ir::Scope;
+        let scope = Scope::new("x", &[]);
+        let exprs = [
+            ("f", "exp(x) + x^3"),
+            ("g", "2 + sin(x)"),
+            ("q", "(exp(x) + x^3)/(2 + sin(x))"),
+        ];
+        let c = compile(&exprs, &scope, &Limits::default()).unwrap();
+        let p = compile(&[("p", "(exp(x) + x^3)*(2 + sin(x))")], &scope, &Limits::default()).unwrap();
+        let mut ev = c.tape.evaluator(&[]);
+        let mut evp = p.tape.evaluator(&[]);
+        for order in [0, 3, MAX_ORDER] {
+            ev.eval_jet(0.3, order);
+            let (f, g, q) = (*ev.jet_output(0), *ev.jet_output(1), *ev.jet_output(2));
+            assert_eq!(
+                jet_div(&f, &g, order).map(f64::to_bits),
+                q.map(f64::to_bits),
+                "order {order}"
+            );
+            let prod = *evp.eval_jet(0.3, order);
+            assert_eq!(
+                jet_mul(&f, &g, order).map(f64::to_bits),
+                prod.map(f64::to_bits),
+                "order {order}"
+            );
+        }
+        // The derivative of a series: sum (k+1) x^k has derivative sum (k+1)(k+2) x^(k+1-1),
+        // one order less; exact in integers.
+        let a: Jet = std::array::from_fn(|k| (k + 1) as f64);
+        let d = jet_derivative(&a, MAX_ORDER);
+        for k in 0..MAX_ORDER {
+            assert_eq!(d[k], ((k + 1) * (k + 2)) as f64, "order {k}");
+        }
+        assert_eq!(d[MAX_ORDER], 0.0);
+        assert_eq!(jet_derivative(&a, 2)[3..], [0.0; JET_LEN - 3]);
+    }
+
+    /// A polynomial in a field other than the first is one instruction too; monomials of two
+    /// fields in one sum are not a polynomial.
+    #[test]
+    fn polynomials_in_any_one_field() {
+        use crate::language::compile::compile_one;
+        use crate::language::ir::Scope;
+        let scope = Scope::with_fields(&["x", "y"], &["a"]).unwrap();
+        let polys = |src: &str| {
+            let c = compile_one(src, &scope).unwrap();
+            c.tape.body.iter().filter(|op| matches!(op, Op::Poly { .. })).count()
+        };
+        assert_eq!(polys("1 + 2*y + 3*y^2/a"), 1);
+        assert_eq!(polys("exp(x)*(1 + y + y^2/2 + y^3/6)"), 1);
+        assert_eq!(polys("1 + x + x^2 + y"), 0);
+        assert_eq!(polys("x + y + x^2*y"), 0);
+    }
+
+    /// The `--emit tape` view names each field's register; with one field it reads as before.
+    #[test]
+    fn listing_shows_every_field() {
+        use crate::language::compile::compile_one;
+        use crate::language::ir::Scope;
+        let two = compile_one("x*y + 1", &Scope::with_fields(&["x", "y"], &[]).unwrap()).unwrap();
+        let text = two.tape.to_string();
+        assert!(
+            text.contains("r1 = field #0\nr2 = field #1\nr3 = mul r1 r2\n"),
+            "{text}"
+        );
+        let one = compile_one("x*x + 1", &Scope::new("x", &[])).unwrap();
+        assert!(
+            one.tape.to_string().contains("; per point\nr1 = field\n"),
+            "{}",
+            one.tape
+        );
     }
 }
