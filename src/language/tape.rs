@@ -1,18 +1,23 @@
 //! Stage 3: the compiled evaluator.
 //!
 //! A [`Tape`] is the IR flattened into straight-line instructions over a register file, one
-//! register per node. Nodes that do not depend on the field (constants, parameters, and anything
-//! computed from them alone, such as `sqrt(6*alpha)`) are evaluated once, when parameters are
-//! bound; only the rest runs per point. Parameters are inputs, not folded constants: rebinding
+//! register per node. Nodes that do not depend on any field (constants, parameters, and
+//! anything computed from them alone, such as `sqrt(6*alpha)`) are evaluated once, when
+//! parameters are bound; only the rest runs per point. A point is a point of field space, one
+//! value per field of the scope; one field is the common case, and every entry point taking a
+//! bare `x` is the one-field form of one taking a point. Parameters are inputs, not folded constants: rebinding
 //! them costs one pass over the parameter-only part and no recompilation (see the benchmark
 //! `bind` in `benches/tape.rs` for the measurement behind this choice).
 //!
-//! Two evaluators share the tape: plain f64, at one point ([`Evaluator::eval`]) or at up to
-//! [`BATCH`] points at once ([`Evaluator::eval_batch`], the same bits, vectorised), and
-//! truncated Taylor series ([`Evaluator::eval_jet`]) up to order [`MAX_ORDER`], giving the
-//! function and its derivatives in one pass by the Taylor-mode recurrences of Griewank &
-//! Walther, *Evaluating Derivatives*, 2nd ed. (SIAM 2008), ch. 13. A [`Tape`] is immutable, `Send` and `Sync`; each thread makes
-//! its own [`Evaluator`], which owns the registers, so no evaluation allocates.
+//! Two evaluators share the tape: plain f64, at one point ([`Evaluator::eval`],
+//! [`Evaluator::eval_at`]) or at up to [`BATCH`] points at once ([`Evaluator::eval_batch`],
+//! [`Evaluator::eval_batch_at`] with one slice per field; the same bits, vectorised), and
+//! truncated Taylor series ([`Evaluator::eval_jet`], [`Evaluator::eval_jet_along`]: the series
+//! in t of f(p + t d) along a direction d) up to order [`MAX_ORDER`], giving the function and
+//! its derivatives in one pass by the Taylor-mode recurrences of Griewank & Walther,
+//! *Evaluating Derivatives*, 2nd ed. (SIAM 2008), ch. 13; the same recurrences serve every
+//! direction. A [`Tape`] is immutable, `Send` and `Sync`; each thread makes its own
+//! [`Evaluator`], which owns the registers, so no evaluation allocates.
 //!
 //! ```
 //! use efold::{compile::compile_one, ir::Scope};
@@ -693,17 +698,42 @@ impl Evaluator<'_> {
     /// # Ok::<(), efold::compile::ExprError>(())
     /// ```
     pub fn eval_batch_at(&mut self, fields: &[&[f64]]) {
-        let t = self.tape;
-        assert_eq!(fields.len(), t.n_fields as usize, "tape: points of the wrong dimension");
-        let len = fields[0].len();
+        let len = self.check_points(fields);
         assert!(len > 0 && len <= BATCH, "tape: batch of {len} points");
         for (i, xs) in fields.iter().enumerate() {
-            assert_eq!(xs.len(), len, "tape: fields of a batch differ in length");
-            // Unused lanes repeat the last point: computed and ignored.
-            let mut x = [xs[len - 1]; BATCH];
-            x[..len].copy_from_slice(xs);
-            self.lanes[t.var_reg as usize + i] = x;
+            self.load_lanes(i, xs);
         }
+        self.run_batch(len);
+    }
+
+    /// The number of points in `fields`, one slice per field of the tape, all of one length.
+    fn check_points(&self, fields: &[&[f64]]) -> usize {
+        assert_eq!(
+            fields.len(),
+            self.tape.n_fields as usize,
+            "tape: points of the wrong dimension"
+        );
+        let len = fields[0].len();
+        assert!(
+            fields.iter().all(|xs| xs.len() == len),
+            "tape: fields of a batch differ in length"
+        );
+        len
+    }
+
+    /// Field `i` of up to [`BATCH`] points (at least one) into its lanes.
+    #[inline]
+    fn load_lanes(&mut self, i: usize, xs: &[f64]) {
+        // Unused lanes repeat the last point: computed and ignored.
+        let mut x = [xs[xs.len() - 1]; BATCH];
+        x[..xs.len()].copy_from_slice(xs);
+        self.lanes[self.tape.var_reg as usize + i] = x;
+    }
+
+    /// Runs the body over the loaded lanes, `len` of them in use.
+    #[inline]
+    fn run_batch(&mut self, len: usize) {
+        let t = self.tape;
         run_lanes(&t.body, &mut self.lanes, t.body_start as usize, &self.coeffs);
         self.batch_len = len;
     }
@@ -747,22 +777,18 @@ impl Evaluator<'_> {
     }
 
     /// [`Evaluator::eval_each`] over points of field space given as structure of arrays (one
-    /// slice per field, all of the same length, any length), in batches of [`BATCH`]. Allocates
-    /// one small list of slices per call.
+    /// slice per field, all of the same length, any length), in batches of [`BATCH`].
     ///
     /// # Panics
     /// If there is not one slice per field or the slices differ in length.
     pub fn eval_each_at(&mut self, fields: &[&[f64]], mut each: impl FnMut(usize, &[f64])) {
-        let t = self.tape;
-        assert_eq!(fields.len(), t.n_fields as usize, "tape: points of the wrong dimension");
-        let len = fields[0].len();
-        let mut chunk: Vec<&[f64]> = fields.to_vec();
+        let len = self.check_points(fields);
         for start in (0..len).step_by(BATCH) {
             let end = (start + BATCH).min(len);
-            for (c, xs) in chunk.iter_mut().zip(fields) {
-                *c = &xs[start..end];
+            for (i, xs) in fields.iter().enumerate() {
+                self.load_lanes(i, &xs[start..end]);
             }
-            self.eval_batch_at(&chunk);
+            self.run_batch(end - start);
             self.each_output(start, &mut each);
         }
     }
