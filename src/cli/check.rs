@@ -135,7 +135,7 @@ pub(crate) fn constant_expr(
         return Err(Diagnostic::new(format!(
             "{origin}: the value `{}` depends on the field `{}`",
             text.trim(),
-            scope.field
+            scope.field()
         ))
         .with_hint("a value may use numbers, `pi` and the parameters")
         .into());

@@ -152,8 +152,8 @@ pub const MAX_POWI: i32 = 16;
 pub enum Node {
     /// A finite constant, stored as its bits.
     Const(u64),
-    /// The field variable.
-    Var,
+    /// The i-th field of the [`Scope`].
+    Var(u32),
     /// The i-th parameter of the [`Scope`].
     Param(u32),
     /// a + b
@@ -174,28 +174,130 @@ pub enum Node {
     Func(Func, Id),
 }
 
-/// The names an expression may use: the field variable and the parameters, in order.
+/// The names an expression may use: the fields and the parameters, each in order. One field
+/// is the common case ([`Scope::new`]); [`Scope::with_fields`] makes a scope of several.
+///
+/// A field's index is its coordinate in a point of field space (the slot the evaluator loads
+/// it from), a parameter's index its slot among the parameters. A name is either a field or a
+/// parameter, never both: [`Scope::with_fields`] refuses a clash, and for one field the model
+/// loader checks it where the names are declared.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Scope {
-    /// The field variable's name (default `phi`).
-    pub field: String,
+    /// The fields' names, at least one (default `phi`).
+    pub fields: Vec<String>,
     /// Parameter names; a parameter's index here is its slot in the evaluator.
     pub params: Vec<String>,
 }
 
 impl Scope {
-    /// A scope with a field name and parameter names.
+    /// A scope with one field and parameter names.
     pub fn new(field: &str, params: &[&str]) -> Scope {
         Scope {
-            field: field.to_string(),
+            fields: vec![field.to_string()],
             params: params.iter().map(|p| p.to_string()).collect(),
         }
+    }
+
+    /// A scope with several fields (coordinates of field space, in order) and parameters.
+    ///
+    /// # Errors
+    /// [`ScopeError`] if there is no field, or a name is given twice (two fields, two
+    /// parameters, or a field and a parameter).
+    ///
+    /// ```
+    /// use efold::ir::Scope;
+    /// let s = Scope::with_fields(&["phi", "sigma"], &["m"]).unwrap();
+    /// assert_eq!((s.n_fields(), s.field_index("sigma")), (2, Some(1)));
+    /// assert!(Scope::with_fields(&["phi", "m"], &["m"]).is_err());
+    /// ```
+    pub fn with_fields(fields: &[&str], params: &[&str]) -> Result<Scope, ScopeError> {
+        if fields.is_empty() {
+            return Err(ScopeError::NoField);
+        }
+        let names: Vec<&str> = fields.iter().chain(params).copied().collect();
+        for (i, name) in names.iter().enumerate() {
+            if let Some(j) = names[..i].iter().position(|n| n == name) {
+                let field = |k: usize| k < fields.len();
+                return Err(ScopeError::Twice {
+                    name: name.to_string(),
+                    first_is_field: field(j),
+                    second_is_field: field(i),
+                });
+            }
+        }
+        Ok(Scope {
+            fields: fields.iter().map(|f| f.to_string()).collect(),
+            params: params.iter().map(|p| p.to_string()).collect(),
+        })
+    }
+
+    /// The first field's name: the field, in a scope of one.
+    pub fn field(&self) -> &str {
+        &self.fields[0]
+    }
+
+    /// Number of fields.
+    pub fn n_fields(&self) -> usize {
+        self.fields.len()
+    }
+
+    /// The index of a field by name.
+    pub fn field_index(&self, name: &str) -> Option<usize> {
+        self.fields.iter().position(|f| f == name)
     }
 
     fn param_index(&self, name: &str) -> Option<usize> {
         self.params.iter().position(|p| p == name)
     }
 }
+
+/// A scope that cannot be built: see [`Scope::with_fields`].
+#[derive(Debug, Clone, PartialEq)]
+pub enum ScopeError {
+    /// The list of fields is empty.
+    NoField,
+    /// One name declared twice.
+    Twice {
+        /// The name.
+        name: String,
+        /// Whether the first declaration is a field (else a parameter).
+        first_is_field: bool,
+        /// Whether the second declaration is a field (else a parameter).
+        second_is_field: bool,
+    },
+}
+
+impl ScopeError {
+    /// The error in words, with how to fix it.
+    pub fn diagnostic(&self) -> Diagnostic {
+        match self {
+            ScopeError::NoField => {
+                Diagnostic::new("no field declared").with_hint("an expression needs at least one field, such as `phi`")
+            }
+            ScopeError::Twice {
+                name,
+                first_is_field,
+                second_is_field,
+            } => {
+                let what = |f: bool| if f { "a field" } else { "a parameter" };
+                Diagnostic::new(format!(
+                    "`{name}` is declared as {} and again as {}",
+                    what(*first_is_field),
+                    what(*second_is_field)
+                ))
+                .with_hint("rename one of them: each name is one field or one parameter")
+            }
+        }
+    }
+}
+
+impl fmt::Display for ScopeError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}", self.diagnostic().message)
+    }
+}
+
+impl std::error::Error for ScopeError {}
 
 /// Built-in constants.
 pub const CONSTANTS: [(&str, f64); 1] = [("pi", std::f64::consts::PI)];
@@ -218,17 +320,17 @@ pub enum NameErrorKind {
         name: String,
         /// A close built-in name, if any.
         suggestion: Option<String>,
-        /// True if the name is a parameter or the field (a missing `*`).
+        /// True if the name is a parameter or a field (a missing `*`).
         is_variable: bool,
     },
-    /// A name that is neither the field, a parameter nor a constant.
+    /// A name that is neither a field, a parameter nor a constant.
     UnknownName {
         /// The name as written.
         name: String,
         /// A close name in scope, if any.
         suggestion: Option<String>,
-        /// The field's name.
-        field: String,
+        /// The fields' names.
+        fields: Vec<String>,
         /// The parameters in scope.
         params: Vec<String>,
     },
@@ -271,26 +373,9 @@ impl NameError {
             UnknownName {
                 name,
                 suggestion,
-                field,
+                fields,
                 params,
-            } => {
-                let mut d = Diagnostic::new(format!("unknown name `{name}`"))
-                    .with_span(self.span, "not the field, a parameter or a constant");
-                if let Some(s) = suggestion {
-                    d = d.with_hint(format!("did you mean `{s}`?"));
-                }
-                let list = if params.is_empty() {
-                    "none".to_string()
-                } else {
-                    params.iter().map(|p| format!("`{p}`")).collect::<Vec<_>>().join(", ")
-                };
-                d.with_hint(format!(
-                    "in scope: the field `{field}`, the constant `pi`, and parameters: {list}"
-                ))
-                .with_hint(format!(
-                    "declare it with `--param {name}=VALUE`, or `{name} = VALUE` under [params] in a model file"
-                ))
-            }
+            } => unknown_name(self.span, name, suggestion.as_deref(), fields, params),
             Arity { name, expected, found } => {
                 let s = |n: usize| if n == 1 { "" } else { "s" };
                 Diagnostic::new(format!(
@@ -320,6 +405,31 @@ impl fmt::Display for NameError {
 
 impl std::error::Error for NameError {}
 
+/// The diagnostic of [`NameErrorKind::UnknownName`].
+fn unknown_name(span: Span, name: &str, suggestion: Option<&str>, fields: &[String], params: &[String]) -> Diagnostic {
+    let quoted = |names: &[String]| names.iter().map(|n| format!("`{n}`")).collect::<Vec<_>>().join(", ");
+    let (label, fields) = match fields {
+        [one] => ("not the field, a parameter or a constant", format!("the field `{one}`")),
+        several => (
+            "not a field, a parameter or a constant",
+            format!("the fields {}", quoted(several)),
+        ),
+    };
+    let mut d = Diagnostic::new(format!("unknown name `{name}`")).with_span(span, label);
+    if let Some(s) = suggestion {
+        d = d.with_hint(format!("did you mean `{s}`?"));
+    }
+    let list = if params.is_empty() {
+        "none".to_string()
+    } else {
+        quoted(params)
+    };
+    d.with_hint(format!("in scope: {fields}, the constant `pi`, and parameters: {list}"))
+        .with_hint(format!(
+            "declare it with `--param {name}=VALUE`, or `{name} = VALUE` under [params] in a model file"
+        ))
+}
+
 fn function_names() -> Vec<&'static str> {
     Func::ALL.iter().map(|f| f.name()).collect()
 }
@@ -329,7 +439,7 @@ fn function_names() -> Vec<&'static str> {
 pub struct Graph {
     nodes: Vec<Node>,
     index: HashMap<Node, Id>,
-    /// Whether each node depends on the field variable.
+    /// Whether each node depends on any field.
     varying: Vec<bool>,
     scope: Scope,
 }
@@ -365,7 +475,7 @@ impl Graph {
         self.nodes.is_empty()
     }
 
-    /// True if the node depends on the field variable.
+    /// True if the node depends on any field.
     pub fn is_varying(&self, id: Id) -> bool {
         self.varying[id.index()]
     }
@@ -388,7 +498,7 @@ impl Graph {
         }
         let id = Id(self.nodes.len() as u32);
         let varying = match node {
-            Node::Var => true,
+            Node::Var(_) => true,
             Node::Const(_) | Node::Param(_) => false,
             Node::Add(a, b) | Node::Sub(a, b) | Node::Mul(a, b) | Node::Div(a, b) | Node::Pow(a, b) => {
                 self.is_varying(a) || self.is_varying(b)
@@ -409,9 +519,15 @@ impl Graph {
         self.intern(Node::Const(v.to_bits()))
     }
 
-    /// The field variable.
+    /// The first field: the field, in a scope of one.
     pub fn var(&mut self) -> Id {
-        self.intern(Node::Var)
+        self.field_var(0)
+    }
+
+    /// The i-th field of the scope.
+    pub fn field_var(&mut self, i: usize) -> Id {
+        debug_assert!(i < self.scope.n_fields(), "ir: field {i} outside the scope");
+        self.intern(Node::Var(i as u32))
     }
 
     /// The i-th parameter.
@@ -610,8 +726,8 @@ impl Graph {
     }
 
     fn lower_name(&mut self, name: &str, span: Span) -> Result<Id, NameError> {
-        if name == self.scope.field {
-            return Ok(self.var());
+        if let Some(i) = self.scope.field_index(name) {
+            return Ok(self.field_var(i));
         }
         if let Some(i) = self.scope.param_index(name) {
             return Ok(self.param(i));
@@ -625,14 +741,14 @@ impl Graph {
                 span,
             });
         }
-        let mut known: Vec<&str> = vec![self.scope.field.as_str()];
+        let mut known: Vec<&str> = self.scope.fields.iter().map(String::as_str).collect();
         known.extend(self.scope.params.iter().map(String::as_str));
         known.extend(CONSTANTS.iter().map(|(n, _)| *n));
         Err(NameError {
             kind: NameErrorKind::UnknownName {
                 name: name.to_string(),
                 suggestion: closest(name, known).map(str::to_string),
-                field: self.scope.field.clone(),
+                fields: self.scope.fields.clone(),
                 params: self.scope.params.clone(),
             },
             span,
@@ -660,7 +776,7 @@ impl Graph {
             return Ok(self.pow(a, b));
         }
         let Some(f) = Func::from_name(name) else {
-            let is_variable = name == self.scope.field || self.scope.param_index(name).is_some();
+            let is_variable = self.scope.field_index(name).is_some() || self.scope.param_index(name).is_some();
             let mut names = function_names();
             names.extend(["ln", "pow"]);
             return Err(NameError {
@@ -696,7 +812,7 @@ impl Graph {
     /// The operands of a node.
     pub fn children(&self, id: Id) -> impl Iterator<Item = Id> {
         let (a, b) = match self.node(id) {
-            Node::Const(_) | Node::Var | Node::Param(_) => (None, None),
+            Node::Const(_) | Node::Var(_) | Node::Param(_) => (None, None),
             Node::Add(a, b) | Node::Sub(a, b) | Node::Mul(a, b) | Node::Div(a, b) | Node::Pow(a, b) => {
                 (Some(a), Some(b))
             }
@@ -712,23 +828,31 @@ impl Graph {
             .any(|id| matches!(self.node(id), Node::Func(Func::Abs, _)))
     }
 
-    /// Evaluates, node by node, everything under `root` at field value `x`; returns the first
-    /// (innermost) node whose value is not finite, with that value. A slow reference path for
-    /// diagnostics: "`log(phi - 1)` is NaN there".
+    /// Evaluates, node by node, everything under `root` at field value `x` (a scope of one
+    /// field); returns the first (innermost) node whose value is not finite, with that value. A
+    /// slow reference path for diagnostics: "`log(phi - 1)` is NaN there".
     pub fn first_non_finite(&self, root: Id, x: f64, params: &[f64]) -> Option<(Id, f64)> {
+        self.first_non_finite_at(root, std::slice::from_ref(&x), params)
+    }
+
+    /// [`Graph::first_non_finite`] at a point of field space, one value per field of the scope.
+    ///
+    /// # Panics
+    /// If `point` has fewer values than the scope has fields.
+    pub fn first_non_finite_at(&self, root: Id, point: &[f64], params: &[f64]) -> Option<(Id, f64)> {
         let mut val = vec![0.0; self.nodes.len()];
         for id in self.reachable(&[root]) {
             let v = |i: Id| val[i.index()];
             let y = match self.node(id) {
                 Node::Const(bits) => f64::from_bits(bits),
-                Node::Var => x,
+                Node::Var(i) => point[i as usize],
                 Node::Param(i) => params[i as usize],
                 Node::Add(a, b) => v(a) + v(b),
                 Node::Sub(a, b) => v(a) - v(b),
                 Node::Mul(a, b) => v(a) * v(b),
                 Node::Div(a, b) => v(a) / v(b),
                 Node::Neg(a) => -v(a),
-                Node::PowI(a, n) => crate::language::tape::powi(v(a), n),
+                Node::PowI(a, n) => elementary::powi(v(a), n),
                 Node::Pow(a, b) => v(a).powf(v(b)),
                 Node::Func(f, a) => f.apply(v(a)),
             };
@@ -740,26 +864,49 @@ impl Graph {
         None
     }
 
-    /// The symbolic derivative d/d(field), simplified by the same constructors.
+    /// The symbolic derivative d/d(field) with respect to the first field (the field, in a
+    /// scope of one), simplified by the same constructors: [`Graph::partial`] for field 0.
     pub fn derivative(&mut self, root: Id) -> Id {
+        self.partial(root, 0)
+    }
+
+    /// The symbolic partial derivative with respect to the field of index `field`, the others
+    /// held fixed, simplified by the same constructors.
+    ///
+    /// ```
+    /// use efold::{config::Limits, ir::{Graph, Scope}, syntax};
+    /// let mut g = Graph::new(Scope::with_fields(&["phi", "sigma"], &[]).unwrap());
+    /// let v = g.lower(&syntax::parse("phi^2*sigma + sin(sigma)", &Limits::default())?).unwrap();
+    /// let dv = g.partial(v, 1);
+    /// assert_eq!(g.print(dv), "phi^2 + cos(sigma)");
+    /// # Ok::<(), efold::syntax::SyntaxError>(())
+    /// ```
+    pub fn partial(&mut self, root: Id, field: usize) -> Id {
         let order = self.reachable(&[root]);
+        // Which nodes depend on this field: with one field, exactly the varying ones.
+        let mut depends = vec![false; self.nodes.len()];
         let mut d: HashMap<Id, Id> = HashMap::default();
         for id in order {
-            let dv = self.derivative_of(id, &d);
+            let n = self.node(id);
+            depends[id.index()] = n == Node::Var(field as u32) || self.children(id).any(|c| depends[c.index()]);
+            let dv = self.derivative_of(id, field, &depends, &d);
             d.insert(id, dv);
         }
         d[&root]
     }
 
-    /// One rule of differentiation; the operands' derivatives are in `d`.
-    fn derivative_of(&mut self, id: Id, d: &HashMap<Id, Id>) -> Id {
+    /// One rule of differentiation with respect to field `field`; the operands' derivatives are
+    /// in `d`, and `depends` tells which nodes depend on that field.
+    fn derivative_of(&mut self, id: Id, field: usize, depends: &[bool], d: &HashMap<Id, Id>) -> Id {
         let zero = self.constant(0.0);
-        if !self.is_varying(id) {
+        let dep = |i: Id| depends[i.index()];
+        if !dep(id) {
             return zero;
         }
         match self.node(id) {
             Node::Const(_) | Node::Param(_) => zero,
-            Node::Var => self.constant(1.0),
+            Node::Var(i) if i as usize == field => self.constant(1.0),
+            Node::Var(_) => zero,
             Node::Add(a, b) => self.add(d[&a], d[&b]),
             Node::Sub(a, b) => self.sub(d[&a], d[&b]),
             Node::Mul(a, b) => {
@@ -767,7 +914,7 @@ impl Graph {
                 let r = self.mul(a, d[&b]);
                 self.add(l, r)
             }
-            Node::Div(a, b) if !self.is_varying(b) => self.div(d[&a], b),
+            Node::Div(a, b) if !dep(b) => self.div(d[&a], b),
             Node::Div(a, b) => {
                 // (a' b - a b') / b^2
                 let l = self.mul(d[&a], b);
@@ -784,7 +931,7 @@ impl Graph {
                 self.mul(cp, d[&a])
             }
             Node::Pow(a, b) => {
-                if self.is_varying(b) {
+                if dep(b) {
                     // a^b (b' log a + b a'/a)
                     let la = self.func(Func::Log, a);
                     let t1 = self.mul(d[&b], la);
@@ -889,7 +1036,7 @@ impl Graph {
             Node::Neg(_) => 3,
             Node::Const(bits) if f64::from_bits(bits) < 0.0 => 3,
             Node::Pow(..) | Node::PowI(..) => 4,
-            Node::Const(_) | Node::Var | Node::Param(_) | Node::Func(..) => 5,
+            Node::Const(_) | Node::Var(_) | Node::Param(_) | Node::Func(..) => 5,
         }
     }
 
@@ -905,7 +1052,7 @@ impl Graph {
         };
         match self.node(id) {
             Node::Const(bits) => out.push_str(&format_number(f64::from_bits(bits))),
-            Node::Var => out.push_str(&self.scope.field),
+            Node::Var(i) => out.push_str(&self.scope.fields[i as usize]),
             Node::Param(i) => out.push_str(&self.scope.params[i as usize]),
             Node::Add(a, b) => bin(self, a, " + ", 1, b, 2, out),
             Node::Sub(a, b) => bin(self, a, " - ", 1, b, 2, out),
@@ -1036,5 +1183,57 @@ mod tests {
             let d = g.derivative(id);
             assert_eq!(g.print(d), want, "{src}");
         }
+    }
+
+    fn lowered_in(scope: Scope, src: &str) -> (Graph, Id) {
+        let mut g = Graph::new(scope);
+        let id = g.lower(&parse(src, &Limits::default()).unwrap()).unwrap();
+        (g, id)
+    }
+
+    #[test]
+    fn partials_by_rule_in_three_fields() {
+        let scope = Scope::with_fields(&["x", "y", "z"], &["a"]).unwrap();
+        let cases = [
+            ("x*y + z", ["y", "x", "1"]),
+            ("a*x^2*y^3", ["y^3*(a*(2*x))", "a*x^2*(3*y^2)", "0"]),
+            ("exp(x*z)", ["z*exp(x*z)", "0", "x*exp(x*z)"]),
+            ("x/y", ["1/y", "-x/y^2", "0"]),
+            ("y^z", ["0", "z*y^(z - 1)", "y^z*log(y)"]),
+            ("sin(y) + a", ["0", "cos(y)", "0"]),
+        ];
+        for (src, want) in cases {
+            let (mut g, id) = lowered_in(scope.clone(), src);
+            for (i, w) in want.iter().enumerate() {
+                let d = g.partial(id, i);
+                assert_eq!(g.print(d), *w, "d/d{} {src}", scope.fields[i]);
+            }
+        }
+    }
+
+    #[test]
+    fn derivative_is_the_partial_in_the_first_field() {
+        for src in ["phi^2*exp(-alpha*phi)", "tanh(phi/b)^2", "alpha", "phi^phi"] {
+            let (mut g, id) = lowered(src);
+            let (d, p) = (g.derivative(id), g.partial(id, 0));
+            assert_eq!(d, p, "{src}");
+        }
+    }
+
+    #[test]
+    fn varying_means_any_field() {
+        let (g, id) = lowered_in(Scope::with_fields(&["x", "y"], &["a"]).unwrap(), "a*y");
+        assert!(g.is_varying(id));
+        let (g, id) = lowered_in(Scope::with_fields(&["x", "y"], &["a"]).unwrap(), "sqrt(a) + pi");
+        assert!(!g.is_varying(id));
+    }
+
+    #[test]
+    fn first_non_finite_at_a_point_of_field_space() {
+        let (g, id) = lowered_in(Scope::with_fields(&["x", "y"], &[]).unwrap(), "x + log(y - 1)");
+        let (bad, v) = g.first_non_finite_at(id, &[2.0, 0.5], &[]).unwrap();
+        assert_eq!(g.print(bad), "log(y - 1)");
+        assert!(v.is_nan());
+        assert_eq!(g.first_non_finite_at(id, &[0.5, 2.0], &[]), None);
     }
 }

@@ -70,7 +70,7 @@ pub struct Expr {
 pub enum ExprKind {
     /// A numeric literal, with its value.
     Number(f64),
-    /// A name: the field, a parameter or a constant (resolved later).
+    /// A name: a field, a parameter or a constant (resolved later, against the scope).
     Ident(String),
     /// Unary minus.
     Neg(Box<Expr>),

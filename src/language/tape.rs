@@ -1,18 +1,23 @@
 //! Stage 3: the compiled evaluator.
 //!
 //! A [`Tape`] is the IR flattened into straight-line instructions over a register file, one
-//! register per node. Nodes that do not depend on the field (constants, parameters, and anything
-//! computed from them alone, such as `sqrt(6*alpha)`) are evaluated once, when parameters are
-//! bound; only the rest runs per point. Parameters are inputs, not folded constants: rebinding
+//! register per node. Nodes that do not depend on any field (constants, parameters, and
+//! anything computed from them alone, such as `sqrt(6*alpha)`) are evaluated once, when
+//! parameters are bound; only the rest runs per point. A point is a point of field space, one
+//! value per field of the scope; one field is the common case, and every entry point taking a
+//! bare `x` is the one-field form of one taking a point. Parameters are inputs, not folded constants: rebinding
 //! them costs one pass over the parameter-only part and no recompilation (see the benchmark
 //! `bind` in `benches/tape.rs` for the measurement behind this choice).
 //!
-//! Two evaluators share the tape: plain f64, at one point ([`Evaluator::eval`]) or at up to
-//! [`BATCH`] points at once ([`Evaluator::eval_batch`], the same bits, vectorised), and
-//! truncated Taylor series ([`Evaluator::eval_jet`]) up to order [`MAX_ORDER`], giving the
-//! function and its derivatives in one pass by the Taylor-mode recurrences of Griewank &
-//! Walther, *Evaluating Derivatives*, 2nd ed. (SIAM 2008), ch. 13. A [`Tape`] is immutable, `Send` and `Sync`; each thread makes
-//! its own [`Evaluator`], which owns the registers, so no evaluation allocates.
+//! Two evaluators share the tape: plain f64, at one point ([`Evaluator::eval`],
+//! [`Evaluator::eval_at`]) or at up to [`BATCH`] points at once ([`Evaluator::eval_batch`],
+//! [`Evaluator::eval_batch_at`] with one slice per field; the same bits, vectorised), and
+//! truncated Taylor series ([`Evaluator::eval_jet`], [`Evaluator::eval_jet_along`]: the series
+//! in t of f(p + t d) along a direction d) up to order [`MAX_ORDER`], giving the function and
+//! its derivatives in one pass by the Taylor-mode recurrences of Griewank & Walther,
+//! *Evaluating Derivatives*, 2nd ed. (SIAM 2008), ch. 13; the same recurrences serve every
+//! direction. A [`Tape`] is immutable, `Send` and `Sync`; each thread makes its own
+//! [`Evaluator`], which owns the registers, so no evaluation allocates.
 //!
 //! ```
 //! use efold::{compile::compile_one, ir::Scope};
@@ -26,14 +31,44 @@
 
 use crate::language::ir::{Func, Graph, Id, Node};
 use crate::numerics::elementary;
+/// x^n for a small integer n: the kernel now lives with the other elementary functions, which
+/// the IR's evaluator shares; kept here under its old path.
+pub use crate::numerics::elementary::powi;
 use std::fmt;
 
 /// Highest Taylor order the jet evaluator supports.
 pub const MAX_ORDER: usize = 8;
 /// Coefficients in a jet: orders 0 to [`MAX_ORDER`].
 pub const JET_LEN: usize = MAX_ORDER + 1;
-/// A truncated Taylor series: `c[k] = f^(k)(x) / k!`.
+/// A truncated Taylor series: `c[k] = f^(k)(x) / k!`; along a direction d of field space,
+/// the series in t of f(p + t d).
 pub type Jet = [f64; JET_LEN];
+
+/// The quotient a / b of two truncated Taylor series, to `order` (at most [`MAX_ORDER`];
+/// coefficients above it are zero): `c_k = (a_k - sum_{j<k} c_j b_{k-j}) / b_0`, the
+/// recurrence and the order of operations of the tape's own division, so a caller dividing
+/// jets gets the tape's bits. `b[0]` must not be zero (else infinities or NaN, as in f64).
+pub fn jet_div(a: &Jet, b: &Jet, order: usize) -> Jet {
+    div(a, b, order.min(MAX_ORDER))
+}
+
+/// The product a b of two truncated Taylor series, to `order` (at most [`MAX_ORDER`]), by the
+/// tape's convolution.
+pub fn jet_mul(a: &Jet, b: &Jet, order: usize) -> Jet {
+    mul(a, b, order.min(MAX_ORDER))
+}
+
+/// The series of the derivative a' (with respect to the series' variable), to `order`:
+/// `c_j = (j + 1) a_{j+1}`. Differentiating loses one order, so `order` is at most
+/// `MAX_ORDER - 1`, and at most one less than the order `a` is known to; coefficients above
+/// are zero.
+pub fn jet_derivative(a: &Jet, order: usize) -> Jet {
+    let mut c = [0.0; JET_LEN];
+    for j in 0..(order + 1).min(MAX_ORDER) {
+        c[j] = (j + 1) as f64 * a[j + 1];
+    }
+    c
+}
 
 /// One instruction; operands are register numbers, the destination is implied by position.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -79,10 +114,14 @@ pub struct Tape {
     /// Field-independent instructions; the i-th writes register `prologue_start + i`.
     prologue: Vec<Op>,
     prologue_start: u32,
-    /// The field's register, if the field is used.
+    /// The first field's register; field i is in register `var_reg + i` (whether the
+    /// expressions use it or not). Registers below hold values fixed per binding.
     var_reg: u32,
-    /// Field-dependent instructions; the i-th writes register `var_reg + 1 + i`.
+    /// Number of fields: the length of a point of field space.
+    n_fields: u32,
+    /// Field-dependent instructions; the i-th writes register `body_start + i`.
     body: Vec<Op>,
+    body_start: u32,
     outputs: Vec<u32>,
     has_abs: bool,
     /// Coefficient registers of the polynomial instructions.
@@ -108,7 +147,9 @@ impl Tape {
             prologue: Vec::new(),
             prologue_start: 0,
             var_reg: 0,
+            n_fields: graph.scope().n_fields() as u32,
             body: Vec::new(),
+            body_start: 0,
             outputs: Vec::new(),
             has_abs: false,
             poly_regs: Vec::new(),
@@ -123,9 +164,9 @@ impl Tape {
             reg[id.index()] = next;
             next += 1;
         }
-        // Then what depends on parameters alone, then the field, then the rest.
+        // Then what depends on parameters alone, then the fields, then the rest.
         tape.prologue_start = next;
-        let is_leaf = |n: Node| matches!(n, Node::Const(_) | Node::Param(_) | Node::Var);
+        let is_leaf = |n: Node| matches!(n, Node::Const(_) | Node::Param(_) | Node::Var(_));
         for &id in &order {
             let n = graph.node(id);
             if !is_leaf(n) && !graph.is_varying(id) {
@@ -135,11 +176,12 @@ impl Tape {
             }
         }
         tape.var_reg = next;
-        next += 1;
+        next += tape.n_fields;
+        tape.body_start = next;
         for &id in &order {
             let n = graph.node(id);
-            if n == Node::Var {
-                reg[id.index()] = tape.var_reg;
+            if let Node::Var(i) = n {
+                reg[id.index()] = tape.var_reg + i;
             } else if let Some((x, coeffs)) = polys.get(&id) {
                 let first = tape.poly_regs.len() as u32;
                 tape.poly_regs.extend(coeffs.iter().map(|c| reg[c.index()]));
@@ -172,6 +214,11 @@ impl Tape {
         self.outputs.len()
     }
 
+    /// Number of fields: the length of a point of field space.
+    pub fn n_fields(&self) -> usize {
+        self.n_fields as usize
+    }
+
     /// Instructions run per point (the parameter-only part runs once per binding).
     pub fn body_len(&self) -> usize {
         self.body.len()
@@ -194,6 +241,8 @@ impl Tape {
             lanes: vec![[0.0; BATCH]; self.n_regs],
             batch_len: 0,
             coeffs: vec![0.0; self.poly_regs.len()],
+            out: vec![0.0; self.outputs.len()],
+            jet_order: 0,
         };
         ev.set_params(params);
         ev
@@ -208,8 +257,8 @@ const MIN_POLY_TERMS: usize = 3;
 /// Largest degree handled as a polynomial instruction.
 pub const MAX_POLY_DEGREE: usize = 48;
 
-/// Finds maximal sums (Add/Sub/Neg trees) of monomials c x^k in the field x, with c free of
-/// the field, and adds nodes for their combined coefficients.
+/// Finds maximal sums (Add/Sub/Neg trees) of monomials c x^k in one field x, with c free of
+/// every field, and adds nodes for their combined coefficients.
 fn find_polynomials(g: &mut Graph, roots: &[Id]) -> Polys {
     let order = g.reachable(roots);
     // A sum node inside a larger sum is not a root of its own.
@@ -232,14 +281,16 @@ fn find_polynomials(g: &mut Graph, roots: &[Id]) -> Polys {
             continue;
         }
         let mut terms: Vec<(usize, bool, Factors)> = Vec::new();
-        if !monomials(g, id, false, &mut terms) || terms.len() < MIN_POLY_TERMS {
+        let mut field = None;
+        if !monomials(g, id, false, &mut field, &mut terms) || terms.len() < MIN_POLY_TERMS {
             continue;
         }
+        let Some(field) = field else { continue };
         let degree = terms.iter().map(|t| t.0).max().unwrap_or(0);
         if !(2..=MAX_POLY_DEGREE).contains(&degree) {
             continue;
         }
-        let x = g.var();
+        let x = g.field_var(field as usize);
         let zero = g.constant(0.0);
         let one = g.constant(1.0);
         let mut coeffs = vec![zero; degree + 1];
@@ -265,30 +316,38 @@ fn find_polynomials(g: &mut Graph, roots: &[Id]) -> Polys {
 /// A monomial's coefficient: a product of field-free factors, each multiplied or divided.
 type Factors = Vec<(Id, bool)>;
 
-/// Collects the monomials of a sum: (degree, negated, coefficient factors).
-fn monomials(g: &Graph, id: Id, negative: bool, terms: &mut Vec<(usize, bool, Factors)>) -> bool {
+/// Collects the monomials of a sum: (degree, negated, coefficient factors); every monomial
+/// must be in the same field, which `field` records.
+fn monomials(
+    g: &Graph,
+    id: Id,
+    negative: bool,
+    field: &mut Option<u32>,
+    terms: &mut Vec<(usize, bool, Factors)>,
+) -> bool {
     if !g.is_varying(id) {
         terms.push((0, negative, vec![(id, false)]));
         return true;
     }
     match g.node(id) {
-        Node::Add(a, b) => monomials(g, a, negative, terms) && monomials(g, b, negative, terms),
-        Node::Sub(a, b) => monomials(g, a, negative, terms) && monomials(g, b, !negative, terms),
-        Node::Neg(a) => monomials(g, a, !negative, terms),
+        Node::Add(a, b) => monomials(g, a, negative, field, terms) && monomials(g, b, negative, field, terms),
+        Node::Sub(a, b) => monomials(g, a, negative, field, terms) && monomials(g, b, !negative, field, terms),
+        Node::Neg(a) => monomials(g, a, !negative, field, terms),
         _ => match monomial(g, id) {
-            Some((k, factors)) => {
+            Some((i, k, factors)) if *field.get_or_insert(i) == i => {
                 terms.push((k, negative, factors));
                 true
             }
-            None => false,
+            _ => false,
         },
     }
 }
 
-/// c x^k as (k, factors of c), through products and quotients by field-free nodes.
-fn monomial(g: &Graph, id: Id) -> Option<(usize, Factors)> {
-    if let Some(k) = power_of_var(g, id) {
-        return Some((k, Vec::new()));
+/// c x^k as (the field x, k, factors of c), through products and quotients by field-free
+/// nodes.
+fn monomial(g: &Graph, id: Id) -> Option<(u32, usize, Factors)> {
+    if let Some((i, k)) = power_of_var(g, id) {
+        return Some((i, k, Vec::new()));
     }
     match g.node(id) {
         Node::Mul(a, b) => {
@@ -299,26 +358,30 @@ fn monomial(g: &Graph, id: Id) -> Option<(usize, Factors)> {
             } else {
                 return None;
             };
-            let (k, mut f) = monomial(g, m)?;
+            let (i, k, mut f) = monomial(g, m)?;
             f.push((c, false));
-            Some((k, f))
+            Some((i, k, f))
         }
         Node::Div(m, c) if !g.is_varying(c) => {
-            let (k, mut f) = monomial(g, m)?;
+            let (i, k, mut f) = monomial(g, m)?;
             f.push((c, true));
-            Some((k, f))
+            Some((i, k, f))
         }
         _ => None,
     }
 }
 
-/// k if the node is the field to a non-negative integer power k.
-fn power_of_var(g: &Graph, id: Id) -> Option<usize> {
+/// (i, k) if the node is field i to a non-negative integer power k.
+fn power_of_var(g: &Graph, id: Id) -> Option<(u32, usize)> {
+    let field = |a: Id| match g.node(a) {
+        Node::Var(i) => Some(i),
+        _ => None,
+    };
     match g.node(id) {
-        Node::Var => Some(1),
-        Node::PowI(a, k) if k >= 0 && g.node(a) == Node::Var => Some(k as usize),
-        Node::Pow(a, e) if g.node(a) == Node::Var => match g.constant_value(e) {
-            Some(k) if k >= 0.0 && k.fract() == 0.0 && k <= MAX_POLY_DEGREE as f64 => Some(k as usize),
+        Node::Var(i) => Some((i, 1)),
+        Node::PowI(a, k) if k >= 0 => Some((field(a)?, k as usize)),
+        Node::Pow(a, e) => match g.constant_value(e) {
+            Some(k) if k >= 0.0 && k.fract() == 0.0 && k <= MAX_POLY_DEGREE as f64 => Some((field(a)?, k as usize)),
             _ => None,
         },
         _ => None,
@@ -360,7 +423,7 @@ fn op_of(n: Node, reg: &[u32]) -> Op {
         Node::PowI(a, k) => Op::PowI(r(a), k),
         Node::Pow(a, b) => Op::Pow(r(a), r(b)),
         Node::Func(f, a) => Op::Func(f, r(a)),
-        Node::Const(_) | Node::Param(_) | Node::Var => unreachable!("tape: leaves have no op"),
+        Node::Const(_) | Node::Param(_) | Node::Var(_) => unreachable!("tape: leaves have no op"),
     }
 }
 
@@ -508,41 +571,6 @@ fn poly_f64(c: &[f64], x: f64) -> f64 {
     even + x * odd
 }
 
-/// x^n for a small integer n; the one definition the folder, the tape and the jets share.
-#[inline(always)]
-pub fn powi(x: f64, n: i32) -> f64 {
-    if n < 0 {
-        return 1.0 / powi(x, -n);
-    }
-    // Binary powering, unrolled for the exponents the IR keeps (|n| <= MAX_POWI = 16).
-    let x2 = x * x;
-    match n {
-        0 => 1.0,
-        1 => x,
-        2 => x2,
-        3 => x2 * x,
-        4 => x2 * x2,
-        5 => x2 * x2 * x,
-        6 => x2 * x2 * x2,
-        7 => x2 * x2 * x2 * x,
-        8 => {
-            let x4 = x2 * x2;
-            x4 * x4
-        }
-        _ => {
-            let (mut acc, mut base, mut e) = (1.0, x, n as u32);
-            while e > 0 {
-                if e & 1 == 1 {
-                    acc *= base;
-                }
-                base *= base;
-                e >>= 1;
-            }
-            acc
-        }
-    }
-}
-
 /// Points evaluated together by [`Evaluator::eval_batch`].
 pub const BATCH: usize = 16;
 /// One register of the batch evaluator: a value per point.
@@ -560,6 +588,11 @@ pub struct Evaluator<'t> {
     batch_len: usize,
     /// Polynomial coefficients, contiguous, refreshed with the parameters.
     coeffs: Vec<f64>,
+    /// One value per output: the point handed to `eval_each`'s callback.
+    out: Vec<f64>,
+    /// Highest order the per-point jet registers may hold non-zero coefficients to (the
+    /// instructions write only up to the order they run at).
+    jet_order: usize,
 }
 
 impl Evaluator<'_> {
@@ -588,16 +621,41 @@ impl Evaluator<'_> {
         }
     }
 
-    /// Evaluates every output at `x`; returns the first.
+    /// Evaluates every output at `x`; returns the first. For a tape of one field (on a tape of
+    /// several, `x` is the first field and the others keep their last values).
     #[inline]
     pub fn eval(&mut self, x: f64) -> f64 {
         let t = self.tape;
         self.regs[t.var_reg as usize] = x;
-        run_f64(&t.body, &mut self.regs, t.var_reg as usize + 1, &self.coeffs);
+        run_f64(&t.body, &mut self.regs, t.body_start as usize, &self.coeffs);
         self.regs[t.outputs[0] as usize]
     }
 
-    /// Output `i` of the last [`Evaluator::eval`].
+    /// Evaluates every output at a point of field space (one value per field, in scope order);
+    /// returns the first. With one field, `eval_at(&[x])` is [`Evaluator::eval`]`(x)`.
+    ///
+    /// # Panics
+    /// If `point.len()` differs from [`Tape::n_fields`]: a programming error, not bad input.
+    ///
+    /// ```
+    /// use efold::{compile::compile_one, ir::Scope};
+    /// let scope = Scope::with_fields(&["phi", "sigma"], &["m"]).unwrap();
+    /// let f = compile_one("m^2*phi^2/2 + sigma^4", &scope)?;
+    /// let mut ev = f.tape.evaluator(&[2.0]);
+    /// assert_eq!(ev.eval_at(&[1.0, 3.0]), 2.0 + 81.0);
+    /// # Ok::<(), efold::compile::ExprError>(())
+    /// ```
+    #[inline]
+    pub fn eval_at(&mut self, point: &[f64]) -> f64 {
+        let t = self.tape;
+        assert_eq!(point.len(), t.n_fields as usize, "tape: point of the wrong dimension");
+        let v = t.var_reg as usize;
+        self.regs[v..v + point.len()].copy_from_slice(point);
+        run_f64(&t.body, &mut self.regs, t.body_start as usize, &self.coeffs);
+        self.regs[t.outputs[0] as usize]
+    }
+
+    /// Output `i` of the last [`Evaluator::eval`] or [`Evaluator::eval_at`].
     #[inline]
     pub fn output(&self, i: usize) -> f64 {
         self.regs[self.tape.outputs[i] as usize]
@@ -608,10 +666,11 @@ impl Evaluator<'_> {
     /// [`Evaluator::eval`], so the results are bit-identical to evaluating point by point;
     /// running each instruction over all the points spreads its dispatch over them and lets
     /// the arithmetic vectorise. Callers with more points chunk them (see
-    /// [`Evaluator::eval_each`]).
+    /// [`Evaluator::eval_each`]). For a tape of one field; [`Evaluator::eval_batch_at`] takes
+    /// points of several.
     ///
     /// # Panics
-    /// If `xs` is empty or longer than [`BATCH`].
+    /// If `xs` is empty or longer than [`BATCH`], or the tape has several fields.
     ///
     /// ```
     /// use efold::{compile::compile_one, ir::Scope};
@@ -623,18 +682,65 @@ impl Evaluator<'_> {
     /// # Ok::<(), efold::compile::ExprError>(())
     /// ```
     pub fn eval_batch(&mut self, xs: &[f64]) {
-        assert!(
-            !xs.is_empty() && xs.len() <= BATCH,
-            "tape: batch of {} points",
-            xs.len()
+        self.eval_batch_at(std::slice::from_ref(&xs));
+    }
+
+    /// [`Evaluator::eval_batch`] at up to [`BATCH`] points of field space, given as structure
+    /// of arrays: `fields[i][j]` is field i at point j, one slice per field (in scope order),
+    /// all of the same length. Bit-identical to [`Evaluator::eval_at`] point by point.
+    ///
+    /// # Panics
+    /// If there is not one slice per field, the slices differ in length, or their length is
+    /// zero or above [`BATCH`].
+    ///
+    /// ```
+    /// use efold::{compile::compile_one, ir::Scope};
+    /// let scope = Scope::with_fields(&["x", "y"], &[]).unwrap();
+    /// let f = compile_one("x*y + y", &scope)?;
+    /// let mut ev = f.tape.evaluator(&[]);
+    /// ev.eval_batch_at(&[&[1.0, 2.0, 3.0], &[10.0, 20.0, 30.0]]);
+    /// assert_eq!(ev.batch_output(0), &[20.0, 60.0, 120.0]);
+    /// # Ok::<(), efold::compile::ExprError>(())
+    /// ```
+    pub fn eval_batch_at(&mut self, fields: &[&[f64]]) {
+        let len = self.check_points(fields);
+        assert!(len > 0 && len <= BATCH, "tape: batch of {len} points");
+        for (i, xs) in fields.iter().enumerate() {
+            self.load_lanes(i, xs);
+        }
+        self.run_batch(len);
+    }
+
+    /// The number of points in `fields`, one slice per field of the tape, all of one length.
+    fn check_points(&self, fields: &[&[f64]]) -> usize {
+        assert_eq!(
+            fields.len(),
+            self.tape.n_fields as usize,
+            "tape: points of the wrong dimension"
         );
-        let t = self.tape;
+        let len = fields[0].len();
+        assert!(
+            fields.iter().all(|xs| xs.len() == len),
+            "tape: fields of a batch differ in length"
+        );
+        len
+    }
+
+    /// Field `i` of up to [`BATCH`] points (at least one) into its lanes.
+    #[inline]
+    fn load_lanes(&mut self, i: usize, xs: &[f64]) {
         // Unused lanes repeat the last point: computed and ignored.
         let mut x = [xs[xs.len() - 1]; BATCH];
         x[..xs.len()].copy_from_slice(xs);
-        self.lanes[t.var_reg as usize] = x;
-        run_lanes(&t.body, &mut self.lanes, t.var_reg as usize + 1, &self.coeffs);
-        self.batch_len = xs.len();
+        self.lanes[self.tape.var_reg as usize + i] = x;
+    }
+
+    /// Runs the body over the loaded lanes, `len` of them in use.
+    #[inline]
+    fn run_batch(&mut self, len: usize) {
+        let t = self.tape;
+        run_lanes(&t.body, &mut self.lanes, t.body_start as usize, &self.coeffs);
+        self.batch_len = len;
     }
 
     /// Output `i` of the last [`Evaluator::eval_batch`], one value per point.
@@ -644,10 +750,8 @@ impl Evaluator<'_> {
     }
 
     /// Evaluates at every point of `xs`, in batches of [`BATCH`], calling `each(i, outputs)`
-    /// with the point's index in `xs` and the values of every output there.
-    ///
-    /// # Panics
-    /// If the tape has more than eight outputs (a model's tape has four).
+    /// with the point's index in `xs` and the values of every output there (any number of
+    /// outputs). For a tape of one field; [`Evaluator::eval_each_at`] takes several.
     ///
     /// ```
     /// use efold::{compile::compile_one, ir::Scope};
@@ -660,22 +764,43 @@ impl Evaluator<'_> {
     /// # Ok::<(), efold::compile::ExprError>(())
     /// ```
     pub fn eval_each(&mut self, xs: &[f64], mut each: impl FnMut(usize, &[f64])) {
-        let n_out = self.tape.outputs.len();
-        let mut vals = [0.0; 8];
-        assert!(n_out <= vals.len(), "tape: eval_each supports up to 8 outputs");
         for (c, chunk) in xs.chunks(BATCH).enumerate() {
             self.eval_batch(chunk);
-            for j in 0..chunk.len() {
-                for (o, v) in vals[..n_out].iter_mut().enumerate() {
-                    *v = self.lanes[self.tape.outputs[o] as usize][j];
-                }
-                each(c * BATCH + j, &vals[..n_out]);
+            self.each_output(c * BATCH, &mut each);
+        }
+    }
+
+    /// Hands every point of the last batch to `each`, numbered from `first`.
+    #[inline]
+    fn each_output(&mut self, first: usize, each: &mut impl FnMut(usize, &[f64])) {
+        for j in 0..self.batch_len {
+            for (v, &r) in self.out.iter_mut().zip(&self.tape.outputs) {
+                *v = self.lanes[r as usize][j];
             }
+            each(first + j, &self.out);
+        }
+    }
+
+    /// [`Evaluator::eval_each`] over points of field space given as structure of arrays (one
+    /// slice per field, all of the same length, any length), in batches of [`BATCH`].
+    ///
+    /// # Panics
+    /// If there is not one slice per field or the slices differ in length.
+    pub fn eval_each_at(&mut self, fields: &[&[f64]], mut each: impl FnMut(usize, &[f64])) {
+        let len = self.check_points(fields);
+        for start in (0..len).step_by(BATCH) {
+            let end = (start + BATCH).min(len);
+            for (i, xs) in fields.iter().enumerate() {
+                self.load_lanes(i, &xs[start..end]);
+            }
+            self.run_batch(end - start);
+            self.each_output(start, &mut each);
         }
     }
 
     /// Evaluates every output as a Taylor series to `order` (at most [`MAX_ORDER`]) at `x`;
-    /// returns the first output's coefficients. Coefficients above `order` are left zero.
+    /// returns the first output's coefficients. Coefficients above `order` are left zero. For a
+    /// tape of one field: the direction e_0 of [`Evaluator::eval_jet_along`].
     ///
     /// # Panics
     /// If `order > MAX_ORDER`.
@@ -688,6 +813,57 @@ impl Evaluator<'_> {
             seed[1] = 1.0;
         }
         self.jets[t.var_reg as usize] = seed;
+        self.run_jet(order)
+    }
+
+    /// Every output as a Taylor series in t of f(p + t d), to `order` (at most
+    /// [`MAX_ORDER`]), for a point `p` and a direction `d` in field space: `c[k]` is the k-th
+    /// directional derivative along d divided by k!. Returns the first output's coefficients;
+    /// read the others with [`Evaluator::jet_output`]. Mixed partial derivatives follow from
+    /// several directions (polarisation); the gradient from the unit directions.
+    ///
+    /// # Panics
+    /// If `order > MAX_ORDER`, or `point` or `direction` is not of the tape's dimension.
+    ///
+    /// ```
+    /// use efold::{compile::compile_one, ir::Scope};
+    /// let scope = Scope::with_fields(&["x", "y"], &[]).unwrap();
+    /// let f = compile_one("x^2*y", &scope)?;
+    /// let mut ev = f.tape.evaluator(&[]);
+    /// // d/dt (1 + t)^2 (2 + t) at t = 0: 2*1*2 + 1 = 5
+    /// assert_eq!(ev.eval_jet_along(&[1.0, 2.0], &[1.0, 1.0], 1)[1], 5.0);
+    /// # Ok::<(), efold::compile::ExprError>(())
+    /// ```
+    pub fn eval_jet_along(&mut self, point: &[f64], direction: &[f64], order: usize) -> &Jet {
+        assert!(order <= MAX_ORDER, "tape: jet order above {MAX_ORDER}");
+        let t = self.tape;
+        let n = t.n_fields as usize;
+        assert!(
+            point.len() == n && direction.len() == n,
+            "tape: point or direction of the wrong dimension"
+        );
+        for i in 0..n {
+            let mut seed = [0.0; JET_LEN];
+            seed[0] = point[i];
+            if order >= 1 {
+                seed[1] = direction[i];
+            }
+            self.jets[t.var_reg as usize + i] = seed;
+        }
+        self.run_jet(order)
+    }
+
+    /// Runs the body on the seeded jets, truncated at `order`.
+    fn run_jet(&mut self, order: usize) -> &Jet {
+        let t = self.tape;
+        if self.jet_order > order {
+            // A run at a higher order left coefficients above this one: clear them once, so
+            // that coefficients above `order` read as zero.
+            for j in &mut self.jets[t.body_start as usize..] {
+                j[order + 1..].fill(0.0);
+            }
+        }
+        self.jet_order = order;
         let run = match order {
             0 => run_jets::<0>,
             1 => run_jets::<1>,
@@ -699,11 +875,18 @@ impl Evaluator<'_> {
             7 => run_jets::<7>,
             _ => run_jets::<8>,
         };
-        run(&t.body, &mut self.jets, t.var_reg as usize, &t.poly_regs);
+        run(
+            &t.body,
+            &mut self.jets,
+            t.var_reg as usize,
+            t.body_start as usize,
+            &t.poly_regs,
+        );
         &self.jets[t.outputs[0] as usize]
     }
 
-    /// Output `i` of the last [`Evaluator::eval_jet`], as Taylor coefficients.
+    /// Output `i` of the last [`Evaluator::eval_jet`] or [`Evaluator::eval_jet_along`], as
+    /// Taylor coefficients.
     pub fn jet_output(&self, i: usize) -> &Jet {
         &self.jets[self.tape.outputs[i] as usize]
     }
@@ -714,14 +897,22 @@ impl Evaluator<'_> {
         let jet = *self.eval_jet(x, order);
         taylor_to_derivatives(&jet, order)
     }
+
+    /// The first output and its directional derivatives `f, D_d f, ..., D_d^order f` at
+    /// `point` along `direction` (allocates the result).
+    pub fn derivatives_along(&mut self, point: &[f64], direction: &[f64], order: usize) -> Vec<f64> {
+        let jet = *self.eval_jet_along(point, direction, order);
+        taylor_to_derivatives(&jet, order)
+    }
 }
 
-/// Runs the per-point instructions on jets truncated at order `N`; a constant order lets the
-/// compiler unroll every recurrence.
-fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize, poly: &[u32]) {
+/// Runs the per-point instructions on jets truncated at order `N`, the i-th writing register
+/// `start + i`; registers below `var_reg` hold constants. A constant order lets the compiler
+/// unroll every recurrence.
+fn run_jets<const N: usize>(body: &[Op], jets: &mut [Jet], var_reg: usize, start: usize, poly: &[u32]) {
     for (i, op) in body.iter().enumerate() {
         // Operands always precede the destination: split there and write in place.
-        let (src, dst) = jets.split_at_mut(var_reg + 1 + i);
+        let (src, dst) = jets.split_at_mut(start + i);
         let out = &mut dst[0];
         match *op {
             Op::Add(a, b) => zip_into::<N>(&src[a as usize], &src[b as usize], out, |x, y| x + y),
@@ -1151,7 +1342,13 @@ impl fmt::Display for Tape {
             writeln!(f, "r{} = {}", self.prologue_start as usize + i, op_text(op))?;
         }
         writeln!(f, "; per point")?;
-        writeln!(f, "r{} = field", self.var_reg)?;
+        if self.n_fields == 1 {
+            writeln!(f, "r{} = field", self.var_reg)?;
+        } else {
+            for i in 0..self.n_fields {
+                writeln!(f, "r{} = field #{i}", self.var_reg + i)?;
+            }
+        }
         for (i, op) in self.body.iter().enumerate() {
             let text = match *op {
                 Op::Poly { x, first, degree } => {
@@ -1163,7 +1360,7 @@ impl fmt::Display for Tape {
                 }
                 _ => op_text(op),
             };
-            writeln!(f, "r{} = {text}", self.var_reg as usize + 1 + i)?;
+            writeln!(f, "r{} = {text}", self.body_start as usize + i)?;
         }
         let outs: Vec<String> = self.outputs.iter().map(|r| format!("r{r}")).collect();
         writeln!(f, "outputs: {}", outs.join(", "))
@@ -1262,7 +1459,7 @@ mod tests {
         ev.eval_batch(&xs[..BATCH]);
         let mut lanes = ev.lanes.clone();
         let t = &c.tape;
-        run_lanes_portable(&t.body, &mut lanes, t.var_reg as usize + 1, &ev.coeffs);
+        run_lanes_portable(&t.body, &mut lanes, t.body_start as usize, &ev.coeffs);
         for r in 0..t.n_regs {
             for j in 0..BATCH {
                 assert_eq!(lanes[r][j].to_bits(), ev.lanes[r][j].to_bits(), "register {r}");
@@ -1307,5 +1504,84 @@ mod tests {
         for k in 0..MAX_ORDER + 1 {
             assert!((t[k] - want[k]).abs() < 1e-15, "order {k}: {} vs {}", t[k], want[k]);
         }
+    }
+
+    /// The public jet arithmetic is the tape's own: dividing the jets of two expressions gives
+    /// the bits of the jet of their quotient compiled as one tape, and likewise the product.
+    #[test]
+    fn public_jet_arithmetic_is_the_tapes() {
+        use crate::config::Limits;
+        use crate::language::compile::compile;
+        use crate::language::ir::Scope;
+        let scope = Scope::new("x", &[]);
+        let exprs = [
+            ("f", "exp(x) + x^3"),
+            ("g", "2 + sin(x)"),
+            ("q", "(exp(x) + x^3)/(2 + sin(x))"),
+        ];
+        let c = compile(&exprs, &scope, &Limits::default()).unwrap();
+        let p = compile(&[("p", "(exp(x) + x^3)*(2 + sin(x))")], &scope, &Limits::default()).unwrap();
+        let mut ev = c.tape.evaluator(&[]);
+        let mut evp = p.tape.evaluator(&[]);
+        for order in [0, 3, MAX_ORDER] {
+            ev.eval_jet(0.3, order);
+            let (f, g, q) = (*ev.jet_output(0), *ev.jet_output(1), *ev.jet_output(2));
+            assert_eq!(
+                jet_div(&f, &g, order).map(f64::to_bits),
+                q.map(f64::to_bits),
+                "order {order}"
+            );
+            let prod = *evp.eval_jet(0.3, order);
+            assert_eq!(
+                jet_mul(&f, &g, order).map(f64::to_bits),
+                prod.map(f64::to_bits),
+                "order {order}"
+            );
+        }
+        // The derivative of a series: sum (k+1) x^k has derivative sum (k+1)(k+2) x^(k+1-1),
+        // one order less; exact in integers.
+        let a: Jet = std::array::from_fn(|k| (k + 1) as f64);
+        let d = jet_derivative(&a, MAX_ORDER);
+        for k in 0..MAX_ORDER {
+            assert_eq!(d[k], ((k + 1) * (k + 2)) as f64, "order {k}");
+        }
+        assert_eq!(d[MAX_ORDER], 0.0);
+        assert_eq!(jet_derivative(&a, 2)[3..], [0.0; JET_LEN - 3]);
+    }
+
+    /// A polynomial in a field other than the first is one instruction too; monomials of two
+    /// fields in one sum are not a polynomial.
+    #[test]
+    fn polynomials_in_any_one_field() {
+        use crate::language::compile::compile_one;
+        use crate::language::ir::Scope;
+        let scope = Scope::with_fields(&["x", "y"], &["a"]).unwrap();
+        let polys = |src: &str| {
+            let c = compile_one(src, &scope).unwrap();
+            c.tape.body.iter().filter(|op| matches!(op, Op::Poly { .. })).count()
+        };
+        assert_eq!(polys("1 + 2*y + 3*y^2/a"), 1);
+        assert_eq!(polys("exp(x)*(1 + y + y^2/2 + y^3/6)"), 1);
+        assert_eq!(polys("1 + x + x^2 + y"), 0);
+        assert_eq!(polys("x + y + x^2*y"), 0);
+    }
+
+    /// The `--emit tape` view names each field's register; with one field it reads as before.
+    #[test]
+    fn listing_shows_every_field() {
+        use crate::language::compile::compile_one;
+        use crate::language::ir::Scope;
+        let two = compile_one("x*y + 1", &Scope::with_fields(&["x", "y"], &[]).unwrap()).unwrap();
+        let text = two.tape.to_string();
+        assert!(
+            text.contains("r1 = field #0\nr2 = field #1\nr3 = mul r1 r2\n"),
+            "{text}"
+        );
+        let one = compile_one("x*x + 1", &Scope::new("x", &[])).unwrap();
+        assert!(
+            one.tape.to_string().contains("; per point\nr1 = field\n"),
+            "{}",
+            one.tape
+        );
     }
 }

@@ -140,7 +140,7 @@ impl Model {
 
     /// The field's name.
     pub fn field(&self) -> &str {
-        &self.scope.field
+        self.scope.field()
     }
 
     /// Parameter names and values.

@@ -14,6 +14,9 @@
 //! the normal range; tanh within 2.5 ulp, and within 1 ulp beyond |x| = 1 where it nears 1.
 //! Below the normal range exp rounds once into the subnormals.
 //!
+//! [`powi`], integer powers by binary powering, lives here too: the IR's reference evaluator,
+//! the tape and the jets share it.
+//!
 //! ```
 //! use efold::numerics::elementary::{exp, tanh};
 //! assert!((exp(1.0) - std::f64::consts::E).abs() <= f64::EPSILON * 3.0);
@@ -126,6 +129,42 @@ pub fn tanh(x: f64) -> f64 {
     let d = num / den;
     let t = if small { d } else { 1.0 - d };
     t.copysign(x)
+}
+
+/// x^n for a small integer n by binary powering; the one definition the IR's constant folder,
+/// the tape and the jets share, so a folded power has the evaluator's bits. Exponents of the
+/// size the IR keeps as integer powers (|n| <= `ir::MAX_POWI` = 16) are unrolled.
+#[inline(always)]
+pub fn powi(x: f64, n: i32) -> f64 {
+    if n < 0 {
+        return 1.0 / powi(x, -n);
+    }
+    let x2 = x * x;
+    match n {
+        0 => 1.0,
+        1 => x,
+        2 => x2,
+        3 => x2 * x,
+        4 => x2 * x2,
+        5 => x2 * x2 * x,
+        6 => x2 * x2 * x2,
+        7 => x2 * x2 * x2 * x,
+        8 => {
+            let x4 = x2 * x2;
+            x4 * x4
+        }
+        _ => {
+            let (mut acc, mut base, mut e) = (1.0, x, n as u32);
+            while e > 0 {
+                if e & 1 == 1 {
+                    acc *= base;
+                }
+                base *= base;
+                e >>= 1;
+            }
+            acc
+        }
+    }
 }
 
 #[cfg(test)]

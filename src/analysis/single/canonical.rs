@@ -4,7 +4,7 @@
 
 use crate::analysis::single::domain::sqrt_k_batch;
 use crate::config::Config;
-use crate::language::tape::{Evaluator, Jet, JET_LEN};
+use crate::language::tape::{jet_derivative, jet_div, Evaluator, Jet};
 use crate::model::{Layout, Model};
 use crate::numerics::quad::{gauss_kronrod_batch, tanh_sinh};
 use crate::numerics::roots::safeguarded_newton;
@@ -42,27 +42,14 @@ pub fn chi_derivatives_normalised(ev: &mut Evaluator<'_>, phi: f64, order: usize
 }
 
 /// The chain rule on truncated Taylor series: W_0 = V, W_{k+1} = (d W_k / d phi) / s, each
-/// step losing one order.
+/// step losing one order; the tape's own jet arithmetic ([`jet_derivative`], [`jet_div`]).
 pub fn chain_rule(v: &Jet, s: &Jet, order: usize) -> [f64; 5] {
     let mut out = [0.0; 5];
     let mut w = *v;
     out[0] = w[0];
     for k in 1..order.min(4) + 1 {
         let n = order - k; // orders left after this derivative
-        let mut d = [0.0; JET_LEN];
-        for j in 0..n + 1 {
-            d[j] = (j + 1) as f64 * w[j + 1];
-        }
-        // divide by s, truncated at order n
-        let mut q = [0.0; JET_LEN];
-        for j in 0..n + 1 {
-            let mut acc = d[j];
-            for i in 0..j {
-                acc -= q[i] * s[j - i];
-            }
-            q[j] = acc / s[0];
-        }
-        w = q;
+        w = jet_div(&jet_derivative(&w, n), s, n);
         out[k] = w[0];
     }
     out
@@ -174,6 +161,7 @@ impl<'m> CanonicalMap<'m> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::language::tape::JET_LEN;
 
     #[test]
     fn chain_rule_on_a_canonical_field_is_plain_differentiation() {
