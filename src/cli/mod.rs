@@ -9,11 +9,19 @@
 //! | 2 | bad input (an expression, a flag, a file, a size beyond its limit, a value outside its
 //! range), an output that cannot be written, or a numerical failure |
 
+//!
+//! The layout: `args` holds every command's arguments (shared groups flattened in),
+//! `check` the checks of flag values that run before any work, `load` the one loading layer
+//! (a model from a file or flags, the data set, the N_* list), `files` the output files, and
+//! `commands` one module a command, each a function from its arguments to the text to print.
+
+use crate::analysis::error::AnalysisError;
 use crate::config::Config;
 use crate::diag::Diagnostic;
 use crate::language::compile::ExprError;
+use crate::model::ModelError;
+use crate::report::output::WriteError;
 use clap::{Parser, Subcommand};
-use std::fmt::Write as _;
 use std::process::ExitCode;
 
 mod args;
@@ -22,11 +30,11 @@ mod commands;
 mod files;
 mod load;
 
-pub use args::*;
-pub(crate) use check::*;
-pub(crate) use commands::*;
-pub(crate) use files::*;
-pub(crate) use load::*;
+pub use args::{
+    CompileArgs, DataArgs, EfoldsArgs, Emit, EvalArgs, FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs,
+    GoldenCheckArgs, GoldenWriteArgs, InspectArgs, MergeArgs, Method, ModelArgs, OutArgs, PredictArgs, ScanArgs,
+    ScanFormat, ScopeArgs, SpectrumArgs, SpectrumFormat, TableFormat, WatchArgs,
+};
 
 /// efold: from a potential and a kinetic function to inflationary predictions.
 #[derive(Debug, Parser)]
@@ -95,14 +103,14 @@ impl From<ExprError> for Failure {
     }
 }
 
-impl From<crate::model::ModelError> for Failure {
-    fn from(e: crate::model::ModelError) -> Failure {
+impl From<ModelError> for Failure {
+    fn from(e: ModelError) -> Failure {
         Failure::input(e.render())
     }
 }
 
-impl From<crate::analysis::error::AnalysisError> for Failure {
-    fn from(e: crate::analysis::error::AnalysisError) -> Failure {
+impl From<AnalysisError> for Failure {
+    fn from(e: AnalysisError) -> Failure {
         Failure::input(e.diagnostic().render(None))
     }
 }
@@ -113,15 +121,15 @@ impl From<Diagnostic> for Failure {
     }
 }
 
-impl From<crate::report::output::WriteError> for Failure {
-    fn from(e: crate::report::output::WriteError) -> Failure {
+impl From<WriteError> for Failure {
+    fn from(e: WriteError) -> Failure {
         match e {
             // The reader went away: stop quietly, as a filter does.
-            crate::report::output::WriteError::Closed => Failure {
+            WriteError::Closed => Failure {
                 message: String::new(),
                 code: 0,
             },
-            crate::report::output::WriteError::Failed(m) => Diagnostic::new(m)
+            WriteError::Failed(m) => Diagnostic::new(m)
                 .with_hint("check the disk or device standard output goes to")
                 .into(),
         }
@@ -153,15 +161,15 @@ pub fn main() -> ExitCode {
 pub fn run(args: &Args) -> Result<String, Failure> {
     let config = Config::default();
     match &args.command {
-        Command::Eval(a) => eval(a, &config),
-        Command::Compile(a) => compile_view(a, &config),
-        Command::Inspect(a) => inspect_cmd(a, &config),
-        Command::Predict(a) => predict_cmd(a, &config),
-        Command::Spectrum(a) => spectrum_cmd(a, &config),
-        Command::Scan(a) => scan_cmd(a, &config),
-        Command::Merge(a) => merge_cmd(a, &config),
-        Command::Fit(a) => fit_cmd(a, &config),
-        Command::Golden(a) => golden_cmd(a, &config),
-        Command::Watch(a) => watch_cmd(a, &config),
+        Command::Eval(a) => commands::eval::eval(a, &config),
+        Command::Compile(a) => commands::eval::compile_view(a, &config),
+        Command::Inspect(a) => commands::inspect::inspect_cmd(a, &config),
+        Command::Predict(a) => commands::predict::predict_cmd(a, &config),
+        Command::Spectrum(a) => commands::spectrum::spectrum_cmd(a, &config),
+        Command::Scan(a) => commands::scan::scan_cmd(a, &config),
+        Command::Merge(a) => commands::scan::merge_cmd(a, &config),
+        Command::Fit(a) => commands::fit::fit_cmd(a, &config),
+        Command::Golden(a) => commands::golden::golden_cmd(a, &config),
+        Command::Watch(a) => commands::watch::watch_cmd(a, &config),
     }
 }
