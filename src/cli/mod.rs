@@ -173,3 +173,46 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Watch(a) => commands::watch::watch_cmd(a, &config),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    /// clap's own consistency checks over every command: each `mut_arg` names a flag its
+    /// groups define, no flag is defined twice in one command, defaults parse.
+    #[test]
+    fn the_argument_definitions_are_consistent() {
+        Args::command().debug_assert();
+    }
+
+    /// A shared flag is one definition: the same help wherever it is flattened, unless the
+    /// command words it for itself.
+    #[test]
+    fn shared_flags_read_the_same_in_every_command() {
+        let cmd = Args::command();
+        let help = |sub: &str, flag: &str| -> String {
+            let c = cmd.find_subcommand(sub).unwrap_or_else(|| panic!("no command {sub}"));
+            let a = c.get_arguments().find(|a| a.get_id() == flag);
+            a.and_then(|a| a.get_help())
+                .map(|h| h.to_string())
+                .unwrap_or_else(|| panic!("{sub} has no --{flag}"))
+        };
+        for flag in ["pdf", "figure_width"] {
+            for sub in ["predict", "spectrum", "scan"] {
+                assert_eq!(help(sub, flag), help("inspect", flag), "--{flag} of {sub}");
+            }
+        }
+        for flag in ["potential", "kinetic", "params", "field", "range"] {
+            for sub in ["predict", "spectrum", "scan", "fit"] {
+                assert_eq!(help(sub, flag), help("inspect", flag), "--{flag} of {sub}");
+            }
+        }
+        assert_eq!(help("spectrum", "data"), help("fit", "data"));
+        assert_eq!(help("scan", "data"), help("fit", "data"));
+        // the commands that word a shared flag for themselves
+        assert_ne!(help("predict", "svg"), help("inspect", "svg"));
+        assert_ne!(help("predict", "data"), help("fit", "data"));
+        assert_ne!(help("scan", "efolds"), help("predict", "efolds"));
+    }
+}
