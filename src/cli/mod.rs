@@ -82,12 +82,12 @@ pub struct Failure {
 
 impl Failure {
     /// Predictions drifted from their golden values: exit code 1.
-    pub fn drifted(message: String) -> Failure {
+    pub(crate) fn drifted(message: String) -> Failure {
         Failure { message, code: 1 }
     }
 
     /// Bad input or a numerical failure: exit code 2.
-    pub fn input(message: String) -> Failure {
+    pub(crate) fn input(message: String) -> Failure {
         Failure { message, code: 2 }
     }
 
@@ -138,7 +138,7 @@ impl From<WriteError> for Failure {
 
 /// Writes `text` to standard output (through [`crate::report::output::stdout`], the one writer): a
 /// closed pipe becomes a quiet stop with exit code 0, any other failure an error, exit code 2.
-pub fn print_out(text: &str) -> Result<(), Failure> {
+pub(crate) fn print_out(text: &str) -> Result<(), Failure> {
     crate::report::output::stdout(text).map_err(Failure::from)
 }
 
