@@ -146,6 +146,15 @@ pub const MIN_EFOLDS: f64 = 1.0;
 /// 50-60 e-folds before the end).
 pub const SLOW_ROLL_WARN_EFOLDS: f64 = 20.0;
 
+/// The N_* values predicted when neither `--efolds` nor the model's `efolds` setting gives
+/// them: 50, 55 and 60 (common practice: the CMB pivot leaves the horizon some 50-60 e-folds
+/// before the end of inflation, depending on reheating).
+pub const DEFAULT_N_STARS: [f64; 3] = [50.0, 55.0, 60.0];
+
+/// The one N_* of the commands that take a single value (`fit`, `spectrum`) when `--efolds` is
+/// not given: 55, the middle of [`DEFAULT_N_STARS`].
+pub const DEFAULT_N_STAR: f64 = 55.0;
+
 #[cfg(test)]
 mod tests {
     use super::*;

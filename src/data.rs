@@ -192,7 +192,7 @@ impl DataSet {
     /// Parses and validates data-file text; `name` names it in errors.
     pub fn parse(text: &str, name: &str) -> Result<DataSet, DataError> {
         let d: DataSet = toml::from_str(text).map_err(|e| {
-            let mut diag = Diagnostic::new(format!("bad data file: {}", e.message().trim()));
+            let mut diag = Diagnostic::new(format!("bad data file: {}", crate::model::toml_message(&e, text)));
             if let Some(s) = e.span() {
                 diag = diag.with_span(Span::new(s.start, s.end.max(s.start + 1)), "here");
             }

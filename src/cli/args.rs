@@ -1,62 +1,78 @@
 //! The arguments of every command, as plain data (clap derives the parser and the help).
+//!
+//! Options that several commands share are defined once, as groups flattened into each
+//! command's arguments: [`ModelArgs`] (the model, from a file or flags), [`EfoldsArgs`] (a list
+//! of N_*), [`DataArgs`] (the data file), [`OutArgs`] (an output file) and [`FigureArgs`] (the
+//! figure files and width). The output format stays with each command: each has its own set
+//! of formats. A flag sits in the help where
+//! its group is flattened; where a command describes a shared flag in its own words it says so
+//! with `mut_arg` on its struct, so the flag keeps one definition.
 
 use clap::{Subcommand, ValueEnum};
+use std::path::PathBuf;
 
 /// `efold golden`.
 #[derive(Debug, clap::Args)]
 pub struct GoldenArgs {
     /// What to do.
     #[command(subcommand)]
-    pub action: GoldenAction,
+    pub(crate) action: GoldenAction,
 }
 
 /// `efold golden write|check`.
 #[derive(Debug, Subcommand)]
 pub enum GoldenAction {
     /// Predict every model file under DIR and write NAME.predictions.json beside it (atomically).
-    Write {
-        /// The directory of model files.
-        dir: std::path::PathBuf,
-        /// A data file [default: the built-in one].
-        #[arg(long, value_name = "FILE")]
-        data: Option<std::path::PathBuf>,
-    },
+    Write(GoldenWriteArgs),
     /// Recompute and report every prediction that moved beyond the tolerance; exit code 1 if any.
-    Check {
-        /// The directory of model files.
-        dir: std::path::PathBuf,
-        /// Relative tolerance.
-        #[arg(long, default_value = "1e-8", allow_hyphen_values = true)]
-        tolerance: f64,
-        /// A data file [default: the built-in one].
-        #[arg(long, value_name = "FILE")]
-        data: Option<std::path::PathBuf>,
-    },
+    Check(GoldenCheckArgs),
+}
+
+/// `efold golden write`.
+#[derive(Debug, clap::Args)]
+#[command(mut_arg("data", |a| a.help("A data file [default: the built-in one]")))]
+pub struct GoldenWriteArgs {
+    /// The directory of model files.
+    pub(crate) dir: PathBuf,
+    #[command(flatten)]
+    pub(crate) data: DataArgs,
+}
+
+/// `efold golden check`.
+#[derive(Debug, clap::Args)]
+#[command(mut_arg("data", |a| a.help("A data file [default: the built-in one]")))]
+pub struct GoldenCheckArgs {
+    /// The directory of model files.
+    pub(crate) dir: PathBuf,
+    /// Relative tolerance.
+    #[arg(long, default_value = "1e-8", allow_hyphen_values = true)]
+    pub(crate) tolerance: f64,
+    #[command(flatten)]
+    pub(crate) data: DataArgs,
 }
 
 /// `efold watch`.
 #[derive(Debug, clap::Args)]
 pub struct WatchArgs {
     /// A model file, or a directory of them.
-    pub path: std::path::PathBuf,
+    pub(crate) path: PathBuf,
     /// Report changes beyond this relative size.
     #[arg(long, default_value = "1e-10", allow_hyphen_values = true)]
-    pub tolerance: f64,
+    pub(crate) tolerance: f64,
     /// Stop after this many rounds of changes (for scripts; default: run until interrupted).
     #[arg(long, value_name = "N", allow_negative_numbers = true)]
-    pub exit_after: Option<usize>,
+    pub(crate) exit_after: Option<usize>,
 }
 
 /// `efold fit`.
 #[derive(Debug, clap::Args)]
 pub struct FitArgs {
     #[command(flatten)]
-    #[allow(missing_docs)]
-    pub model: ModelArgs,
+    pub(crate) model: ModelArgs,
     /// A parameter to solve for (repeatable; at most as many as targets). Its value in the
     /// model (or --param) is the starting point.
     #[arg(long = "free", value_name = "NAME", required = true)]
-    pub free: Vec<String>,
+    pub(crate) free: Vec<String>,
     /// A target, NAME=VALUE with NAME one of n_s, r, alpha_s, A_s (repeatable).
     #[arg(
         long = "target",
@@ -64,55 +80,45 @@ pub struct FitArgs {
         required = true,
         allow_hyphen_values = true
     )]
-    pub targets: Vec<String>,
+    pub(crate) targets: Vec<String>,
     /// e-folds between the pivot's exit and the end of inflation.
-    #[arg(long, default_value_t = 55.0, allow_hyphen_values = true)]
-    pub efolds: f64,
-    /// A data file of constraints and constants [default: the built-in one].
-    #[arg(long, value_name = "FILE")]
-    pub data: Option<std::path::PathBuf>,
+    #[arg(long, default_value_t = crate::config::DEFAULT_N_STAR, allow_hyphen_values = true)]
+    pub(crate) efolds: f64,
+    #[command(flatten)]
+    pub(crate) data: DataArgs,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Text)]
-    pub format: Format,
+    pub(crate) format: Format,
 }
 
 /// `efold scan`.
 #[derive(Debug, clap::Args)]
+#[command(mut_arg("efolds", |a| a.help("N_* values, comma-separated [default: the model's setting, or 50,55,60]")))]
+#[command(mut_arg("svg", |a| a.help("Write the n_s-r figure to this SVG file")))]
 pub struct ScanArgs {
     #[command(flatten)]
-    #[allow(missing_docs)]
-    pub model: ModelArgs,
+    pub(crate) model: ModelArgs,
     /// A parameter to vary: NAME=LO:HI:COUNT, `:log` appended for a logarithmic grid, or NAME
     /// alone for the model file's `[scan]` range. Once or twice.
     #[arg(long, value_name = "NAME=LO:HI:COUNT[:log]", required = true)]
-    pub vary: Vec<String>,
-    /// N_* values, comma-separated [default: the model's setting, or 50,55,60].
-    #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
-    pub efolds: Vec<f64>,
+    pub(crate) vary: Vec<String>,
+    #[command(flatten)]
+    pub(crate) efolds: EfoldsArgs,
     /// Points for a parameter given by name alone.
     #[arg(long, default_value_t = 20, allow_negative_numbers = true)]
-    pub points: usize,
+    pub(crate) points: usize,
     /// Compute only the K-th of N slices of the grid (for job arrays); join with `efold merge`.
     #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
-    pub shard: Option<String>,
+    pub(crate) shard: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = ScanFormat::Csv)]
-    pub format: ScanFormat,
-    /// Write the table to this file (atomically) instead of standard output.
-    #[arg(long, value_name = "FILE")]
-    pub out: Option<std::path::PathBuf>,
-    /// Write the n_s-r figure to this SVG file.
-    #[arg(long, value_name = "FILE")]
-    pub svg: Option<std::path::PathBuf>,
-    /// Write the same figure as PDF, fonts embedded, to this file.
-    #[arg(long, value_name = "FILE")]
-    pub pdf: Option<std::path::PathBuf>,
-    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
-    pub figure_width: f64,
-    /// A data file of constraints and constants [default: the built-in one].
-    #[arg(long, value_name = "FILE")]
-    pub data: Option<std::path::PathBuf>,
+    pub(crate) format: ScanFormat,
+    #[command(flatten)]
+    pub(crate) out: OutArgs,
+    #[command(flatten)]
+    pub(crate) figure: FigureArgs,
+    #[command(flatten)]
+    pub(crate) data: DataArgs,
 }
 
 /// Formats of a scan's table.
@@ -126,57 +132,49 @@ pub enum ScanFormat {
 
 /// `efold merge`.
 #[derive(Debug, clap::Args)]
+#[command(mut_arg("out", |a| a.help("Write the merged table here (atomically) instead of standard output")))]
 pub struct MergeArgs {
     /// The shard files (all CSV or all JSON).
     #[arg(required = true)]
-    pub files: Vec<std::path::PathBuf>,
-    /// Write the merged table here (atomically) instead of standard output.
-    #[arg(long, value_name = "FILE")]
-    pub out: Option<std::path::PathBuf>,
+    pub(crate) files: Vec<PathBuf>,
+    #[command(flatten)]
+    pub(crate) out: OutArgs,
 }
 
 /// `efold spectrum`.
 #[derive(Debug, clap::Args)]
+#[command(mut_arg("svg", |a| a.help("Write a figure of both spectra, with the slow-roll estimate, to this SVG file")))]
 pub struct SpectrumArgs {
     #[command(flatten)]
-    #[allow(missing_docs)]
-    pub model: ModelArgs,
+    pub(crate) model: ModelArgs,
     /// e-folds between the pivot's exit and the end of inflation (eps_H = 1).
-    #[arg(long, default_value_t = 55.0, allow_hyphen_values = true)]
-    pub efolds: f64,
+    #[arg(long, default_value_t = crate::config::DEFAULT_N_STAR, allow_hyphen_values = true)]
+    pub(crate) efolds: f64,
     /// Smallest k, in Mpc^-1.
     #[arg(long, default_value = "1e-4", allow_hyphen_values = true)]
-    pub k_min: f64,
+    pub(crate) k_min: f64,
     /// Largest k, in Mpc^-1 [default: 1e14, or less if modes would exit too near the end].
     #[arg(long, allow_hyphen_values = true)]
-    pub k_max: Option<f64>,
+    pub(crate) k_max: Option<f64>,
     /// Number of k values, evenly spaced in ln k.
     #[arg(long, default_value_t = 60, allow_negative_numbers = true)]
-    pub points: usize,
+    pub(crate) points: usize,
     /// Use this branch (1-based), as in `predict`.
     #[arg(long, value_name = "K", allow_negative_numbers = true)]
-    pub branch: Option<usize>,
+    pub(crate) branch: Option<usize>,
     /// Start the background at this field value instead of on the slow-roll attractor.
     #[arg(long, value_name = "PHI", allow_hyphen_values = true)]
-    pub start_phi: Option<f64>,
+    pub(crate) start_phi: Option<f64>,
     /// With --start-phi: the initial dphi/dN [default: the slow-roll attractor's].
     #[arg(long, value_name = "DPHI_DN", allow_hyphen_values = true)]
-    pub start_velocity: Option<f64>,
-    /// A data file of constraints and constants [default: the built-in one].
-    #[arg(long, value_name = "FILE")]
-    pub data: Option<std::path::PathBuf>,
+    pub(crate) start_velocity: Option<f64>,
+    #[command(flatten)]
+    pub(crate) data: DataArgs,
     /// Output format.
     #[arg(long, value_enum, default_value_t = SpectrumFormat::Text)]
-    pub format: SpectrumFormat,
-    /// Write a figure of both spectra, with the slow-roll estimate, to this SVG file.
-    #[arg(long, value_name = "FILE")]
-    pub svg: Option<std::path::PathBuf>,
-    /// Write the same figure as PDF, fonts embedded, to this file.
-    #[arg(long, value_name = "FILE")]
-    pub pdf: Option<std::path::PathBuf>,
-    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
-    pub figure_width: f64,
+    pub(crate) format: SpectrumFormat,
+    #[command(flatten)]
+    pub(crate) figure: FigureArgs,
 }
 
 /// Output formats of `spectrum`.
@@ -212,63 +210,53 @@ pub enum Method {
 
 /// `efold predict`.
 #[derive(Debug, clap::Args)]
+#[command(mut_arg("data", |a| a.help("A data file of constraints and constants [default: the built-in data/planck2018-bk18.toml]")))]
+#[command(mut_arg("svg", |a| a.help("Write a figure of V with the end of inflation and the pivot points to this SVG file")))]
 pub struct PredictArgs {
     #[command(flatten)]
-    #[allow(missing_docs)]
-    pub model: ModelArgs,
-    /// e-folds between the pivot's exit and the end of inflation, comma-separated
-    /// [default: the model's `efolds` setting, or 50,55,60].
-    #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
-    pub efolds: Vec<f64>,
+    pub(crate) model: ModelArgs,
+    #[command(flatten)]
+    pub(crate) efolds: EfoldsArgs,
     /// Use this branch (1-based, in ascending field position) [default: the one at larger field
     /// values that gives the e-folds].
     #[arg(long, value_name = "K", allow_negative_numbers = true)]
-    pub branch: Option<usize>,
+    pub(crate) branch: Option<usize>,
     /// Second-order slow-roll observables (Hubble-flow expansion).
     #[arg(long)]
-    pub second_order: bool,
+    pub(crate) second_order: bool,
     /// How to compute the observables: the slow-roll formulas, or the exact background and
     /// Mukhanov–Sasaki spectra (N_* then counts from eps_H = 1).
     #[arg(long, value_enum, default_value_t = Method::SlowRoll)]
-    pub method: Method,
+    pub(crate) method: Method,
     /// With --method exact: start the background at this field value instead of on the
     /// slow-roll attractor well before the pivot.
     #[arg(long, value_name = "PHI", allow_hyphen_values = true)]
-    pub start_phi: Option<f64>,
+    pub(crate) start_phi: Option<f64>,
     /// With --start-phi: the initial dphi/dN [default: the slow-roll attractor's].
     #[arg(long, value_name = "DPHI_DN", allow_hyphen_values = true)]
-    pub start_velocity: Option<f64>,
+    pub(crate) start_velocity: Option<f64>,
     /// Fix N_* from reheating: `instant` (radiation right after inflation).
     #[arg(long, value_name = "instant")]
-    pub reheat: Option<String>,
+    pub(crate) reheat: Option<String>,
     /// Equation of state during reheating (with --reheat-temp or --reheat-efolds).
     #[arg(long, value_name = "W", allow_hyphen_values = true)]
-    pub reheat_w: Option<f64>,
+    pub(crate) reheat_w: Option<f64>,
     /// Reheating temperature in GeV.
     #[arg(long, value_name = "GEV", allow_hyphen_values = true)]
-    pub reheat_temp: Option<f64>,
+    pub(crate) reheat_temp: Option<f64>,
     /// e-folds of reheating.
     #[arg(long, value_name = "N", allow_hyphen_values = true)]
-    pub reheat_efolds: Option<f64>,
+    pub(crate) reheat_efolds: Option<f64>,
     /// Relativistic degrees of freedom at reheating (with a reheating flag) [default: 106.75].
     #[arg(long, value_name = "G", allow_hyphen_values = true)]
-    pub g_star: Option<f64>,
-    /// A data file of constraints and constants [default: the built-in
-    /// data/planck2018-bk18.toml].
-    #[arg(long, value_name = "FILE")]
-    pub data: Option<std::path::PathBuf>,
+    pub(crate) g_star: Option<f64>,
+    #[command(flatten)]
+    pub(crate) data: DataArgs,
     /// Output format.
     #[arg(long, value_enum, default_value_t = TableFormat::Text)]
-    pub format: TableFormat,
-    /// Write a figure of V with the end of inflation and the pivot points to this SVG file.
-    #[arg(long, value_name = "FILE")]
-    pub svg: Option<std::path::PathBuf>,
-    /// Write the same figure as PDF, fonts embedded, to this file.
-    #[arg(long, value_name = "FILE")]
-    pub pdf: Option<std::path::PathBuf>,
-    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
-    pub figure_width: f64,
+    pub(crate) format: TableFormat,
+    #[command(flatten)]
+    pub(crate) figure: FigureArgs,
 }
 
 /// The model: a TOML file, or given inline; flags override the file.
@@ -276,45 +264,85 @@ pub struct PredictArgs {
 pub struct ModelArgs {
     /// A model file (TOML; see README for the format).
     #[arg(value_name = "MODEL.toml")]
-    pub model: Option<std::path::PathBuf>,
+    pub(crate) model: Option<PathBuf>,
     /// The potential V(FIELD).
     #[arg(long, value_name = "EXPR", allow_hyphen_values = true)]
-    pub potential: Option<String>,
+    pub(crate) potential: Option<String>,
     /// The kinetic function K(FIELD) in L = 1/2 K (d FIELD)^2 - V [default: 1].
     #[arg(long, value_name = "EXPR", allow_hyphen_values = true)]
-    pub kinetic: Option<String>,
+    pub(crate) kinetic: Option<String>,
     /// A parameter, NAME=VALUE (VALUE may be an expression such as 1/3). Repeatable.
     #[arg(long = "param", value_name = "NAME=VALUE")]
-    pub params: Vec<String>,
+    pub(crate) params: Vec<String>,
     /// The field variable's name [default: phi].
     #[arg(long, value_name = "NAME")]
-    pub field: Option<String>,
+    pub(crate) field: Option<String>,
     /// The field interval to consider: two expressions; -inf and inf allowed.
     #[arg(long, num_args = 2, value_names = ["LO", "HI"], allow_hyphen_values = true)]
-    pub range: Option<Vec<String>>,
+    pub(crate) range: Option<Vec<String>>,
+}
+
+/// A list of N_* (`predict`, `scan`); empty when not given, and then the model's setting or
+/// [`crate::config::DEFAULT_N_STARS`] applies.
+#[derive(Debug, clap::Args)]
+pub struct EfoldsArgs {
+    /// e-folds between the pivot's exit and the end of inflation, comma-separated
+    /// [default: the model's `efolds` setting, or 50,55,60].
+    #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
+    pub(crate) efolds: Vec<f64>,
+}
+
+/// The data file of constraints and constants.
+#[derive(Debug, clap::Args)]
+pub struct DataArgs {
+    /// A data file of constraints and constants [default: the built-in one].
+    #[arg(long, value_name = "FILE")]
+    pub(crate) data: Option<PathBuf>,
+}
+
+/// A file to write a command's table to instead of standard output.
+#[derive(Debug, clap::Args)]
+pub struct OutArgs {
+    /// Write the table to this file (atomically) instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    pub(crate) out: Option<PathBuf>,
+}
+
+/// A figure: SVG and/or PDF files and the width.
+#[derive(Debug, clap::Args)]
+pub struct FigureArgs {
+    /// Write the figure to this SVG file.
+    #[arg(long, value_name = "FILE")]
+    pub(crate) svg: Option<PathBuf>,
+    /// Write the same figure as PDF, fonts embedded, to this file.
+    #[arg(long, value_name = "FILE")]
+    pub(crate) pdf: Option<PathBuf>,
+    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
+    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
+    pub(crate) figure_width: f64,
+}
+
+impl FigureArgs {
+    /// Whether a figure is asked for.
+    pub(crate) fn wanted(&self) -> bool {
+        self.svg.is_some() || self.pdf.is_some()
+    }
 }
 
 /// `efold inspect`.
 #[derive(Debug, clap::Args)]
+#[command(mut_arg("svg", |a| a.help("Write a figure of V against the field and against chi to this SVG file")))]
 pub struct InspectArgs {
     #[command(flatten)]
-    #[allow(missing_docs)]
-    pub model: ModelArgs,
+    pub(crate) model: ModelArgs,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Text)]
-    pub format: Format,
+    pub(crate) format: Format,
     /// Add a table of (phi, chi, V) with this many rows.
     #[arg(long, value_name = "ROWS", allow_negative_numbers = true)]
-    pub table: Option<usize>,
-    /// Write a figure of V against the field and against chi to this SVG file.
-    #[arg(long, value_name = "FILE")]
-    pub svg: Option<std::path::PathBuf>,
-    /// Write the same figure as PDF, fonts embedded, to this file.
-    #[arg(long, value_name = "FILE")]
-    pub pdf: Option<std::path::PathBuf>,
-    /// Figure width: single (8.6 cm), double (17.8 cm) or a number of centimetres.
-    #[arg(long, value_name = "single|double|CM", default_value = "single", value_parser = crate::report::plot::parse_figure_width, allow_hyphen_values = true)]
-    pub figure_width: f64,
+    pub(crate) table: Option<usize>,
+    #[command(flatten)]
+    pub(crate) figure: FigureArgs,
 }
 
 /// Output formats.
@@ -332,10 +360,10 @@ pub struct ScopeArgs {
     /// A parameter, NAME=VALUE; VALUE may be an expression of `pi` and earlier parameters
     /// (`--param alpha=1/3`). Repeatable.
     #[arg(long = "param", value_name = "NAME=VALUE")]
-    pub params: Vec<String>,
+    pub(crate) params: Vec<String>,
     /// The field variable's name [default: phi, or the name given to --at].
     #[arg(long, value_name = "NAME")]
-    pub field: Option<String>,
+    pub(crate) field: Option<String>,
 }
 
 /// `efold eval`.
@@ -343,19 +371,18 @@ pub struct ScopeArgs {
 pub struct EvalArgs {
     /// The expression, e.g. '1 - tanh(phi/sqrt(6*alpha))^2' (a leading minus is part of it).
     #[arg(allow_hyphen_values = true)]
-    pub expr: String,
+    pub(crate) expr: String,
     /// The point, FIELD=VALUE (VALUE may be an expression of the parameters).
     #[arg(long, value_name = "FIELD=VALUE", allow_hyphen_values = true)]
-    pub at: String,
+    pub(crate) at: String,
     /// Highest derivative to report (0 to 8).
     #[arg(long, default_value_t = 1, allow_negative_numbers = true)]
-    pub order: usize,
+    pub(crate) order: usize,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Text)]
-    pub format: Format,
+    pub(crate) format: Format,
     #[command(flatten)]
-    #[allow(missing_docs)]
-    pub scope: ScopeArgs,
+    pub(crate) scope: ScopeArgs,
 }
 
 /// Stages `efold compile` can show.
@@ -376,18 +403,18 @@ pub enum Emit {
 pub struct CompileArgs {
     /// The expression (a leading minus is part of it).
     #[arg(allow_hyphen_values = true)]
-    pub expr: String,
+    pub(crate) expr: String,
     /// Stages to show (repeatable, or comma-separated) [default: all].
     #[arg(long, value_enum, value_delimiter = ',')]
-    pub emit: Vec<Emit>,
+    pub(crate) emit: Vec<Emit>,
     /// Highest symbolic derivative to show.
     #[arg(long, default_value_t = 2, allow_negative_numbers = true)]
-    pub order: usize,
+    pub(crate) order: usize,
     /// A parameter, NAME=VALUE (repeatable). The views are symbolic, so the value is only
     /// checked; names used in EXPR but not given here are shown as parameters too.
     #[arg(long = "param", value_name = "NAME=VALUE")]
-    pub params: Vec<String>,
+    pub(crate) params: Vec<String>,
     /// The field variable's name, the variable of the derivatives [default: phi].
     #[arg(long, value_name = "NAME")]
-    pub field: Option<String>,
+    pub(crate) field: Option<String>,
 }

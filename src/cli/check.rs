@@ -1,11 +1,19 @@
 //! Checks of flag values before any work starts: each bad value is an error naming the flag,
 //! the value and what is allowed.
 
-use super::*;
-use crate::config::Config;
-use crate::diag::Diagnostic;
+use super::args::{Method, PredictArgs};
+use super::Failure;
+use crate::analysis::background::Settings;
+use crate::analysis::perturbations::TILT_STEP;
+use crate::analysis::reheating::Reheating;
+use crate::config::{Config, MAX_REHEAT_EFOLDS, MIN_EFOLDS};
+use crate::diag::{Diagnostic, Source, Span};
+use crate::drivers::scan::{total_points, Axis};
 use crate::language::compile::lower_into;
-use crate::language::ir::{Graph, Scope};
+use crate::language::ir::{format_number, Func, Graph, Scope};
+use crate::language::tape::Tape;
+use crate::model::{ConstantError, Model, ParamTable};
+use crate::report::numfmt;
 
 /// Splits `NAME=VALUE`.
 pub(crate) fn split_binding<'a>(flag: &str, text: &'a str) -> Result<(&'a str, &'a str), Failure> {
@@ -28,7 +36,7 @@ pub(crate) fn split_binding<'a>(flag: &str, text: &'a str) -> Result<(&'a str, &
 
 /// Whether a name is the language's own: a function, `pow` or `pi`.
 pub(crate) fn is_reserved(name: &str) -> bool {
-    name == "pi" || name == "pow" || crate::language::ir::Func::from_name(name).is_some()
+    name == "pi" || name == "pow" || Func::from_name(name).is_some()
 }
 
 /// A name given with `flag` (in its value `text`) that the expression language reserves is
@@ -39,9 +47,9 @@ pub(crate) fn check_not_reserved(flag: &str, text: &str, name: &str) -> Result<(
     }
     let start = text.find(name).unwrap_or(0);
     let d = Diagnostic::new(format!("`{flag} {text}`: `{name}` is a built-in name"))
-        .with_span(crate::diag::Span::new(start, start + name.len()), "a built-in name")
+        .with_span(Span::new(start, start + name.len()), "a built-in name")
         .with_hint("choose another name: the functions (exp, sqrt, ...), `pow` and `pi` are the language's own");
-    Err(Failure::input(d.render(Some(&crate::diag::Source::new(flag, text)))))
+    Err(Failure::input(d.render(Some(&Source::new(flag, text)))))
 }
 
 /// `--field NAME`: a valid name that is not the language's own.
@@ -50,11 +58,9 @@ pub(crate) fn check_field_name(name: &str) -> Result<(), Failure> {
         && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_');
     if !valid {
         let d = Diagnostic::new(format!("`--field {name}` is not a valid name"))
-            .with_span(crate::diag::Span::new(0, name.len()), "not a name")
+            .with_span(Span::new(0, name.len()), "not a name")
             .with_hint("names are letters, digits and _, starting with a letter or _");
-        return Err(Failure::input(
-            d.render(Some(&crate::diag::Source::new("--field", name))),
-        ));
+        return Err(Failure::input(d.render(Some(&Source::new("--field", name)))));
     }
     check_not_reserved("--field", name, name)
 }
@@ -68,13 +74,11 @@ pub(crate) fn check_params_once(flags: &[String]) -> Result<(), Failure> {
             let start = flag.find(name.as_str()).unwrap_or(0);
             let d = Diagnostic::new(format!("`--param {name}` is given twice"))
                 .with_span(
-                    crate::diag::Span::new(start, start + name.len()),
+                    Span::new(start, start + name.len()),
                     format!("given again here; the first was `{first}`"),
                 )
                 .with_hint("give each --param once (a --param replaces the model file's value)");
-            return Err(Failure::input(
-                d.render(Some(&crate::diag::Source::new("--param", flag))),
-            ));
+            return Err(Failure::input(d.render(Some(&Source::new("--param", flag)))));
         }
     }
     Ok(())
@@ -82,8 +86,8 @@ pub(crate) fn check_params_once(flags: &[String]) -> Result<(), Failure> {
 
 /// Parameter names and values from `--param` flags, each value an expression of `pi` and the
 /// parameters before it.
-pub fn bind_params(flags: &[String], field: &str, config: &Config) -> Result<(Vec<String>, Vec<f64>), Failure> {
-    let mut table = crate::model::ParamTable::default();
+pub(crate) fn bind_params(flags: &[String], field: &str, config: &Config) -> Result<(Vec<String>, Vec<f64>), Failure> {
+    let mut table = ParamTable::default();
     for flag in flags {
         split_binding("--param", flag)?;
     }
@@ -105,8 +109,7 @@ pub fn bind_params(flags: &[String], field: &str, config: &Config) -> Result<(Ve
 }
 
 /// The messages of [`constant_expr`] for a value evaluated by a parameter table.
-pub(crate) fn constant_failure(e: crate::model::ConstantError, origin: &str, text: &str, field: &str) -> Failure {
-    use crate::model::ConstantError;
+pub(crate) fn constant_failure(e: ConstantError, origin: &str, text: &str, field: &str) -> Failure {
     match e {
         ConstantError::Expr(e) => e.into(),
         ConstantError::Varying => Diagnostic::new(format!(
@@ -140,13 +143,13 @@ pub(crate) fn constant_expr(
         .with_hint("a value may use numbers, `pi` and the parameters")
         .into());
     }
-    let tape = crate::language::tape::Tape::compile(&g, &[id]);
+    let tape = Tape::compile(&g, &[id]);
     let v = tape.evaluator(params).eval(0.0);
     if !v.is_finite() {
         return Err(Diagnostic::new(format!(
             "{origin}: `{}` is not a finite number ({})",
             text.trim(),
-            crate::report::numfmt::number(v)
+            numfmt::number(v)
         ))
         .into());
     }
@@ -162,12 +165,9 @@ pub(crate) const DEFAULT_G_STAR: f64 = 106.75;
 pub(crate) fn bad_flag_value(flag: &str, value: &str, message: String, hint: &str) -> Failure {
     let text = format!("{flag} {value}");
     let d = Diagnostic::new(message)
-        .with_span(
-            crate::diag::Span::new(flag.len() + 1, text.len()),
-            "not in the valid range",
-        )
+        .with_span(Span::new(flag.len() + 1, text.len()), "not in the valid range")
         .with_hint(hint);
-    Failure::input(d.render(Some(&crate::diag::Source::new("command line", &text))))
+    Failure::input(d.render(Some(&Source::new("command line", &text))))
 }
 
 /// A number that must be finite and inside `ok`, described by `range` in the message.
@@ -181,7 +181,7 @@ pub(crate) fn check_range(
     if v.is_finite() && ok(v) {
         return Ok(());
     }
-    let shown = crate::language::ir::format_number(v);
+    let shown = format_number(v);
     Err(bad_flag_value(flag, &shown, format!("{flag} {shown}: {range}"), hint))
 }
 
@@ -199,11 +199,10 @@ pub(crate) fn check_tolerance(v: f64) -> Result<(), Failure> {
 /// A list of N_* (from `origin`: `--efolds`, or the model's `efolds` setting): each finite and
 /// at least `config::MIN_EFOLDS`.
 pub(crate) fn check_efolds_values(origin: &str, values: &[f64]) -> Result<(), Failure> {
-    use crate::config::MIN_EFOLDS;
     let Some(i) = values.iter().position(|v| !(v.is_finite() && *v >= MIN_EFOLDS)) else {
         return Ok(());
     };
-    let shown: Vec<String> = values.iter().map(|v| crate::language::ir::format_number(*v)).collect();
+    let shown: Vec<String> = values.iter().map(|v| format_number(*v)).collect();
     let start = shown[..i].iter().map(|s| s.len() + 1).sum::<usize>();
     let d = Diagnostic::new(format!(
         "N_* = {} in {origin}: the e-folds before the end of inflation must be a finite number, {MIN_EFOLDS} or more",
@@ -215,13 +214,8 @@ pub(crate) fn check_efolds_values(origin: &str, values: &[f64]) -> Result<(), Fa
     }
     let text = format!("{origin} {}", shown.join(","));
     let at = origin.len() + 1 + start;
-    let d = d.with_span(
-        crate::diag::Span::new(at, at + shown[i].len()),
-        "not in the valid range",
-    );
-    Err(Failure::input(
-        d.render(Some(&crate::diag::Source::new("command line", &text))),
-    ))
+    let d = d.with_span(Span::new(at, at + shown[i].len()), "not in the valid range");
+    Err(Failure::input(d.render(Some(&Source::new("command line", &text)))))
 }
 
 /// `--start-phi` and `--start-velocity`: finite, the velocity only with a start, and (with the
@@ -257,7 +251,7 @@ pub(crate) fn check_start(phi: Option<f64>, velocity: Option<f64>) -> Result<(),
 
 /// The Friedmann equation in e-folds, H^2 = V / (3 - K (dphi/dN)^2 / 2) (M_p = 1; common
 /// practice), needs K (dphi/dN)^2 < 6 where V > 0: a faster start has no real H.
-pub(crate) fn check_start_velocity(model: &crate::model::Model, phi: f64, v: f64) -> Result<(), Failure> {
+pub(crate) fn check_start_velocity(model: &Model, phi: f64, v: f64) -> Result<(), Failure> {
     let mut ev = model.evaluator();
     let pot = ev.eval(phi);
     let k = ev.output(model.layout().k());
@@ -281,9 +275,9 @@ pub(crate) fn check_start_velocity(model: &crate::model::Model, phi: f64, v: f64
 
 /// The flags of `predict` that make no sense alone, or together, or with these values.
 pub(crate) fn check_predict_flags(a: &PredictArgs) -> Result<(), Failure> {
-    check_efolds_values("--efolds", &a.efolds)?;
+    check_efolds_values("--efolds", &a.efolds.efolds)?;
     let reheating = a.reheat.is_some() || a.reheat_w.is_some() || a.reheat_temp.is_some() || a.reheat_efolds.is_some();
-    if reheating && !a.efolds.is_empty() {
+    if reheating && !a.efolds.efolds.is_empty() {
         return Err(
             Diagnostic::new("--efolds is given together with reheating flags, which fix N_* themselves")
                 .with_hint("leave out --efolds to have N_* from reheating, or the reheating flags to give N_*")
@@ -325,7 +319,6 @@ pub(crate) fn check_predict_flags(a: &PredictArgs) -> Result<(), Failure> {
         )?;
     }
     if let Some(n) = a.reheat_efolds {
-        use crate::config::MAX_REHEAT_EFOLDS;
         check_range(
             "--reheat-efolds",
             n,
@@ -350,8 +343,8 @@ pub(crate) fn check_predict_flags(a: &PredictArgs) -> Result<(), Failure> {
 /// more, because aH grows at the rate 1 - eps_H, which falls to 0 over the last e-folds (with
 /// the defaults 14.31; every shipped model integrates at that N_*, the quartic monomial not
 /// below 13).
-pub(crate) fn min_exact_efolds(settings: &crate::analysis::background::Settings) -> f64 {
-    (1.0 / settings.k_stop).ln() + 2.0 * crate::analysis::perturbations::TILT_STEP + 1.0 + 4.0
+pub(crate) fn min_exact_efolds(settings: &Settings) -> f64 {
+    (1.0 / settings.k_stop).ln() + 2.0 * TILT_STEP + 1.0 + 4.0
 }
 
 /// Whether N_* comes from `--efolds` or the model (not from reheating, which is checked
@@ -360,8 +353,7 @@ pub(crate) fn opts_fix_n_star(a: &PredictArgs) -> bool {
     a.reheat.is_none() && a.reheat_w.is_none()
 }
 
-pub(crate) fn reheating_from(a: &PredictArgs) -> Result<Option<crate::analysis::reheating::Reheating>, Failure> {
-    use crate::analysis::reheating::Reheating;
+pub(crate) fn reheating_from(a: &PredictArgs) -> Result<Option<Reheating>, Failure> {
     let g_star = a.g_star.unwrap_or(DEFAULT_G_STAR);
     match (&a.reheat, a.reheat_w, a.reheat_temp, a.reheat_efolds) {
         (None, None, None, None) => Ok(None),
@@ -406,10 +398,10 @@ pub(crate) fn check_vary_names(vary: &[String]) -> Result<(), Failure> {
 
 /// The grid's point count, refused above `Limits::max_scan_points` (and when the product of the
 /// axes overflows).
-pub(crate) fn check_grid_size(axes: &[crate::drivers::scan::Axis], config: &Config) -> Result<usize, Failure> {
+pub(crate) fn check_grid_size(axes: &[Axis], config: &Config) -> Result<usize, Failure> {
     let limit = config.limits.max_scan_points;
     let counts: Vec<String> = axes.iter().map(|a| a.values.len().to_string()).collect();
-    match crate::drivers::scan::total_points(axes) {
+    match total_points(axes) {
         Some(n) if n <= limit => Ok(n),
         n => Err(Diagnostic::new(format!(
             "the grid has {} points ({}); at most {limit} (config::Limits::max_scan_points)",

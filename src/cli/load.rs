@@ -1,17 +1,24 @@
-//! Loading what a command works on: the model (file or flags, with --param), the data set,
-//! and files read with a size limit.
+//! The one loading layer: what a command works on. A model from a file or from flags (with
+//! `--param`), a model file alone (`golden`, `watch`), the data set, and the N_* list (from
+//! `--efolds`, else the model's `efolds` setting, else [`DEFAULT_N_STARS`]); and text files read
+//! with a size limit.
 
-use super::*;
-use crate::config::Config;
+use super::check::{check_efolds_count, check_efolds_values, check_field_name, check_params_once, split_binding};
+use super::Failure;
+use crate::cli::args::{DataArgs, ModelArgs};
+use crate::config::{Config, DEFAULT_N_STARS};
+use crate::data::DataSet;
 use crate::diag::Diagnostic;
+use crate::drivers::predict::{predict, Options, Report};
+use crate::model::{Model, ModelSpec, Text};
+use std::path::Path;
 
 /// Builds the model from a file and/or the inline flags (flags override the file).
 /// `example` is the command line suggested when no model is given, e.g.
 /// `efold predict models/pole-order-2-quadratic.toml`.
-pub fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<crate::model::Model, Failure> {
-    use crate::model::{ModelSpec, Text};
+pub(crate) fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<Model, Failure> {
     let mut spec = match (&a.model, &a.potential) {
-        (Some(path), _) => ModelSpec::load(path)?,
+        (Some(path), _) => ModelSpec::load_with(path, &config.limits)?,
         (None, Some(v)) => ModelSpec::inline(v, None),
         (None, None) => {
             return Err(Diagnostic::new("no model given")
@@ -20,6 +27,12 @@ pub fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<crate
                 .into())
         }
     };
+    apply_flags(&mut spec, a)?;
+    Ok(Model::build(&spec, config)?)
+}
+
+/// The inline flags over a model read from a file (or given by `--potential` alone).
+fn apply_flags(spec: &mut ModelSpec, a: &ModelArgs) -> Result<(), Failure> {
     if a.model.is_some() {
         if let Some(v) = &a.potential {
             spec.potential = Text::inline("--potential", v);
@@ -43,14 +56,53 @@ pub fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<crate
     if let Some(r) = &a.range {
         spec.range = Some((Text::inline("--range LO", &r[0]), Text::inline("--range HI", &r[1])));
     }
-    Ok(crate::model::Model::build(&spec, config)?)
+    Ok(())
 }
 
-pub(crate) fn load_data(path: &Option<std::path::PathBuf>) -> Result<crate::data::DataSet, Failure> {
-    match path {
-        Some(p) => crate::data::DataSet::load(p).map_err(Failure::from),
-        None => Ok(crate::data::DataSet::builtin()),
+/// The model of one file, without flags (`golden`, `watch`).
+pub(crate) fn load_model_file(path: &Path, config: &Config) -> Result<Model, Failure> {
+    let spec = ModelSpec::load_with(path, &config.limits)?;
+    Ok(Model::build(&spec, config)?)
+}
+
+/// The data set of `--data`, or the built-in one.
+pub(crate) fn load_data(a: &DataArgs, config: &Config) -> Result<DataSet, Failure> {
+    match &a.data {
+        Some(p) => DataSet::load_with(p, &config.limits).map_err(Failure::from),
+        None => Ok(DataSet::builtin()),
     }
+}
+
+/// The N_* list and where it came from: `--efolds` when given, else the model's `efolds`
+/// setting, else [`DEFAULT_N_STARS`].
+pub(crate) fn n_stars_of(flag: &[f64], spec: &ModelSpec) -> (Vec<f64>, &'static str) {
+    match &spec.efolds {
+        _ if !flag.is_empty() => (flag.to_vec(), "--efolds"),
+        Some(list) => (list.clone(), "the model's `efolds` setting"),
+        None => (DEFAULT_N_STARS.to_vec(), "the model's `efolds` setting"),
+    }
+}
+
+/// [`n_stars_of`], checked: at most `Limits::max_efolds` values, each finite and at least
+/// `config::MIN_EFOLDS` (the error names `--efolds` or the model's setting).
+pub(crate) fn checked_n_stars(flag: &[f64], spec: &ModelSpec, config: &Config) -> Result<Vec<f64>, Failure> {
+    let (n_stars, origin) = n_stars_of(flag, spec);
+    check_efolds_count(&n_stars, config)?;
+    check_efolds_values(origin, &n_stars)?;
+    Ok(n_stars)
+}
+
+/// The slow-roll report of one model file, at its own N_* (or [`DEFAULT_N_STARS`]), against
+/// `data`: what `golden` writes and checks and `watch` follows.
+pub(crate) fn predict_model_file(path: &Path, data: &DataSet, config: &Config) -> Result<Report, Failure> {
+    let model = load_model_file(path, config)?;
+    let (n_stars, _) = n_stars_of(&[], &model.spec);
+    let opts = Options {
+        n_stars,
+        data: data.clone(),
+        ..Options::default()
+    };
+    Ok(predict(&model, &opts, config)?)
 }
 
 /// Reads a whole text file of at most `limit` bytes (`Limits::max_shard_bytes`), stopping at
@@ -87,6 +139,29 @@ pub(crate) fn read_bounded(path: &std::path::Path, limit: usize) -> Result<Strin
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn n_stars_come_from_the_flag_then_the_model_then_the_default() {
+        let mut spec = ModelSpec::inline("phi^2", None);
+        assert_eq!(
+            n_stars_of(&[], &spec),
+            (vec![50.0, 55.0, 60.0], "the model's `efolds` setting")
+        );
+        spec.efolds = Some(vec![40.0, 45.0]);
+        assert_eq!(n_stars_of(&[], &spec).0, vec![40.0, 45.0]);
+        assert_eq!(n_stars_of(&[57.5], &spec), (vec![57.5], "--efolds"));
+        // a bad list is refused, naming where it came from
+        let config = Config::default();
+        let err = checked_n_stars(&[55.0, 0.5], &spec, &config).unwrap_err();
+        assert!(err.message.contains("N_* = 0.5 in --efolds"), "{}", err.message);
+        spec.efolds = Some(vec![0.5]);
+        let err = checked_n_stars(&[], &spec, &config).unwrap_err();
+        assert!(
+            err.message.contains("in the model's `efolds` setting"),
+            "{}",
+            err.message
+        );
+    }
 
     #[test]
     fn merge_reads_at_most_its_limit() {

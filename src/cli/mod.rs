@@ -10,12 +10,19 @@
 //! | 0 | success; `--help` and `--version`; a closed standard output (the reader went away): efold stops quietly, nothing on stderr |
 //! | 1 | `golden check` only: a model's predictions drifted beyond the tolerance, a model that has golden predictions now fails to predict, or a model has no readable golden file; the report on stderr lists every model |
 //! | 2 | every other failure, with a diagnosis on stderr: a malformed or unknown flag (clap's own message), bad input (an expression, a model or data file, a flag value outside its range, a size beyond its limit, `merge` inputs that are not one set of shards), an output that cannot be written, and an analysis that fails (no end of inflation, too few e-folds, K <= 0 or a pole in the range, a mode that does not freeze, a numerical failure, ...) |
+//!
+//! The layout: `args` holds every command's arguments (shared groups flattened in),
+//! `check` the checks of flag values that run before any work, `load` the one loading layer
+//! (a model from a file or flags, the data set, the N_* list), `files` the output files, and
+//! `commands` one module a command, each a function from its arguments to the text to print.
 
+use crate::analysis::error::AnalysisError;
 use crate::config::Config;
 use crate::diag::Diagnostic;
 use crate::language::compile::ExprError;
+use crate::model::ModelError;
+use crate::report::output::WriteError;
 use clap::{Parser, Subcommand};
-use std::fmt::Write as _;
 use std::process::ExitCode;
 
 mod args;
@@ -24,11 +31,11 @@ mod commands;
 mod files;
 mod load;
 
-pub use args::*;
-pub(crate) use check::*;
-pub(crate) use commands::*;
-pub(crate) use files::*;
-pub(crate) use load::*;
+pub use args::{
+    CompileArgs, DataArgs, EfoldsArgs, Emit, EvalArgs, FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs,
+    GoldenCheckArgs, GoldenWriteArgs, InspectArgs, MergeArgs, Method, ModelArgs, OutArgs, PredictArgs, ScanArgs,
+    ScanFormat, ScopeArgs, SpectrumArgs, SpectrumFormat, TableFormat, WatchArgs,
+};
 
 /// efold: from a potential and a kinetic function to inflationary predictions.
 #[derive(Debug, Parser)]
@@ -74,15 +81,21 @@ pub struct Failure {
     pub code: u8,
 }
 
+impl std::fmt::Display for Failure {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.message)
+    }
+}
+
 impl Failure {
     /// `golden check` found drift (or a model that now fails, or no golden file): exit
     /// code 1.
-    pub fn drifted(message: String) -> Failure {
+    pub(crate) fn drifted(message: String) -> Failure {
         Failure { message, code: 1 }
     }
 
     /// Bad input, an output that cannot be written, or a failed analysis: exit code 2.
-    pub fn input(message: String) -> Failure {
+    pub(crate) fn input(message: String) -> Failure {
         Failure { message, code: 2 }
     }
 
@@ -106,14 +119,14 @@ impl From<ExprError> for Failure {
     }
 }
 
-impl From<crate::model::ModelError> for Failure {
-    fn from(e: crate::model::ModelError) -> Failure {
+impl From<ModelError> for Failure {
+    fn from(e: ModelError) -> Failure {
         Failure::input(e.render())
     }
 }
 
-impl From<crate::analysis::error::AnalysisError> for Failure {
-    fn from(e: crate::analysis::error::AnalysisError) -> Failure {
+impl From<AnalysisError> for Failure {
+    fn from(e: AnalysisError) -> Failure {
         Failure::input(e.diagnostic().render(None))
     }
 }
@@ -130,12 +143,12 @@ impl From<Diagnostic> for Failure {
     }
 }
 
-impl From<crate::report::output::WriteError> for Failure {
-    fn from(e: crate::report::output::WriteError) -> Failure {
+impl From<WriteError> for Failure {
+    fn from(e: WriteError) -> Failure {
         match e {
             // The reader went away: stop quietly, as a filter does.
-            crate::report::output::WriteError::Closed => Failure::quiet(),
-            crate::report::output::WriteError::Failed(m) => Diagnostic::new(m)
+            WriteError::Closed => Failure::quiet(),
+            WriteError::Failed(m) => Diagnostic::new(m)
                 .with_hint("check the disk or device standard output goes to")
                 .into(),
         }
@@ -144,7 +157,7 @@ impl From<crate::report::output::WriteError> for Failure {
 
 /// Writes `text` to standard output (through [`crate::report::output::stdout`], the one writer): a
 /// closed pipe becomes a quiet stop with exit code 0, any other failure an error, exit code 2.
-pub fn print_out(text: &str) -> Result<(), Failure> {
+pub(crate) fn print_out(text: &str) -> Result<(), Failure> {
     crate::report::output::stdout(text).map_err(Failure::from)
 }
 
@@ -167,15 +180,58 @@ pub fn main() -> ExitCode {
 pub fn run(args: &Args) -> Result<String, Failure> {
     let config = Config::default();
     match &args.command {
-        Command::Eval(a) => eval(a, &config),
-        Command::Compile(a) => compile_view(a, &config),
-        Command::Inspect(a) => inspect_cmd(a, &config),
-        Command::Predict(a) => predict_cmd(a, &config),
-        Command::Spectrum(a) => spectrum_cmd(a, &config),
-        Command::Scan(a) => scan_cmd(a, &config),
-        Command::Merge(a) => merge_cmd(a, &config),
-        Command::Fit(a) => fit_cmd(a, &config),
-        Command::Golden(a) => golden_cmd(a, &config),
-        Command::Watch(a) => watch_cmd(a, &config),
+        Command::Eval(a) => commands::eval::eval(a, &config),
+        Command::Compile(a) => commands::eval::compile_view(a, &config),
+        Command::Inspect(a) => commands::inspect::inspect_cmd(a, &config),
+        Command::Predict(a) => commands::predict::predict_cmd(a, &config),
+        Command::Spectrum(a) => commands::spectrum::spectrum_cmd(a, &config),
+        Command::Scan(a) => commands::scan::scan_cmd(a, &config),
+        Command::Merge(a) => commands::scan::merge_cmd(a, &config),
+        Command::Fit(a) => commands::fit::fit_cmd(a, &config),
+        Command::Golden(a) => commands::golden::golden_cmd(a, &config),
+        Command::Watch(a) => commands::watch::watch_cmd(a, &config),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    /// clap's own consistency checks over every command: each `mut_arg` names a flag its
+    /// groups define, no flag is defined twice in one command, defaults parse.
+    #[test]
+    fn the_argument_definitions_are_consistent() {
+        Args::command().debug_assert();
+    }
+
+    /// A shared flag is one definition: the same help wherever it is flattened, unless the
+    /// command words it for itself.
+    #[test]
+    fn shared_flags_read_the_same_in_every_command() {
+        let cmd = Args::command();
+        let help = |sub: &str, flag: &str| -> String {
+            let c = cmd.find_subcommand(sub).unwrap_or_else(|| panic!("no command {sub}"));
+            let a = c.get_arguments().find(|a| a.get_id() == flag);
+            a.and_then(|a| a.get_help())
+                .map(|h| h.to_string())
+                .unwrap_or_else(|| panic!("{sub} has no --{flag}"))
+        };
+        for flag in ["pdf", "figure_width"] {
+            for sub in ["predict", "spectrum", "scan"] {
+                assert_eq!(help(sub, flag), help("inspect", flag), "--{flag} of {sub}");
+            }
+        }
+        for flag in ["potential", "kinetic", "params", "field", "range"] {
+            for sub in ["predict", "spectrum", "scan", "fit"] {
+                assert_eq!(help(sub, flag), help("inspect", flag), "--{flag} of {sub}");
+            }
+        }
+        assert_eq!(help("spectrum", "data"), help("fit", "data"));
+        assert_eq!(help("scan", "data"), help("fit", "data"));
+        // the commands that word a shared flag for themselves
+        assert_ne!(help("predict", "svg"), help("inspect", "svg"));
+        assert_ne!(help("predict", "data"), help("fit", "data"));
+        assert_ne!(help("scan", "efolds"), help("predict", "efolds"));
     }
 }

@@ -8,9 +8,6 @@
 //! added or removed. The report's `model` object (name, field, potential, kinetic, params) is
 //! the input: its changes are named in the summary, not counted as drift.
 
-use crate::config::Config;
-use crate::drivers::predict::{predict, Options, Report};
-use crate::model::{Model, ModelSpec};
 use std::path::{Path, PathBuf};
 
 /// Why a model file has no predictions, or a directory cannot be walked.
@@ -23,19 +20,13 @@ pub enum GoldenError {
         /// The system's message.
         error: String,
     },
-    /// The model file cannot be read or compiled.
-    Model(crate::model::ModelError),
-    /// The prediction failed.
-    Analysis(crate::analysis::error::AnalysisError),
 }
 
 impl GoldenError {
-    /// Drawn by the one renderer (a model error against its file).
+    /// Drawn by the one renderer.
     pub fn render(&self) -> String {
         match self {
             GoldenError::Directory { .. } => crate::diag::Diagnostic::new(self.to_string()).render(None),
-            GoldenError::Model(e) => e.render(),
-            GoldenError::Analysis(e) => e.diagnostic().render(None),
         }
     }
 }
@@ -46,8 +37,6 @@ impl std::fmt::Display for GoldenError {
             GoldenError::Directory { path, error } => {
                 write!(f, "cannot read directory `{}`: {error}", path.display())
             }
-            GoldenError::Model(e) => write!(f, "{e}"),
-            GoldenError::Analysis(e) => write!(f, "{e}"),
         }
     }
 }
@@ -85,17 +74,6 @@ pub fn model_files(dir: &Path) -> Result<Vec<PathBuf>, GoldenError> {
 /// Where a model's golden predictions live.
 pub fn golden_path(model: &Path) -> PathBuf {
     model.with_extension("predictions.json")
-}
-
-/// Predicts one model file with its own N_* setting (or 50, 55, 60).
-pub fn predict_file(path: &Path, base: &Options, config: &Config) -> Result<Report, GoldenError> {
-    let spec = ModelSpec::load(path).map_err(GoldenError::Model)?;
-    let model = Model::build(&spec, config).map_err(GoldenError::Model)?;
-    let opts = Options {
-        n_stars: spec.efolds.clone().unwrap_or_else(|| base.n_stars.clone()),
-        ..base.clone()
-    };
-    predict(&model, &opts, config).map_err(GoldenError::Analysis)
 }
 
 /// Where a difference lies: in the report around the predictions, or in the prediction at
@@ -592,9 +570,7 @@ mod tests {
     fn an_unreadable_directory_is_named() {
         let dir = std::env::temp_dir().join(format!("efold-no-such-dir-{}", std::process::id()));
         let e = model_files(&dir).unwrap_err();
-        let GoldenError::Directory { path, error } = &e else {
-            panic!("{e:?}")
-        };
+        let GoldenError::Directory { path, error } = &e;
         assert_eq!(path, &dir);
         let message = format!("cannot read directory `{}`: {error}", dir.display());
         assert_eq!(e.to_string(), message);

@@ -42,7 +42,7 @@ pub struct Options {
 impl Default for Options {
     fn default() -> Self {
         Options {
-            n_stars: vec![50.0, 55.0, 60.0],
+            n_stars: crate::config::DEFAULT_N_STARS.to_vec(),
             branch: None,
             second_order: false,
             reheating: None,

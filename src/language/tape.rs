@@ -1276,7 +1276,7 @@ fn square_coefficient(a: &Jet, k: usize) -> f64 {
         s += a[j] * a[k - j];
     }
     s *= 2.0;
-    if k % 2 == 0 {
+    if k.is_multiple_of(2) {
         s += a[k / 2] * a[k / 2];
     }
     s

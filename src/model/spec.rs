@@ -657,8 +657,30 @@ fn check_keys(table: &toml::Table, text: &str, file: &str) -> Result<(), ModelEr
     Ok(())
 }
 
+/// The TOML parser's message for `e`, in efold's words: an unterminated string is named without
+/// the closing quote the parser expected (the caret at the end of the line shows it), and a
+/// duplicate key is named (the parser leaves the name to its span in `text`).
+pub(crate) fn toml_message(e: &toml::de::Error, text: &str) -> String {
+    let message = e.message().trim();
+    let (what, _) = message.split_once(", expected").unwrap_or((message, ""));
+    if what.ends_with(" string") && what.starts_with("invalid ") {
+        return what.to_string();
+    }
+    if what == "duplicate key" {
+        let key = e
+            .span()
+            .and_then(|s| text.get(s))
+            .map(str::trim)
+            .filter(|k| !k.is_empty());
+        if let Some(key) = key {
+            return format!("duplicate key `{key}`");
+        }
+    }
+    message.to_string()
+}
+
 fn toml_error(e: toml::de::Error, text: &str, file: &str) -> ModelError {
-    let message = e.message().trim().to_string();
+    let message = toml_message(&e, text);
     let mut d = Diagnostic::new(format!("malformed model file: {message}"));
     if let Some(span) = e.span() {
         d = d.with_span(Span::new(span.start, span.end.max(span.start + 1)), "here");
@@ -672,6 +694,23 @@ fn toml_error(e: toml::de::Error, text: &str, file: &str) -> ModelError {
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn toml_messages_name_the_unterminated_string_and_the_duplicate_key() {
+        let message = |text: &str| super::toml_message(&toml::from_str::<toml::Table>(text).unwrap_err(), text);
+        assert_eq!(message("potential = \"phi^2\n"), "invalid basic string");
+        assert_eq!(message("potential = 'phi^2\n"), "invalid literal string");
+        assert_eq!(
+            message("potential = \"a\"\npotential = \"b\"\n"),
+            "duplicate key `potential`"
+        );
+        // what the parser expected is kept where it is not just a closing quote
+        assert!(
+            message("potential = [1,\n").contains("expected `]`"),
+            "{}",
+            message("potential = [1,\n")
+        );
+    }
+
     use super::*;
     use crate::config::Config;
     use crate::model::Model;

@@ -1,9 +1,14 @@
 //! `fit`: parameters that reach target observables.
 
-use crate::cli::*;
+use crate::cli::args::{FitArgs, Format};
+use crate::cli::check::check_efolds_values;
+use crate::cli::load::{load_data, load_model};
+use crate::cli::Failure;
 use crate::config::Config;
 use crate::diag::Diagnostic;
+use crate::drivers::fit::{fit, text, Target};
 
+/// `efold fit`: solves for the free parameters, from their values in the model.
 pub(crate) fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
     check_efolds_values("--efolds", &[a.efolds])?;
     let model = load_model(
@@ -11,14 +16,14 @@ pub(crate) fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
         "efold fit models/pole-order-2-quadratic.toml --free alpha --target r=0.01",
         config,
     )?;
-    let data = load_data(&a.data)?;
+    let data = load_data(&a.data, config)?;
     let targets = a
         .targets
         .iter()
-        .map(|t| crate::drivers::fit::Target::parse(t))
+        .map(|t| Target::parse(t))
         .collect::<Result<Vec<_>, _>>()
         .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
-    let f = crate::drivers::fit::fit(
+    let f = fit(
         &model.spec,
         &a.free,
         &targets,
@@ -29,6 +34,6 @@ pub(crate) fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
     )?;
     Ok(match a.format {
         Format::Json => format!("{}\n", serde_json::to_string_pretty(&f).expect("serialisable")),
-        Format::Text => crate::drivers::fit::text(&f),
+        Format::Text => text(&f),
     })
 }

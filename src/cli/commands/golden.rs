@@ -1,84 +1,104 @@
 //! `golden`: golden prediction files written and checked.
 
-use crate::cli::*;
+use crate::cli::args::{GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs};
+use crate::cli::check::check_tolerance;
+use crate::cli::files::write_output_file;
+use crate::cli::load::{load_data, predict_model_file};
+use crate::cli::Failure;
 use crate::config::Config;
+use crate::data::DataSet;
 use crate::diag::Diagnostic;
+use crate::drivers::golden::{diff, golden_path, model_files};
+use crate::report::numfmt;
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
 
+/// `efold golden write|check`.
 pub(crate) fn golden_cmd(a: &GoldenArgs, config: &Config) -> Result<String, Failure> {
-    use crate::drivers::golden::{diff, golden_path, model_files, predict_file};
-    use std::fmt::Write as _;
-    let (dir, data) = match &a.action {
-        GoldenAction::Write { dir, data } | GoldenAction::Check { dir, data, .. } => (dir, data),
-    };
-    if let GoldenAction::Check { tolerance, .. } = &a.action {
-        check_tolerance(*tolerance)?;
+    match &a.action {
+        GoldenAction::Write(w) => golden_write(w, config),
+        GoldenAction::Check(c) => golden_check(c, config),
     }
-    let base = crate::drivers::predict::Options {
-        data: load_data(data)?,
-        ..Default::default()
-    };
+}
+
+/// The model files under `dir`; none is an error.
+fn files_under(dir: &Path) -> Result<Vec<PathBuf>, Failure> {
     let files = model_files(dir).map_err(|e| Failure::input(e.render()))?;
     if files.is_empty() {
         return Err(Diagnostic::new(format!("no model files (*.toml) under `{}`", dir.display())).into());
     }
+    Ok(files)
+}
+
+/// `golden write`: every model's report written beside it.
+fn golden_write(a: &GoldenWriteArgs, config: &Config) -> Result<String, Failure> {
+    let data = load_data(&a.data, config)?;
+    let files = files_under(&a.dir)?;
     let mut out = String::new();
-    match &a.action {
-        GoldenAction::Write { .. } => {
-            for f in &files {
-                let rep = predict_file(f, &base, config)
-                    .map_err(|e| Failure::input(format!("{}: {}", f.display(), e.render())))?;
-                let text = format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable"));
-                write_output_file(&golden_path(f), &text)?;
-                let _ = writeln!(out, "wrote {}", golden_path(f).display());
-            }
-            Ok(out)
+    for f in &files {
+        let rep = predict_model_file(f, &data, config).map_err(|e| Failure::input(format!("{}: {e}", f.display())))?;
+        let text = format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable"));
+        write_output_file(&golden_path(f), &text)?;
+        let _ = writeln!(out, "wrote {}", golden_path(f).display());
+    }
+    Ok(out)
+}
+
+/// `golden check`: every model against its golden file; exit code 1 if any drifted.
+fn golden_check(a: &GoldenCheckArgs, config: &Config) -> Result<String, Failure> {
+    check_tolerance(a.tolerance)?;
+    let data = load_data(&a.data, config)?;
+    let files = files_under(&a.dir)?;
+    let mut out = String::new();
+    let mut drifted = 0;
+    for f in &files {
+        if !check_one(f, &data, a.tolerance, config, &mut out) {
+            drifted += 1;
         }
-        GoldenAction::Check { tolerance, .. } => {
-            let mut drifted = 0;
-            for f in &files {
-                let g = golden_path(f);
-                let old = match std::fs::read_to_string(&g) {
-                    Ok(t) => serde_json::from_str::<serde_json::Value>(&t).ok(),
-                    Err(_) => None,
-                };
-                let Some(old) = old else {
-                    drifted += 1;
-                    let _ = writeln!(
-                        out,
-                        "{}: no readable golden file {} (run `efold golden write`)",
-                        f.display(),
-                        g.display()
-                    );
-                    continue;
-                };
-                match predict_file(f, &base, config) {
-                    Err(e) => {
-                        drifted += 1;
-                        let _ = writeln!(out, "{}: now fails to predict:\n{}", f.display(), e.render());
-                    }
-                    Ok(rep) => {
-                        let new = serde_json::to_value(&rep).expect("serialisable");
-                        let d = diff(&old, &new, *tolerance);
-                        if d.is_empty() {
-                            let _ = writeln!(out, "{}: unchanged", f.display());
-                        } else {
-                            drifted += 1;
-                            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.drifts.len());
-                            for line in d.lines() {
-                                let _ = writeln!(out, "{line}");
-                            }
-                        }
-                    }
-                }
+    }
+    if drifted > 0 {
+        return Err(Failure::drifted(format!(
+            "{drifted} of {} model(s) drifted beyond {}\n{out}",
+            files.len(),
+            numfmt::typed(a.tolerance)
+        )));
+    }
+    Ok(out)
+}
+
+/// One model against its golden file, its lines appended to `out`; whether it is unchanged.
+fn check_one(f: &Path, data: &DataSet, tolerance: f64, config: &Config, out: &mut String) -> bool {
+    let g = golden_path(f);
+    let old = match std::fs::read_to_string(&g) {
+        Ok(t) => serde_json::from_str::<serde_json::Value>(&t).ok(),
+        Err(_) => None,
+    };
+    let Some(old) = old else {
+        let _ = writeln!(
+            out,
+            "{}: no readable golden file {} (run `efold golden write`)",
+            f.display(),
+            g.display()
+        );
+        return false;
+    };
+    match predict_model_file(f, data, config) {
+        Err(e) => {
+            let _ = writeln!(out, "{}: now fails to predict:\n{e}", f.display());
+            false
+        }
+        Ok(rep) => {
+            let new = serde_json::to_value(&rep).expect("serialisable");
+            let d = diff(&old, &new, tolerance);
+            if d.is_empty() {
+                let _ = writeln!(out, "{}: unchanged", f.display());
+                return true;
             }
-            if drifted > 0 {
-                return Err(Failure::drifted(format!(
-                    "{drifted} of {} model(s) drifted beyond {}\n{out}",
-                    files.len(),
-                    crate::report::numfmt::typed(*tolerance)
-                )));
+            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.drifts.len());
+            for line in d.lines() {
+                let _ = writeln!(out, "{line}");
             }
-            Ok(out)
+            false
         }
     }
 }

@@ -1,19 +1,10 @@
-//! One module a command.
+//! One module a command: each turns its arguments into the text to print.
 
-mod eval;
-mod fit;
-mod golden;
-mod inspect;
-mod predict;
-mod scan;
-mod spectrum;
-mod watch;
-
-pub(crate) use eval::*;
-pub(crate) use fit::*;
-pub(crate) use golden::*;
-pub(crate) use inspect::*;
-pub(crate) use predict::*;
-pub(crate) use scan::*;
-pub(crate) use spectrum::*;
-pub(crate) use watch::*;
+pub(crate) mod eval;
+pub(crate) mod fit;
+pub(crate) mod golden;
+pub(crate) mod inspect;
+pub(crate) mod predict;
+pub(crate) mod scan;
+pub(crate) mod spectrum;
+pub(crate) mod watch;

@@ -1,49 +1,38 @@
 //! `predict`: n_s, r and the rest at each N_*.
 
-use crate::cli::*;
-use crate::config::Config;
+use crate::analysis::background::Settings;
+use crate::cli::args::{Method, PredictArgs, TableFormat};
+use crate::cli::check::{
+    check_efolds_count, check_predict_flags, check_start_velocity, min_exact_efolds, opts_fix_n_star, reheating_from,
+};
+use crate::cli::files::write_figure;
+use crate::cli::load::{checked_n_stars, load_data, load_model};
+use crate::cli::Failure;
+use crate::config::{Config, SLOW_ROLL_WARN_EFOLDS};
 use crate::diag::Diagnostic;
+use crate::drivers::inspect::{figure, FigureMarks};
+use crate::drivers::predict::{csv, text, Options, Report};
+use crate::drivers::prepared::Prepared;
+use crate::report::numfmt;
 
+/// `efold predict`: the observables at each N_*, with the figure of V if asked for.
 pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
-    check_efolds_count(&a.efolds, config)?;
+    check_efolds_count(&a.efolds.efolds, config)?;
     check_predict_flags(a)?;
     let model = load_model(&a.model, "efold predict models/pole-order-2-quadratic.toml", config)?;
     if let (Some(phi), Some(v)) = (a.start_phi, a.start_velocity) {
         check_start_velocity(&model, phi, v)?;
     }
-    let data = match &a.data {
-        Some(p) => crate::data::DataSet::load(p).map_err(Failure::from)?,
-        None => crate::data::DataSet::builtin(),
-    };
-    let n_stars = if !a.efolds.is_empty() {
-        a.efolds.clone()
-    } else {
-        model.spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
-    };
-    check_efolds_count(&n_stars, config)?;
-    if a.efolds.is_empty() {
-        check_efolds_values("the model's `efolds` setting", &n_stars)?;
-    }
-    let exact = (a.method == Method::Exact).then(|| crate::analysis::background::Settings {
+    let data = load_data(&a.data, config)?;
+    let n_stars = checked_n_stars(&a.efolds.efolds, &model.spec, config)?;
+    let exact = (a.method == Method::Exact).then(|| Settings {
         start: a.start_phi.map(|p| (p, a.start_velocity)),
         ..Default::default()
     });
     if let Some(settings) = &exact {
-        let min = min_exact_efolds(settings);
-        if let Some(n) = n_stars.iter().find(|n| **n < min).filter(|_| opts_fix_n_star(a)) {
-            return Err(Diagnostic::new(format!(
-                "N_* = {n} is too few for --method exact: it needs N_* of at least {:.2}",
-                (min * 100.0).ceil() / 100.0
-            ))
-            .with_hint(format!(
-                "the modes around the pivot must leave the horizon and freeze (k/aH = {:e}) before the end: give --efolds {:.0} or more, or use slow roll",
-                settings.k_stop,
-                min.ceil()
-            ))
-            .into());
-        }
+        check_exact_efolds(a, settings, &n_stars)?;
     }
-    let opts = crate::drivers::predict::Options {
+    let opts = Options {
         n_stars,
         branch: a.branch,
         second_order: a.second_order,
@@ -52,10 +41,10 @@ pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Fa
         exact,
     };
     // One analysis for the prediction and the figure.
-    let prep = crate::drivers::prepared::Prepared::new(&model);
+    let prep = Prepared::new(&model);
     let mut rep = prep.predict(&opts, config)?;
     if a.method == Method::SlowRoll {
-        let limit = crate::config::SLOW_ROLL_WARN_EFOLDS;
+        let limit = SLOW_ROLL_WARN_EFOLDS;
         if let Some(p) = rep.predictions.iter().find(|p| p.n_star < limit) {
             rep.warnings.push(format!(
                 "N_* = {} is below {limit}: slow roll is unreliable so close to the end of inflation (try --method exact)",
@@ -63,23 +52,47 @@ pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Fa
             ));
         }
     }
-    if a.svg.is_some() || a.pdf.is_some() {
-        let ins = prep.inspect(config, None)?;
-        let mut marks = crate::drivers::inspect::FigureMarks::default();
-        if let Some(p) = rep.predictions.first() {
-            marks.points.push((p.phi_end, "end".to_string()));
-        }
-        for p in &rep.predictions {
-            marks
-                .points
-                .push((p.phi_star, format!("$N$ = {}", crate::report::numfmt::typed(p.n_star))));
-        }
-        let svg = crate::drivers::inspect::figure(&model, &ins, &marks, config, a.figure_width)?;
-        write_figure(&a.svg, &a.pdf, &svg)?;
+    if a.figure.wanted() {
+        write_potential_figure(a, &prep, &rep, config)?;
     }
     Ok(match a.format {
         TableFormat::Json => format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable report")),
-        TableFormat::Csv => crate::drivers::predict::csv(&rep),
-        TableFormat::Text => crate::drivers::predict::text(&rep),
+        TableFormat::Csv => csv(&rep),
+        TableFormat::Text => text(&rep),
     })
+}
+
+/// The exact route needs room after the pivot: an N_* from `--efolds` or the model below
+/// [`min_exact_efolds`] is refused (one from reheating is checked by the matching itself).
+fn check_exact_efolds(a: &PredictArgs, settings: &Settings, n_stars: &[f64]) -> Result<(), Failure> {
+    let min = min_exact_efolds(settings);
+    let Some(n) = n_stars.iter().find(|n| **n < min).filter(|_| opts_fix_n_star(a)) else {
+        return Ok(());
+    };
+    Err(Diagnostic::new(format!(
+        "N_* = {n} is too few for --method exact: it needs N_* of at least {:.2}",
+        (min * 100.0).ceil() / 100.0
+    ))
+    .with_hint(format!(
+        "the modes around the pivot must leave the horizon and freeze (k/aH = {:e}) before the end: give --efolds {:.0} or more, or use slow roll",
+        settings.k_stop,
+        min.ceil()
+    ))
+    .into())
+}
+
+/// The figure of V with the end of inflation and the pivot at each N_* marked.
+fn write_potential_figure(a: &PredictArgs, prep: &Prepared<'_>, rep: &Report, config: &Config) -> Result<(), Failure> {
+    let ins = prep.inspect(config, None)?;
+    let mut marks = FigureMarks::default();
+    if let Some(p) = rep.predictions.first() {
+        marks.points.push((p.phi_end, "end".to_string()));
+    }
+    for p in &rep.predictions {
+        marks
+            .points
+            .push((p.phi_star, format!("$N$ = {}", numfmt::typed(p.n_star))));
+    }
+    let svg = figure(prep.model(), &ins, &marks, config, a.figure.figure_width)?;
+    write_figure(&a.figure, &svg)
 }

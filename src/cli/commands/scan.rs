@@ -1,12 +1,30 @@
 //! `scan` and `merge`: predictions over a parameter grid, streamed, and shards joined.
 
-use crate::cli::*;
+use crate::cli::args::{MergeArgs, ScanArgs, ScanFormat};
+use crate::cli::check::{check_efolds_count, check_grid_size, check_vary_names};
+use crate::cli::files::{cannot_write, refuse_one_file, write_figure, write_output_file};
+use crate::cli::load::{checked_n_stars, load_data, load_model, read_bounded};
+use crate::cli::{print_out, Failure};
 use crate::config::Config;
+use crate::data::DataSet;
 use crate::diag::Diagnostic;
+use crate::drivers::scan::{definition_id, figure, merge, run_chunks, Axis, Provenance, ScanJob, ScanRow, Shard, Table};
+use crate::model::ModelSpec;
+use crate::report::output::{stderr, OutputFile};
 
+/// What a scan runs over: the model, the axes, the N_* list and the data, and the slice.
+struct Grid {
+    spec: ModelSpec,
+    axes: Vec<Axis>,
+    n_stars: Vec<f64>,
+    data: DataSet,
+    shard: Option<Shard>,
+    total: usize,
+}
+
+/// `efold scan`: every check first, then the grid streamed to standard output or `--out`.
 pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
-    use std::io::IsTerminal;
-    check_efolds_count(&a.efolds, config)?;
+    check_efolds_count(&a.efolds.efolds, config)?;
     // Compile once up front: a bad model is one error, not one per point.
     let model = load_model(
         &a.model,
@@ -14,18 +32,50 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
         config,
     )?;
     let spec = model.spec.clone();
-    let data = load_data(&a.data)?;
-    let axes = scan_axes(a, &spec, config)?;
+    let data = load_data(&a.data, config)?;
+    let axes = parse_axes(a, &spec, config)?;
     let total = check_grid_size(&axes, config)?;
     let shard = a
         .shard
         .as_deref()
-        .map(crate::drivers::scan::Shard::parse)
+        .map(Shard::parse)
         .transpose()
         .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
-    let n_stars = scan_efolds(a, &spec, config)?;
-    for fig in [&a.svg, &a.pdf] {
-        let (Some(out), Some(svg)) = (&a.out, fig) else {
+    let n_stars = checked_n_stars(&a.efolds.efolds, &spec, config)?;
+    check_out_and_figure(a)?;
+    let grid = Grid {
+        spec,
+        axes,
+        n_stars,
+        data,
+        shard,
+        total,
+    };
+    run_grid(a, &grid, config)?;
+    Ok(String::new())
+}
+
+/// The axes of `--vary`: once or twice, two different names, each within
+/// `Limits::max_axis_points`.
+fn parse_axes(a: &ScanArgs, spec: &ModelSpec, config: &Config) -> Result<Vec<Axis>, Failure> {
+    if a.vary.len() > 2 {
+        return Err(Diagnostic::new("at most two parameters can be varied at once")
+            .with_hint("give --vary once or twice")
+            .into());
+    }
+    check_vary_names(&a.vary)?;
+    let limit = config.limits.max_axis_points;
+    a.vary
+        .iter()
+        .map(|v| Axis::parse(v, spec, a.points, limit))
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(|e| Failure::from(e.diagnostic()))
+}
+
+/// The table and a figure on one file are refused.
+fn check_out_and_figure(a: &ScanArgs) -> Result<(), Failure> {
+    for fig in [&a.figure.svg, &a.figure.pdf] {
+        let (Some(out), Some(svg)) = (&a.out.out, fig) else {
             continue;
         };
         refuse_one_file(
@@ -36,25 +86,33 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
             "give the table and the figure different files",
         )?;
     }
-    let provenance = shard.map(|s| {
-        let range = s.range(total);
-        crate::drivers::scan::Provenance {
-            scan: crate::drivers::scan::definition_id(&spec, &axes, &n_stars, &data),
+    Ok(())
+}
+
+/// Runs the grid, streaming the table chunk by chunk (to `--out`, committed at the end, or to
+/// standard output), then writes the figure if asked for.
+fn run_grid(a: &ScanArgs, g: &Grid, config: &Config) -> Result<(), Failure> {
+    use std::io::IsTerminal;
+    let provenance = g.shard.map(|s| {
+        let range = s.range(g.total);
+        Provenance {
+            scan: definition_id(&g.spec, &g.axes, &g.n_stars, &g.data),
             shard: s.k,
             shards: s.n,
             points: [range.start, range.end],
-            total,
-            efolds: n_stars.clone(),
+            total: g.total,
+            efolds: g.n_stars.clone(),
         }
     });
-    let names: Vec<String> = axes.iter().map(|x| x.name.clone()).collect();
-    let mut table = crate::drivers::scan::Table::new(a.format == ScanFormat::Json, provenance);
-    let mut file = match &a.out {
-        Some(path) => Some(crate::report::output::OutputFile::create(path).map_err(|e| cannot_write(path, e))?),
+    let names: Vec<String> = g.axes.iter().map(|x| x.name.clone()).collect();
+    let mut table = Table::new(a.format == ScanFormat::Json, provenance);
+    let out = &a.out.out;
+    let mut file = match out {
+        Some(path) => Some(OutputFile::create(path).map_err(|e| cannot_write(path, e))?),
         None => None,
     };
     let mut emit = |text: &str| -> Result<(), Failure> {
-        match (&mut file, &a.out) {
+        match (&mut file, out) {
             (Some(f), Some(path)) => f.write(text).map_err(|e| cannot_write(path, e)),
             _ => print_out(text),
         }
@@ -62,93 +120,58 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
     emit(&table.start(&names))?;
     let (mut rows_done, mut failed) = (0usize, 0usize);
     // The figure needs every row; the table alone is streamed chunk by chunk.
-    let mut kept: Vec<crate::drivers::scan::ScanRow> = Vec::new();
+    let mut kept: Vec<ScanRow> = Vec::new();
     let progress = std::io::stderr().is_terminal();
-    let job = crate::drivers::scan::ScanJob {
-        spec: &spec,
-        axes: &axes,
-        n_stars: &n_stars,
-        data: &data,
-        shard,
+    let job = ScanJob {
+        spec: &g.spec,
+        axes: &g.axes,
+        n_stars: &g.n_stars,
+        data: &g.data,
+        shard: g.shard,
         config,
         progress,
     };
-    crate::drivers::scan::run_chunks(&job, &mut |rows| {
-        rows_done += rows.len();
-        failed += rows.iter().filter(|r| r.result.is_err()).count();
-        if a.svg.is_some() || a.pdf.is_some() {
-            kept.extend_from_slice(rows);
-        }
-        emit(&table.rows(rows))
-    })?;
+    run_chunks(
+        &job,
+        &mut |rows| {
+            rows_done += rows.len();
+            failed += rows.iter().filter(|r| r.result.is_err()).count();
+            if a.figure.wanted() {
+                kept.extend_from_slice(rows);
+            }
+            emit(&table.rows(rows))
+        },
+    )?;
     emit(&table.end())?;
     if failed > 0 {
-        crate::report::output::stderr(&format!(
+        stderr(&format!(
             "efold: warning: {failed} of {rows_done} rows failed; they keep their row with the error\n"
         ));
     }
-    if a.svg.is_some() || a.pdf.is_some() {
-        write_figure(
-            &a.svg,
-            &a.pdf,
-            &crate::drivers::scan::figure(&spec.name, &axes, &kept, &data, a.figure_width),
-        )?;
+    if a.figure.wanted() {
+        let svg = figure(&g.spec.name, &g.axes, &kept, &g.data, a.figure.figure_width);
+        write_figure(&a.figure, &svg)?;
     }
-    if let (Some(f), Some(path)) = (file, &a.out) {
+    if let (Some(f), Some(path)) = (file, out) {
         f.commit().map_err(|e| cannot_write(path, e))?;
     }
-    Ok(String::new())
+    Ok(())
 }
 
-/// The grid's axes from `--vary` (at most two), each checked against the model and the limit.
-fn scan_axes(
-    a: &ScanArgs,
-    spec: &crate::model::ModelSpec,
-    config: &Config,
-) -> Result<Vec<crate::drivers::scan::Axis>, Failure> {
-    if a.vary.len() > 2 {
-        return Err(Diagnostic::new("at most two parameters can be varied at once")
-            .with_hint("give --vary once or twice")
-            .into());
-    }
-    check_vary_names(&a.vary)?;
-    let limit = config.limits.max_axis_points;
-    a.vary
-        .iter()
-        .map(|v| crate::drivers::scan::Axis::parse(v, spec, a.points, limit))
-        .collect::<Result<Vec<_>, _>>()
-        .map_err(|e| Failure::from(e.diagnostic()))
-}
-
-/// The N_* values of a scan: `--efolds`, or the model's `efolds` setting, or 50, 55, 60.
-fn scan_efolds(a: &ScanArgs, spec: &crate::model::ModelSpec, config: &Config) -> Result<Vec<f64>, Failure> {
-    let n_stars = if a.efolds.is_empty() {
-        spec.efolds.clone().unwrap_or_else(|| vec![50.0, 55.0, 60.0])
-    } else {
-        a.efolds.clone()
-    };
-    check_efolds_count(&n_stars, config)?;
-    if a.efolds.is_empty() {
-        check_efolds_values("the model's `efolds` setting", &n_stars)?;
-    } else {
-        check_efolds_values("--efolds", &n_stars)?;
-    }
-    Ok(n_stars)
-}
-
+/// `efold merge`: the shards of one scan joined into the unsharded table.
 pub(crate) fn merge_cmd(a: &MergeArgs, config: &Config) -> Result<String, Failure> {
     let mut texts = Vec::new();
     for f in &a.files {
         let t = read_bounded(f, config.limits.max_shard_bytes)?;
         texts.push((f.display().to_string(), t));
     }
-    let merged = crate::drivers::scan::merge(&texts).map_err(|e| {
+    let merged = merge(&texts).map_err(|e| {
         Failure::from(
             Diagnostic::new(e.to_string())
                 .with_hint("give every file of one `efold scan --shard K/N` run, K = 1..N, each once, as written"),
         )
     })?;
-    match &a.out {
+    match &a.out.out {
         Some(path) => {
             write_output_file(path, &merged)?;
             Ok(String::new())

@@ -1,9 +1,20 @@
 //! `spectrum`: the exact power spectra on a grid of k.
 
-use crate::cli::*;
+use crate::analysis::background::Settings;
+use crate::cli::args::{SpectrumArgs, SpectrumFormat};
+use crate::cli::check::{check_count, check_efolds_values, check_start, check_start_velocity};
+use crate::cli::files::write_figure;
+use crate::cli::load::{load_data, load_model};
+use crate::cli::Failure;
 use crate::config::Config;
 use crate::diag::Diagnostic;
+use crate::drivers::inspect::ModelSummary;
+use crate::drivers::prepared::Prepared;
+use crate::drivers::spectrum::{spectrum, start_background};
+use crate::report::numfmt;
+use crate::report::spectrum::{csv, figure, text};
 
+/// `efold spectrum`: the exact spectra on a grid of k evenly spaced in ln k.
 pub(crate) fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, Failure> {
     check_count(
         "--points",
@@ -17,11 +28,8 @@ pub(crate) fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, 
     if let (Some(phi), Some(v)) = (a.start_phi, a.start_velocity) {
         check_start_velocity(&model, phi, v)?;
     }
-    let data = match &a.data {
-        Some(p) => crate::data::DataSet::load(p).map_err(Failure::from)?,
-        None => crate::data::DataSet::builtin(),
-    };
-    let settings = crate::analysis::background::Settings {
+    let data = load_data(&a.data, config)?;
+    let settings = Settings {
         start: a.start_phi.map(|p| (p, a.start_velocity)),
         ..Default::default()
     };
@@ -43,37 +51,33 @@ pub(crate) fn spectrum_cmd(a: &SpectrumArgs, config: &Config) -> Result<String, 
     if k_max > k_limit {
         return Err(Diagnostic::new(format!(
             "--k-max {} Mpc^-1 exits too close to the end of inflation to freeze (at most {} for N_* = {})",
-            crate::report::numfmt::typed(k_max),
-            crate::report::numfmt::number(k_limit),
-            crate::report::numfmt::typed(a.efolds)
+            numfmt::typed(k_max),
+            numfmt::number(k_limit),
+            numfmt::typed(a.efolds)
         ))
         .with_hint("lower --k-max, or raise --efolds")
         .into());
     }
     let needed = a.efolds + (k_star / a.k_min).ln().max(0.0) + settings.k_start.ln() + 4.0;
-    let prep = crate::drivers::prepared::Prepared::new(&model);
-    let run = crate::drivers::spectrum::start_background(&prep, needed, &settings, a.branch, &data, config)?;
+    let prep = Prepared::new(&model);
+    let run = start_background(&prep, needed, &settings, a.branch, &data, config)?;
     let n = a.points;
     let ks: Vec<f64> = (0..n)
         .map(|i| (a.k_min.ln() + (k_max.ln() - a.k_min.ln()) * i as f64 / (n - 1) as f64).exp())
         .collect();
-    let sp = crate::drivers::spectrum::spectrum(&model, &run, a.efolds, &ks, data.a_s(), k_star, &settings)?;
-    if a.svg.is_some() || a.pdf.is_some() {
-        write_figure(
-            &a.svg,
-            &a.pdf,
-            &crate::report::spectrum::figure(&sp, &model.spec.name, a.figure_width),
-        )?;
+    let sp = spectrum(&model, &run, a.efolds, &ks, data.a_s(), k_star, &settings)?;
+    if a.figure.wanted() {
+        write_figure(&a.figure, &figure(&sp, &model.spec.name, a.figure.figure_width))?;
     }
     Ok(match a.format {
         SpectrumFormat::Json => {
             let obj = serde_json::json!({
-                "model": crate::drivers::inspect::ModelSummary::of(&model),
+                "model": ModelSummary::of(&model),
                 "spectrum": sp,
             });
             format!("{}\n", serde_json::to_string_pretty(&obj).expect("serialisable"))
         }
-        SpectrumFormat::Csv => crate::report::spectrum::csv(&sp),
-        SpectrumFormat::Text => crate::report::spectrum::text(&sp, &model.spec.name),
+        SpectrumFormat::Csv => csv(&sp),
+        SpectrumFormat::Text => text(&sp, &model.spec.name),
     })
 }
