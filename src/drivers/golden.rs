@@ -562,6 +562,9 @@ pub fn diff(old: &serde_json::Value, new: &serde_json::Value, tolerance: f64) ->
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::config::Config;
+    use crate::drivers::predict::{predict, Options};
+    use crate::model::{Model, ModelSpec};
     use serde_json::json;
 
     /// A directory that cannot be read is an error naming it, drawn by the one renderer as
