@@ -16,7 +16,7 @@
 //! Wavenumbers are measured against the pivot: a = 1 when the pivot exits, k = kappa a_* H_*,
 //! so kappa = k / k_*.
 
-use crate::analysis::background::{state_at, Background, Run, Settings, State};
+use crate::analysis::background::{friction, state_at, Background, Run, Settings, State};
 use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
 use crate::model::Model;
@@ -87,10 +87,7 @@ pub fn mode(
         let (n0, y0) = run.checkpoints[j - 1];
         let (n1, _) = run.checkpoints[j];
         let sol = integrate(
-            |_, y: &State| {
-                let p = bg.point(y);
-                [p.dphi, p.dpi]
-            },
+            |_, y: &State| bg.rhs(y),
             n0,
             y0,
             n1,
@@ -140,7 +137,7 @@ pub fn mode(
         let q2 = q * q;
         let eps2 = 2.0 * p.dpi / y[1];
         let fr = 3.0 + eps2 - p.eps_h;
-        let ft = 3.0 - p.eps_h;
+        let ft = friction(p.eps_h);
         [
             p.dphi,
             p.dpi,

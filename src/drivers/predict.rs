@@ -9,7 +9,8 @@ use crate::analysis::single::branches::{branches, Branch};
 use crate::analysis::single::canonical::CanonicalMap;
 use crate::analysis::single::domain::{find_domain, minimum_of_v, EndKind, Interval};
 use crate::analysis::single::pole::analyse_pole;
-use crate::analysis::slowroll::{end_of_inflation, phi_stars, Observables, SlowRoll};
+use crate::analysis::background::hubble_squared;
+use crate::analysis::slowroll::{a_s_first_order, end_of_inflation, phi_stars, Observables, SlowRoll};
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::inspect::ModelSummary;
@@ -67,6 +68,71 @@ pub struct PoleOnly {
     pub flatness: f64,
 }
 
+/// How a prediction compares with the data.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Verdict {
+    /// n_s within the tension band and r below the limit.
+    Consistent,
+    /// n_s between the tension and the exclusion bands.
+    Tension,
+    /// n_s beyond the exclusion band, or r above the limit.
+    Excluded,
+}
+
+impl Verdict {
+    /// The word, as in the outputs.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Verdict::Consistent => "consistent",
+            Verdict::Tension => "tension",
+            Verdict::Excluded => "excluded",
+        }
+    }
+}
+
+impl std::fmt::Display for Verdict {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// The route to the observables.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum Method {
+    /// The slow-roll formulas.
+    #[serde(rename = "slow-roll")]
+    SlowRoll,
+    /// The exact background and Mukhanov–Sasaki modes.
+    #[serde(rename = "exact")]
+    Exact,
+}
+
+/// How N_* was chosen: given, or fixed by a reheating history (serialized as `given` or
+/// `reheating: ...`).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum NStarFrom {
+    /// The N_* asked for.
+    Given,
+    /// Fixed by the reheating history described.
+    Reheating(String),
+}
+
+impl std::fmt::Display for NStarFrom {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            NStarFrom::Given => f.write_str("given"),
+            NStarFrom::Reheating(how) => write!(f, "reheating: {how}"),
+        }
+    }
+}
+
+impl Serialize for NStarFrom {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
+    }
+}
+
 /// The predictions at one N_*.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Prediction {
@@ -117,7 +183,7 @@ pub struct Prediction {
     /// The data's upper limit on r.
     pub r_limit: f64,
     /// consistent, tension or excluded.
-    pub verdict: &'static str,
+    pub verdict: Verdict,
     /// The pole-only leading-order prediction, when the branch starts at a pole.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pole_only: Option<PoleOnly>,
@@ -221,6 +287,55 @@ pub fn check_finite(predictions: &[Prediction], field: &str) -> Result<(), Analy
     Ok(())
 }
 
+/// The factor on the user's V that turns the amplitude `a_s_model` of the potential as
+/// written into the data's observed A_s (the spectrum scales as V).
+fn potential_scale(a_s_model: f64, data: &DataSet) -> f64 {
+    data.a_s() / a_s_model
+}
+
+/// The potential scaled to the observed A_s, and the energy scales it implies.
+struct Scales {
+    potential_scale: f64,
+    v_star_quarter_gev: f64,
+    h_star_gev: f64,
+    t_ds_gev: f64,
+    v_end: f64,
+    v_end_quarter_gev: f64,
+}
+
+impl Scales {
+    /// From the amplitude of the potential as written (`a_s_model`), V at the pivot and at the
+    /// end as written, and eps_H at the pivot (0 in slow roll, where H^2 = V/3).
+    fn new(a_s_model: f64, v_star_user: f64, eps_h: f64, v_end_user: f64, data: &DataSet) -> Scales {
+        let mp = data.units.reduced_planck_mass_gev;
+        let scale = potential_scale(a_s_model, data);
+        let v_star = scale * v_star_user;
+        let h_star = hubble_squared(v_star, eps_h).sqrt();
+        let v_end = scale * v_end_user;
+        Scales {
+            potential_scale: scale,
+            v_star_quarter_gev: v_star.powf(0.25) * mp,
+            h_star_gev: h_star * mp,
+            t_ds_gev: h_star * mp / (2.0 * PI),
+            v_end,
+            v_end_quarter_gev: v_end.max(0.0).powf(0.25) * mp,
+        }
+    }
+}
+
+/// The pull of n_s against the data, in sigma, and the verdict on (n_s, r).
+fn judge(n_s: f64, r: f64, data: &DataSet) -> (f64, Verdict) {
+    let pull = (n_s - data.n_s.mean) / data.n_s.sigma;
+    let verdict = if pull.abs() > data.verdict.excluded_sigma || r > data.r.upper {
+        Verdict::Excluded
+    } else if pull.abs() > data.verdict.tension_sigma {
+        Verdict::Tension
+    } else {
+        Verdict::Consistent
+    };
+    (pull, verdict)
+}
+
 /// A branch with its index among all branches.
 #[derive(Debug, Clone, Serialize)]
 pub struct BranchInfo {
@@ -239,7 +354,7 @@ pub struct Report {
     /// The model.
     pub model: ModelSummary,
     /// "slow-roll" or "exact".
-    pub method: &'static str,
+    pub method: Method,
     /// 1 or 2.
     pub order: u8,
     /// The branch used.
@@ -249,7 +364,7 @@ pub struct Report {
     /// The data set's name and source.
     pub data: DataSummary,
     /// How N_* was chosen.
-    pub n_star_from: String,
+    pub n_star_from: NStarFrom,
     /// One object per N_*.
     pub predictions: Vec<Prediction>,
     /// Things to know.
@@ -363,7 +478,11 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
                 }
                 return Ok(Report {
                     model: ModelSummary::of(model),
-                    method: if opts.exact.is_some() { "exact" } else { "slow-roll" },
+                    method: if opts.exact.is_some() {
+                        Method::Exact
+                    } else {
+                        Method::SlowRoll
+                    },
                     order: if opts.second_order { 2 } else { 1 },
                     branch: info(i),
                     other_branches: (0..all.len()).filter(|&j| j != i).map(info).collect(),
@@ -395,7 +514,7 @@ pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report,
     Err(e)
 }
 
-type BranchResult = (Vec<Prediction>, Vec<String>, String);
+type BranchResult = (Vec<Prediction>, Vec<String>, NStarFrom);
 
 #[allow(clippy::too_many_arguments)]
 fn run_branch(
@@ -453,10 +572,10 @@ fn run_branch(
         None
     };
     let (n_stars, matching, n_from) = match &opts.reheating {
-        None => (n_wanted.to_vec(), None, "given".to_string()),
+        None => (n_wanted.to_vec(), None, NStarFrom::Given),
         Some(reh) => {
             let (n, m) = solve_matching(ev, b, phi_end, reh, opts, config, field)?;
-            (vec![n], Some(m), format!("reheating: {}", reh.describe()))
+            (vec![n], Some(m), NStarFrom::Reheating(reh.describe()))
         }
     };
     let (stars, n_error) = crate::analysis::slowroll::phi_stars_with_accuracy(ev, b, phi_end, &n_stars, config, field)?;
@@ -469,7 +588,6 @@ fn run_branch(
     }
     let mut map = CanonicalMap::new(model, phi_end, config);
     let data = &opts.data;
-    let mp = data.units.reduced_planck_mass_gev;
     let v_end_user = ev.eval(phi_end);
     // Canonical excursions, integrated piecewise in order of distance from the end.
     let mut order: Vec<usize> = (0..stars.len()).collect();
@@ -491,20 +609,10 @@ fn run_branch(
         } else {
             sr.first_order()
         };
-        let a_s_user = sr.v / (24.0 * PI * PI * sr.eps_v);
-        let scale = data.a_s() / a_s_user;
-        let v_star = scale * sr.v;
-        let h_star = (v_star / 3.0).sqrt();
-        let v_end = scale * v_end_user;
+        let a_s_user = a_s_first_order(sr.v, sr.eps_v);
+        let sc = Scales::new(a_s_user, sr.v, 0.0, v_end_user, data);
         let delta_chi = excursion[idx];
-        let pull = (obs.n_s - data.n_s.mean) / data.n_s.sigma;
-        let verdict = if pull.abs() > data.verdict.excluded_sigma || obs.r > data.r.upper {
-            "excluded"
-        } else if pull.abs() > data.verdict.tension_sigma {
-            "tension"
-        } else {
-            "consistent"
-        };
+        let (pull, verdict) = judge(obs.n_s, obs.r, data);
         // slow roll along the way
         let violated = (1..8).any(|k| {
             let x = phi_end + (phi_star - phi_end) * k as f64 / 8.0;
@@ -531,12 +639,12 @@ fn run_branch(
             delta_phi: (phi_star - phi_end).abs(),
             lyth_bound: n_star * (obs.r / 8.0).sqrt(),
             a_s_unscaled: a_s_user,
-            potential_scale: scale,
-            v_star_quarter_gev: v_star.powf(0.25) * mp,
-            h_star_gev: h_star * mp,
-            t_ds_gev: h_star * mp / (2.0 * PI),
-            v_end,
-            v_end_quarter_gev: v_end.max(0.0).powf(0.25) * mp,
+            potential_scale: sc.potential_scale,
+            v_star_quarter_gev: sc.v_star_quarter_gev,
+            h_star_gev: sc.h_star_gev,
+            t_ds_gev: sc.t_ds_gev,
+            v_end: sc.v_end,
+            v_end_quarter_gev: sc.v_end_quarter_gev,
             n_s_pull: pull,
             r_limit: data.r.upper,
             verdict,
@@ -597,20 +705,17 @@ fn refine_exact(
     let (_, run) = crate::analysis::background::start_with_room(model, deepest + margin, settings, &mut phi_at)?;
     let points = crate::analysis::perturbations::observe(model, &run, &n_stars, settings)?;
     let data = &opts.data;
-    let mp = data.units.reduced_planck_mass_gev;
     let mut map = CanonicalMap::new(model, phi_end, config);
     for (p, e) in out.iter_mut().zip(points) {
         let sr = SlowRoll::at(ev, e.phi_star);
-        let scale = data.a_s() / e.extras.p_s_unscaled;
-        let v_star = scale * sr.v;
-        let h_star = (v_star / (3.0 - e.extras.eps_1)).sqrt();
-        let v_end = scale * ev.eval(e.phi_end);
+        let v_end_user = ev.eval(e.phi_end);
+        let sc = Scales::new(e.extras.p_s_unscaled, sr.v, e.extras.eps_1, v_end_user, data);
         let mut extras = e.extras;
         extras.phi_end_slow_roll = p.phi_end;
         extras.phi_star_slow_roll = p.phi_star;
         extras.n_s_slow_roll = p.n_s;
         extras.r_slow_roll = p.r;
-        let pull = (e.n_s - data.n_s.mean) / data.n_s.sigma;
+        let (pull, verdict) = judge(e.n_s, e.r, data);
         p.phi_star = e.phi_star;
         p.phi_end = e.phi_end;
         p.n_s = e.n_s;
@@ -625,20 +730,14 @@ fn refine_exact(
         p.delta_phi = (e.phi_star - e.phi_end).abs();
         p.lyth_bound = p.n_star * (e.r / 8.0).sqrt();
         p.a_s_unscaled = e.extras.p_s_unscaled;
-        p.potential_scale = scale;
-        p.v_star_quarter_gev = v_star.powf(0.25) * mp;
-        p.h_star_gev = h_star * mp;
-        p.t_ds_gev = h_star * mp / (2.0 * PI);
-        p.v_end = v_end;
-        p.v_end_quarter_gev = v_end.max(0.0).powf(0.25) * mp;
+        p.potential_scale = sc.potential_scale;
+        p.v_star_quarter_gev = sc.v_star_quarter_gev;
+        p.h_star_gev = sc.h_star_gev;
+        p.t_ds_gev = sc.t_ds_gev;
+        p.v_end = sc.v_end;
+        p.v_end_quarter_gev = sc.v_end_quarter_gev;
         p.n_s_pull = pull;
-        p.verdict = if pull.abs() > data.verdict.excluded_sigma || e.r > data.r.upper {
-            "excluded"
-        } else if pull.abs() > data.verdict.tension_sigma {
-            "tension"
-        } else {
-            "consistent"
-        };
+        p.verdict = verdict;
         p.exact = Some(extras);
     }
     Ok(())
@@ -663,8 +762,10 @@ fn solve_matching(
     for _ in 0..60 {
         let phi = phi_stars(ev, b, phi_end, &[n], config, field)?[0];
         let sr = SlowRoll::at(ev, phi);
+        // potential_scale(a_s_first_order(..)) in the order of operations the pinned
+        // N_* of every reheating history was computed with.
         let scale = data.a_s() * 24.0 * PI * PI * sr.eps_v / sr.v;
-        let h = (scale * sr.v / 3.0).sqrt();
+        let h = hubble_squared(scale * sr.v, 0.0).sqrt();
         let m = reh
             .match_pivot(h, scale * v_end_user, data)
             .map_err(|e| fail(e.0, &["change the reheating assumptions (--reheat ...)"]))?;
@@ -725,7 +826,7 @@ pub fn text(rep: &Report) -> String {
             ob.index
         );
     }
-    let method = if rep.method == "exact" {
+    let method = if rep.method == Method::Exact {
         "exact background and Mukhanov-Sasaki spectra (N_* from eps_H = 1)".to_string()
     } else {
         format!("slow roll, {} order", if rep.order == 2 { "second" } else { "first" })
@@ -741,7 +842,7 @@ pub fn text(rep: &Report) -> String {
     let num = |g: &dyn Fn(&Prediction) -> f64| numfmt::row(&p.iter().map(g).collect::<Vec<_>>(), d);
     let opt = |g: &dyn Fn(&Prediction) -> Option<f64>| numfmt::row_opt(&p.iter().map(g).collect::<Vec<_>>(), d);
     let col = |g: &dyn Fn(&Prediction) -> String| p.iter().map(g).collect::<Vec<_>>();
-    if rep.n_star_from == "given" {
+    if rep.n_star_from == NStarFrom::Given {
         row("N_*", col(&|x| numfmt::typed(x.n_star)));
     } else {
         row("N_*", num(&|x| x.n_star));
