@@ -182,15 +182,7 @@ pub fn state_at(bg: &Background<'_>, run: &Run, n: f64, settings: &Settings) -> 
     if n0 == n {
         return Ok(y0);
     }
-    let sol = integrate(
-        |_, y: &State| bg.rhs(y),
-        n0,
-        y0,
-        n,
-        &settings.ode,
-        |_, _| None,
-    )
-    .map_err(|e| {
+    let sol = integrate(|_, y: &State| bg.rhs(y), n0, y0, n, &settings.ode, |_, _| None).map_err(|e| {
         fail(
             format!("the background integration failed: {e}"),
             &["check the potential along the trajectory"],

@@ -2,6 +2,7 @@
 //! amplitude fixed by A_s, scales in GeV, the field excursion, the pivot from a reheating
 //! history, and the verdict against a data set. Reduced Planck units unless a key says GeV.
 
+use crate::analysis::background::hubble_squared;
 use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
 use crate::analysis::reheating::{Matching, Reheating};
@@ -9,7 +10,6 @@ use crate::analysis::single::branches::{branches, Branch};
 use crate::analysis::single::canonical::CanonicalMap;
 use crate::analysis::single::domain::{find_domain, minimum_of_v, EndKind, Interval};
 use crate::analysis::single::pole::analyse_pole;
-use crate::analysis::background::hubble_squared;
 use crate::analysis::slowroll::{a_s_first_order, end_of_inflation, phi_stars, Observables, SlowRoll};
 use crate::config::Config;
 use crate::data::DataSet;
@@ -17,9 +17,12 @@ use crate::drivers::inspect::ModelSummary;
 use crate::language::tape::Evaluator;
 use crate::model::{Model, Side};
 use crate::report::numfmt;
+use crate::report::numfmt::number as fmt;
 use serde::Serialize;
 use std::f64::consts::PI;
-use std::fmt::Write as _;
+
+// The report's renderings, where they were before they moved to `report`.
+pub use crate::report::predict::{csv, csv_values, text, CSV_KEYS};
 
 /// What to compute.
 #[derive(Debug, Clone)]
@@ -784,219 +787,4 @@ fn solve_matching(
         "the reheating matching did not converge in 60 steps".to_string(),
         &["check the reheating assumptions"],
     ))
-}
-
-fn fmt(x: f64) -> String {
-    numfmt::number(x)
-}
-
-/// The human table: one column per N_*, with units.
-pub fn text(rep: &Report) -> String {
-    let mut o = String::new();
-    let m = &rep.model;
-    let f = &m.field;
-    let params = m.params_text();
-    let _ = writeln!(
-        o,
-        "model    {}{}",
-        if m.name.is_empty() { "(unnamed)" } else { &m.name },
-        if params.is_empty() {
-            String::new()
-        } else {
-            format!("   ({})", params.join(", "))
-        }
-    );
-    let b = &rep.branch;
-    let _ = writeln!(
-        o,
-        "branch   {} of {}: {f} rolls from {} to {}",
-        b.index,
-        b.count,
-        fmt(b.branch.top),
-        fmt(b.branch.bottom)
-    );
-    for ob in &rep.other_branches {
-        let _ = writeln!(
-            o,
-            "         other: {} of {}, {f} from {} to {} (choose with --branch {})",
-            ob.index,
-            ob.count,
-            fmt(ob.branch.top),
-            fmt(ob.branch.bottom),
-            ob.index
-        );
-    }
-    let method = if rep.method == Method::Exact {
-        "exact background and Mukhanov-Sasaki spectra (N_* from eps_H = 1)".to_string()
-    } else {
-        format!("slow roll, {} order", if rep.order == 2 { "second" } else { "first" })
-    };
-    let _ = writeln!(o, "method   {method}; N_* {}", rep.n_star_from);
-    let _ = writeln!(o, "data     {} [{}]", rep.data.name, rep.data.source);
-    let _ = writeln!(o, "units    reduced Planck units (M_p = 1) unless marked GeV\n");
-    let p = &rep.predictions;
-    let d = numfmt::DEFAULT_DIGITS;
-    let mut rows: Vec<(String, Vec<String>)> = Vec::new();
-    let mut row = |label: &str, vals: Vec<String>| rows.push((label.to_string(), vals));
-    // Each row is one style across its N_* columns (numfmt's rule).
-    let num = |g: &dyn Fn(&Prediction) -> f64| numfmt::row(&p.iter().map(g).collect::<Vec<_>>(), d);
-    let opt = |g: &dyn Fn(&Prediction) -> Option<f64>| numfmt::row_opt(&p.iter().map(g).collect::<Vec<_>>(), d);
-    let col = |g: &dyn Fn(&Prediction) -> String| p.iter().map(g).collect::<Vec<_>>();
-    if rep.n_star_from == NStarFrom::Given {
-        row("N_*", col(&|x| numfmt::typed(x.n_star)));
-    } else {
-        row("N_*", num(&|x| x.n_star));
-    }
-    row(&format!("{f}_*"), num(&|x| x.phi_star));
-    row(&format!("{f}_end"), num(&|x| x.phi_end));
-    row("n_s", num(&|x| x.n_s));
-    row("r", num(&|x| x.r));
-    row("alpha_s", num(&|x| x.alpha_s));
-    row("n_t", num(&|x| x.n_t));
-    row("eps_V", num(&|x| x.eps_v));
-    row("eta_V", num(&|x| x.eta_v));
-    row("xi2_V", num(&|x| x.xi2_v));
-    row("delta chi", num(&|x| x.delta_chi));
-    row(&format!("delta {f}"), num(&|x| x.delta_phi));
-    row("N_* sqrt(r/8)", num(&|x| x.lyth_bound));
-    row("scale on V", num(&|x| x.potential_scale));
-    row("V_*^1/4 [GeV]", num(&|x| x.v_star_quarter_gev));
-    row("H_* [GeV]", num(&|x| x.h_star_gev));
-    row("H_*/2pi [GeV]", num(&|x| x.t_ds_gev));
-    row("V_end^1/4 [GeV]", num(&|x| x.v_end_quarter_gev));
-    // A pull is read to an absolute 0.01 sigma, not to significant digits.
-    row("n_s pull [sigma]", col(&|x| numfmt::signed_fixed(x.n_s_pull, 2)));
-    row("r limit", col(&|x| format!("< {}", numfmt::typed(x.r_limit))));
-    row("verdict", col(&|x| x.verdict.to_string()));
-    if p.iter().any(|x| x.pole_only.is_some()) {
-        row("pole alone: n_s", opt(&|x| x.pole_only.map(|q| q.n_s)));
-        row("pole alone: r", opt(&|x| x.pole_only.map(|q| q.r)));
-    }
-    if p.iter().any(|x| x.exact.is_some()) {
-        let ex = |g: &dyn Fn(&crate::analysis::perturbations::ExactExtras) -> f64| {
-            opt(&|x: &Prediction| x.exact.as_ref().map(g))
-        };
-        row("slow roll: n_s", ex(&|e| e.n_s_slow_roll));
-        row("slow roll: r", ex(&|e| e.r_slow_roll));
-        row(&format!("slow roll: {f}_end"), ex(&|e| e.phi_end_slow_roll));
-        row("eps_1, at exit", ex(&|e| e.eps_1));
-        row("eps_2", ex(&|e| e.eps_2));
-        row("eps_3", ex(&|e| e.eps_3));
-        row("2nd order: n_s", ex(&|e| e.n_s_second_order));
-        row("2nd order: r", ex(&|e| e.r_second_order));
-        // a tolerance-like number: two digits, always scientific
-        row(
-            "freeze drift",
-            col(&|x| {
-                x.exact
-                    .as_ref()
-                    .map(|e| numfmt::scientific(e.freeze_drift, 2))
-                    .unwrap_or_default()
-            }),
-        );
-    }
-    if p.iter().any(|x| x.reheating.is_some()) {
-        row("N_reh", opt(&|x| x.reheating.map(|m| m.n_reh)));
-        row("T_reh [GeV]", opt(&|x| x.reheating.map(|m| m.t_reh_gev)));
-    }
-    let w0 = rows.iter().map(|r| r.0.len()).max().unwrap_or(0);
-    let wc: Vec<usize> = (0..p.len())
-        .map(|j| rows.iter().map(|r| r.1[j].len()).max().unwrap_or(0).max(12))
-        .collect();
-    for (label, vals) in &rows {
-        let _ = write!(o, "{label:<w0$}");
-        for (j, v) in vals.iter().enumerate() {
-            let _ = write!(o, "  {v:>w$}", w = wc[j]);
-        }
-        let _ = writeln!(o);
-    }
-    if let Some(q) = p.iter().find_map(|x| x.pole_only) {
-        let _ = writeln!(
-            o,
-            "\npole alone: leading order in 1/N from the pole of order {} with residue {} at the top of the branch, where V = V_p (1 - c rho^m) with m = {}",
-            fmt(q.order),
-            fmt(q.residue),
-            fmt(q.flatness)
-        );
-    }
-    for w in &rep.warnings {
-        let _ = writeln!(o, "warning: {w}");
-    }
-    o
-}
-
-/// The keys of the CSV output, in order (stable; documented in the README).
-pub const CSV_KEYS: [&str; 27] = [
-    "n_star",
-    "phi_star",
-    "phi_end",
-    "n_s",
-    "r",
-    "alpha_s",
-    "n_t",
-    "eps_v",
-    "eta_v",
-    "xi2_v",
-    "omega3_v",
-    "delta_chi",
-    "delta_phi",
-    "lyth_bound",
-    "a_s_unscaled",
-    "potential_scale",
-    "v_star_quarter_gev",
-    "h_star_gev",
-    "t_ds_gev",
-    "v_end",
-    "v_end_quarter_gev",
-    "n_s_pull",
-    "r_limit",
-    "verdict",
-    "pole_n_s",
-    "pole_r",
-    "n_reh",
-];
-
-/// The values of one prediction in the order of [`CSV_KEYS`].
-pub fn csv_values(p: &Prediction) -> Vec<String> {
-    let opt = |x: Option<f64>| x.map(|v| format!("{v:e}")).unwrap_or_default();
-    vec![
-        format!("{}", p.n_star),
-        format!("{:e}", p.phi_star),
-        format!("{:e}", p.phi_end),
-        format!("{:e}", p.n_s),
-        format!("{:e}", p.r),
-        format!("{:e}", p.alpha_s),
-        format!("{:e}", p.n_t),
-        format!("{:e}", p.eps_v),
-        format!("{:e}", p.eta_v),
-        format!("{:e}", p.xi2_v),
-        format!("{:e}", p.omega3_v),
-        format!("{:e}", p.delta_chi),
-        format!("{:e}", p.delta_phi),
-        format!("{:e}", p.lyth_bound),
-        format!("{:e}", p.a_s_unscaled),
-        format!("{:e}", p.potential_scale),
-        format!("{:e}", p.v_star_quarter_gev),
-        format!("{:e}", p.h_star_gev),
-        format!("{:e}", p.t_ds_gev),
-        format!("{:e}", p.v_end),
-        format!("{:e}", p.v_end_quarter_gev),
-        format!("{:e}", p.n_s_pull),
-        format!("{:e}", p.r_limit),
-        p.verdict.to_string(),
-        opt(p.pole_only.map(|q| q.n_s)),
-        opt(p.pole_only.map(|q| q.r)),
-        opt(p.reheating.map(|m| m.n_reh)),
-    ]
-}
-
-/// One CSV row per N_*, with a header.
-pub fn csv(rep: &Report) -> String {
-    let mut o = CSV_KEYS.join(",");
-    o.push('\n');
-    for p in &rep.predictions {
-        o.push_str(&csv_values(p).join(","));
-        o.push('\n');
-    }
-    o
 }
