@@ -25,6 +25,7 @@ use crate::model::{OUT_DV, OUT_K, OUT_SQRT_K, OUT_V};
 use crate::numerics::quad::gauss_kronrod_batch;
 use crate::numerics::roots::brent;
 use crate::numerics::NumericError;
+use crate::report::numfmt::number as fmt_end;
 use serde::Serialize;
 
 /// The potential slow-roll parameters at one field value.
@@ -306,10 +307,6 @@ fn end_before_zero_of_v(ev: &mut Evaluator<'_>, xa: f64, xb: f64) -> Option<f64>
     )
     .ok()
     .map(|r| r.value)
-}
-
-fn fmt_end(x: f64) -> String {
-    crate::report::numfmt::number(x)
 }
 
 /// dN/dphi = V K / V_phi (positive uphill).

@@ -56,11 +56,6 @@ impl ModelSummary {
                 .collect(),
         }
     }
-
-    /// The parameters for people ([`crate::report::inspect::params_text`]).
-    pub fn params_text(&self) -> Vec<String> {
-        crate::report::inspect::params_text(self)
-    }
 }
 
 /// The minimum of V.

@@ -585,7 +585,9 @@ fn run_branch(
     if n_error > 0.0 {
         let nearest = stars.iter().map(|x| (x - b.top).abs()).fold(f64::INFINITY, f64::min);
         warnings.push(format!(
-            "rounding in V K / V' limits the e-fold integral to a relative accuracy of {n_error:.1e} (the pivot lies {nearest:.1e} from {field} = {}, where the integrand loses digits); phi_* and the observables are good to about that",
+            "rounding in V K / V' limits the e-fold integral to a relative accuracy of {} (the pivot lies {} from {field} = {}, where the integrand loses digits); phi_* and the observables are good to about that",
+            numfmt::scientific(n_error, 2),
+            numfmt::scientific(nearest, 2),
             fmt(b.top)
         ));
     }

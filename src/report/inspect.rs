@@ -2,26 +2,11 @@
 
 use crate::analysis::single::domain::EndKind;
 use crate::analysis::single::pole::Pole;
-use crate::drivers::inspect::{FigureData, Inspection, ModelSummary, Row};
+use crate::drivers::inspect::{FigureData, Inspection, Row};
 use crate::report::numfmt::{self, number};
+use crate::report::params_text;
 use crate::report::plot::{self, Marker, Panel, Series, VLine};
 use std::fmt::Write as _;
-
-/// The parameters for people, `name = value`: a value written as a plain number as typed,
-/// one computed from an expression to the default significant digits.
-pub fn params_text(m: &ModelSummary) -> Vec<String> {
-    m.params
-        .iter()
-        .enumerate()
-        .map(|(i, (k, v))| {
-            if m.params_typed.get(i).copied().unwrap_or(false) {
-                format!("{k} = {}", numfmt::typed(*v))
-            } else {
-                format!("{k} = {}", number(*v))
-            }
-        })
-        .collect()
-}
 
 /// How an end of the domain comes about, as a sentence (the field value where it helps).
 fn end_sentence(kind: EndKind, field: &str, end: f64) -> String {

@@ -2,6 +2,7 @@
 //! series, vertical markers and point markers. Output is plain SVG 1.1, no scripts, so any
 //! browser or vector editor opens it.
 
+use crate::report::numfmt::tick;
 use std::fmt::Write as _;
 
 /// One line on a panel.
@@ -147,20 +148,6 @@ pub fn ticks(lo: f64, hi: f64) -> Vec<f64> {
     let start = (lo / step).ceil() as i64;
     let end = (hi / step).floor() as i64;
     (start..=end).map(|k| k as f64 * step).collect()
-}
-
-fn fmt_tick(v: f64) -> String {
-    if v == 0.0 {
-        return "0".to_string();
-    }
-    let a = v.abs();
-    if !(1e-3..1e4).contains(&a) {
-        let s = format!("{v:.1e}");
-        return s.replace(".0e", "e");
-    }
-    let s = format!("{v:.4}");
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    s.to_string()
 }
 
 fn esc(s: &str) -> String {
@@ -467,15 +454,15 @@ fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect>
             MT + ph,
             MT + ph + 5.0,
             MT + ph + 18.0,
-            rich(&fmt_tick(t), 12.0)
+            rich(&tick(t), 12.0)
         );
     }
     for t in ticks(y0, y1) {
         let y = sy(t);
         let label = if p.log_y {
-            format!("10^{{{}}}", fmt_tick(t))
+            format!("10^{{{}}}", tick(t))
         } else {
-            fmt_tick(t)
+            tick(t)
         };
         let _ = writeln!(
             out,
@@ -755,15 +742,15 @@ fn colorbar(out: &mut String, cb: &ColorBar, x: f64, top: f64, h: f64, index: us
         d.into_iter()
             .map(|t| {
                 let label = if t.fract() == 0.0 {
-                    format!("10^{{{}}}", fmt_tick(t))
+                    format!("10^{{{}}}", tick(t))
                 } else {
-                    fmt_tick(10f64.powf(t))
+                    tick(10f64.powf(t))
                 };
                 (t, label)
             })
             .collect()
     } else {
-        ticks(a, b).into_iter().map(|t| (t, fmt_tick(t))).collect()
+        ticks(a, b).into_iter().map(|t| (t, tick(t))).collect()
     };
     for (t, label) in ts {
         let y = top + (1.0 - (t - a) / (b - a)) * h;
@@ -920,7 +907,7 @@ mod tests {
     fn nice_ticks() {
         assert_eq!(ticks(0.0, 1.0), vec![0.0, 0.2, 0.4, 0.6000000000000001, 0.8, 1.0]);
         assert_eq!(ticks(-3.0, 7.0), vec![-2.0, 0.0, 2.0, 4.0, 6.0]);
-        assert_eq!(fmt_tick(0.00012), "1.2e-4");
+        assert_eq!(tick(0.00012), "1.2e-4");
     }
 
     #[test]

@@ -30,7 +30,7 @@ fn header(rep: &Report) -> String {
     let mut o = String::new();
     let m = &rep.model;
     let f = &m.field;
-    let params = crate::report::inspect::params_text(m);
+    let params = crate::report::params_text(m);
     let _ = writeln!(
         o,
         "model    {}{}",
