@@ -5,6 +5,7 @@
 use crate::analysis::background::hubble_squared;
 use crate::analysis::error::fail;
 use crate::analysis::error::AnalysisError;
+use crate::analysis::pivot::AtPivot;
 use crate::analysis::reheating::{Matching, Reheating};
 use crate::analysis::single::branches::{branches, Branch};
 use crate::analysis::single::canonical::CanonicalMap;
@@ -136,23 +137,14 @@ impl Serialize for NStarFrom {
     }
 }
 
-/// The predictions at one N_*.
+/// The predictions at one N_*. The observables at the pivot ([`AtPivot`]: `n_star`,
+/// `phi_star`, `phi_end`, `n_s`, `r`, `alpha_s`, `n_t`) come first, in the JSON as in field
+/// access (`p.n_s` reads through to `p.at.n_s`).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Prediction {
-    /// e-folds between the pivot's exit and the end of inflation.
-    pub n_star: f64,
-    /// Field value at the pivot's exit.
-    pub phi_star: f64,
-    /// Field value at the end of inflation (eps_V = 1).
-    pub phi_end: f64,
-    /// Scalar spectral index.
-    pub n_s: f64,
-    /// Tensor-to-scalar ratio.
-    pub r: f64,
-    /// Running dn_s/dln k.
-    pub alpha_s: f64,
-    /// Tensor tilt.
-    pub n_t: f64,
+    /// N_*, phi_*, phi_end and the observables, slow-roll or exact.
+    #[serde(flatten)]
+    pub at: AtPivot,
     /// eps_V at phi_*.
     pub eps_v: f64,
     /// eta_V at phi_*.
@@ -196,6 +188,19 @@ pub struct Prediction {
     /// What the exact route adds, when it was used.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub exact: Option<crate::analysis::perturbations::ExactExtras>,
+}
+
+impl std::ops::Deref for Prediction {
+    type Target = AtPivot;
+    fn deref(&self) -> &AtPivot {
+        &self.at
+    }
+}
+
+impl std::ops::DerefMut for Prediction {
+    fn deref_mut(&mut self) -> &mut AtPivot {
+        &mut self.at
+    }
 }
 
 impl Prediction {
@@ -629,13 +634,15 @@ fn run_branch(
             ));
         }
         out.push(Prediction {
-            n_star,
-            phi_star,
-            phi_end,
-            n_s: obs.n_s,
-            r: obs.r,
-            alpha_s: obs.alpha_s,
-            n_t: obs.n_t,
+            at: AtPivot {
+                n_star,
+                phi_star,
+                phi_end,
+                n_s: obs.n_s,
+                r: obs.r,
+                alpha_s: obs.alpha_s,
+                n_t: obs.n_t,
+            },
             eps_v: sr.eps_v,
             eta_v: sr.eta_v,
             xi2_v: sr.xi2_v,
@@ -721,12 +728,10 @@ fn refine_exact(
         extras.n_s_slow_roll = p.n_s;
         extras.r_slow_roll = p.r;
         let (pull, verdict) = judge(e.n_s, e.r, data);
-        p.phi_star = e.phi_star;
-        p.phi_end = e.phi_end;
-        p.n_s = e.n_s;
-        p.r = e.r;
-        p.alpha_s = e.alpha_s;
-        p.n_t = e.n_t;
+        p.at = AtPivot {
+            n_star: p.n_star,
+            ..e.at
+        };
         p.eps_v = sr.eps_v;
         p.eta_v = sr.eta_v;
         p.xi2_v = sr.xi2_v;
