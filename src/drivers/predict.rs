@@ -76,11 +76,11 @@ pub struct PoleOnly {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Verdict {
-    /// n_s within the tension band and r below the limit.
+    /// The n_s pull within the data's tension threshold and r within its limit.
     Consistent,
-    /// n_s between the tension and the exclusion bands.
+    /// The n_s pull beyond the tension threshold but within the exclusion one.
     Tension,
-    /// n_s beyond the exclusion band, or r above the limit.
+    /// The n_s pull beyond the exclusion threshold, or r above the limit.
     Excluded,
 }
 
