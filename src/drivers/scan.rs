@@ -7,7 +7,7 @@ use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::predict::{predict, Options, Prediction};
 use crate::model::{Model, ModelSpec};
-use crate::report::scan::{csv_header, csv_rows, json_row, JsonRow};
+use crate::report::scan::{csv_header, csv_rows, json_row};
 use serde::Serialize;
 
 // The scan's renderings, where they were before they moved to `report`.
@@ -445,7 +445,7 @@ struct ShardFile<'a> {
     header: &'a str,
     /// CSV: the record texts, each with its newline; JSON: the rows.
     csv_rows: Vec<&'a str>,
-    json_rows: Vec<JsonRow>,
+    json_rows: Vec<serde_json::Value>,
 }
 
 /// What a file that is not a shard looks like, for the error.
@@ -527,36 +527,13 @@ fn read_shard<'a>(name: &'a str, text: &'a str) -> Result<ShardFile<'a>, String>
         if let (Some(prov), Some(rows)) = (v.get("shard"), v.get("rows").and_then(|r| r.as_array())) {
             let prov: Provenance = serde_json::from_value(prov.clone())
                 .map_err(|e| format!("{name}: its `shard` object cannot be read ({e}): the file is damaged"))?;
-            // The rows again, with their keys in the order they were written; a row that is
-            // not an object has no point, which the point check reports.
-            #[derive(serde::Deserialize)]
-            #[serde(untagged)]
-            enum AnyRow {
-                Object(JsonRow),
-                Other(#[allow(dead_code)] serde::de::IgnoredAny),
-            }
-            #[derive(serde::Deserialize)]
-            struct Envelope {
-                rows: Vec<AnyRow>,
-            }
-            let ordered: Envelope = serde_json::from_str(text)
-                .map_err(|e| format!("{name}: its rows cannot be read ({e}): the file is damaged"))?;
-            debug_assert_eq!(ordered.rows.len(), rows.len());
-            let rows: Vec<JsonRow> = ordered
-                .rows
-                .into_iter()
-                .map(|r| match r {
-                    AnyRow::Object(row) => row,
-                    AnyRow::Other(_) => JsonRow::default(),
-                })
-                .collect();
             return Ok(ShardFile {
                 name,
                 json: true,
                 prov,
                 header: "",
                 csv_rows: Vec::new(),
-                json_rows: rows,
+                json_rows: rows.clone(),
             });
         }
     }
@@ -702,10 +679,7 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, String> {
     }
     for f in &files {
         let points: Vec<Option<u64>> = if json {
-            f.json_rows
-                .iter()
-                .map(|r| r.get("point").and_then(|p| p.as_u64()))
-                .collect()
+            f.json_rows.iter().map(|r| r["point"].as_u64()).collect()
         } else {
             f.csv_rows
                 .iter()
@@ -716,7 +690,7 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, String> {
     }
     let order: Vec<&ShardFile<'_>> = by_index.iter().map(|i| &files[i.expect("checked above")]).collect();
     if json {
-        let rows: Vec<JsonRow> = order.iter().flat_map(|f| f.json_rows.iter().cloned()).collect();
+        let rows: Vec<serde_json::Value> = order.iter().flat_map(|f| f.json_rows.iter().cloned()).collect();
         return Ok(format!(
             "{}\n",
             serde_json::to_string_pretty(&rows).expect("serialisable")
@@ -785,7 +759,7 @@ mod tests {
         );
         assert!(rows.iter().any(|r| r.result.is_ok()) && rows.iter().any(|r| r.result.is_err()));
         rows[0].result = Err("a \"quoted\" reason\non two lines".into());
-        let whole: Vec<JsonRow> = rows.iter().map(json_row).collect();
+        let whole: Vec<serde_json::Value> = rows.iter().map(json_row).collect();
         let expected = format!("{}\n", serde_json::to_string_pretty(&whole).unwrap());
         assert_eq!(json(&rows), expected);
         let mut t = Table::new(true, None);
