@@ -54,6 +54,16 @@ impl Default for Settings {
 /// The background state: (phi, pi).
 pub type State = [f64; 2];
 
+/// The Hubble friction 3 - eps_H of the background's and the tensor modes' equations (M_p = 1).
+pub fn friction(eps_h: f64) -> f64 {
+    3.0 - eps_h
+}
+
+/// H^2 = V / (3 - eps_H), the Friedmann equation in e-folds (M_p = 1; common practice).
+pub fn hubble_squared(v: f64, eps_h: f64) -> f64 {
+    v / friction(eps_h)
+}
+
 /// The exact background's right-hand side, and what derives from it.
 pub struct Background<'m> {
     ev: std::cell::RefCell<Evaluator<'m>>,
@@ -95,10 +105,17 @@ impl<'m> Background<'m> {
         Point {
             v,
             eps_h: eps,
-            h: (v / (3.0 - eps)).sqrt(),
+            h: hubble_squared(v, eps).sqrt(),
             dphi: pi / s,
-            dpi: -(3.0 - eps) * (pi + v_chi / v),
+            dpi: -friction(eps) * (pi + v_chi / v),
         }
+    }
+
+    /// The right-hand side d(phi, pi)/dN at a state: the one the background, the states
+    /// between checkpoints and the modes integrate.
+    pub fn rhs(&self, y: &State) -> State {
+        let p = self.point(y);
+        [p.dphi, p.dpi]
     }
 
     /// The slow-roll attractor's velocity at phi: pi = -V_chi / V.
@@ -137,10 +154,7 @@ pub fn run_background(
         ..settings.ode
     };
     let sol = integrate(
-        |_, y: &State| {
-            let p = bg.point(y);
-            [p.dphi, p.dpi]
-        },
+        |_, y: &State| bg.rhs(y),
         0.0,
         start,
         n_max,
@@ -166,18 +180,8 @@ pub fn state_at(bg: &Background<'_>, run: &Run, n: f64, settings: &Settings) -> 
     if n0 == n {
         return Ok(y0);
     }
-    let sol = integrate(
-        |_, y: &State| {
-            let p = bg.point(y);
-            [p.dphi, p.dpi]
-        },
-        n0,
-        y0,
-        n,
-        &settings.ode,
-        |_, _| None,
-    )
-    .map_err(|e| AnalysisError::from(ErrorKind::BackgroundIntegration(e)))?;
+    let sol = integrate(|_, y: &State| bg.rhs(y), n0, y0, n, &settings.ode, |_, _| None)
+        .map_err(|e| AnalysisError::from(ErrorKind::BackgroundIntegration(e)))?;
     Ok(sol.y)
 }
 

@@ -6,10 +6,12 @@
 //! - [`background`]: the exact background in e-folds.
 //! - [`perturbations`]: the Mukhanov–Sasaki modes on it.
 //! - [`reheating`]: the e-fold count of the pivot scale after a reheating history.
+//! - [`pivot`]: the observables at the pivot that every route reports.
 
 pub mod background;
 pub mod error;
 pub mod perturbations;
+pub mod pivot;
 pub mod reheating;
 pub mod single;
 pub mod slowroll;

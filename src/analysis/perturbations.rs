@@ -16,9 +16,10 @@
 //! Wavenumbers are measured against the pivot: a = 1 when the pivot exits, k = kappa a_* H_*,
 //! so kappa = k / k_*.
 
-use crate::analysis::background::{state_at, Background, Run, Settings, State};
+use crate::analysis::background::{friction, state_at, Background, Run, Settings, State};
 use crate::analysis::error::AnalysisError;
 use crate::analysis::error::ErrorKind;
+use crate::analysis::pivot::AtPivot;
 use crate::model::Model;
 use crate::numerics::ode::integrate;
 use serde::Serialize;
@@ -128,10 +129,7 @@ impl Mode<'_, '_> {
         let (n0, y0) = run.checkpoints[j - 1];
         let (n1, _) = run.checkpoints[j];
         let sol = integrate(
-            |_, y: &State| {
-                let p = self.bg.point(y);
-                [p.dphi, p.dpi]
-            },
+            |_, y: &State| self.bg.rhs(y),
             n0,
             y0,
             n1,
@@ -186,7 +184,7 @@ impl Mode<'_, '_> {
         let q2 = q * q;
         let eps2 = 2.0 * p.dpi / y[1];
         let fr = 3.0 + eps2 - p.eps_h;
-        let ft = 3.0 - p.eps_h;
+        let ft = friction(p.eps_h);
         [
             p.dphi,
             p.dpi,
@@ -307,25 +305,21 @@ pub struct ExactExtras {
     pub freeze_drift: f64,
 }
 
-/// The exact observables at one N_*.
+/// The exact observables at one N_*: phi_end at eps_H = 1, n_s and the running from the
+/// spectrum, r = P_t / P_R at the pivot; the fields of [`AtPivot`] read through it.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ExactPoint {
-    /// N_*.
-    pub n_star: f64,
-    /// phi at the pivot's exit.
-    pub phi_star: f64,
-    /// phi at eps_H = 1.
-    pub phi_end: f64,
-    /// n_s from the spectrum.
-    pub n_s: f64,
-    /// r = P_t / P_R at the pivot.
-    pub r: f64,
-    /// dn_s / dln k.
-    pub alpha_s: f64,
-    /// n_t.
-    pub n_t: f64,
+    /// N_*, phi_*, phi_end and the observables.
+    pub at: AtPivot,
     /// Extras.
     pub extras: ExactExtras,
+}
+
+impl std::ops::Deref for ExactPoint {
+    type Target = AtPivot;
+    fn deref(&self) -> &AtPivot {
+        &self.at
+    }
 }
 
 /// Step in ln k of the five-point stencils for the tilts.
@@ -370,13 +364,15 @@ pub fn observe(
         let second = crate::analysis::slowroll::second_order_from_flow(e1, e2, e2 * e3);
         let (ns2, r2, nt2) = (second.n_s, second.r, second.n_t);
         out.push(ExactPoint {
-            n_star,
-            phi_star: y[0],
-            phi_end: end[0],
-            n_s: 1.0 + ns1,
-            r: modes[2].p_t / modes[2].p_s,
-            alpha_s: run_s,
-            n_t: nt,
+            at: AtPivot {
+                n_star,
+                phi_star: y[0],
+                phi_end: end[0],
+                n_s: 1.0 + ns1,
+                r: modes[2].p_t / modes[2].p_s,
+                alpha_s: run_s,
+                n_t: nt,
+            },
             extras: ExactExtras {
                 n_total: n_end,
                 phi_end_slow_roll: f64::NAN,

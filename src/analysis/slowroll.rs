@@ -110,6 +110,12 @@ pub fn second_order_from_flow(e1: f64, e2: f64, e2e3: f64) -> Observables {
     }
 }
 
+/// The amplitude of the scalar spectrum at first order in slow roll,
+/// A_s = V / (24 pi^2 eps_V) (M_p = 1; common practice).
+pub fn a_s_first_order(v: f64, eps_v: f64) -> f64 {
+    v / (24.0 * std::f64::consts::PI * std::f64::consts::PI * eps_v)
+}
+
 /// The Euler–Mascheroni constant.
 pub const EULER_GAMMA: f64 = 0.577_215_664_901_532_9;
 
@@ -324,14 +330,8 @@ fn dn_dphi_batch(ev: &mut Evaluator<'_>, xs: &[f64], out: &mut [f64]) {
 }
 
 /// The integral's value, also when the quadrature stopped short of its tolerance with an
-/// error estimate still below `config.quad_accept` (relative): the shortfall is then the
-/// integrand's own rounding.
-fn accept(r: Result<crate::numerics::Estimate, NumericError>, config: &Config) -> Result<f64, NumericError> {
-    accept_within(r, config.quad_accept).map(|(v, _)| v)
-}
-
-/// `accept` with the limit `limit` on the relative error: (value, relative error reached
-/// when the tolerance was not).
+/// error estimate still below `limit` (relative): the shortfall is then the integrand's own
+/// rounding. Gives (value, relative error reached when the tolerance was not).
 pub fn accept_within(
     r: Result<crate::numerics::Estimate, NumericError>,
     limit: f64,
@@ -343,14 +343,6 @@ pub fn accept_within(
         }
         Err(e) => Err(e),
     }
-}
-
-/// N between phi_end and x along the branch (adaptive Gauss–Kronrod, `config.quad`).
-pub fn efolds_between(ev: &mut Evaluator<'_>, a: f64, b: f64, config: &Config) -> Result<f64, AnalysisError> {
-    Ok(accept(
-        gauss_kronrod_batch(|xs, ys| dn_dphi_batch(ev, xs, ys), a, b, &config.quad),
-        config,
-    )?)
 }
 
 /// phi_* for each requested N_* (any order), counted from `phi_end` up the branch. Errors

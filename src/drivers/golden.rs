@@ -8,6 +8,7 @@
 //! added or removed. The report's `model` object (name, field, potential, kinetic, params) is
 //! the input: its changes are named in the summary, not counted as drift.
 
+use crate::report::numfmt::{json_value, typed};
 use std::path::{Path, PathBuf};
 
 /// Why a model file has no predictions, or a directory cannot be walked.
@@ -107,32 +108,18 @@ pub enum Drift {
     Requested(f64),
 }
 
-/// A number in shortest round-trip form: `1`, `1.01`, `0.0048`, `1.468e-10`
-/// ([`crate::report::numfmt::typed`]).
-pub fn number(x: f64) -> String {
-    crate::report::numfmt::typed(x)
-}
-
-/// A JSON value for people: numbers by [`number`], everything else as JSON.
-pub fn value(v: &serde_json::Value) -> String {
-    match v.as_f64() {
-        Some(x) if v.is_number() => number(x),
-        _ => v.to_string(),
-    }
-}
-
 fn where_(at: At) -> String {
     match at {
         At::Report => "report".to_string(),
-        At::NStar(n) => format!("N_* = {}", number(n)),
+        At::NStar(n) => format!("N_* = {}", typed(n)),
     }
 }
 
 impl std::fmt::Display for Drift {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         match self {
-            Drift::Dropped(n) => write!(f, "  N_* = {} no longer requested", number(*n)),
-            Drift::Requested(n) => write!(f, "  N_* = {} newly requested", number(*n)),
+            Drift::Dropped(n) => write!(f, "  N_* = {} no longer requested", typed(*n)),
+            Drift::Requested(n) => write!(f, "  N_* = {} newly requested", typed(*n)),
             Drift::Leaf { at, path, old, new } => {
                 let at = where_(*at);
                 match (old, new) {
@@ -154,10 +141,10 @@ impl std::fmt::Display for Drift {
                             };
                             write!(f, "  {at}: {path:<20} {} -> {}{rel}", cells[0], cells[1])
                         }
-                        _ => write!(f, "  {at}: {path:<20} {} -> {}", value(a), value(b)),
+                        _ => write!(f, "  {at}: {path:<20} {} -> {}", json_value(a), json_value(b)),
                     },
-                    (None, Some(b)) => write!(f, "  {at}: {path:<20} added: {}", value(b)),
-                    (Some(a), None) => write!(f, "  {at}: {path:<20} removed (was {})", value(a)),
+                    (None, Some(b)) => write!(f, "  {at}: {path:<20} added: {}", json_value(b)),
+                    (Some(a), None) => write!(f, "  {at}: {path:<20} removed (was {})", json_value(a)),
                     (None, None) => write!(f, "  {at}: {path}"),
                 }
             }
@@ -472,9 +459,9 @@ pub fn input_changes(old: &serde_json::Value, new: &serde_json::Value) -> Vec<St
         let edited = matches!(path.as_str(), "potential" | "kinetic" | "description");
         out.push(match (old, new) {
             (Some(_), Some(_)) if edited => format!("{path} edited"),
-            (Some(x), Some(y)) => format!("{path} {} -> {}", value(&x), value(&y)),
-            (None, Some(y)) => format!("{path} added ({})", value(&y)),
-            (Some(x), None) => format!("{path} removed (was {})", value(&x)),
+            (Some(x), Some(y)) => format!("{path} {} -> {}", json_value(&x), json_value(&y)),
+            (None, Some(y)) => format!("{path} added ({})", json_value(&y)),
+            (Some(x), None) => format!("{path} removed (was {})", json_value(&x)),
             (None, None) => continue,
         });
     }
@@ -526,22 +513,22 @@ pub fn diff(old: &serde_json::Value, new: &serde_json::Value, tolerance: f64) ->
                 if !moved {
                     continue;
                 }
-                let side = |k: &str| format!("{k} {} -> {}", value(&o[k]), value(&p[k]));
-                format!("  N_* = {}: {}, {}; {cause}", number(n), side("n_s"), side("r"))
+                let side = |k: &str| format!("{k} {} -> {}", json_value(&o[k]), json_value(&p[k]));
+                format!("  N_* = {}: {}, {}; {cause}", typed(n), side("n_s"), side("r"))
             }
             (Some(o), None) => format!(
                 "  N_* = {} no longer requested (was n_s {}, r {}); {cause}",
-                number(n),
-                value(&o["n_s"]),
-                value(&o["r"])
+                typed(n),
+                json_value(&o["n_s"]),
+                json_value(&o["r"])
             ),
             (None, p) => {
                 let p = p.unwrap_or(&serde_json::Value::Null);
                 format!(
                     "  N_* = {} newly requested (n_s {}, r {}); {cause}",
-                    number(n),
-                    value(&p["n_s"]),
-                    value(&p["r"])
+                    typed(n),
+                    json_value(&p["n_s"]),
+                    json_value(&p["r"])
                 )
             }
         };
@@ -775,22 +762,6 @@ mod tests {
         // without an input change the summary says so
         let e = report(1.0, vec![prediction(55.0, 0.965, 0.0038)]);
         assert!(diff(&a, &e, 1e-8).summary[0].ends_with("; V, K and params unchanged"));
-    }
-
-    #[test]
-    fn numbers_print_in_shortest_round_trip_form() {
-        for (x, s) in [
-            (1.0, "1"),
-            (1.01, "1.01"),
-            (0.0048, "0.0048"),
-            (1.468e-10, "1.468e-10"),
-            (-2e20, "-2e20"),
-        ] {
-            assert_eq!(number(x), s);
-            assert_eq!(s.parse::<f64>().unwrap(), x);
-        }
-        let x = 0.1 + 0.2;
-        assert_eq!(number(x).parse::<f64>().unwrap(), x);
     }
 
     /// The order lists name every key the reports have, so no key falls to the unordered tail.

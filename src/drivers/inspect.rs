@@ -10,10 +10,11 @@ use crate::analysis::single::pole::{analyse_pole, Pole};
 use crate::config::Config;
 use crate::drivers::prepared::Prepared;
 use crate::model::Model;
-use crate::report::numfmt;
-use crate::report::plot::{self, Marker, Panel, Series, VLine};
+use crate::report::numfmt::number as fmt;
 use serde::Serialize;
-use std::fmt::Write as _;
+
+// The inspection's rendering, where it was before it moved to `report`.
+pub use crate::report::inspect::text;
 
 /// The model as compiled, for reports.
 #[derive(Debug, Clone, Serialize)]
@@ -53,22 +54,6 @@ impl ModelSummary {
                 })
                 .collect(),
         }
-    }
-
-    /// The parameters for people, `name = value`: a value written as a plain number as typed,
-    /// one computed from an expression to the default significant digits.
-    pub fn params_text(&self) -> Vec<String> {
-        self.params
-            .iter()
-            .enumerate()
-            .map(|(i, (k, v))| {
-                if self.params_typed.get(i).copied().unwrap_or(false) {
-                    format!("{k} = {}", numfmt::typed(*v))
-                } else {
-                    format!("{k} = {}", numfmt::number(*v))
-                }
-            })
-            .collect()
     }
 }
 
@@ -353,210 +338,6 @@ fn make_table(
     Ok(rows)
 }
 
-fn fmt(x: f64) -> String {
-    numfmt::number(x)
-}
-
-/// How an end of the domain comes about, as a sentence (the field value where it helps).
-fn end_sentence(kind: EndKind, field: &str, end: f64) -> String {
-    match kind {
-        EndKind::VOverflow => format!(
-            "V exceeds double precision beyond {field} = {} (effectively unbounded)",
-            fmt(end)
-        ),
-        EndKind::VNotReal => format!(
-            "V is not real beyond {field} = {} (log or sqrt of a negative number?)",
-            fmt(end)
-        ),
-        k => k.words().to_string(),
-    }
-}
-
-/// Lines of cells as columns: every column but the last padded to its widest cell, two spaces
-/// between columns.
-fn columns(lines: &[Vec<String>], indent: &str) -> String {
-    let n = lines.iter().map(Vec::len).max().unwrap_or(0);
-    let widths: Vec<usize> = (0..n)
-        .map(|j| {
-            lines
-                .iter()
-                .filter_map(|l| l.get(j))
-                .map(|c| c.chars().count())
-                .max()
-                .unwrap_or(0)
-        })
-        .collect();
-    let mut o = String::new();
-    for l in lines {
-        let mut line = indent.to_string();
-        for (j, c) in l.iter().enumerate() {
-            if widths[j] == 0 {
-                continue; // a column empty on every line takes no room
-            }
-            if j + 1 < l.len() {
-                let _ = write!(line, "{c:<w$}  ", w = widths[j]);
-            } else {
-                line.push_str(c);
-            }
-        }
-        let _ = writeln!(o, "{}", line.trim_end());
-    }
-    o
-}
-
-/// The aligned human report.
-pub fn text(ins: &Inspection) -> String {
-    let mut o = String::new();
-    let m = &ins.model;
-    let f = &m.field;
-    let (v_label, k_label) = (format!("V({f})"), format!("K({f})"));
-    let w = ["chi = 0 at", v_label.as_str(), k_label.as_str()]
-        .iter()
-        .map(|l| l.chars().count())
-        .max()
-        .unwrap_or(0);
-    let line = |o: &mut String, label: &str, rest: &str| {
-        let _ = writeln!(o, "{label:<w$}  {rest}");
-    };
-    line(&mut o, "model", if m.name.is_empty() { "(unnamed)" } else { &m.name });
-    if !m.description.is_empty() {
-        line(&mut o, "", &m.description);
-    }
-    line(&mut o, &v_label, &m.potential);
-    line(&mut o, &k_label, &m.kinetic);
-    if !m.params.is_empty() {
-        line(&mut o, "parameters", &m.params_text().join(", "));
-    }
-    let iv = &ins.domain.interval;
-    o.push('\n');
-    line(&mut o, "domain", &format!("{} < {f} < {}", fmt(iv.lo), fmt(iv.hi)));
-    let _ = writeln!(o, "  lower end: {}", end_sentence(iv.lo_kind, f, iv.lo));
-    let _ = writeln!(o, "  upper end: {}", end_sentence(iv.hi_kind, f, iv.hi));
-    match &ins.minimum {
-        Some(mn) => line(
-            &mut o,
-            "minimum",
-            &format!("V = {} at {f} = {}", fmt(mn.v), fmt(mn.phi)),
-        ),
-        None => line(&mut o, "minimum", "none inside the domain (V falls toward an end)"),
-    }
-    line(
-        &mut o,
-        "chi = 0 at",
-        &format!("{f} = {}   (chi = integral of sqrt(K) d{f})", fmt(ins.chi_origin)),
-    );
-    let _ = writeln!(o, "\npoles of K");
-    if ins.poles.is_empty() {
-        let _ = writeln!(o, "  none at the ends of the domain");
-    }
-    for p in &ins.poles {
-        let _ = writeln!(
-            o,
-            "  at {f} = {}: order {}, residue a_p = {} (+- {} rel), canonical distance {}",
-            fmt(p.phi),
-            fmt(p.order),
-            fmt(p.residue),
-            numfmt::scientific(p.residue_uncertainty.max(1e-16), 1),
-            if p.infinite_distance { "infinite" } else { "finite" }
-        );
-        match &p.leading_order {
-            Some(lo) => {
-                let (ns, r) = lo.predict(55.0);
-                let (pp, m) = (lo.order, lo.flatness);
-                let formula = if pp == 2.0 && m == 1.0 {
-                    format!("n_s = 1 - 2/N, r = 8 a_2/N^2 = {}/N^2", fmt(8.0 * p.residue))
-                } else if pp == 2.0 && m == 2.0 {
-                    format!("n_s = 1 - 2/N, r = 2 a_2/N^2 = {}/N^2", fmt(2.0 * p.residue))
-                } else {
-                    format!(
-                        "n_s = 1 - {}/N, r from a_p and c = {} (see docs)",
-                        fmt((2.0 * m + pp - 2.0) / (pp + m - 2.0)),
-                        fmt(lo.slope)
-                    )
-                };
-                let _ = writeln!(
-                    o,
-                    "    pole alone, leading order (V = V_p (1 - c rho^m) with m = {}): {formula}; at N = 55: n_s = {}, r = {}",
-                    fmt(m),
-                    fmt(ns),
-                    fmt(r)
-                );
-            }
-            None => {
-                let why = p.no_leading_order.map_or("", |w| w.words());
-                let _ = writeln!(o, "    no leading-order prediction of the pole alone: {why}");
-            }
-        }
-    }
-    let _ = writeln!(o, "\nV(chi) toward each end");
-    let lines: Vec<Vec<String>> = ins
-        .asymptotics
-        .iter()
-        .map(|a| {
-            let mut details = Vec::new();
-            if let Some(h) = a.height {
-                details.push(format!("height {}", fmt(h)));
-            }
-            if let Some(s) = a.scale {
-                details.push(format!("M = {}", fmt(s)));
-            }
-            if let Some(al) = a.alpha {
-                details.push(format!("alpha = 2M^2/3 = {}", fmt(al)));
-            }
-            if let Some(p) = a.power {
-                details.push(format!("power {}", fmt(p)));
-            }
-            if let Some(r) = a.rate {
-                details.push(format!("rate {}", fmt(r)));
-            }
-            if let Some(d) = a.chi_distance {
-                details.push(format!("distance {}", fmt(d)));
-            }
-            vec![
-                format!("{f} -> {}", fmt(a.end)),
-                a.kind.word().to_string(),
-                details.join(", "),
-                format!("[{} confidence]", a.confidence),
-            ]
-        })
-        .collect();
-    o.push_str(&columns(&lines, "  "));
-    if let Some(rows) = &ins.table {
-        // One style per column, right-aligned, so that decimal points line up.
-        let d = numfmt::DEFAULT_DIGITS;
-        let cols = [
-            (
-                f.as_str(),
-                numfmt::row(&rows.iter().map(|r| r.phi).collect::<Vec<_>>(), d),
-            ),
-            ("chi", numfmt::row(&rows.iter().map(|r| r.chi).collect::<Vec<_>>(), d)),
-            ("V", numfmt::row(&rows.iter().map(|r| r.v).collect::<Vec<_>>(), d)),
-        ];
-        let widths: Vec<usize> = cols
-            .iter()
-            .map(|(h, c)| c.iter().map(String::len).chain([h.chars().count()]).max().unwrap_or(0))
-            .collect();
-        let _ = writeln!(o);
-        let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
-        let _ = writeln!(o, "  {}", header.join("  "));
-        for i in 0..rows.len() {
-            let cells: Vec<String> = cols
-                .iter()
-                .zip(&widths)
-                .map(|((_, c), w)| format!("{:>w$}", c[i]))
-                .collect();
-            let _ = writeln!(o, "  {}", cells.join("  "));
-        }
-    }
-    if !ins.warnings.is_empty() {
-        let _ = writeln!(o);
-        for w in &ins.warnings {
-            let _ = writeln!(o, "warning: {w}");
-        }
-    }
-    o
-}
-
 /// Extra points to mark on the figure (end of inflation, pivot points), in the field.
 #[derive(Debug, Clone, Default)]
 pub struct FigureMarks {
@@ -564,23 +345,37 @@ pub struct FigureMarks {
     pub points: Vec<(f64, String)>,
 }
 
-/// The figure: V against phi, and V against chi, with poles, the minimum and `marks`.
-pub fn figure(
+/// The numbers of the figure: V along the plot window against phi and against chi, and the
+/// marks placed on both.
+#[derive(Debug, Clone, Default)]
+pub struct FigureData {
+    /// (phi, V) along the window.
+    pub vs_phi: Vec<(f64, f64)>,
+    /// (chi, V) at the same points.
+    pub vs_chi: Vec<(f64, f64)>,
+    /// The marks at (phi, chi, V), with their labels.
+    pub marks: Vec<(f64, f64, f64, String)>,
+}
+
+/// The figure's numbers: 400 points of V across the plot window, in phi and in chi, and
+/// `marks` placed on both curves.
+pub fn figure_data(
     model: &Model,
     ins: &Inspection,
     marks: &FigureMarks,
     config: &Config,
-    width_pt: f64,
-) -> Result<String, AnalysisError> {
+) -> Result<FigureData, AnalysisError> {
     let iv = &ins.domain.interval;
     let (a, b) = plot_window(model, iv, ins.chi_origin);
     let n = 400;
     let mut ev = model.evaluator();
     let mut map = CanonicalMap::new(model, ins.chi_origin, config);
-    let mut vs_phi = Vec::with_capacity(n);
-    let mut vs_chi = Vec::with_capacity(n);
+    let mut data = FigureData {
+        vs_phi: Vec::with_capacity(n),
+        vs_chi: Vec::with_capacity(n),
+        marks: Vec::with_capacity(marks.points.len()),
+    };
     let mut prev: Option<(f64, f64)> = None;
-    let mut chi_of = Vec::new();
     for i in 0..n {
         let phi = a + (b - a) * i as f64 / (n - 1) as f64;
         let chi = match prev {
@@ -589,78 +384,28 @@ pub fn figure(
         };
         prev = Some((phi, chi));
         let v = ev.eval(phi);
-        vs_phi.push((phi, v));
-        vs_chi.push((chi, v));
-        chi_of.push((phi, chi));
-    }
-    let f = &ins.model.field;
-    let mut left = Panel {
-        title: format!("$V$({})", plot::symbol(f)),
-        x_label: plot::symbol(f),
-        y_label: "$V$ [$M$_p^4]".into(),
-        series: vec![Series {
-            name: "V".into(),
-            points: vs_phi,
-            color: "#1f5fa8".into(),
-            dashed: false,
-        }],
-        ..Panel::default()
-    };
-    let mut right = Panel {
-        title: "$V$($\\chi$), canonical field".into(),
-        x_label: "$\\chi$ [$M$_p]".into(),
-        y_label: "$V$ [$M$_p^4]".into(),
-        series: vec![Series {
-            name: "V".into(),
-            points: vs_chi,
-            color: "#1f5fa8".into(),
-            dashed: false,
-        }],
-        ..Panel::default()
-    };
-    for p in &ins.poles {
-        left.vlines.push(VLine {
-            x: p.phi,
-            label: format!("pole, $p$ = {}", fmt(p.order)),
-            color: "#b03030".into(),
-        });
-    }
-    if let Some(mn) = &ins.minimum {
-        left.markers.push(Marker {
-            x: mn.phi,
-            y: mn.v,
-            label: "minimum".into(),
-            color: "#2a8a2a".into(),
-        });
-        right.markers.push(Marker {
-            x: 0.0,
-            y: mn.v,
-            label: "minimum".into(),
-            color: "#2a8a2a".into(),
-        });
+        data.vs_phi.push((phi, v));
+        data.vs_chi.push((chi, v));
     }
     for (phi, label) in &marks.points {
         let v = ev.eval(*phi);
         let chi = map.chi(*phi)?.value;
-        left.markers.push(Marker {
-            x: *phi,
-            y: v,
-            label: label.clone(),
-            color: "#8a4a00".into(),
-        });
-        right.markers.push(Marker {
-            x: chi,
-            y: v,
-            label: label.clone(),
-            color: "#8a4a00".into(),
-        });
+        data.marks.push((*phi, chi, v, label.clone()));
     }
-    let title = if ins.model.name.is_empty() {
-        "efold".to_string()
-    } else {
-        ins.model.name.clone()
-    };
-    Ok(plot::render(&title, &[left, right], width_pt))
+    Ok(data)
+}
+
+/// The figure: V against phi, and V against chi, with poles, the minimum and `marks`
+/// ([`figure_data`] drawn by [`crate::report::inspect::figure`]).
+pub fn figure(
+    model: &Model,
+    ins: &Inspection,
+    marks: &FigureMarks,
+    config: &Config,
+    width_pt: f64,
+) -> Result<String, AnalysisError> {
+    let data = figure_data(model, ins, marks, config)?;
+    Ok(crate::report::inspect::figure(ins, &data, width_pt))
 }
 
 #[cfg(test)]

@@ -2,24 +2,28 @@
 //! amplitude fixed by A_s, scales in GeV, the field excursion, the pivot from a reheating
 //! history, and the verdict against a data set. Reduced Planck units unless a key says GeV.
 
-use crate::analysis::error::ErrorKind;
+use crate::analysis::background::hubble_squared;
 use crate::analysis::error::AnalysisError;
+use crate::analysis::error::ErrorKind;
+use crate::analysis::pivot::AtPivot;
 use crate::analysis::reheating::{Matching, Reheating};
 use crate::analysis::single::branches::Branch;
 use crate::analysis::single::canonical::CanonicalMap;
 use crate::analysis::single::domain::{EndKind, Interval};
 use crate::analysis::single::pole::analyse_pole;
-use crate::analysis::slowroll::{end_of_inflation, phi_stars, Observables, SlowRoll};
+use crate::analysis::slowroll::{a_s_first_order, end_of_inflation, phi_stars, Observables, SlowRoll};
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::drivers::inspect::ModelSummary;
 use crate::drivers::prepared::Prepared;
 use crate::language::tape::Evaluator;
 use crate::model::{Model, Side};
-use crate::report::numfmt;
+use crate::report::numfmt::number as fmt;
 use serde::Serialize;
 use std::f64::consts::PI;
-use std::fmt::Write as _;
+
+// The report's renderings, where they were before they moved to `report`.
+pub use crate::report::predict::{csv, csv_values, text, CSV_KEYS};
 
 /// What to compute.
 #[derive(Debug, Clone)]
@@ -68,23 +72,79 @@ pub struct PoleOnly {
     pub flatness: f64,
 }
 
-/// The predictions at one N_*.
+/// How a prediction compares with the data.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Verdict {
+    /// The n_s pull within the data's tension threshold and r within its limit.
+    Consistent,
+    /// The n_s pull beyond the tension threshold but within the exclusion one.
+    Tension,
+    /// The n_s pull beyond the exclusion threshold, or r above the limit.
+    Excluded,
+}
+
+impl Verdict {
+    /// The word, as in the outputs.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Verdict::Consistent => "consistent",
+            Verdict::Tension => "tension",
+            Verdict::Excluded => "excluded",
+        }
+    }
+}
+
+impl std::fmt::Display for Verdict {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// The route to the observables.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum Method {
+    /// The slow-roll formulas.
+    #[serde(rename = "slow-roll")]
+    SlowRoll,
+    /// The exact background and Mukhanov–Sasaki modes.
+    #[serde(rename = "exact")]
+    Exact,
+}
+
+/// How N_* was chosen: given, or fixed by a reheating history (serialized as `given` or
+/// `reheating: ...`).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum NStarFrom {
+    /// The N_* asked for.
+    Given,
+    /// Fixed by the reheating history described.
+    Reheating(String),
+}
+
+impl std::fmt::Display for NStarFrom {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            NStarFrom::Given => f.write_str("given"),
+            NStarFrom::Reheating(how) => write!(f, "reheating: {how}"),
+        }
+    }
+}
+
+impl Serialize for NStarFrom {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
+    }
+}
+
+/// The predictions at one N_*. The observables at the pivot ([`AtPivot`]: `n_star`,
+/// `phi_star`, `phi_end`, `n_s`, `r`, `alpha_s`, `n_t`) come first, in the JSON as in field
+/// access (`p.n_s` reads through to `p.at.n_s`).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Prediction {
-    /// e-folds between the pivot's exit and the end of inflation.
-    pub n_star: f64,
-    /// Field value at the pivot's exit.
-    pub phi_star: f64,
-    /// Field value at the end of inflation (eps_V = 1).
-    pub phi_end: f64,
-    /// Scalar spectral index.
-    pub n_s: f64,
-    /// Tensor-to-scalar ratio.
-    pub r: f64,
-    /// Running dn_s/dln k.
-    pub alpha_s: f64,
-    /// Tensor tilt.
-    pub n_t: f64,
+    /// N_*, phi_*, phi_end and the observables, slow-roll or exact.
+    #[serde(flatten)]
+    pub at: AtPivot,
     /// eps_V at phi_*.
     pub eps_v: f64,
     /// eta_V at phi_*.
@@ -118,7 +178,7 @@ pub struct Prediction {
     /// The data's upper limit on r.
     pub r_limit: f64,
     /// consistent, tension or excluded.
-    pub verdict: &'static str,
+    pub verdict: Verdict,
     /// The pole-only leading-order prediction, when the branch starts at a pole.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pole_only: Option<PoleOnly>,
@@ -128,6 +188,19 @@ pub struct Prediction {
     /// What the exact route adds, when it was used.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub exact: Option<crate::analysis::perturbations::ExactExtras>,
+}
+
+impl std::ops::Deref for Prediction {
+    type Target = AtPivot;
+    fn deref(&self) -> &AtPivot {
+        &self.at
+    }
+}
+
+impl std::ops::DerefMut for Prediction {
+    fn deref_mut(&mut self) -> &mut AtPivot {
+        &mut self.at
+    }
 }
 
 impl Prediction {
@@ -219,6 +292,55 @@ pub fn check_finite(predictions: &[Prediction], field: &str) -> Result<(), Analy
     Ok(())
 }
 
+/// The factor on the user's V that turns the amplitude `a_s_model` of the potential as
+/// written into the data's observed A_s (the spectrum scales as V).
+fn potential_scale(a_s_model: f64, data: &DataSet) -> f64 {
+    data.a_s() / a_s_model
+}
+
+/// The potential scaled to the observed A_s, and the energy scales it implies.
+struct Scales {
+    potential_scale: f64,
+    v_star_quarter_gev: f64,
+    h_star_gev: f64,
+    t_ds_gev: f64,
+    v_end: f64,
+    v_end_quarter_gev: f64,
+}
+
+impl Scales {
+    /// From the amplitude of the potential as written (`a_s_model`), V at the pivot and at the
+    /// end as written, and eps_H at the pivot (0 in slow roll, where H^2 = V/3).
+    fn new(a_s_model: f64, v_star_user: f64, eps_h: f64, v_end_user: f64, data: &DataSet) -> Scales {
+        let mp = data.units.reduced_planck_mass_gev;
+        let scale = potential_scale(a_s_model, data);
+        let v_star = scale * v_star_user;
+        let h_star = hubble_squared(v_star, eps_h).sqrt();
+        let v_end = scale * v_end_user;
+        Scales {
+            potential_scale: scale,
+            v_star_quarter_gev: v_star.powf(0.25) * mp,
+            h_star_gev: h_star * mp,
+            t_ds_gev: h_star * mp / (2.0 * PI),
+            v_end,
+            v_end_quarter_gev: v_end.max(0.0).powf(0.25) * mp,
+        }
+    }
+}
+
+/// The pull of n_s against the data, in sigma, and the verdict on (n_s, r).
+fn judge(n_s: f64, r: f64, data: &DataSet) -> (f64, Verdict) {
+    let pull = (n_s - data.n_s.mean) / data.n_s.sigma;
+    let verdict = if pull.abs() > data.verdict.excluded_sigma || r > data.r.upper {
+        Verdict::Excluded
+    } else if pull.abs() > data.verdict.tension_sigma {
+        Verdict::Tension
+    } else {
+        Verdict::Consistent
+    };
+    (pull, verdict)
+}
+
 /// A branch with its index among all branches.
 #[derive(Debug, Clone, Serialize)]
 pub struct BranchInfo {
@@ -237,7 +359,7 @@ pub struct Report {
     /// The model.
     pub model: ModelSummary,
     /// "slow-roll" or "exact".
-    pub method: &'static str,
+    pub method: Method,
     /// 1 or 2.
     pub order: u8,
     /// The branch used.
@@ -247,7 +369,7 @@ pub struct Report {
     /// The data set's name and source.
     pub data: DataSummary,
     /// How N_* was chosen.
-    pub n_star_from: String,
+    pub n_star_from: NStarFrom,
     /// One object per N_*.
     pub predictions: Vec<Prediction>,
     /// Things to know.
@@ -376,7 +498,7 @@ fn no_branch_on_side(prep: &Prepared<'_>, side: Side, min: Option<f64>) -> Analy
     .into()
 }
 
-type BranchResult = (Vec<Prediction>, Vec<String>, String);
+type BranchResult = (Vec<Prediction>, Vec<String>, NStarFrom);
 
 /// What every branch of one prediction shares.
 struct Job<'a> {
@@ -397,16 +519,6 @@ struct Pivot {
 }
 
 /// The data's verdict on (n_s pull, r).
-fn verdict(data: &DataSet, pull: f64, r: f64) -> &'static str {
-    if pull.abs() > data.verdict.excluded_sigma || r > data.r.upper {
-        "excluded"
-    } else if pull.abs() > data.verdict.tension_sigma {
-        "tension"
-    } else {
-        "consistent"
-    }
-}
-
 impl Job<'_> {
     /// The report of branch `i` of `all`, whose predictions are `found`: the final check that
     /// every number is finite, and the warnings about where the field settles.
@@ -451,7 +563,11 @@ impl Job<'_> {
         }
         Ok(Report {
             model: ModelSummary::of(self.model),
-            method: if opts.exact.is_some() { "exact" } else { "slow-roll" },
+            method: if opts.exact.is_some() {
+                Method::Exact
+            } else {
+                Method::SlowRoll
+            },
             order: if opts.second_order { 2 } else { 1 },
             branch: info(i),
             other_branches: (0..all.len()).filter(|&j| j != i).map(info).collect(),
@@ -492,10 +608,10 @@ impl Job<'_> {
         let mut warnings = Vec::new();
         let pole = self.pole_alone(ev, b, &mut warnings);
         let (n_stars, matching, n_from) = match &opts.reheating {
-            None => (self.n_wanted.to_vec(), None, "given".to_string()),
+            None => (self.n_wanted.to_vec(), None, NStarFrom::Given),
             Some(reh) => {
                 let (n, m) = self.solve_matching(ev, b, phi_end, reh)?;
-                (vec![n], Some(m), format!("reheating: {}", reh.describe()))
+                (vec![n], Some(m), NStarFrom::Reheating(reh.describe()))
             }
         };
         let (stars, n_error) =
@@ -593,7 +709,6 @@ impl Job<'_> {
     /// The slow-roll prediction at one pivot (without the pole-alone and reheating parts).
     fn slow_roll_prediction(&self, ev: &mut Evaluator<'_>, at: Pivot, phi_end: f64, v_end_user: f64) -> Prediction {
         let data = &self.opts.data;
-        let mp = data.units.reduced_planck_mass_gev;
         let Pivot {
             n_star,
             phi_star,
@@ -605,20 +720,19 @@ impl Job<'_> {
         } else {
             sr.first_order()
         };
-        let a_s_user = sr.v / (24.0 * PI * PI * sr.eps_v);
-        let scale = data.a_s() / a_s_user;
-        let v_star = scale * sr.v;
-        let h_star = (v_star / 3.0).sqrt();
-        let v_end = scale * v_end_user;
-        let pull = (obs.n_s - data.n_s.mean) / data.n_s.sigma;
+        let a_s_user = a_s_first_order(sr.v, sr.eps_v);
+        let sc = Scales::new(a_s_user, sr.v, 0.0, v_end_user, data);
+        let (pull, verdict) = judge(obs.n_s, obs.r, data);
         Prediction {
-            n_star,
-            phi_star,
-            phi_end,
-            n_s: obs.n_s,
-            r: obs.r,
-            alpha_s: obs.alpha_s,
-            n_t: obs.n_t,
+            at: AtPivot {
+                n_star,
+                phi_star,
+                phi_end,
+                n_s: obs.n_s,
+                r: obs.r,
+                alpha_s: obs.alpha_s,
+                n_t: obs.n_t,
+            },
             eps_v: sr.eps_v,
             eta_v: sr.eta_v,
             xi2_v: sr.xi2_v,
@@ -627,15 +741,15 @@ impl Job<'_> {
             delta_phi: (phi_star - phi_end).abs(),
             lyth_bound: n_star * (obs.r / 8.0).sqrt(),
             a_s_unscaled: a_s_user,
-            potential_scale: scale,
-            v_star_quarter_gev: v_star.powf(0.25) * mp,
-            h_star_gev: h_star * mp,
-            t_ds_gev: h_star * mp / (2.0 * PI),
-            v_end,
-            v_end_quarter_gev: v_end.max(0.0).powf(0.25) * mp,
+            potential_scale: sc.potential_scale,
+            v_star_quarter_gev: sc.v_star_quarter_gev,
+            h_star_gev: sc.h_star_gev,
+            t_ds_gev: sc.t_ds_gev,
+            v_end: sc.v_end,
+            v_end_quarter_gev: sc.v_end_quarter_gev,
             n_s_pull: pull,
             r_limit: data.r.upper,
-            verdict: verdict(data, pull, obs.r),
+            verdict,
             pole_only: None,
             reheating: None,
             exact: None,
@@ -677,26 +791,21 @@ impl Job<'_> {
         )?;
         let points = crate::analysis::perturbations::observe(model, &run, &n_stars, settings)?;
         let data = &self.opts.data;
-        let mp = data.units.reduced_planck_mass_gev;
         let mut map = CanonicalMap::new(model, phi_end, config);
         for (p, e) in out.iter_mut().zip(points) {
             let sr = SlowRoll::at(ev, e.phi_star);
-            let scale = data.a_s() / e.extras.p_s_unscaled;
-            let v_star = scale * sr.v;
-            let h_star = (v_star / (3.0 - e.extras.eps_1)).sqrt();
-            let v_end = scale * ev.eval(e.phi_end);
+            let v_end_user = ev.eval(e.phi_end);
+            let sc = Scales::new(e.extras.p_s_unscaled, sr.v, e.extras.eps_1, v_end_user, data);
             let mut extras = e.extras;
             extras.phi_end_slow_roll = p.phi_end;
             extras.phi_star_slow_roll = p.phi_star;
             extras.n_s_slow_roll = p.n_s;
             extras.r_slow_roll = p.r;
-            let pull = (e.n_s - data.n_s.mean) / data.n_s.sigma;
-            p.phi_star = e.phi_star;
-            p.phi_end = e.phi_end;
-            p.n_s = e.n_s;
-            p.r = e.r;
-            p.alpha_s = e.alpha_s;
-            p.n_t = e.n_t;
+            let (pull, verdict) = judge(e.n_s, e.r, data);
+            p.at = AtPivot {
+                n_star: p.n_star,
+                ..e.at
+            };
             p.eps_v = sr.eps_v;
             p.eta_v = sr.eta_v;
             p.xi2_v = sr.xi2_v;
@@ -705,14 +814,14 @@ impl Job<'_> {
             p.delta_phi = (e.phi_star - e.phi_end).abs();
             p.lyth_bound = p.n_star * (e.r / 8.0).sqrt();
             p.a_s_unscaled = e.extras.p_s_unscaled;
-            p.potential_scale = scale;
-            p.v_star_quarter_gev = v_star.powf(0.25) * mp;
-            p.h_star_gev = h_star * mp;
-            p.t_ds_gev = h_star * mp / (2.0 * PI);
-            p.v_end = v_end;
-            p.v_end_quarter_gev = v_end.max(0.0).powf(0.25) * mp;
+            p.potential_scale = sc.potential_scale;
+            p.v_star_quarter_gev = sc.v_star_quarter_gev;
+            p.h_star_gev = sc.h_star_gev;
+            p.t_ds_gev = sc.t_ds_gev;
+            p.v_end = sc.v_end;
+            p.v_end_quarter_gev = sc.v_end_quarter_gev;
             p.n_s_pull = pull;
-            p.verdict = verdict(data, pull, e.r);
+            p.verdict = verdict;
             p.exact = Some(extras);
         }
         Ok(())
@@ -734,8 +843,10 @@ impl Job<'_> {
         for _ in 0..60 {
             let phi = phi_stars(ev, b, phi_end, &[n], self.config, self.field)?[0];
             let sr = SlowRoll::at(ev, phi);
+            // potential_scale(a_s_first_order(..)) in the order of operations the pinned
+            // N_* of every reheating history was computed with.
             let scale = data.a_s() * 24.0 * PI * PI * sr.eps_v / sr.v;
-            let h = (scale * sr.v / 3.0).sqrt();
+            let h = hubble_squared(scale * sr.v, 0.0).sqrt();
             let m = reh
                 .match_pivot(h, scale * v_end_user, data)
                 .map_err(|e| AnalysisError::from(ErrorKind::Matching(e)))?;
@@ -749,219 +860,4 @@ impl Job<'_> {
         }
         Err(ErrorKind::MatchingNoConvergence.into())
     }
-}
-
-fn fmt(x: f64) -> String {
-    numfmt::number(x)
-}
-
-/// The human table: one column per N_*, with units.
-pub fn text(rep: &Report) -> String {
-    let mut o = String::new();
-    let m = &rep.model;
-    let f = &m.field;
-    let params = m.params_text();
-    let _ = writeln!(
-        o,
-        "model    {}{}",
-        if m.name.is_empty() { "(unnamed)" } else { &m.name },
-        if params.is_empty() {
-            String::new()
-        } else {
-            format!("   ({})", params.join(", "))
-        }
-    );
-    let b = &rep.branch;
-    let _ = writeln!(
-        o,
-        "branch   {} of {}: {f} rolls from {} to {}",
-        b.index,
-        b.count,
-        fmt(b.branch.top),
-        fmt(b.branch.bottom)
-    );
-    for ob in &rep.other_branches {
-        let _ = writeln!(
-            o,
-            "         other: {} of {}, {f} from {} to {} (choose with --branch {})",
-            ob.index,
-            ob.count,
-            fmt(ob.branch.top),
-            fmt(ob.branch.bottom),
-            ob.index
-        );
-    }
-    let method = if rep.method == "exact" {
-        "exact background and Mukhanov-Sasaki spectra (N_* from eps_H = 1)".to_string()
-    } else {
-        format!("slow roll, {} order", if rep.order == 2 { "second" } else { "first" })
-    };
-    let _ = writeln!(o, "method   {method}; N_* {}", rep.n_star_from);
-    let _ = writeln!(o, "data     {} [{}]", rep.data.name, rep.data.source);
-    let _ = writeln!(o, "units    reduced Planck units (M_p = 1) unless marked GeV\n");
-    let p = &rep.predictions;
-    let d = numfmt::DEFAULT_DIGITS;
-    let mut rows: Vec<(String, Vec<String>)> = Vec::new();
-    let mut row = |label: &str, vals: Vec<String>| rows.push((label.to_string(), vals));
-    // Each row is one style across its N_* columns (numfmt's rule).
-    let num = |g: &dyn Fn(&Prediction) -> f64| numfmt::row(&p.iter().map(g).collect::<Vec<_>>(), d);
-    let opt = |g: &dyn Fn(&Prediction) -> Option<f64>| numfmt::row_opt(&p.iter().map(g).collect::<Vec<_>>(), d);
-    let col = |g: &dyn Fn(&Prediction) -> String| p.iter().map(g).collect::<Vec<_>>();
-    if rep.n_star_from == "given" {
-        row("N_*", col(&|x| numfmt::typed(x.n_star)));
-    } else {
-        row("N_*", num(&|x| x.n_star));
-    }
-    row(&format!("{f}_*"), num(&|x| x.phi_star));
-    row(&format!("{f}_end"), num(&|x| x.phi_end));
-    row("n_s", num(&|x| x.n_s));
-    row("r", num(&|x| x.r));
-    row("alpha_s", num(&|x| x.alpha_s));
-    row("n_t", num(&|x| x.n_t));
-    row("eps_V", num(&|x| x.eps_v));
-    row("eta_V", num(&|x| x.eta_v));
-    row("xi2_V", num(&|x| x.xi2_v));
-    row("delta chi", num(&|x| x.delta_chi));
-    row(&format!("delta {f}"), num(&|x| x.delta_phi));
-    row("N_* sqrt(r/8)", num(&|x| x.lyth_bound));
-    row("scale on V", num(&|x| x.potential_scale));
-    row("V_*^1/4 [GeV]", num(&|x| x.v_star_quarter_gev));
-    row("H_* [GeV]", num(&|x| x.h_star_gev));
-    row("H_*/2pi [GeV]", num(&|x| x.t_ds_gev));
-    row("V_end^1/4 [GeV]", num(&|x| x.v_end_quarter_gev));
-    // A pull is read to an absolute 0.01 sigma, not to significant digits.
-    row("n_s pull [sigma]", col(&|x| numfmt::signed_fixed(x.n_s_pull, 2)));
-    row("r limit", col(&|x| format!("< {}", numfmt::typed(x.r_limit))));
-    row("verdict", col(&|x| x.verdict.to_string()));
-    if p.iter().any(|x| x.pole_only.is_some()) {
-        row("pole alone: n_s", opt(&|x| x.pole_only.map(|q| q.n_s)));
-        row("pole alone: r", opt(&|x| x.pole_only.map(|q| q.r)));
-    }
-    if p.iter().any(|x| x.exact.is_some()) {
-        let ex = |g: &dyn Fn(&crate::analysis::perturbations::ExactExtras) -> f64| {
-            opt(&|x: &Prediction| x.exact.as_ref().map(g))
-        };
-        row("slow roll: n_s", ex(&|e| e.n_s_slow_roll));
-        row("slow roll: r", ex(&|e| e.r_slow_roll));
-        row(&format!("slow roll: {f}_end"), ex(&|e| e.phi_end_slow_roll));
-        row("eps_1, at exit", ex(&|e| e.eps_1));
-        row("eps_2", ex(&|e| e.eps_2));
-        row("eps_3", ex(&|e| e.eps_3));
-        row("2nd order: n_s", ex(&|e| e.n_s_second_order));
-        row("2nd order: r", ex(&|e| e.r_second_order));
-        // a tolerance-like number: two digits, always scientific
-        row(
-            "freeze drift",
-            col(&|x| {
-                x.exact
-                    .as_ref()
-                    .map(|e| numfmt::scientific(e.freeze_drift, 2))
-                    .unwrap_or_default()
-            }),
-        );
-    }
-    if p.iter().any(|x| x.reheating.is_some()) {
-        row("N_reh", opt(&|x| x.reheating.map(|m| m.n_reh)));
-        row("T_reh [GeV]", opt(&|x| x.reheating.map(|m| m.t_reh_gev)));
-    }
-    let w0 = rows.iter().map(|r| r.0.len()).max().unwrap_or(0);
-    let wc: Vec<usize> = (0..p.len())
-        .map(|j| rows.iter().map(|r| r.1[j].len()).max().unwrap_or(0).max(12))
-        .collect();
-    for (label, vals) in &rows {
-        let _ = write!(o, "{label:<w0$}");
-        for (j, v) in vals.iter().enumerate() {
-            let _ = write!(o, "  {v:>w$}", w = wc[j]);
-        }
-        let _ = writeln!(o);
-    }
-    if let Some(q) = p.iter().find_map(|x| x.pole_only) {
-        let _ = writeln!(
-            o,
-            "\npole alone: leading order in 1/N from the pole of order {} with residue {} at the top of the branch, where V = V_p (1 - c rho^m) with m = {}",
-            fmt(q.order),
-            fmt(q.residue),
-            fmt(q.flatness)
-        );
-    }
-    for w in &rep.warnings {
-        let _ = writeln!(o, "warning: {w}");
-    }
-    o
-}
-
-/// The keys of the CSV output, in order (stable; documented in the README).
-pub const CSV_KEYS: [&str; 27] = [
-    "n_star",
-    "phi_star",
-    "phi_end",
-    "n_s",
-    "r",
-    "alpha_s",
-    "n_t",
-    "eps_v",
-    "eta_v",
-    "xi2_v",
-    "omega3_v",
-    "delta_chi",
-    "delta_phi",
-    "lyth_bound",
-    "a_s_unscaled",
-    "potential_scale",
-    "v_star_quarter_gev",
-    "h_star_gev",
-    "t_ds_gev",
-    "v_end",
-    "v_end_quarter_gev",
-    "n_s_pull",
-    "r_limit",
-    "verdict",
-    "pole_n_s",
-    "pole_r",
-    "n_reh",
-];
-
-/// The values of one prediction in the order of [`CSV_KEYS`].
-pub fn csv_values(p: &Prediction) -> Vec<String> {
-    let opt = |x: Option<f64>| x.map(|v| format!("{v:e}")).unwrap_or_default();
-    vec![
-        format!("{}", p.n_star),
-        format!("{:e}", p.phi_star),
-        format!("{:e}", p.phi_end),
-        format!("{:e}", p.n_s),
-        format!("{:e}", p.r),
-        format!("{:e}", p.alpha_s),
-        format!("{:e}", p.n_t),
-        format!("{:e}", p.eps_v),
-        format!("{:e}", p.eta_v),
-        format!("{:e}", p.xi2_v),
-        format!("{:e}", p.omega3_v),
-        format!("{:e}", p.delta_chi),
-        format!("{:e}", p.delta_phi),
-        format!("{:e}", p.lyth_bound),
-        format!("{:e}", p.a_s_unscaled),
-        format!("{:e}", p.potential_scale),
-        format!("{:e}", p.v_star_quarter_gev),
-        format!("{:e}", p.h_star_gev),
-        format!("{:e}", p.t_ds_gev),
-        format!("{:e}", p.v_end),
-        format!("{:e}", p.v_end_quarter_gev),
-        format!("{:e}", p.n_s_pull),
-        format!("{:e}", p.r_limit),
-        p.verdict.to_string(),
-        opt(p.pole_only.map(|q| q.n_s)),
-        opt(p.pole_only.map(|q| q.r)),
-        opt(p.reheating.map(|m| m.n_reh)),
-    ]
-}
-
-/// One CSV row per N_*, with a header.
-pub fn csv(rep: &Report) -> String {
-    let mut o = CSV_KEYS.join(",");
-    o.push('\n');
-    for p in &rep.predictions {
-        o.push_str(&csv_values(p).join(","));
-        o.push('\n');
-    }
-    o
 }

@@ -177,7 +177,7 @@ mod tests {
     }
 
     /// Every number of a prediction, as bits, and its verdict.
-    fn bits(p: &Prediction) -> (Vec<(&'static str, u64)>, &'static str) {
+    fn bits(p: &Prediction) -> (Vec<(&'static str, u64)>, crate::drivers::predict::Verdict) {
         (
             p.numbers().into_iter().map(|(k, x)| (k, x.to_bits())).collect(),
             p.verdict,

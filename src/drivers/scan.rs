@@ -6,10 +6,10 @@ use crate::analysis::error::AnalysisError;
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::diag::Diagnostic;
-use crate::drivers::predict::{predict, Options, Prediction, CSV_KEYS};
+use crate::drivers::predict::{predict, Options, Prediction};
 use crate::drivers::prepared::Prepared;
 use crate::model::{Model, ModelSpec};
-use crate::report::plot::{Marker, Panel, Region, Series};
+use crate::report::scan::{csv_header, csv_rows, json_row};
 use serde::Serialize;
 
 /// Why a `--vary` axis cannot be made.
@@ -139,6 +139,9 @@ impl AxisError {
         Diagnostic::new(self.to_string()).with_hint(hint)
     }
 }
+
+// The scan's renderings, where they were before they moved to `report`.
+pub use crate::report::scan::{csv, figure, json};
 
 /// One varied parameter: name and values.
 #[derive(Debug, Clone, PartialEq)]
@@ -555,86 +558,6 @@ fn predict_at(
         }
     };
     Ok(rep?.predictions)
-}
-
-fn csv_field(s: &str) -> String {
-    format!("\"{}\"", s.replace('"', "\"\""))
-}
-
-/// The CSV header for these axes.
-pub fn csv_header(axes: &[String]) -> String {
-    let mut cols: Vec<String> = vec!["point".into()];
-    cols.extend(axes.iter().cloned());
-    cols.extend(CSV_KEYS.iter().map(|s| s.to_string()));
-    cols.push("error".into());
-    cols.join(",")
-}
-
-/// Rows as CSV (header first): point, varied parameters, then the prediction keys of
-/// `efold predict --format csv`, then `error` (empty when the point succeeded).
-pub fn csv(axes: &[String], rows: &[ScanRow]) -> String {
-    let mut o = csv_header(axes);
-    o.push('\n');
-    o.push_str(&csv_rows(rows));
-    o
-}
-
-/// The CSV lines of these rows, without the header.
-pub fn csv_rows(rows: &[ScanRow]) -> String {
-    let mut o = String::new();
-    for r in rows {
-        let mut f: Vec<String> = vec![r.point.to_string()];
-        f.extend(r.params.iter().map(|(_, v)| format!("{v:e}")));
-        match &r.result {
-            Ok(p) => {
-                f.extend(crate::drivers::predict::csv_values(p));
-                f.push(String::new());
-            }
-            Err(e) => {
-                f.push(format!("{}", r.n_star));
-                f.extend((1..CSV_KEYS.len()).map(|_| String::new()));
-                f.push(csv_field(e.message()));
-            }
-        }
-        o.push_str(&f.join(","));
-        o.push('\n');
-    }
-    o
-}
-
-/// One row as a flat JSON object.
-fn json_row(r: &ScanRow) -> serde_json::Value {
-    let mut m = serde_json::Map::new();
-    m.insert("point".into(), serde_json::json!(r.point));
-    for (n, v) in &r.params {
-        m.insert(n.clone(), serde_json::json!(v));
-    }
-    match &r.result {
-        Ok(p) => {
-            if let serde_json::Value::Object(o) = serde_json::to_value(p).expect("serialisable") {
-                for (k, v) in o {
-                    if !v.is_object() {
-                        m.insert(k, v);
-                    }
-                }
-            }
-            m.insert("error".into(), serde_json::Value::Null);
-        }
-        Err(e) => {
-            m.insert("n_star".into(), serde_json::json!(r.n_star));
-            m.insert("error".into(), serde_json::json!(e.message()));
-        }
-    }
-    serde_json::Value::Object(m)
-}
-
-/// Rows as a JSON array of flat objects (pandas `read_json`, numpy via a list of dicts).
-pub fn json(rows: &[ScanRow]) -> String {
-    let mut t = Table::new(true, None);
-    let mut o = t.start(&[]);
-    o.push_str(&t.rows(rows));
-    o.push_str(&t.end());
-    o
 }
 
 /// Where a shard comes from, written at its top: the first line of a CSV shard
@@ -1388,136 +1311,10 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
     Ok(o)
 }
 
-/// The n_s–r plane (log r), with the data's n_s bands (1 and 2 sigma) and r limit drawn as
-/// regions; one curve per N_* (and per value of a second parameter), markers coloured by the
-/// first parameter's value.
-pub fn figure(title: &str, axes: &[Axis], rows: &[ScanRow], data: &DataSet, width_pt: f64) -> String {
-    let ok: Vec<(&ScanRow, &Prediction)> = rows
-        .iter()
-        .filter_map(|r| r.result.as_ref().ok().map(|p| (r, p)))
-        .collect();
-    let mut n_values: Vec<f64> = ok.iter().map(|(_, p)| p.n_star).collect();
-    n_values.sort_by(f64::total_cmp);
-    n_values.dedup();
-    let first = axes.first().map(|a| a.name.clone()).unwrap_or_default();
-    let (lo, hi) = axes
-        .first()
-        .map(|a| {
-            let lo = a.values.iter().copied().fold(f64::INFINITY, f64::min);
-            let hi = a.values.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            (lo, hi)
-        })
-        .unwrap_or((0.0, 1.0));
-    let log_axis = lo > 0.0 && hi / lo > 20.0;
-    let frac = |v: f64| {
-        let t = if log_axis {
-            (v.ln() - lo.ln()) / (hi.ln() - lo.ln())
-        } else {
-            (v - lo) / (hi - lo)
-        };
-        if t.is_finite() {
-            t.clamp(0.0, 1.0)
-        } else {
-            0.5
-        }
-    };
-    let palette = ["#1f5fa8", "#b03030", "#2a8a2a", "#8a4a00", "#6a3d9a", "#444444"];
-    let mut series = Vec::new();
-    let mut markers = Vec::new();
-    let second: Vec<f64> = axes.get(1).map(|a| a.values.clone()).unwrap_or_else(|| vec![f64::NAN]);
-    for (i, &n) in n_values.iter().enumerate() {
-        for &s in &second {
-            let pts: Vec<(f64, f64)> = ok
-                .iter()
-                .filter(|(r, p)| p.n_star == n && (s.is_nan() || r.params.get(1).map(|x| x.1) == Some(s)))
-                .map(|(_, p)| (p.n_s, p.r))
-                .collect();
-            if pts.is_empty() {
-                continue;
-            }
-            let name = if s.is_nan() {
-                format!("$N$ = {}", crate::report::numfmt::typed(n))
-            } else {
-                format!(
-                    "$N$ = {}, {} = {}",
-                    crate::report::numfmt::typed(n),
-                    crate::report::plot::symbol(&axes[1].name),
-                    crate::report::numfmt::typed(s)
-                )
-            };
-            series.push(Series {
-                name,
-                points: pts,
-                color: palette[i % palette.len()].into(),
-                dashed: false,
-            });
-        }
-    }
-    for (r, p) in &ok {
-        let t = frac(r.params.first().map_or(0.0, |x| x.1));
-        markers.push(Marker {
-            x: p.n_s,
-            y: p.r,
-            label: String::new(),
-            color: gradient(t),
-        });
-    }
-    let (m, s) = (data.n_s.mean, data.n_s.sigma);
-    let regions = vec![
-        Region {
-            x: (m - 2.0 * s, m + 2.0 * s),
-            y: None,
-            color: "#9ecae1".into(),
-            opacity: 0.25,
-            label: "$n$_s, 2$\\sigma$".into(),
-        },
-        Region {
-            x: (m - s, m + s),
-            y: None,
-            color: "#3182bd".into(),
-            opacity: 0.25,
-            label: "$n$_s, 1$\\sigma$".into(),
-        },
-        Region {
-            x: (f64::NEG_INFINITY, f64::INFINITY),
-            y: Some((data.r.upper, f64::INFINITY)),
-            color: "#de2d26".into(),
-            opacity: 0.15,
-            label: format!("$r$ > {} excluded", data.r.upper),
-        },
-    ];
-    let panel = Panel {
-        colorbar: Some(crate::report::plot::ColorBar {
-            label: crate::report::plot::symbol(&first),
-            lo,
-            hi,
-            log: log_axis,
-            colors: (0..=8).map(|i| gradient(i as f64 / 8.0)).collect(),
-        }),
-        x_label: "$n$_s".into(),
-        y_label: "$r$".into(),
-        log_y: true,
-        series,
-        markers,
-        regions,
-        ..Panel::default()
-    };
-    crate::report::plot::render(title, &[panel], width_pt)
-}
-
-/// Blue to yellow.
-fn gradient(t: f64) -> String {
-    let (r, g, b) = (
-        (40.0 + t * (250.0 - 40.0)) as u8,
-        (60.0 + t * (200.0 - 60.0)) as u8,
-        (160.0 - t * 130.0) as u8,
-    );
-    format!("#{r:02x}{g:02x}{b:02x}")
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::report::scan::csv_field;
 
     /// Grid end points are the numbers asked for, and a log grid over decades hits the powers
     /// of ten exactly (0.1, 1, 10 print as typed).

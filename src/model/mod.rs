@@ -53,5 +53,5 @@ pub use error::ModelError;
 pub use layout::{Layout, MetricShape};
 pub use metric::{Metric, MetricError, MetricValue};
 pub use params::{ConstantError, ParamTable};
-pub use spec::{ModelSpec, Origin, ParamSpec, Side, Text};
 pub(crate) use spec::toml_message;
+pub use spec::{ModelSpec, Origin, ParamSpec, Side, Text};

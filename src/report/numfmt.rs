@@ -237,6 +237,46 @@ pub fn typed(x: f64) -> String {
     }
 }
 
+/// An axis tick label: at most four decimals, trailing zeros dropped, within [1e-3, 1e4);
+/// outside it two significant digits in scientific notation (`1.2e-4`, `5e6`), `.0` dropped.
+///
+/// ```
+/// use efold::numfmt::tick;
+/// assert_eq!(tick(0.25), "0.25");
+/// assert_eq!(tick(-2.0), "-2");
+/// assert_eq!(tick(0.00012), "1.2e-4");
+/// assert_eq!(tick(5e6), "5e6");
+/// assert_eq!(tick(0.0), "0");
+/// ```
+pub fn tick(v: f64) -> String {
+    if v == 0.0 {
+        return "0".to_string();
+    }
+    let a = v.abs();
+    if !(1e-3..1e4).contains(&a) {
+        let s = format!("{v:.1e}");
+        return s.replace(".0e", "e");
+    }
+    let s = format!("{v:.4}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    s.to_string()
+}
+
+/// A JSON value for people: a number as [`typed`] (shortest round-trip form), anything else
+/// as JSON.
+///
+/// ```
+/// use efold::numfmt::json_value;
+/// assert_eq!(json_value(&serde_json::json!(1.468e-10)), "1.468e-10");
+/// assert_eq!(json_value(&serde_json::json!("excluded")), "\"excluded\"");
+/// ```
+pub fn json_value(v: &serde_json::Value) -> String {
+    match v.as_f64() {
+        Some(x) if v.is_number() => typed(x),
+        _ => v.to_string(),
+    }
+}
+
 /// Enough significant digits to tell `a` from `b` (two more than the digits they share), at
 /// least [`DEFAULT_DIGITS`] and at most [`MAX_DIGITS`].
 ///
@@ -364,6 +404,23 @@ mod tests {
         assert_eq!(number(1.0e-10), "1e-10");
         assert_eq!(number(-2.449489742783178), "-2.44949");
         assert_eq!(number(1234567.0), "1.23457e6");
+    }
+
+    #[test]
+    fn numbers_print_in_shortest_round_trip_form() {
+        for (x, s) in [
+            (1.0, "1"),
+            (1.01, "1.01"),
+            (0.0048, "0.0048"),
+            (1.468e-10, "1.468e-10"),
+            (-2e20, "-2e20"),
+        ] {
+            assert_eq!(typed(x), s);
+            assert_eq!(json_value(&serde_json::json!(x)), s);
+            assert_eq!(s.parse::<f64>().unwrap(), x);
+        }
+        let x = 0.1 + 0.2;
+        assert_eq!(typed(x).parse::<f64>().unwrap(), x);
     }
 
     #[test]

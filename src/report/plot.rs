@@ -2,6 +2,7 @@
 //! series, vertical markers and point markers. Output is plain SVG 1.1, no scripts, so any
 //! browser or vector editor opens it.
 
+use crate::report::numfmt::tick;
 use std::fmt::Write as _;
 
 /// One line on a panel.
@@ -164,20 +165,6 @@ pub fn ticks(lo: f64, hi: f64) -> Vec<f64> {
     let start = (lo / step).ceil() as i64;
     let end = (hi / step).floor() as i64;
     (start..=end).map(|k| k as f64 * step).collect()
-}
-
-fn fmt_tick(v: f64) -> String {
-    if v == 0.0 {
-        return "0".to_string();
-    }
-    let a = v.abs();
-    if !(1e-3..1e4).contains(&a) {
-        let s = format!("{v:.1e}");
-        return s.replace(".0e", "e");
-    }
-    let s = format!("{v:.4}");
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    s.to_string()
 }
 
 fn esc(s: &str) -> String {
@@ -442,48 +429,119 @@ pub fn render(title: &str, panels: &[Panel], width_pt: f64) -> String {
     out
 }
 
-#[allow(non_snake_case)]
-fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect> {
-    let ty = |y: f64| if p.log_y { y.log10() } else { y };
-    let mut xs: Vec<f64> = Vec::new();
-    let mut ys: Vec<f64> = Vec::new();
-    for s in &p.series {
-        for &(x, y) in &s.points {
-            if x.is_finite() && ty(y).is_finite() {
-                xs.push(x);
-                ys.push(ty(y));
+/// A panel's data coordinates mapped onto its axes box: the data range (y as plotted, so
+/// log10 y on a log axis) and the box's size.
+struct Frame {
+    log_y: bool,
+    x0: f64,
+    x1: f64,
+    y0: f64,
+    y1: f64,
+    pw: f64,
+    ph: f64,
+}
+
+impl Frame {
+    /// The range of everything the panel draws, y padded by 5%, in a box of the panel's size
+    /// less margins, colour bar and legend.
+    #[allow(non_snake_case)]
+    fn new(p: &Panel, W: f64, H: f64) -> Frame {
+        let ty = |y: f64| if p.log_y { y.log10() } else { y };
+        let mut xs: Vec<f64> = Vec::new();
+        let mut ys: Vec<f64> = Vec::new();
+        for s in &p.series {
+            for &(x, y) in &s.points {
+                if x.is_finite() && ty(y).is_finite() {
+                    xs.push(x);
+                    ys.push(ty(y));
+                }
             }
         }
-    }
-    for m in &p.markers {
-        if m.x.is_finite() && ty(m.y).is_finite() {
-            xs.push(m.x);
-            ys.push(ty(m.y));
+        for m in &p.markers {
+            if m.x.is_finite() && ty(m.y).is_finite() {
+                xs.push(m.x);
+                ys.push(ty(m.y));
+            }
+        }
+        xs.extend(p.vlines.iter().map(|v| v.x).filter(|x| x.is_finite()));
+        for g in &p.regions {
+            xs.extend([g.x.0, g.x.1].into_iter().filter(|x| x.is_finite()));
+            if let Some((lo, hi)) = g.y {
+                ys.extend([ty(lo), ty(hi)].into_iter().filter(|y| y.is_finite()));
+            }
+        }
+        let (mut x0, mut x1) = min_max(&xs);
+        let (mut y0, mut y1) = min_max(&ys);
+        if x1 <= x0 {
+            x0 -= 1.0;
+            x1 += 1.0;
+        }
+        if y1 <= y0 {
+            y0 -= 1.0;
+            y1 += 1.0;
+        }
+        let pad = 0.05 * (y1 - y0);
+        Frame {
+            log_y: p.log_y,
+            x0,
+            x1,
+            y0: y0 - pad,
+            y1: y1 + pad,
+            pw: W - ML - MR - if p.colorbar.is_some() { 70.0 } else { 0.0 },
+            ph: H - MT - MB - legend_height(p, W),
         }
     }
-    xs.extend(p.vlines.iter().map(|v| v.x).filter(|x| x.is_finite()));
-    for g in &p.regions {
-        xs.extend([g.x.0, g.x.1].into_iter().filter(|x| x.is_finite()));
-        if let Some((lo, hi)) = g.y {
-            ys.extend([ty(lo), ty(hi)].into_iter().filter(|y| y.is_finite()));
+
+    /// y as plotted.
+    fn ty(&self, y: f64) -> f64 {
+        if self.log_y {
+            y.log10()
+        } else {
+            y
         }
     }
-    let (mut x0, mut x1) = min_max(&xs);
-    let (mut y0, mut y1) = min_max(&ys);
-    if x1 <= x0 {
-        x0 -= 1.0;
-        x1 += 1.0;
+
+    fn sx(&self, x: f64) -> f64 {
+        ML + (x - self.x0) / (self.x1 - self.x0) * self.pw
     }
-    if y1 <= y0 {
-        y0 -= 1.0;
-        y1 += 1.0;
+
+    /// From y as plotted.
+    fn sy(&self, y: f64) -> f64 {
+        MT + (1.0 - (y - self.y0) / (self.y1 - self.y0)) * self.ph
     }
-    let pad = 0.05 * (y1 - y0);
-    let (y0, y1) = (y0 - pad, y1 + pad);
-    let pw = W - ML - MR - if p.colorbar.is_some() { 70.0 } else { 0.0 };
-    let ph = H - MT - MB - legend_height(p, W);
-    let sx = |x: f64| ML + (x - x0) / (x1 - x0) * pw;
-    let sy = |y: f64| MT + (1.0 - (y - y0) / (y1 - y0)) * ph;
+
+    /// A data point's place in the box, if it can be drawn.
+    fn place(&self, x: f64, y: f64) -> Option<(f64, f64)> {
+        let y = self.ty(y);
+        (x.is_finite() && y.is_finite()).then(|| (self.sx(x), self.sy(y)))
+    }
+}
+
+/// One panel at the origin, `W` by `H`: axes, regions, curves, labels, colour bar and legend.
+/// Returns the labels' boxes.
+#[allow(non_snake_case)]
+fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect> {
+    let fr = Frame::new(p, W, H);
+    axes(out, p, &fr, W, H);
+    let _ = writeln!(
+        out,
+        "<clipPath id=\"clip{}\"><rect x=\"{ML}\" y=\"{MT}\" width=\"{}\" height=\"{}\"/></clipPath>",
+        index, fr.pw, fr.ph
+    );
+    regions(out, p, &fr);
+    curves(out, p, &fr, index);
+    let placed = labels(out, p, &fr);
+    if let Some(cb) = &p.colorbar {
+        colorbar(out, cb, ML + fr.pw + 14.0, MT, fr.ph, index);
+    }
+    legend(out, p, W, H);
+    placed
+}
+
+/// The title, the box, the ticks and the axis labels.
+#[allow(non_snake_case)]
+fn axes(out: &mut String, p: &Panel, fr: &Frame, W: f64, H: f64) {
+    let (pw, ph) = (fr.pw, fr.ph);
     let _ = writeln!(
         out,
         "<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" font-size=\"13\">{}</text>",
@@ -495,23 +553,23 @@ fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect>
         out,
         "<rect class=\"axes\" x=\"{ML}\" y=\"{MT}\" width=\"{pw}\" height=\"{ph}\" fill=\"none\" stroke=\"black\"/>"
     );
-    for t in ticks(x0, x1) {
-        let x = sx(t);
+    for t in ticks(fr.x0, fr.x1) {
+        let x = fr.sx(t);
         let _ = writeln!(
             out,
             "<line x1=\"{x:.2}\" y1=\"{}\" x2=\"{x:.2}\" y2=\"{}\" stroke=\"black\"/><text class=\"xtick\" x=\"{x:.2}\" y=\"{}\" text-anchor=\"middle\">{}</text>",
             MT + ph,
             MT + ph + 5.0,
             MT + ph + 18.0,
-            rich(&fmt_tick(t), 12.0)
+            rich(&tick(t), 12.0)
         );
     }
-    for t in ticks(y0, y1) {
-        let y = sy(t);
+    for t in ticks(fr.y0, fr.y1) {
+        let y = fr.sy(t);
         let label = if p.log_y {
-            format!("10^{{{}}}", fmt_tick(t))
+            format!("10^{{{}}}", tick(t))
         } else {
-            fmt_tick(t)
+            tick(t)
         };
         let _ = writeln!(
             out,
@@ -536,22 +594,21 @@ fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect>
         MT + ph / 2.0,
         rich(&p.y_label, 12.0)
     );
-    let _ = writeln!(
-        out,
-        "<clipPath id=\"clip{}\"><rect x=\"{ML}\" y=\"{MT}\" width=\"{pw}\" height=\"{ph}\"/></clipPath>",
-        index
-    );
+}
+
+/// The shaded regions, clipped to the box.
+fn regions(out: &mut String, p: &Panel, fr: &Frame) {
     for g in &p.regions {
-        let cx = |x: f64| sx(x.clamp(x0, x1));
+        let cx = |x: f64| fr.sx(x.clamp(fr.x0, fr.x1));
         let cy = |y: f64| {
-            let t = ty(y);
-            let t = if t.is_nan() { y0 } else { t };
-            sy(t.clamp(y0, y1))
+            let t = fr.ty(y);
+            let t = if t.is_nan() { fr.y0 } else { t };
+            fr.sy(t.clamp(fr.y0, fr.y1))
         };
         let (xa, xb) = (cx(g.x.0), cx(g.x.1));
         let (ya, yb) = match g.y {
             Some((lo, hi)) => (cy(hi), cy(lo)),
-            None => (MT, MT + ph),
+            None => (MT, MT + fr.ph),
         };
         if xb <= xa || yb <= ya {
             continue;
@@ -565,16 +622,20 @@ fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect>
             g.opacity,
         );
     }
+}
+
+/// The series as paths, the pen lifted over points that cannot be drawn.
+fn curves(out: &mut String, p: &Panel, fr: &Frame, index: usize) {
     for s in &p.series {
         let mut d = String::new();
         let mut pen_up = true;
         for &(x, y) in &s.points {
-            let y = ty(y);
+            let y = fr.ty(y);
             if !(x.is_finite() && y.is_finite()) {
                 pen_up = true;
                 continue;
             }
-            let _ = write!(d, "{}{:.2},{:.2} ", if pen_up { "M" } else { "L" }, sx(x), sy(y));
+            let _ = write!(d, "{}{:.2},{:.2} ", if pen_up { "M" } else { "L" }, fr.sx(x), fr.sy(y));
             pen_up = false;
         }
         let dash = if s.dashed { " stroke-dasharray=\"6,4\"" } else { "" };
@@ -587,137 +648,163 @@ fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect>
             index
         );
     }
-    // Labels are placed one by one where they overlap no label placed before, no marker and no
-    // legend, inside the axes, preferring spots near their anchor and off the curves.
+}
+
+/// Where labels may go: the axes box, what is taken (markers, labels placed so far), and the
+/// curves to keep off.
+struct Placement {
+    bounds: Rect,
+    curve: Vec<(f64, f64)>,
+    ndots: usize,
+    taken: Vec<Rect>,
+    placed: Vec<Rect>,
+}
+
+impl Placement {
+    /// The best of `cands`, now taken.
+    fn take(&mut self, cands: &[Rect]) -> Rect {
+        let b = choose_label(cands, &self.taken, self.ndots, &self.bounds, &self.curve);
+        self.taken.push(b);
+        self.placed.push(b);
+        b
+    }
+}
+
+/// The vertical lines and the markers with their labels. Labels are placed one by one where
+/// they overlap no label placed before, no marker and no legend, inside the axes, preferring
+/// spots near their anchor and off the curves. Returns the labels' boxes.
+fn labels(out: &mut String, p: &Panel, fr: &Frame) -> Vec<Rect> {
     let curve: Vec<(f64, f64)> = p
         .series
         .iter()
         .flat_map(|s| s.points.iter())
-        .filter(|(x, y)| x.is_finite() && ty(*y).is_finite())
-        .map(|&(x, y)| (sx(x), sy(ty(y))))
+        .filter_map(|&(x, y)| fr.place(x, y))
         .collect();
-    let bounds = Rect {
-        x: ML,
-        y: MT,
-        w: pw,
-        h: ph,
+    let dots: Vec<(f64, f64)> = p.markers.iter().filter_map(|m| fr.place(m.x, m.y)).collect();
+    let mut at = Placement {
+        bounds: Rect {
+            x: ML,
+            y: MT,
+            w: fr.pw,
+            h: fr.ph,
+        },
+        curve,
+        ndots: dots.len(),
+        taken: dots
+            .iter()
+            .map(|&(x, y)| Rect {
+                x: x - 4.0,
+                y: y - 4.0,
+                w: 8.0,
+                h: 8.0,
+            })
+            .collect(),
+        placed: Vec::new(),
     };
-    let dots: Vec<(f64, f64)> = p
-        .markers
-        .iter()
-        .filter(|m| m.x.is_finite() && ty(m.y).is_finite())
-        .map(|m| (sx(m.x), sy(ty(m.y))))
-        .collect();
-    let ndots = dots.len();
-    let mut taken: Vec<Rect> = dots
-        .iter()
-        .map(|&(x, y)| Rect {
-            x: x - 4.0,
-            y: y - 4.0,
-            w: 8.0,
-            h: 8.0,
-        })
-        .collect();
-    let mut placed: Vec<Rect> = Vec::new();
     for v in &p.vlines {
-        if !(v.x >= x0 && v.x <= x1) {
-            continue;
+        if v.x >= fr.x0 && v.x <= fr.x1 {
+            vline(out, v, fr, &mut at);
         }
-        let x = sx(v.x);
-        let (w, h) = (text_width(&v.label, 10.0), 12.5);
-        let mut cands = Vec::new();
-        let mut top = MT + 2.0;
-        while top + h <= MT + ph {
-            cands.push(Rect {
-                x: x + 3.0,
-                y: top,
-                w,
-                h,
-            });
-            cands.push(Rect {
-                x: x - 3.0 - w,
-                y: top,
-                w,
-                h,
-            });
-            top += h + 1.0;
-        }
-        let b = choose_label(&cands, &taken, ndots, &bounds, &curve);
-        taken.push(b);
-        placed.push(b);
-        let _ = writeln!(
-            out,
-            "<line class=\"vline\" x1=\"{x:.2}\" y1=\"{MT}\" x2=\"{x:.2}\" y2=\"{}\" stroke=\"{}\" stroke-dasharray=\"3,3\"/><text x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
-            MT + ph,
-            v.color,
-            b.x,
-            b.y + 9.5,
-            v.color,
-            rich(&v.label, 10.0)
-        );
     }
     for m in &p.markers {
-        let y = ty(m.y);
-        if !(m.x.is_finite() && y.is_finite()) {
-            continue;
+        if let Some(xy) = fr.place(m.x, m.y) {
+            marker(out, m, xy, &mut at);
         }
-        let (ax, ay) = (sx(m.x), sy(y));
+    }
+    at.placed
+}
+
+/// One vertical line, its label beside it at the first free height.
+fn vline(out: &mut String, v: &VLine, fr: &Frame, at: &mut Placement) {
+    let x = fr.sx(v.x);
+    let (w, h) = (text_width(&v.label, 10.0), 12.5);
+    let mut cands = Vec::new();
+    let mut top = MT + 2.0;
+    while top + h <= MT + fr.ph {
+        cands.push(Rect {
+            x: x + 3.0,
+            y: top,
+            w,
+            h,
+        });
+        cands.push(Rect {
+            x: x - 3.0 - w,
+            y: top,
+            w,
+            h,
+        });
+        top += h + 1.0;
+    }
+    let b = at.take(&cands);
+    let _ = writeln!(
+        out,
+        "<line class=\"vline\" x1=\"{x:.2}\" y1=\"{MT}\" x2=\"{x:.2}\" y2=\"{}\" stroke=\"{}\" stroke-dasharray=\"3,3\"/><text x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
+        MT + fr.ph,
+        v.color,
+        b.x,
+        b.y + 9.5,
+        v.color,
+        rich(&v.label, 10.0)
+    );
+}
+
+/// One marker at (ax, ay) in the box, and its label (if any) at the nearest free spot, with a
+/// leader line when it had to move away.
+fn marker(out: &mut String, m: &Marker, (ax, ay): (f64, f64), at: &mut Placement) {
+    let _ = writeln!(
+        out,
+        "<circle class=\"marker\" cx=\"{ax:.2}\" cy=\"{ay:.2}\" r=\"2.6\" fill=\"{}\"/>",
+        m.color,
+    );
+    if m.label.is_empty() {
+        return;
+    }
+    let (w, h) = (text_width(&m.label, 10.0), 12.5);
+    let mut cands = Vec::new();
+    for d in [5.0, 12.0, 22.0, 34.0, 48.0, 64.0, 84.0, 110.0, 140.0] {
+        for (dx, dy) in [(1, -1), (1, 0), (0, -1), (-1, -1), (-1, 0), (1, 1), (0, 1), (-1, 1)] {
+            let bx = match dx {
+                1 => ax + d,
+                -1 => ax - d - w,
+                _ => ax - w / 2.0,
+            };
+            let by = match dy {
+                -1 => ay - d - h,
+                1 => ay + d,
+                _ => ay - h / 2.0,
+            };
+            cands.push(Rect { x: bx, y: by, w, h });
+        }
+    }
+    let b = at.take(&cands);
+    let (lx, ly) = (ax.clamp(b.x, b.x + b.w), ay.clamp(b.y, b.y + b.h));
+    if (lx - ax).hypot(ly - ay) > 8.0 {
+        // Moved away from its point: a leader line shows which point it names.
         let _ = writeln!(
             out,
-            "<circle class=\"marker\" cx=\"{ax:.2}\" cy=\"{ay:.2}\" r=\"2.6\" fill=\"{}\"/>",
-            m.color,
-        );
-        if m.label.is_empty() {
-            continue;
-        }
-        let (w, h) = (text_width(&m.label, 10.0), 12.5);
-        let mut cands = Vec::new();
-        for d in [5.0, 12.0, 22.0, 34.0, 48.0, 64.0, 84.0, 110.0, 140.0] {
-            for (dx, dy) in [(1, -1), (1, 0), (0, -1), (-1, -1), (-1, 0), (1, 1), (0, 1), (-1, 1)] {
-                let bx = match dx {
-                    1 => ax + d,
-                    -1 => ax - d - w,
-                    _ => ax - w / 2.0,
-                };
-                let by = match dy {
-                    -1 => ay - d - h,
-                    1 => ay + d,
-                    _ => ay - h / 2.0,
-                };
-                cands.push(Rect { x: bx, y: by, w, h });
-            }
-        }
-        let b = choose_label(&cands, &taken, ndots, &bounds, &curve);
-        taken.push(b);
-        placed.push(b);
-        let (lx, ly) = (ax.clamp(b.x, b.x + b.w), ay.clamp(b.y, b.y + b.h));
-        if (lx - ax).hypot(ly - ay) > 8.0 {
-            // Moved away from its point: a leader line shows which point it names.
-            let _ = writeln!(
-                out,
-                "<line class=\"leader\" x1=\"{ax:.2}\" y1=\"{ay:.2}\" x2=\"{lx:.2}\" y2=\"{ly:.2}\" stroke=\"{}\" stroke-width=\"0.6\"/>",
-                m.color
-            );
-        }
-        let _ = writeln!(
-            out,
-            "<text class=\"label\" x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
-            b.x,
-            b.y + 9.5,
-            m.color,
-            rich(&m.label, 10.0)
+            "<line class=\"leader\" x1=\"{ax:.2}\" y1=\"{ay:.2}\" x2=\"{lx:.2}\" y2=\"{ly:.2}\" stroke=\"{}\" stroke-width=\"0.6\"/>",
+            m.color
         );
     }
-    if let Some(cb) = &p.colorbar {
-        colorbar(out, cb, ML + pw + 14.0, MT, ph, index);
-    }
-    // The legend, below the axes where it covers nothing: the lines (where there are several
-    // to tell apart), each sample drawn as its line is, and the shaded regions as swatches.
+    let _ = writeln!(
+        out,
+        "<text class=\"label\" x=\"{:.2}\" y=\"{:.2}\" font-size=\"10\" fill=\"{}\">{}</text>",
+        b.x,
+        b.y + 9.5,
+        m.color,
+        rich(&m.label, 10.0)
+    );
+}
+
+/// The legend, below the axes where it covers nothing: the lines (where there are several to
+/// tell apart), each sample drawn as its line is, and the shaded regions as swatches.
+#[allow(non_snake_case)]
+fn legend(out: &mut String, p: &Panel, W: f64, H: f64) {
     let lx0 = ML;
     for (x, y, e) in legend_layout(p, W) {
         let y = H - legend_height(p, W) + 6.0 + y;
         let x = lx0 + x;
-        match e {
+        let label = match e {
             Entry::Line(s) => {
                 let dash = if s.dashed { " stroke-dasharray=\"6,4\"" } else { "" };
                 let _ = writeln!(
@@ -728,12 +815,7 @@ fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect>
                     y - 3.5,
                     s.color
                 );
-                let _ = writeln!(
-                    out,
-                    "<text class=\"legend\" x=\"{:.2}\" y=\"{y:.2}\" font-size=\"10\">{}</text>",
-                    x + 24.0,
-                    rich(&s.name, 10.0)
-                );
+                &s.name
             }
             Entry::Swatch(g) => {
                 let _ = writeln!(
@@ -744,16 +826,16 @@ fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect>
                     (g.opacity * 2.0).min(1.0),
                     g.color
                 );
-                let _ = writeln!(
-                    out,
-                    "<text class=\"legend\" x=\"{:.2}\" y=\"{y:.2}\" font-size=\"10\">{}</text>",
-                    x + 24.0,
-                    rich(&g.label, 10.0)
-                );
+                &g.label
             }
-        }
+        };
+        let _ = writeln!(
+            out,
+            "<text class=\"legend\" x=\"{:.2}\" y=\"{y:.2}\" font-size=\"10\">{}</text>",
+            x + 24.0,
+            rich(label, 10.0)
+        );
     }
-    placed
 }
 
 /// Draws a vertical colour bar at (x, top), `h` tall, with ticks in the quantity's units (decades
@@ -791,15 +873,15 @@ fn colorbar(out: &mut String, cb: &ColorBar, x: f64, top: f64, h: f64, index: us
         d.into_iter()
             .map(|t| {
                 let label = if t.fract() == 0.0 {
-                    format!("10^{{{}}}", fmt_tick(t))
+                    format!("10^{{{}}}", tick(t))
                 } else {
-                    fmt_tick(10f64.powf(t))
+                    tick(10f64.powf(t))
                 };
                 (t, label)
             })
             .collect()
     } else {
-        ticks(a, b).into_iter().map(|t| (t, fmt_tick(t))).collect()
+        ticks(a, b).into_iter().map(|t| (t, tick(t))).collect()
     };
     for (t, label) in ts {
         let y = top + (1.0 - (t - a) / (b - a)) * h;
@@ -956,7 +1038,7 @@ mod tests {
     fn nice_ticks() {
         assert_eq!(ticks(0.0, 1.0), vec![0.0, 0.2, 0.4, 0.6000000000000001, 0.8, 1.0]);
         assert_eq!(ticks(-3.0, 7.0), vec![-2.0, 0.0, 2.0, 4.0, 6.0]);
-        assert_eq!(fmt_tick(0.00012), "1.2e-4");
+        assert_eq!(tick(0.00012), "1.2e-4");
     }
 
     #[test]

@@ -138,28 +138,43 @@ pub fn figure(sp: &Spectrum, name: &str, width_pt: f64) -> String {
     crate::report::plot::render(name, &[panel], width_pt)
 }
 
-/// Where a row with the largest value sits in the grid: `Some("lower")` or `Some("upper")` when
-/// it is the first or last row (the true maximum may lie outside the grid), `None` inside.
-fn grid_end(rows: &[SpectrumRow], at: &SpectrumRow) -> Option<&'static str> {
+/// An end of the k grid.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum GridEnd {
+    Lower,
+    Upper,
+}
+
+impl std::fmt::Display for GridEnd {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            GridEnd::Lower => "lower",
+            GridEnd::Upper => "upper",
+        })
+    }
+}
+
+/// Where a row with the largest value sits in the grid: at its lower or upper end when it is
+/// the first or last row (the true maximum may lie outside the grid), `None` inside.
+fn grid_end(rows: &[SpectrumRow], at: &SpectrumRow) -> Option<GridEnd> {
     if rows.len() < 2 {
         return None;
     }
     if rows.first().is_some_and(|r| r.k_mpc == at.k_mpc) {
-        Some("lower")
+        Some(GridEnd::Lower)
     } else if rows.last().is_some_and(|r| r.k_mpc == at.k_mpc) {
-        Some("upper")
+        Some(GridEnd::Upper)
     } else {
         None
     }
 }
 
 /// What to say when the largest value is at an end of the k grid.
-fn at_grid_end(what: &str, end: &str, row: &SpectrumRow, value: f64) -> String {
+fn at_grid_end(what: &str, end: GridEnd, row: &SpectrumRow, value: f64) -> String {
     use crate::report::numfmt::number;
-    let side = if end == "upper" {
-        "beyond k_max; raise --k-max"
-    } else {
-        "below k_min; lower --k-min"
+    let side = match end {
+        GridEnd::Upper => "beyond k_max; raise --k-max",
+        GridEnd::Lower => "below k_min; lower --k-min",
     };
     format!(
         "the largest {what} ({}) is at the {end} end of the k grid (k = {} Mpc^-1, {} e-folds before the end): the true peak may lie {side}",

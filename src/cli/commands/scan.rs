@@ -8,7 +8,9 @@ use crate::cli::{print_out, Failure};
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::diag::Diagnostic;
-use crate::drivers::scan::{definition_id, figure, merge, run_chunks, Axis, Provenance, ScanJob, ScanRow, Shard, Table};
+use crate::drivers::scan::{
+    definition_id, figure, merge, run_chunks, Axis, Provenance, ScanJob, ScanRow, Shard, Table,
+};
 use crate::model::ModelSpec;
 use crate::report::output::{stderr, OutputFile};
 
@@ -131,17 +133,14 @@ fn run_grid(a: &ScanArgs, g: &Grid, config: &Config) -> Result<(), Failure> {
         config,
         progress,
     };
-    run_chunks(
-        &job,
-        &mut |rows| {
-            rows_done += rows.len();
-            failed += rows.iter().filter(|r| r.result.is_err()).count();
-            if a.figure.wanted() {
-                kept.extend_from_slice(rows);
-            }
-            emit(&table.rows(rows))
-        },
-    )?;
+    run_chunks(&job, &mut |rows| {
+        rows_done += rows.len();
+        failed += rows.iter().filter(|r| r.result.is_err()).count();
+        if a.figure.wanted() {
+            kept.extend_from_slice(rows);
+        }
+        emit(&table.rows(rows))
+    })?;
     emit(&table.end())?;
     if failed > 0 {
         stderr(&format!(
