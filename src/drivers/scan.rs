@@ -9,7 +9,7 @@ use crate::diag::Diagnostic;
 use crate::drivers::predict::{predict, Options, Prediction};
 use crate::drivers::prepared::Prepared;
 use crate::model::{Model, ModelSpec};
-use crate::report::scan::{csv_header, csv_rows, json_row};
+use crate::report::scan::{csv_header, csv_rows, json_row, JsonRow};
 use serde::Serialize;
 
 /// Why a `--vary` axis cannot be made.
@@ -686,7 +686,7 @@ struct ShardFile<'a> {
     header: &'a str,
     /// CSV: the record texts, each with its newline; JSON: the rows.
     csv_rows: Vec<&'a str>,
-    json_rows: Vec<serde_json::Value>,
+    json_rows: Vec<JsonRow>,
 }
 
 /// What a file that is not a shard looks like, for the error.
@@ -777,6 +777,13 @@ pub enum MergeError {
     },
     /// The `shard` object of a JSON shard is not readable.
     ShardObject {
+        /// The file.
+        name: String,
+        /// The parser's message.
+        error: String,
+    },
+    /// The rows of a JSON shard are not readable in order.
+    Rows {
         /// The file.
         name: String,
         /// The parser's message.
@@ -920,6 +927,7 @@ impl std::fmt::Display for MergeError {
             | Fields { .. }
             | IncompleteJson { .. }
             | ShardObject { .. }
+            | Rows { .. }
             | NotAShard { .. }
             | WrongPoint { .. }
             | RowCount { .. }
@@ -963,6 +971,7 @@ impl MergeError {
                 f,
                 "{name}: its `shard` object cannot be read ({error}): the file is damaged"
             ),
+            Rows { name, error } => write!(f, "{name}: its rows cannot be read ({error}): the file is damaged"),
             NotAShard { name, what } => write!(f, "{name}: not a scan shard: {what}"),
             WrongPoint {
                 name,
@@ -1111,13 +1120,38 @@ fn read_shard<'a>(name: &'a str, text: &'a str) -> Result<ShardFile<'a>, MergeEr
                 name: named(),
                 error: e.to_string(),
             })?;
+            // The rows again, with their keys in the order they were written; a row that is
+            // not an object has no point, which the point check reports.
+            #[derive(serde::Deserialize)]
+            #[serde(untagged)]
+            enum AnyRow {
+                Object(JsonRow),
+                Other(#[allow(dead_code)] serde::de::IgnoredAny),
+            }
+            #[derive(serde::Deserialize)]
+            struct Envelope {
+                rows: Vec<AnyRow>,
+            }
+            let ordered: Envelope = serde_json::from_str(text).map_err(|e| MergeError::Rows {
+                name: named(),
+                error: e.to_string(),
+            })?;
+            debug_assert_eq!(ordered.rows.len(), rows.len());
+            let rows: Vec<JsonRow> = ordered
+                .rows
+                .into_iter()
+                .map(|r| match r {
+                    AnyRow::Object(row) => row,
+                    AnyRow::Other(_) => JsonRow::default(),
+                })
+                .collect();
             return Ok(ShardFile {
                 name,
                 json: true,
                 prov,
                 header: "",
                 csv_rows: Vec::new(),
-                json_rows: rows.clone(),
+                json_rows: rows,
             });
         }
     }
@@ -1285,7 +1319,10 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
     let json = files[0].json;
     for f in &files {
         let points: Vec<Option<u64>> = if json {
-            f.json_rows.iter().map(|r| r["point"].as_u64()).collect()
+            f.json_rows
+                .iter()
+                .map(|r| r.get("point").and_then(|p| p.as_u64()))
+                .collect()
         } else {
             f.csv_rows
                 .iter()
@@ -1296,7 +1333,7 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
     }
     let order: Vec<&ShardFile<'_>> = order.iter().map(|&i| &files[i]).collect();
     if json {
-        let rows: Vec<serde_json::Value> = order.iter().flat_map(|f| f.json_rows.iter().cloned()).collect();
+        let rows: Vec<JsonRow> = order.iter().flat_map(|f| f.json_rows.iter().cloned()).collect();
         return Ok(format!(
             "{}\n",
             serde_json::to_string_pretty(&rows).expect("serialisable")
@@ -1368,7 +1405,7 @@ mod tests {
         rows[0].result = Err(PointError::Model(Box::new(Diagnostic::new(
             "a \"quoted\" reason\non two lines",
         ))));
-        let whole: Vec<serde_json::Value> = rows.iter().map(json_row).collect();
+        let whole: Vec<JsonRow> = rows.iter().map(json_row).collect();
         let expected = format!("{}\n", serde_json::to_string_pretty(&whole).unwrap());
         assert_eq!(json(&rows), expected);
         let mut t = Table::new(true, None);
@@ -1408,7 +1445,10 @@ mod tests {
         let csv = csv_rows(&rows);
         assert!(csv.trim_end().ends_with(&csv_field(&direct.message)), "{csv}");
         assert!(!csv.contains(&direct.hints[0]), "{csv}");
-        assert_eq!(json_row(&rows[0])["error"], serde_json::json!(direct.message));
+        assert_eq!(
+            json_row(&rows[0]).get("error"),
+            Some(&serde_json::json!(direct.message))
+        );
     }
 
     /// A point whose model does not build keeps the model error's hints.

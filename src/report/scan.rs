@@ -1,11 +1,16 @@
 //! A scan's rows as CSV and JSON, and the n_s–r figure.
+//!
+//! A JSON row has the keys of the CSV header in the CSV's order: `point`, the varied
+//! parameters, the keys of `predict --format csv` ([`CSV_KEYS`]), `error`. A failed point keeps
+//! `point`, its parameters, `n_star` and `error`.
 
 use crate::data::DataSet;
 use crate::drivers::predict::Prediction;
 use crate::drivers::scan::{Axis, ScanRow, Table};
 use crate::report::numfmt::typed;
 use crate::report::plot::{self, ColorBar, Marker, Panel, Region, Series};
-use crate::report::predict::{csv_values, CSV_KEYS};
+use crate::report::predict::{csv_values, nested_csv_values, CSV_KEYS};
+use serde::ser::SerializeMap;
 
 pub(crate) fn csv_field(s: &str) -> String {
     format!("\"{}\"", s.replace('"', "\"\""))
@@ -52,31 +57,79 @@ pub fn csv_rows(rows: &[ScanRow]) -> String {
     o
 }
 
-/// One row as a flat JSON object: point, the varied parameters, the prediction's keys that
-/// hold a number or a word, and `error` (null when the point succeeded).
-pub fn json_row(r: &ScanRow) -> serde_json::Value {
-    let mut m = serde_json::Map::new();
-    m.insert("point".into(), serde_json::json!(r.point));
+/// A flat JSON object whose keys keep their order (a `serde_json::Map` sorts them): one row
+/// of a scan, written and read back by `merge` in the same order.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct JsonRow(pub Vec<(String, serde_json::Value)>);
+
+impl JsonRow {
+    /// The value at `key`.
+    pub fn get(&self, key: &str) -> Option<&serde_json::Value> {
+        self.0.iter().find(|(k, _)| k == key).map(|(_, v)| v)
+    }
+
+    fn push(&mut self, key: &str, value: serde_json::Value) {
+        self.0.push((key.to_string(), value));
+    }
+}
+
+impl serde::Serialize for JsonRow {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        let mut m = s.serialize_map(Some(self.0.len()))?;
+        for (k, v) in &self.0 {
+            m.serialize_entry(k, v)?;
+        }
+        m.end()
+    }
+}
+
+impl<'de> serde::Deserialize<'de> for JsonRow {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<JsonRow, D::Error> {
+        struct Visit;
+        impl<'de> serde::de::Visitor<'de> for Visit {
+            type Value = JsonRow;
+            fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+                f.write_str("a JSON object")
+            }
+            fn visit_map<A: serde::de::MapAccess<'de>>(self, mut a: A) -> Result<JsonRow, A::Error> {
+                let mut row = JsonRow::default();
+                while let Some((k, v)) = a.next_entry::<String, serde_json::Value>()? {
+                    row.0.push((k, v));
+                }
+                Ok(row)
+            }
+        }
+        d.deserialize_map(Visit)
+    }
+}
+
+/// One row as a flat JSON object, with the keys of the CSV header in its order (module docs).
+pub fn json_row(r: &ScanRow) -> JsonRow {
+    let mut m = JsonRow::default();
+    m.push("point", serde_json::json!(r.point));
     for (n, v) in &r.params {
-        m.insert(n.clone(), serde_json::json!(v));
+        m.push(n, serde_json::json!(v));
     }
     match &r.result {
         Ok(p) => {
-            if let serde_json::Value::Object(o) = serde_json::to_value(p).expect("serialisable") {
-                for (k, v) in o {
-                    if !v.is_object() {
-                        m.insert(k, v);
-                    }
-                }
+            let serde_json::Value::Object(mut o) = serde_json::to_value(p).expect("serialisable") else {
+                unreachable!("a prediction serializes to an object")
+            };
+            let nested = nested_csv_values(p);
+            for key in &CSV_KEYS[..CSV_KEYS.len() - nested.len()] {
+                m.push(key, o.remove(*key).unwrap_or_default());
             }
-            m.insert("error".into(), serde_json::Value::Null);
+            for (key, x) in nested {
+                m.push(key, serde_json::json!(x));
+            }
+            m.push("error", serde_json::Value::Null);
         }
         Err(e) => {
-            m.insert("n_star".into(), serde_json::json!(r.n_star));
-            m.insert("error".into(), serde_json::json!(e));
+            m.push("n_star", serde_json::json!(r.n_star));
+            m.push("error", serde_json::json!(e));
         }
     }
-    serde_json::Value::Object(m)
+    m
 }
 
 /// Rows as a JSON array of flat objects (pandas `read_json`, numpy via a list of dicts).
