@@ -6,11 +6,12 @@
 //! 1. [`language`]: text → [`syntax`] (spanned tree) → [`ir`] (hash-consed DAG, symbolic
 //!    derivatives) → [`tape`] (compiled evaluator: f64 at one point or in batches, and Taylor
 //!    jets).
-//! 2. [`model`]: a model file or flags → parameters, compiled V and K, the field's range.
+//! 2. [`model`]: a model file or flags → parameters, compiled V and the field-space metric
+//!    on one tape whose outputs a [`model::Layout`] names, the field's range.
 //! 3. [`analysis`]: typed results about a model (the single-field canonical map, poles and
 //!    branches, slow roll, the exact background and modes, reheating).
-//! 4. [`drivers`]: one command's result composed from analyses (predict, inspect, scan, fit,
-//!    golden).
+//! 4. [`drivers`]: one command's result composed from analyses (predict, inspect, spectrum,
+//!    scan, fit, golden) on one prepared, re-bindable analysis of the model.
 //! 5. [`report`]: numbers, text, figures and files (the one number formatter and the atomic
 //!    writer).
 //! 6. [`cli`]: arguments → drivers → reports; the binary is `cli::run` and an exit code.

@@ -1,5 +1,6 @@
 //! Drivers: each composes analyses into one command's result ([`predict`], [`inspect`],
-//! [`spectrum`], [`scan`], [`fit`], [`golden`]).
+//! [`spectrum`], [`scan`], [`fit`], [`golden`]), on one [`prepared::Prepared`] analysis of a
+//! model that can be rebound to new parameter values without compiling again.
 
 pub mod fit;
 pub mod golden;

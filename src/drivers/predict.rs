@@ -388,6 +388,25 @@ pub struct DataSummary {
 /// Runs the predictions: prepares the model's analysis ([`Prepared`]) and predicts from it.
 /// To predict several times for one model, or for many parameter values, keep a
 /// [`Prepared`] instead (and [`Prepared::rebind`] it).
+///
+/// The order-2 pole with a quadratic potential, K = 1/(1 - phi^2/6)^2 and V = phi^2/6
+/// (alpha = 1): at N_* = 55 the leading order of the pole gives n_s = 1 - 2/N_* and
+/// r = 12 alpha/N_*^2 (common practice); the full slow-roll numbers lie close to them.
+///
+/// ```
+/// use efold::config::Config;
+/// use efold::model::{Model, ModelSpec};
+/// use efold::predict::{predict, Options};
+///
+/// let spec = ModelSpec::inline("phi^2/6", Some("1/(1 - phi^2/6)^2"));
+/// let model = Model::build(&spec, &Config::default())?;
+/// let opts = Options { n_stars: vec![55.0], ..Default::default() };
+/// let report = predict(&model, &opts, &Config::default())?;
+/// let p = &report.predictions[0];
+/// assert!((p.n_s - (1.0 - 2.0 / 55.0)).abs() < 1e-3);
+/// assert!((p.r - 12.0 / (55.0 * 55.0)).abs() < 3e-4);
+/// # Ok::<(), Box<dyn std::error::Error>>(())
+/// ```
 pub fn predict(model: &Model, opts: &Options, config: &Config) -> Result<Report, AnalysisError> {
     Prepared::new(model).predict(opts, config)
 }
