@@ -7,9 +7,11 @@
 //! - [`perturbations`]: the Mukhanov–Sasaki modes on it.
 //! - [`reheating`]: the e-fold count of the pivot scale after a reheating history.
 //! - [`pivot`]: the observables at the pivot that every route reports.
+//! - [`multi`]: several fields: the potential and the geometry of field space at a point.
 
 pub mod background;
 pub mod error;
+pub mod multi;
 pub mod perturbations;
 pub mod pivot;
 pub mod reheating;
