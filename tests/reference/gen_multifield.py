@@ -63,9 +63,9 @@ from scipy.optimize import brentq, minimize_scalar
 TWO_PI = 2.0 * math.pi
 
 # Tolerances of the reference run and of the check run ("halved").
-TOL = {"bg_rtol": 1e-12, "mode_rtol": 1e-10, "z0": 100.0}
-TOL_HALF = {"bg_rtol": 5e-13, "mode_rtol": 5e-11, "z0": 100.0}
-TOL_Z1000 = {"bg_rtol": 1e-12, "mode_rtol": 1e-10, "z0": 1000.0}
+TOL = {"bg_rtol": 1e-12, "mode_rtol": 1e-11, "z0": 100.0}
+TOL_HALF = {"bg_rtol": 5e-13, "mode_rtol": 5e-12, "z0": 100.0}
+TOL_Z1000 = {"bg_rtol": 1e-12, "mode_rtol": 1e-11, "z0": 1000.0}
 STEP = 0.05  # step in ln k of the five-point stencil (given in the specification)
 N_STARS = (50.0, 55.0, 60.0)
 
