@@ -6,8 +6,8 @@ Needs: Python 3 with numpy, scipy, sympy and mpmath. In a virtual environment:
     python3 -m venv /work/venv-ref && /work/venv-ref/bin/pip install numpy scipy sympy mpmath
     /work/venv-ref/bin/python tests/reference/gen_multifield.py > tests/reference/multifield.json
 
-One process, one core. A run of every model at once takes about half an hour on a quiet
-machine; the committed JSON was made model by model and joined (same numbers):
+One process, one core. All models with their check runs take about twelve minutes; the
+committed JSON was made model by model and joined (same numbers):
 
     for m in A B C D E F checks; do
         /work/venv-ref/bin/python tests/reference/gen_multifield.py $m > /tmp/mf_$m.json
@@ -66,7 +66,7 @@ TWO_PI = 2.0 * math.pi
 TOL = {"bg_rtol": 1e-12, "mode_rtol": 1e-11, "z0": 100.0}
 TOL_HALF = {"bg_rtol": 5e-13, "mode_rtol": 5e-12, "z0": 100.0}
 TOL_Z1000 = {"bg_rtol": 1e-12, "mode_rtol": 1e-11, "z0": 1000.0}
-STEP = 0.05  # step in ln k of the five-point stencil (given in the specification)
+STEP = 0.05  # step in ln k of the five-point stencil
 N_STARS = (50.0, 55.0, 60.0)
 
 
@@ -144,7 +144,7 @@ class Model:
         return out
 
     def attractor_velocity(self, phi):
-        """Slow-roll attractor start pi^a = -G^ab V_b/V (given in the specification)."""
+        """Slow-roll attractor start pi^a = -G^ab V_b/V (common practice)."""
         g = self.geom(phi)
         return -g["Gi"] @ g["dV"] / g["V"]
 
@@ -396,7 +396,7 @@ def run_mode(bg, lnk, tol, N_stop=None):
     eps = 0.5 * pi @ g["G"] @ pi
     Q = yend[i_Q:i_P].reshape(n, 2 * n)
     pil = g["G"] @ pi
-    zeta = pil @ Q / (2.0 * eps)            # zeta_alpha = pi_a Q^a_alpha / (2 eps) (specification)
+    zeta = pil @ Q / (2.0 * eps)            # zeta_alpha = pi_a Q^a_alpha / (2 eps) (common practice)
     Pz = float(zeta @ zeta)                  # P_zeta = k^3/(2 pi^2) sum_alpha |zeta_alpha|^2
     h = yend[i_h:i_h + 2]
     Pt = float(8.0 * (h @ h))                # two polarisations, h_ij normalised as below
@@ -556,7 +556,8 @@ class OneField:
 # ----------------------------------------------------------------------------------------------
 
 def efolds_to_end(model, phi, rtol):
-    """e-folds from phi, started with its own attractor velocity, to eps = 1 (specification)."""
+    """e-folds from phi, started with its own attractor velocity, to eps = 1 (the slow-roll
+    delta-N of Sasaki & Stewart 1996)."""
     bg = Background(model, rtol, phi0=phi)
     return bg.N_end
 
@@ -838,8 +839,8 @@ def models():
     half = sp.Rational(1, 2)
     out = {}
     out["A"] = Model("two-field-quadratic-equal-masses", [x, y], (x ** 2 + y ** 2) / 2, sp.eye(2),
-                     [15, 12], "start (15, 12) on the attractor: the point (10, 8) of the first "
-                     "plan gives only 40.5 e-folds, too few for N_* = 60; (15, 12) is the same "
+                     [15, 12], "start (15, 12) on the attractor: the point (10, 8) "
+                     "gives only 40.5 e-folds, too few for N_* = 60; (15, 12) is the same "
                      "direction, and the motion is radial")
     out["B"] = Model("two-field-quadratic-mass-ratio", [x, y], (x ** 2 + 9 * y ** 2) / 2, sp.eye(2),
                      [12, 12])
