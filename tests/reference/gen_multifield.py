@@ -15,7 +15,8 @@ committed JSON was made model by model and joined (same numbers):
     /work/venv-ref/bin/python tests/reference/gen_multifield.py --merge /tmp/mf_*.json \
         > tests/reference/multifield.json
 
-(`checks` is the power-law test of the mode equations and the closed-form pole check.)
+(`checks` is the power-law test of the mode equations, the test of the curvature term on the
+Poincare disk and the closed-form pole check.)
 
 Everything here is computed from the equations written below, in the original field
 coordinates, with every geometric quantity derived by sympy from the V and G as written; see
@@ -261,7 +262,7 @@ def mass_matrix(g, pi, eps, H2):
     to the trajectory gains + K pi^2 H^2 = eps R H^2 (R = 2K), the geometric contribution to the
     entropic mass (Renaux-Petel & Turzynski, PRL 117 (2016) 141301; from memory): the sign is
     the one that destabilises on a hyperbolic space. (All models A-F are flat in field space,
-    so this term is zero there; it is kept for generality.)
+    so this term is zero there; `hyperbolic_disk_check` tests it on a curved space.)
     """
     Gi, dV, V = g["Gi"], g["dV"], g["V"]
     hessV = g["ddV"]
@@ -877,6 +878,89 @@ def models():
     return out
 
 
+def hyperbolic_disk_check(N_star=55.0):
+    """A numerical test of the Riemann term (own construction). Two fields on the Poincare disk
+    G = 6 alpha (dx^2 + dy^2)/(1 - x^2 - y^2)^2, alpha = 1, V = x^2 + y^2, started on the x axis:
+    by symmetry the motion stays on the axis, a geodesic, with no turn. In geodesic polar
+    coordinates (rho, theta), ds^2 = drho^2 + f^2 dtheta^2, f = (sqrt(6 alpha)/2)
+    sinh(2 rho/sqrt(6 alpha)), x = tanh(rho/sqrt(6 alpha)), V = tanh^2(rho/sqrt(6 alpha)), the
+    perturbation normal to the trajectory decouples, with (own derivation; curvature term as
+    in `mass_matrix`, Renaux-Petel & Turzynski 2016, from memory)
+        m_s^2/H^2 = V_;ss/H^2 + 2 eps K,  V_;ss = (f'/f) V_rho,  K = -2/(3 alpha),
+    the last two from the closed-form geometry, not from sympy. The single equation
+    S'' + (3 - eps) S' + ((k/aH)^2 + m_s^2/H^2) S = 0 is integrated on the canonical one-field
+    background and P_iso = |S|^2/(2 eps) at the end compared with the full two-field route,
+    which uses the sympy Riemann tensor. The same with the opposite sign of 2 eps K shows how
+    much the term matters."""
+    x, y = sp.symbols("x y")
+    al = 1.0
+    G = sp.diag(6 / (1 - x ** 2 - y ** 2) ** 2, 6 / (1 - x ** 2 - y ** 2) ** 2)
+    _, chi0, _ = pole_start(1, al, 80.0)
+    r0 = math.tanh(chi0 / math.sqrt(6 * al))
+    m = Model("hyperbolic-disk-radial", [x, y], x ** 2 + y ** 2, G, [r0, 0.0])
+    bg = Background(m, TOL["bg_rtol"])
+    N_piv = bg.N_end - N_star
+    yp = bg.state(N_piv)
+    lnk = N_piv + bg.lnH(N_piv, yp)
+    multi = run_mode(bg, lnk, TOL)
+
+    chi = sp.symbols("chi")
+    c6 = math.sqrt(6 * al)
+    of = OneField("pole", chi, sp.tanh(chi / sp.sqrt(6)) ** 2, chi0).background(TOL["bg_rtol"])
+    K = -2.0 / (3.0 * al)
+
+    def single(sign):
+        y1 = of.state(of.N_end - N_star)
+        lnk1 = of.N_end - N_star + of.lnH(y1)
+        z0 = TOL["z0"]
+        f = lambda N: lnk1 - N - of.lnH(of.sol.sol(N)) - math.log(z0)
+        N0 = brentq(f, of.sol.t[0], of.N_end, xtol=1e-14, rtol=1e-15)
+        for _ in range(2):
+            u = of.state(N0)
+            N0 += (lnk1 - N0 - of.lnH(u) - math.log(z0)) / (1.0 - 0.5 * u[1] ** 2)
+        u = of.state(N0)
+
+        def ms2(u):
+            acc, eps, V = of.acc(u)
+            _, V1, _ = of.fV(u[0])
+            H2 = V / (3.0 - eps)
+            fpf = (2.0 / c6) / math.tanh(2.0 * u[0] / c6)
+            return fpf * V1 / H2 + sign * 2.0 * eps * K, eps, H2
+
+        m2, eps, H2 = ms2(u)
+        H = math.sqrt(H2)
+        z = math.exp(lnk1 - N0) / H
+        F, dF = hankel_start(0.5 * (2.0 - eps - m2) / (1.0 - eps) ** 2, z, eps)
+        cst = H / TWO_PI
+        w0 = np.concatenate([u, cst * np.array([F[0, 0].real, F[0, 0].imag]),
+                             cst * np.array([dF[0, 0].real, dF[0, 0].imag])])
+
+        def rhs(N, w):
+            m2, eps, H2 = ms2(w[:2])
+            acc = of.acc(w[:2])[0]
+            z2 = math.exp(2.0 * (lnk1 - N)) / H2
+            return np.concatenate([[w[1], acc], w[4:6], -(3.0 - eps) * w[4:6] - (z2 + m2) * w[2:4]])
+
+        def end(N, w):
+            return 0.5 * w[1] ** 2 - 1.0
+        end.terminal = True
+        end.direction = 1
+        sc = np.concatenate([[of.rtol * 1e-3] * 2, [1e-3 * cst * TOL["mode_rtol"]] * 4])
+        sol = solve_ivp(rhs, (N0, of.N_end + 5), w0, method="DOP853", rtol=TOL["mode_rtol"],
+                        atol=sc, events=end)
+        we = sol.y_events[0][0]
+        return float(we[2:4] @ we[2:4]) / (2.0 * 0.5 * we[1] ** 2)
+
+    P_single = single(+1.0)
+    P_flipped = single(-1.0)
+    return {"model": "G = 6 (dx^2 + dy^2)/(1 - x^2 - y^2)^2, V = x^2 + y^2, start (%r, 0)" % r0,
+            "N_star": N_star, "field_space_flat": m.flat,
+            "P_iso_two_field_route": multi["P_iso"], "P_iso_single_mode": P_single,
+            "relative_difference": multi["P_iso"] / P_single - 1.0,
+            "P_iso_single_mode_curvature_sign_flipped": P_flipped,
+            "P_zeta_two_field_route": multi["P_zeta"]}
+
+
 def power_law_check():
     """V = exp(-lambda phi), one field, K = 1: an exact solution with eps = lambda^2/2 and
     n_s - 1 = n_t = -2 eps/(1 - eps), r = 16 eps, alpha_s = 0 and
@@ -957,6 +1041,8 @@ def main():
     if "checks" in wanted:
         log("power-law check")
         doc["power_law_check"] = power_law_check()
+        log("hyperbolic-disk check")
+        doc["hyperbolic_disk_check"] = hyperbolic_disk_check()
     for key in ("A", "B", "C", "D", "E", "F"):
         if key not in wanted:
             continue
