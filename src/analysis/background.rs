@@ -67,7 +67,9 @@ pub fn hubble_squared(v: f64, eps_h: f64) -> f64 {
 /// The exact background's right-hand side, and what derives from it.
 pub struct Background<'m> {
     ev: std::cell::RefCell<Evaluator<'m>>,
-    out: Layout,
+    /// The tape outputs of dV/dphi and sqrt(K), looked up once in the model's [`Layout`].
+    dv: usize,
+    sqrt_k: usize,
 }
 
 /// Derived quantities at a point of the background.
@@ -88,9 +90,11 @@ pub struct Point {
 impl<'m> Background<'m> {
     /// For a model.
     pub fn new(model: &'m Model) -> Background<'m> {
+        let out: Layout = model.layout();
         Background {
             ev: std::cell::RefCell::new(model.evaluator()),
-            out: model.layout(),
+            dv: out.dv(),
+            sqrt_k: out.sqrt_k(),
         }
     }
 
@@ -98,7 +102,7 @@ impl<'m> Background<'m> {
     pub fn point(&self, y: &State) -> Point {
         let mut ev = self.ev.borrow_mut();
         let v = ev.eval(y[0]);
-        let (v1, s) = (ev.output(self.out.dv()), ev.output(self.out.sqrt_k()));
+        let (v1, s) = (ev.output(self.dv), ev.output(self.sqrt_k));
         let pi = y[1];
         let eps = 0.5 * pi * pi;
         let v_chi = v1 / s;
@@ -125,7 +129,7 @@ impl<'m> Background<'m> {
         // V and V_phi scaled by the same exact power of two: the same bits, and no underflow
         // of sqrt(K) V for a tiny V.
         let f = crate::numerics::pow2_normaliser(v);
-        -(ev.output(self.out.dv()) * f) / (ev.output(self.out.sqrt_k()) * (v * f))
+        -(ev.output(self.dv) * f) / (ev.output(self.sqrt_k) * (v * f))
     }
 }
 
