@@ -682,7 +682,15 @@ impl Evaluator<'_> {
     /// # Ok::<(), efold::compile::ExprError>(())
     /// ```
     pub fn eval_batch(&mut self, xs: &[f64]) {
-        self.eval_batch_at(std::slice::from_ref(&xs));
+        // The one-field form without the per-field loop of `eval_batch_at` (same bits).
+        assert_eq!(self.tape.n_fields, 1, "tape: points of the wrong dimension");
+        assert!(
+            !xs.is_empty() && xs.len() <= BATCH,
+            "tape: batch of {} points",
+            xs.len()
+        );
+        self.load_lanes(0, xs);
+        self.run_batch(xs.len());
     }
 
     /// [`Evaluator::eval_batch`] at up to [`BATCH`] points of field space, given as structure
