@@ -43,6 +43,7 @@
 
 pub mod build;
 pub mod error;
+pub mod fields;
 pub mod layout;
 pub mod metric;
 pub mod params;
@@ -54,4 +55,4 @@ pub use layout::{Layout, MetricShape};
 pub use metric::{Metric, MetricError, MetricValue};
 pub use params::{ConstantError, ParamTable};
 pub(crate) use spec::toml_message;
-pub use spec::{ModelSpec, Origin, ParamSpec, Side, Text};
+pub use spec::{FieldValue, MetricEntry, ModelSpec, Origin, ParamSpec, Side, Text};
