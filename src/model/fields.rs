@@ -408,7 +408,8 @@ pub(super) fn check_start(spec: &ModelSpec, at: StartAt<'_>) -> Result<(), Model
         )),
         Err(MetricError::NotPositive { a, pivot, .. }) => Err(fail(
             format!(
-                "the metric is not positive definite at the start {point}: the Cholesky pivot of row {} (G_{}{} less the rows before it) is {pivot}",
+                "the metric is {} at the start {point}: the Cholesky pivot of row {} (G_{}{} less the rows before it) is {pivot}",
+                if pivot == 0.0 { "singular" } else { "not positive definite" },
                 names[a], names[a], names[a]
             ),
             "the kinetic term 1/2 G_ab dphi^a dphi^b must be positive for every velocity: check the [metric] entries there",
