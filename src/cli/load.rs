@@ -129,7 +129,7 @@ fn apply_flags(spec: &mut ModelSpec, a: &ModelArgs) -> Result<(), Failure> {
 pub(crate) fn load_model_file(path: &Path, config: &Config) -> Result<Model, Failure> {
     let spec = ModelSpec::load_with(path, &config.limits)?;
     let model = Model::build(&spec, config)?;
-    model.one_field_only("efold golden` and `efold watch")?;
+    model.one_field_only("efold golden` / `efold watch")?;
     Ok(model)
 }
 

@@ -7,7 +7,7 @@
 //! symbols and the Riemann tensor built from them need no finite differences.
 //!
 //! A model written with `fields = ["phi"]` and `[metric] phi = "K"` is the one-field model
-//! `field = "phi"`, `kinetic = "K"` ([`one_field_form`]): the same tape and the same numbers.
+//! `field = "phi"`, `kinetic = "K"` (`one_field_form`): the same tape and the same numbers.
 
 use super::error::ModelError;
 use super::layout::Layout;
@@ -172,13 +172,13 @@ fn metric_key(entry: &MetricEntry, names: &[String]) -> Result<(usize, usize), M
     Ok((a.min(b), a.max(b)))
 }
 
+/// A metric component G_ab (a <= b) and its expression.
+pub(super) type Component<'s> = ((usize, usize), &'s Text);
+
 /// The metric's components (a <= b, sorted) with their expressions: every key a field or a
 /// pair of fields, each component once, every diagonal entry given.
-pub(super) fn metric_components<'s>(
-    spec: &'s ModelSpec,
-    names: &[String],
-) -> Result<Vec<((usize, usize), &'s Text)>, ModelError> {
-    let mut out: Vec<((usize, usize), &Text)> = Vec::new();
+pub(super) fn metric_components<'s>(spec: &'s ModelSpec, names: &[String]) -> Result<Vec<Component<'s>>, ModelError> {
+    let mut out: Vec<Component<'s>> = Vec::new();
     for entry in &spec.metric {
         let ab = metric_key(entry, names)?;
         if out.iter().any(|(c, _)| *c == ab) {
