@@ -35,6 +35,12 @@
 //! ```
 
 //!
+//! A model of several fields writes `fields = ["x", "y"]` instead of `field`, a `[metric]`
+//! table instead of `kinetic` (`x = "..."` for G_xx, `"x y" = "..."` for G_xy; missing
+//! off-diagonal entries are 0), a `[start]` point and optionally `[start.velocity]`
+//! (dphi^a/dN; default the slow-roll attractor). It compiles with its geometry
+//! ([`Layout::with_geometry`], [`fields`]).
+//!
 //! The stage in parts: [`spec`] (the model as written, TOML reading), [`params`] (parameter
 //! values and the range), [`build`] (the compiled [`Model`] and [`Model::rebind`]),
 //! [`layout`] (which tape output holds what) and [`metric`] (the kinetic part as a field-space
