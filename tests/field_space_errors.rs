@@ -66,6 +66,11 @@ fn bad_models_of_several_fields_are_errors_at_their_place() {
             format!("{two}potential = \"x^2 + y^2\"\nkinetic = \"1\"\n{GOOD_METRIC}{GOOD_START}"),
         ),
         (
+            "start_velocity_too_fast",
+            format!("{two}potential = \"x^2 + y^2\"\n{GOOD_METRIC}{GOOD_START}[start.velocity]\nx = 2\ny = 1\n"),
+        ),
+        ("fields_empty", "fields = []\npotential = \"1\"\n".to_string()),
+        (
             "metric_without_fields",
             "potential = \"phi^2\"\n[metric]\nphi = 1\n".to_string(),
         ),

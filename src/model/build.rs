@@ -71,6 +71,7 @@ impl Model {
             layout: geometry.layout,
             params: &values,
             start: &start,
+            velocity: start_velocity.as_deref(),
         };
         fields::check_start(spec, at)?;
         Ok(Model {
@@ -200,6 +201,7 @@ impl Model {
                     layout: self.layout,
                     params: &table.clone().into_parts().1,
                     start: &start,
+                    velocity: velocity.as_deref(),
                 };
                 fields::check_start(&spec, at)?;
                 (Some(start), velocity)

@@ -362,6 +362,8 @@ pub(super) struct StartAt<'a> {
     pub params: &'a [f64],
     /// The start point.
     pub start: &'a [f64],
+    /// The start velocity dphi^a/dN, if given.
+    pub velocity: Option<&'a [f64]>,
 }
 
 /// The start must lie where V and the metric are finite and the metric is positive definite:
@@ -374,6 +376,7 @@ pub(super) fn check_start(spec: &ModelSpec, at: StartAt<'_>) -> Result<(), Model
         layout,
         params,
         start,
+        velocity,
     } = at;
     let mut ev = tape.evaluator(params);
     let v = ev.eval_at(start);
@@ -398,7 +401,7 @@ pub(super) fn check_start(spec: &ModelSpec, at: StartAt<'_>) -> Result<(), Model
         ));
     }
     match layout.metric().read(&outputs, start) {
-        Ok(_) => Ok(()),
+        Ok(g) => check_velocity(spec, g.matrix(), velocity),
         Err(MetricError::NotFinite { a, b, value, .. }) => Err(fail(
             format!(
                 "the start {point} lies outside the domain: the metric component G_{}{} = {value} there",
@@ -416,6 +419,31 @@ pub(super) fn check_start(spec: &ModelSpec, at: StartAt<'_>) -> Result<(), Model
         )),
         Err(e @ MetricError::MissingOutputs { .. }) => Err(ModelError::plain(e.diagnostic())),
     }
+}
+
+/// A given start velocity must leave H^2 = V / (3 - eps) positive, eps = G_ab pi^a pi^b / 2
+/// (the background in e-folds; common practice): an error at `[start.velocity]` otherwise.
+fn check_velocity(spec: &ModelSpec, g: &nalgebra::DMatrix<f64>, velocity: Option<&[f64]>) -> Result<(), ModelError> {
+    let Some(pi) = velocity else {
+        return Ok(());
+    };
+    let n = pi.len();
+    let eps = 0.5
+        * (0..n)
+            .map(|a| (0..n).map(|b| g[(a, b)] * pi[a] * pi[b]).sum::<f64>())
+            .sum::<f64>();
+    if eps < 3.0 {
+        return Ok(());
+    }
+    let d = Diagnostic::new(format!(
+        "the start velocity gives eps = G_ab pi^a pi^b / 2 = {} at the start, not below 3: H^2 = V / (3 - eps) would not be positive",
+        crate::report::numfmt::number(eps)
+    ))
+    .with_hint("give a smaller [start.velocity] (in dphi/dN), or leave it out to start on the slow-roll attractor");
+    Err(match spec.start_velocity.first() {
+        Some(t) => error_in(&t.name, whole(&t.name), d, "the start velocity"),
+        None => ModelError::plain(d),
+    })
 }
 
 /// A point as `(x, y) = (0.3, -0.2)`.

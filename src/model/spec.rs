@@ -531,6 +531,15 @@ impl Reader<'_> {
                 ));
             }
         }
+        if fields.get_ref().is_empty() {
+            let span = fields.span();
+            return Err(self.error_at(
+                Span::new(span.start, span.end),
+                "`fields` is empty".to_string(),
+                "no field",
+                "list the fields, e.g. `fields = [\"x\", \"y\"]`",
+            ));
+        }
         let mut out = SeveralFields {
             fields: fields.get_ref().iter().map(|f| self.origin_of(f, "fields")).collect(),
             ..SeveralFields::default()
