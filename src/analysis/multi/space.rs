@@ -14,7 +14,8 @@
 //!
 //! Accuracy: exact up to rounding (no tolerance, no truncation): a few ulps of the inputs
 //! times the condition number of G for G^-1 and everything built on it. Work per point
-//! O(n^5) for n fields, with no allocation after [`ModelFieldSpace::new`].
+//! O(n^5) for n fields; the tape's outputs and the tensors' buffers are allocated once, in
+//! [`ModelFieldSpace::new`] (the metric's check and inverse make small n x n matrices).
 
 use super::{FieldSpace, Local};
 use crate::analysis::error::{AnalysisError, ErrorKind};
@@ -53,6 +54,8 @@ pub struct ModelFieldSpace<'m> {
     gamma_low: Vec<f64>,
     /// d_e Gamma^a_bc at `((e * n + a) * n + b) * n + c`.
     dgamma: Vec<f64>,
+    /// d_e Gamma_dbc - (d_e G_dg) Gamma^g_bc at `((e * n + d) * n + b) * n + c`.
+    inner: Vec<f64>,
 }
 
 impl<'m> ModelFieldSpace<'m> {
@@ -73,6 +76,7 @@ impl<'m> ModelFieldSpace<'m> {
             ddg: vec![0.0; n * n * n * n],
             gamma_low: vec![0.0; n * n * n],
             dgamma: vec![0.0; n * n * n * n],
+            inner: vec![0.0; n * n * n * n],
         })
     }
 
@@ -166,16 +170,26 @@ impl<'m> ModelFieldSpace<'m> {
             }
         }
         let ddg = |e: usize, c: usize, a: usize, b: usize| self.ddg[((e * n + c) * n + a) * n + b];
+        // inner[e, d, b, c] = d_e Gamma_dbc - (d_e G_dg) Gamma^g_bc, then contracted with G^ad:
+        // two passes of O(n^5) rather than one of O(n^6).
+        for e in 0..n {
+            for d in 0..n {
+                for b in 0..n {
+                    for c in 0..n {
+                        let dlow = 0.5 * (ddg(e, b, d, c) + ddg(e, c, d, b) - ddg(e, d, b, c));
+                        let turn: f64 = (0..n).map(|g| dg(e, d, g) * at.gamma[(g * n + b) * n + c]).sum();
+                        self.inner[((e * n + d) * n + b) * n + c] = dlow - turn;
+                    }
+                }
+            }
+        }
         for e in 0..n {
             for a in 0..n {
                 for b in 0..n {
                     for c in 0..n {
-                        let mut s = 0.0;
-                        for d in 0..n {
-                            let dlow = 0.5 * (ddg(e, b, d, c) + ddg(e, c, d, b) - ddg(e, d, b, c));
-                            let turn: f64 = (0..n).map(|g| dg(e, d, g) * at.gamma[(g * n + b) * n + c]).sum();
-                            s += at.g_inv[(a, d)] * (dlow - turn);
-                        }
+                        let s: f64 = (0..n)
+                            .map(|d| at.g_inv[(a, d)] * self.inner[((e * n + d) * n + b) * n + c])
+                            .sum();
                         self.dgamma[((e * n + a) * n + b) * n + c] = s;
                     }
                 }
