@@ -117,6 +117,7 @@ fn the_poincare_disk_matches_the_symbolic_reference() {
     // R = -4/(3 alpha) (from memory; gen_geometry.py confirms it symbolically, and its value at
     // the point is geometry.json's Ricci_scalar_at_point).
     let r = ricci_scalar(&at);
+    eprintln!("Ricci scalar {r:e}, minus -4/3: {:e}", r + 4.0 / 3.0);
     assert!(close(r, -4.0 / 3.0, 1e-12, 1.0), "R = {r}");
     assert!(close(r, block["Ricci_scalar_at_point"].as_f64().unwrap(), 1e-12, 1.0));
     // A space of constant curvature: R_abcd = K (G_ac G_bd - G_ad G_bc) with K = -2/(3 alpha)
@@ -244,6 +245,10 @@ fn start_points_and_attractor_velocities_match_the_reference() {
         let mut space = ModelFieldSpace::new(&m).unwrap();
         assert_eq!(space.n_fields(), start.len());
         let (phi, pi) = space.start().unwrap();
+        let worst = (0..start.len())
+            .map(|a| ((pi[a] - velocity[a]) / velocity[a]).abs())
+            .fold(0.0, f64::max);
+        eprintln!("{key}: largest relative difference of the attractor velocity: {worst:e}");
         for a in 0..start.len() {
             assert!(
                 close(phi[a], start[a], 1e-15, 1.0),
