@@ -91,6 +91,39 @@ pub enum ErrorKind {
     /// A numerical routine gave up.
     Numerical(NumericError),
 
+    // --- Field space (several fields).
+    /// V, one of its derivatives, or a metric component or one of its partials is not a finite
+    /// number at a point of field space.
+    FieldSpaceNotFinite {
+        /// The fields' names.
+        fields: Vec<String>,
+        /// The point.
+        point: Vec<f64>,
+        /// What is not finite (`V`, `d_x V`, `G_xy`, `d_x G_yy`, ...).
+        what: String,
+        /// Its value.
+        value: f64,
+    },
+    /// The field-space metric is not positive definite (or singular) at a point: the Cholesky
+    /// pivot of a row is not positive.
+    MetricNotPositiveDefinite {
+        /// The fields' names.
+        fields: Vec<String>,
+        /// The point.
+        point: Vec<f64>,
+        /// The row whose pivot failed (a field index).
+        row: usize,
+        /// The pivot: zero, negative or NaN.
+        pivot: f64,
+    },
+    /// A point of field space with the wrong number of coordinates.
+    PointDimension {
+        /// The number of fields.
+        fields: usize,
+        /// The number of coordinates given.
+        given: usize,
+    },
+
     // --- The domain.
     /// No interval of field space has K > 0 with V finite.
     NoDomain,
@@ -441,6 +474,15 @@ impl ErrorKind {
         }
         let hints: &[&str] = match self {
             Numerical(_) => &["tighten the range with --range, or report the model"],
+            FieldSpaceNotFinite { .. } => &[
+                "the point lies outside the model's domain, or V or the metric is not smooth there",
+                "check the potential and the [metric] entries near that point, or start elsewhere",
+            ],
+            MetricNotPositiveDefinite { .. } => &[
+                "the kinetic term 1/2 G_ab dphi^a dphi^b must be positive for every velocity",
+                "the trajectory has reached the edge of field space: check the [metric] entries there, or start elsewhere",
+            ],
+            PointDimension { .. } => &["give one coordinate per field, in the order of `fields`"],
             NoDomain => &[
                 "check the kinetic function: L = 1/2 K (d phi)^2 - V needs K > 0",
                 "or give the interval with --range LO HI",
@@ -533,6 +575,9 @@ impl fmt::Display for ErrorKind {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         use ErrorKind::*;
         match self {
+            FieldSpaceNotFinite { .. } | MetricNotPositiveDefinite { .. } | PointDimension { .. } => {
+                self.fmt_field_space(f)
+            }
             Numerical(_)
             | NoDomain
             | KSingularInRange { .. }
@@ -584,7 +629,57 @@ impl fmt::Display for ErrorKind {
     }
 }
 
+/// A point of field space as `(x, y) = (0.3, -0.2)`.
+fn show_point(fields: &[String], point: &[f64]) -> String {
+    let xs: Vec<String> = point.iter().map(|x| number(*x)).collect();
+    format!("({}) = ({})", fields.join(", "), xs.join(", "))
+}
+
 impl ErrorKind {
+    /// The messages of field space (several fields).
+    fn fmt_field_space(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        match self {
+            FieldSpaceNotFinite {
+                fields,
+                point,
+                what,
+                value,
+            } => write!(
+                f,
+                "{what} is not a finite number ({value}) at {}",
+                show_point(fields, point)
+            ),
+            MetricNotPositiveDefinite {
+                fields,
+                point,
+                row,
+                pivot,
+            } => {
+                let name = fields.get(*row).map_or("?", String::as_str);
+                let what = if *pivot == 0.0 {
+                    "singular"
+                } else {
+                    "not positive definite"
+                };
+                write!(
+                    f,
+                    "the field-space metric is {what} at {}: the Cholesky pivot of row {name} \
+                     (G_{name}{name} less the rows before it) is {}",
+                    show_point(fields, point),
+                    number(*pivot)
+                )
+            }
+            PointDimension { fields, given } => {
+                write!(
+                    f,
+                    "a point of field space needs {fields} coordinates, {given} were given"
+                )
+            }
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
     /// The messages of the domain and the branches.
     fn fmt_domain(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         use ErrorKind::*;

@@ -276,7 +276,14 @@ pub struct ModelArgs {
     pub(crate) params: Vec<String>,
     /// The field variable's name [default: phi].
     #[arg(long, value_name = "NAME")]
-    pub(crate) field: Option<String>,
+    pub(crate) field: Vec<String>,
+    /// A metric component of a model of several fields (`--field` repeated): `x=EXPR` for
+    /// G_xx, `x y=EXPR` for G_xy (missing off-diagonal entries are 0). Repeatable.
+    #[arg(long, value_name = "FIELDS=EXPR", allow_hyphen_values = true, hide = true)]
+    pub(crate) metric: Vec<String>,
+    /// The start of a model of several fields: `x=VALUE` for each field. Repeatable.
+    #[arg(long, value_name = "FIELD=VALUE", allow_hyphen_values = true, hide = true)]
+    pub(crate) start: Vec<String>,
     /// The field interval to consider: two expressions; -inf and inf allowed.
     #[arg(long, num_args = 2, value_names = ["LO", "HI"], allow_hyphen_values = true)]
     pub(crate) range: Option<Vec<String>>,

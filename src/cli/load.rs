@@ -8,9 +8,9 @@ use super::Failure;
 use crate::cli::args::{DataArgs, ModelArgs};
 use crate::config::{Config, DEFAULT_N_STARS};
 use crate::data::DataSet;
-use crate::diag::Diagnostic;
+use crate::diag::{Diagnostic, Source, Span};
 use crate::drivers::predict::{predict, Options, Report};
-use crate::model::{Model, ModelSpec, Text};
+use crate::model::{FieldValue, MetricEntry, Model, ModelSpec, Origin, Text};
 use std::path::Path;
 
 /// Builds the model from a file and/or the inline flags (flags override the file).
@@ -28,7 +28,76 @@ pub(crate) fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Resul
         }
     };
     apply_flags(&mut spec, a)?;
-    Ok(Model::build(&spec, config)?)
+    let model = Model::build(&spec, config)?;
+    let command = example.split_whitespace().take(2).collect::<Vec<_>>().join(" ");
+    model.one_field_only(&command)?;
+    Ok(model)
+}
+
+/// `FLAG` text as the origin of a part of it (`start..end`), so that an error in that part is
+/// drawn under the whole flag value.
+fn flag_part(flag: &str, value: &str, start: usize, end: usize) -> Text {
+    Text {
+        text: value[start..end].to_string(),
+        origin: Origin {
+            name: flag.to_string(),
+            file_text: Some(std::sync::Arc::from(value)),
+            offset: start,
+        },
+    }
+}
+
+/// `FLAG KEY=VALUE` split into its two parts, each pointing into the flag; the key trimmed.
+fn flag_binding(flag: &str, value: &str, form: &str) -> Result<(Text, Text), Failure> {
+    let Some(eq) = value.find('=') else {
+        let d = Diagnostic::new(format!("`{flag} {value}` is not of the form {form}"))
+            .with_span(Span::new(0, value.len().max(1)), "no `=`")
+            .with_hint(format!("write it as `{flag} x=1`"));
+        return Err(Failure::input(d.render(Some(&Source::new(flag, value)))));
+    };
+    let lead = value.len() - value.trim_start().len();
+    let key_end = value[..eq].trim_end().len();
+    Ok((
+        flag_part(flag, value, lead, key_end.max(lead)),
+        flag_part(flag, value, eq + 1, value.len()),
+    ))
+}
+
+/// `--field` (repeated for several fields), `--metric` and `--start` over the model.
+fn apply_field_flags(spec: &mut ModelSpec, a: &ModelArgs) -> Result<(), Failure> {
+    let several = !spec.fields.is_empty() || !a.metric.is_empty() || !a.start.is_empty() || a.field.len() > 1;
+    if !several {
+        if let Some(f) = a.field.first() {
+            check_field_name(f)?;
+            spec.field = f.clone();
+        }
+        return Ok(());
+    }
+    if !a.field.is_empty() {
+        spec.fields = a.field.iter().map(|f| flag_part("--field", f, 0, f.len())).collect();
+        spec.field = a.field[0].clone();
+    }
+    for m in &a.metric {
+        let (key, value) = flag_binding("--metric", m, "FIELDS=EXPR")?;
+        let words = |k: &str| {
+            let mut w: Vec<String> = k.split_whitespace().map(str::to_string).collect();
+            w.sort();
+            w
+        };
+        spec.metric.retain(|e| words(&e.key.text) != words(&key.text));
+        spec.metric.push(MetricEntry { key, value });
+    }
+    for s in &a.start {
+        let (name, value) = flag_binding("--start", s, "FIELD=VALUE")?;
+        spec.start_point.retain(|e| e.name.text != name.text);
+        spec.start_point.push(FieldValue { name, value });
+    }
+    if a.kinetic.is_some() && spec.fields.len() > 1 {
+        return Err(Diagnostic::new("--kinetic is for one field; this model has several")
+            .with_hint("give the metric's components with --metric x=EXPR and --metric 'x y=EXPR'")
+            .into());
+    }
+    Ok(())
 }
 
 /// The inline flags over a model read from a file (or given by `--potential` alone).
@@ -41,10 +110,7 @@ fn apply_flags(spec: &mut ModelSpec, a: &ModelArgs) -> Result<(), Failure> {
     if let Some(k) = &a.kinetic {
         spec.kinetic = Text::inline("--kinetic", k);
     }
-    if let Some(f) = &a.field {
-        check_field_name(f)?;
-        spec.field = f.clone();
-    }
+    apply_field_flags(spec, a)?;
     for p in &a.params {
         split_binding("--param", p)?;
     }
@@ -62,7 +128,9 @@ fn apply_flags(spec: &mut ModelSpec, a: &ModelArgs) -> Result<(), Failure> {
 /// The model of one file, without flags (`golden`, `watch`).
 pub(crate) fn load_model_file(path: &Path, config: &Config) -> Result<Model, Failure> {
     let spec = ModelSpec::load_with(path, &config.limits)?;
-    Ok(Model::build(&spec, config)?)
+    let model = Model::build(&spec, config)?;
+    model.one_field_only("efold golden` / `efold watch")?;
+    Ok(model)
 }
 
 /// The data set of `--data`, or the built-in one.

@@ -2,6 +2,7 @@
 //! and dV/dphi, compiled to one tape whose outputs the model's [`Layout`] names.
 
 use super::error::ModelError;
+use super::fields;
 use super::layout::Layout;
 use super::metric::Metric;
 use super::params::{resolve_params, resolve_range};
@@ -28,12 +29,87 @@ pub struct Model {
     pub range: Option<(f64, f64)>,
     /// Which tape output holds what.
     layout: Layout,
+    /// The start of a model of several fields (`[start]`), in field order.
+    start: Option<Vec<f64>>,
+    /// The start velocity dphi^a/dN of a model of several fields (`[start.velocity]`), if given.
+    start_velocity: Option<Vec<f64>>,
 }
 
 impl Model {
     /// Compiles a model: parameters first (each an expression of `pi` and earlier ones), then V
-    /// and K, then the range.
+    /// and K, then the range. A model of several fields (`fields = [...]`) compiles V and its
+    /// geometry ([`Layout::with_geometry`]) and checks its start; one written with
+    /// `fields = ["phi"]` is the one-field model `field = "phi"` with `kinetic` its
+    /// `[metric]` entry.
     pub fn build(spec: &ModelSpec, config: &Config) -> Result<Model, ModelError> {
+        if let Some(one) = fields::one_field_form(spec)? {
+            return Model::build_one(&one, config);
+        }
+        if spec.fields.len() > 1 {
+            return Model::build_several(spec, config);
+        }
+        Model::build_one(spec, config)
+    }
+
+    /// A model of several fields: the names, the parameters, V and the geometry, the start.
+    fn build_several(spec: &ModelSpec, config: &Config) -> Result<Model, ModelError> {
+        let names = fields::field_names(spec)?;
+        if spec.range.is_some() {
+            return Err(ModelError::plain(
+                Diagnostic::new("a field range is for one field; this model has several").with_hint(
+                    "leave out `range` (and --range): a model of several fields starts at its [start] point",
+                ),
+            ));
+        }
+        let table = resolve_params(spec, config)?;
+        let geometry = fields::compile_geometry(spec, &names, table.names(), config)?;
+        let (start, start_velocity) = Model::resolve_start(spec, &names, &table, config)?;
+        let (_, values) = table.into_parts();
+        let at = fields::StartAt {
+            names: &names,
+            tape: &geometry.compiled.tape,
+            layout: geometry.layout,
+            params: &values,
+            start: &start,
+            velocity: start_velocity.as_deref(),
+        };
+        fields::check_start(spec, at)?;
+        Ok(Model {
+            spec: spec.clone(),
+            scope: geometry.scope,
+            params: values,
+            compiled: geometry.compiled,
+            range: None,
+            layout: geometry.layout,
+            start: Some(start),
+            start_velocity,
+        })
+    }
+
+    /// The start point and, if given, the start velocity, in field order.
+    fn resolve_start(
+        spec: &ModelSpec,
+        names: &[String],
+        table: &super::params::ParamTable,
+        config: &Config,
+    ) -> Result<(Vec<f64>, Option<Vec<f64>>), ModelError> {
+        let start = fields::field_values(&spec.start_point, spec, names, table, config, "the start")?;
+        let velocity = match spec.start_velocity.is_empty() {
+            true => None,
+            false => Some(fields::field_values(
+                &spec.start_velocity,
+                spec,
+                names,
+                table,
+                config,
+                "the start velocity",
+            )?),
+        };
+        Ok((start, velocity))
+    }
+
+    /// A model of one field: V, K, sqrt(K) and dV/dphi.
+    fn build_one(spec: &ModelSpec, config: &Config) -> Result<Model, ModelError> {
         let (names, values) = resolve_params(spec, config)?.into_parts();
         let refs: Vec<&str> = names.iter().map(String::as_str).collect();
         let scope = Scope::new(&spec.field, &refs);
@@ -74,6 +150,8 @@ impl Model {
             },
             range,
             layout,
+            start: None,
+            start_velocity: None,
         })
     }
 
@@ -112,11 +190,30 @@ impl Model {
             }
             spec.set_param(name, &format!("{value:e}"));
         }
-        let (names, values) = resolve_params(&spec, config)?.into_parts();
+        let table = resolve_params(&spec, config)?;
+        let (start, start_velocity) = match self.n_fields() {
+            1 => (None, None),
+            _ => {
+                let (start, velocity) = Model::resolve_start(&spec, &self.scope.fields, &table, config)?;
+                let at = fields::StartAt {
+                    names: &self.scope.fields,
+                    tape: &self.compiled.tape,
+                    layout: self.layout,
+                    params: &table.clone().into_parts().1,
+                    start: &start,
+                    velocity: velocity.as_deref(),
+                };
+                fields::check_start(&spec, at)?;
+                (Some(start), velocity)
+            }
+        };
+        let (names, values) = table.into_parts();
         debug_assert_eq!(names, self.scope.params, "set_param keeps the parameter order");
         self.range = resolve_range(&spec, &names, &values, config)?;
         self.params = values;
         self.spec = spec;
+        self.start = start;
+        self.start_velocity = start_velocity;
         Ok(())
     }
 
@@ -138,7 +235,62 @@ impl Model {
         self.layout.metric()
     }
 
-    /// The field's name.
+    /// The number of fields: 1 for a model written with `field` (or `fields = ["phi"]`).
+    pub fn n_fields(&self) -> usize {
+        self.scope.n_fields()
+    }
+
+    /// The fields' names, in order (the coordinates of a point of field space).
+    pub fn field_names(&self) -> &[String] {
+        &self.scope.fields
+    }
+
+    /// The `[start]` point of a model of several fields, in field order (`None` for one field).
+    pub fn start(&self) -> Option<&[f64]> {
+        self.start.as_deref()
+    }
+
+    /// The `[start.velocity]` dphi^a/dN of a model of several fields, in field order; `None`
+    /// when not given (start on the slow-roll attractor, dphi^a/dN = -G^ab d_b V / V) or for
+    /// one field.
+    pub fn start_velocity(&self) -> Option<&[f64]> {
+        self.start_velocity.as_deref()
+    }
+
+    /// Refuses a model of several fields for a command that analyses one field (`command`
+    /// names it, e.g. `efold predict`): an error pointing at the model's `fields`, saying how
+    /// many fields it has and what the command supports. `Ok` for a model of one field.
+    pub fn one_field_only(&self, command: &str) -> Result<(), ModelError> {
+        let n = self.n_fields();
+        if n == 1 {
+            return Ok(());
+        }
+        let names = self
+            .field_names()
+            .iter()
+            .map(|f| format!("`{f}`"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        let d = Diagnostic::new(format!(
+            "the model `{}` has {n} fields ({names}): `{command}` analyses models of one field only",
+            self.spec.name
+        ))
+        .with_hint(format!(
+            "`{command}` takes a model with one field: `field` and `kinetic`, or `fields = [\"phi\"]` with one [metric] entry"
+        ))
+        .with_hint("a model of several fields is read, compiled and checked (its metric and start), but no command analyses it yet");
+        Err(match self.spec.fields.first() {
+            Some(first) => fields::error_in(
+                first,
+                crate::diag::Span::new(0, first.text.len().max(1)),
+                d,
+                "several fields",
+            ),
+            None => ModelError::plain(d),
+        })
+    }
+
+    /// The field's name (the first field's, for several).
     pub fn field(&self) -> &str {
         self.scope.field()
     }

@@ -14,6 +14,17 @@
 //! The one-field layout is the common case and keeps the order the tape has always had, so
 //! `layout.k()` is output 1. Field indices a, b count from 0.
 //!
+//! A model of several fields compiles its geometry too ([`Layout::with_geometry`]): after the
+//! outputs above, in this order,
+//!
+//! | block            | outputs                                                                  |
+//! |------------------|--------------------------------------------------------------------------|
+//! | Hessian of V     | d_a d_b V for a <= b, row by row (n(n+1)/2)                               |
+//! | first partials   | d_c G_ab: for each stored component (in the order above), c = 0..n-1      |
+//! | second partials  | d_c d_d G_ab: for each stored component, c <= d row by row (n(n+1)/2 each) |
+//!
+//! so that the Christoffel symbols and the Riemann tensor need no finite differences.
+//!
 //! ```
 //! use efold::model::{Layout, MetricShape};
 //! let one = Layout::ONE_FIELD;
@@ -43,6 +54,7 @@ pub enum MetricShape {
 pub struct Layout {
     fields: usize,
     shape: MetricShape,
+    geometry: bool,
 }
 
 impl Default for Layout {
@@ -56,6 +68,7 @@ impl Layout {
     pub const ONE_FIELD: Layout = Layout {
         fields: 1,
         shape: MetricShape::Scalar,
+        geometry: false,
     };
 
     /// `n` fields with a diagonal metric; `None` for no fields.
@@ -63,6 +76,7 @@ impl Layout {
         (n > 0).then_some(Layout {
             fields: n,
             shape: MetricShape::Diagonal,
+            geometry: false,
         })
     }
 
@@ -71,6 +85,7 @@ impl Layout {
         (n > 0).then_some(Layout {
             fields: n,
             shape: MetricShape::Full,
+            geometry: false,
         })
     }
 
@@ -96,13 +111,91 @@ impl Layout {
         }
     }
 
-    /// How many outputs the tape has.
+    /// The same layout followed by the geometry block (the Hessian of V, the first and second
+    /// partials of every stored metric component; see the module documentation). The scalar
+    /// one-field layout has none: it is returned unchanged.
+    pub fn with_geometry(self) -> Layout {
+        Layout {
+            geometry: self.shape != MetricShape::Scalar,
+            ..self
+        }
+    }
+
+    /// Whether the tape holds the geometry block.
     #[inline]
-    pub fn n_outputs(self) -> usize {
+    pub fn has_geometry(self) -> bool {
+        self.geometry
+    }
+
+    /// Outputs before the geometry block.
+    #[inline]
+    fn n_base(self) -> usize {
         match self.shape {
             MetricShape::Scalar => 4,
             _ => 1 + 2 * self.fields + self.n_components(),
         }
+    }
+
+    /// n(n+1)/2: the number of pairs a <= b.
+    #[inline]
+    fn n_pairs(self) -> usize {
+        self.fields * (self.fields + 1) / 2
+    }
+
+    /// The index of the pair (a, b), a <= b, row by row.
+    #[inline]
+    fn pair(self, a: usize, b: usize) -> usize {
+        let (a, b) = (a.min(b), a.max(b));
+        a * (2 * self.fields - a + 1) / 2 + (b - a)
+    }
+
+    /// How many outputs the tape has.
+    #[inline]
+    pub fn n_outputs(self) -> usize {
+        let geometry = if self.geometry {
+            let c = self.n_components();
+            self.n_pairs() + c * self.fields + c * self.n_pairs()
+        } else {
+            0
+        };
+        self.n_base() + geometry
+    }
+
+    /// The index of a stored metric component among the stored ones (0..n_components), or
+    /// `None` where the component is zero by the metric's form.
+    #[inline]
+    fn component_rank(self, a: usize, b: usize) -> Option<usize> {
+        self.component(a, b).map(|i| i - (1 + self.fields))
+    }
+
+    /// The output holding d_a d_b V (the same as d_b d_a V); `None` without the geometry block
+    /// or for an index that is not a field.
+    #[inline]
+    pub fn hessian(self, a: usize, b: usize) -> Option<usize> {
+        (self.geometry && a < self.fields && b < self.fields).then(|| self.n_base() + self.pair(a, b))
+    }
+
+    /// The output holding d_c G_ab; `None` without the geometry block, for an index that is not
+    /// a field, or where G_ab is zero by the metric's form.
+    #[inline]
+    pub fn metric_partial(self, a: usize, b: usize, c: usize) -> Option<usize> {
+        if !self.geometry || c >= self.fields {
+            return None;
+        }
+        let rank = self.component_rank(a, b)?;
+        Some(self.n_base() + self.n_pairs() + rank * self.fields + c)
+    }
+
+    /// The output holding d_c d_d G_ab (symmetric in c, d); `None` as for
+    /// [`Layout::metric_partial`].
+    #[inline]
+    pub fn metric_second_partial(self, a: usize, b: usize, c: usize, d: usize) -> Option<usize> {
+        if !self.geometry || c >= self.fields || d >= self.fields {
+            return None;
+        }
+        let rank = self.component_rank(a, b)?;
+        let first = self.n_base() + self.n_pairs() + self.n_components() * self.fields;
+        Some(first + rank * self.n_pairs() + self.pair(c, d))
     }
 
     /// The output holding V.
@@ -203,6 +296,41 @@ mod tests {
         assert_eq!((l.n_outputs(), l.n_components(), l.fields()), (4, 1, 1));
         assert_eq!(Layout::default(), l);
         assert_a_partition(l);
+    }
+
+    /// With the geometry block too, every output is named exactly once.
+    #[test]
+    fn geometry_blocks_name_every_output_once() {
+        for n in 1..=4 {
+            for l in [Layout::diagonal(n).unwrap(), Layout::full(n).unwrap()] {
+                let base = l.n_outputs();
+                let g = l.with_geometry();
+                assert!(g.has_geometry() && !l.has_geometry());
+                let mut seen = vec![0u32; g.n_outputs()];
+                for a in 0..n {
+                    for b in a..n {
+                        seen[g.hessian(a, b).unwrap()] += 1;
+                        assert_eq!(g.hessian(a, b), g.hessian(b, a));
+                        for c in 0..n {
+                            if let Some(i) = g.metric_partial(a, b, c) {
+                                seen[i] += 1;
+                            }
+                            for d in c..n {
+                                if let Some(i) = g.metric_second_partial(a, b, c, d) {
+                                    seen[i] += 1;
+                                    assert_eq!(g.metric_second_partial(b, a, d, c), Some(i));
+                                }
+                            }
+                        }
+                    }
+                }
+                assert!(seen[..base].iter().all(|&c| c == 0));
+                assert!(seen[base..].iter().all(|&c| c == 1), "{g:?}: {seen:?}");
+                assert_eq!(g.component(0, 0), l.component(0, 0));
+                assert_eq!(l.hessian(0, 0), None);
+            }
+        }
+        assert_eq!(Layout::ONE_FIELD.with_geometry(), Layout::ONE_FIELD);
     }
 
     #[test]

@@ -35,6 +35,12 @@
 //! ```
 
 //!
+//! A model of several fields writes `fields = ["x", "y"]` instead of `field`, a `[metric]`
+//! table instead of `kinetic` (`x = "..."` for G_xx, `"x y" = "..."` for G_xy; missing
+//! off-diagonal entries are 0), a `[start]` point and optionally `[start.velocity]`
+//! (dphi^a/dN; default the slow-roll attractor). It compiles with its geometry
+//! ([`Layout::with_geometry`], [`fields`]).
+//!
 //! The stage in parts: [`spec`] (the model as written, TOML reading), [`params`] (parameter
 //! values and the range), [`build`] (the compiled [`Model`] and [`Model::rebind`]),
 //! [`layout`] (which tape output holds what) and [`metric`] (the kinetic part as a field-space
@@ -43,6 +49,7 @@
 
 pub mod build;
 pub mod error;
+pub mod fields;
 pub mod layout;
 pub mod metric;
 pub mod params;
@@ -54,4 +61,4 @@ pub use layout::{Layout, MetricShape};
 pub use metric::{Metric, MetricError, MetricValue};
 pub use params::{ConstantError, ParamTable};
 pub(crate) use spec::toml_message;
-pub use spec::{ModelSpec, Origin, ParamSpec, Side, Text};
+pub use spec::{FieldValue, MetricEntry, ModelSpec, Origin, ParamSpec, Side, Text};

@@ -188,6 +188,18 @@ fn collect_params(
     }
 }
 
+/// A constant expression of numbers, `pi` and the parameters in `table` (a start value of a
+/// model of several fields); `what` names it in errors.
+pub(super) fn constant_value(
+    t: &Text,
+    field: &str,
+    table: &ParamTable,
+    config: &Config,
+    what: &str,
+) -> Result<f64, ModelError> {
+    constant(t, field, table, config, what)
+}
+
 /// Evaluates a constant expression (a parameter or a range end).
 fn constant(t: &Text, field: &str, table: &ParamTable, config: &Config, what: &str) -> Result<f64, ModelError> {
     // A plain number needs no compiler.

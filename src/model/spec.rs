@@ -65,6 +65,26 @@ pub struct ParamSpec {
     pub scan: Option<(f64, f64, bool)>,
 }
 
+/// One entry of a model's `[metric]` table (or of a `--metric` flag): G_aa under a field's
+/// name, G_ab under two names separated by a space.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct MetricEntry {
+    /// The key as written (its origin points at the key in the file, or at the flag).
+    pub key: Text,
+    /// The component's expression in the fields and parameters.
+    pub value: Text,
+}
+
+/// A value given for one field by name: an entry of `[start]` or `[start.velocity]`, or of a
+/// `--start` flag.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct FieldValue {
+    /// The field's name as written (its origin points at the key).
+    pub name: Text,
+    /// The value, an expression of numbers, `pi` and parameters.
+    pub value: Text,
+}
+
 /// A model as written: plain data, not yet compiled.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct ModelSpec {
@@ -86,8 +106,20 @@ pub struct ModelSpec {
     pub start: Option<Side>,
     /// Default N_* values.
     pub efolds: Option<Vec<f64>>,
+    /// The fields of a model written with `fields = [...]` (or repeated `--field`), each with
+    /// its origin; empty for a model written with `field` (one field, `kinetic`).
+    pub fields: Vec<Text>,
+    /// The `[metric]` table of a model written with `fields`.
+    pub metric: Vec<MetricEntry>,
+    /// The `[start]` point of a model written with `fields`.
+    pub start_point: Vec<FieldValue>,
+    /// The `[start.velocity]` table, dphi^a/dN (empty: the slow-roll attractor).
+    pub start_velocity: Vec<FieldValue>,
 }
 
+/// The keys of a model of several fields, accepted beside [`TOP_KEYS`] (and listed in hints
+/// when the file declares `fields`).
+const FIELDS_KEYS: [&str; 3] = ["fields", "metric", "start"];
 const TOP_KEYS: [&str; 8] = [
     "name",
     "description",
@@ -112,6 +144,50 @@ struct RawModel {
     #[serde(default)]
     scan: IndexMap<String, toml::Spanned<Vec<RawValue>>>,
     settings: Option<RawSettings>,
+    fields: Option<toml::Spanned<Vec<toml::Spanned<String>>>>,
+    #[serde(default)]
+    metric: IndexMap<String, toml::Spanned<RawValue>>,
+    #[serde(default)]
+    start: IndexMap<String, toml::Spanned<RawStartEntry>>,
+}
+
+/// An entry of `[start]`: a field's value, or the `velocity` table.
+enum RawStartEntry {
+    Value(RawValue),
+    Table(IndexMap<String, toml::Spanned<RawValue>>),
+}
+
+impl<'de> Deserialize<'de> for RawStartEntry {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<RawStartEntry, D::Error> {
+        struct Visitor;
+        impl<'de> serde::de::Visitor<'de> for Visitor {
+            type Value = RawStartEntry;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("a number, a string expression, or the table `velocity`")
+            }
+            fn visit_f64<E>(self, x: f64) -> Result<RawStartEntry, E> {
+                Ok(RawStartEntry::Value(RawValue::Number(x)))
+            }
+            fn visit_i64<E>(self, x: i64) -> Result<RawStartEntry, E> {
+                Ok(RawStartEntry::Value(RawValue::Number(x as f64)))
+            }
+            fn visit_u64<E>(self, x: u64) -> Result<RawStartEntry, E> {
+                Ok(RawStartEntry::Value(RawValue::Number(x as f64)))
+            }
+            fn visit_str<E>(self, s: &str) -> Result<RawStartEntry, E> {
+                Ok(RawStartEntry::Value(RawValue::Text(s.to_string())))
+            }
+            fn visit_map<M: serde::de::MapAccess<'de>>(self, mut m: M) -> Result<RawStartEntry, M::Error> {
+                let mut out = IndexMap::new();
+                while let Some(k) = m.next_key::<String>()? {
+                    let v = m.next_value::<toml::Spanned<RawValue>>()?;
+                    out.insert(k, v);
+                }
+                Ok(RawStartEntry::Table(out))
+            }
+        }
+        d.deserialize_any(Visitor)
+    }
 }
 
 /// `range` as written: a list of spanned values.
@@ -298,6 +374,7 @@ impl ModelSpec {
             shared: std::sync::Arc::from(text),
         };
         let params = reader.params(&raw.params, &raw.scan)?;
+        let several = reader.several_fields(&raw)?;
         let settings = raw.settings.unwrap_or(RawSettings {
             range: None,
             start: None,
@@ -305,9 +382,20 @@ impl ModelSpec {
         });
         let range = reader.range(settings.range.as_ref())?;
         let start = reader.start(settings.start.as_ref())?;
-        let field = raw.field.map(|f| f.into_inner()).unwrap_or_else(|| "phi".to_string());
-        check_identifier(&field, text, file, None)?;
+        let first = several.fields.first().map(|f| f.text.clone());
+        let field = raw
+            .field
+            .map(|f| f.into_inner())
+            .or(first)
+            .unwrap_or_else(|| "phi".to_string());
+        if several.fields.is_empty() {
+            check_identifier(&field, text, file, None)?;
+        }
         Ok(ModelSpec {
+            fields: several.fields,
+            metric: several.metric,
+            start_point: several.start_point,
+            start_velocity: several.start_velocity,
             name: raw.name.unwrap_or_default(),
             description: raw.description.unwrap_or_default(),
             field,
@@ -350,6 +438,41 @@ impl ModelSpec {
     }
 }
 
+/// The parts of a model file that only a model of several fields has.
+#[derive(Default)]
+struct SeveralFields {
+    fields: Vec<Text>,
+    metric: Vec<MetricEntry>,
+    start_point: Vec<FieldValue>,
+    start_velocity: Vec<FieldValue>,
+}
+
+/// Byte range of a key inside `[section]`, bare or quoted (`"x y" = ...`).
+fn table_key_span(file: &str, section: &str, key: &str) -> Option<Span> {
+    let mut current: Option<String> = None;
+    let mut offset = 0;
+    for line in file.split_inclusive('\n') {
+        let trimmed = line.trim_start();
+        let lead = offset + line.len() - trimmed.len();
+        if let Some(rest) = trimmed.strip_prefix('[') {
+            current = rest.split(']').next().map(|s| s.replace(' ', ""));
+        } else if current.as_deref() == Some(section) {
+            let quote = trimmed.chars().next().filter(|c| *c == '"' || *c == '\'');
+            let found = match quote {
+                Some(q) => trimmed[1..].find(q).map(|end| (1, &trimmed[1..1 + end])),
+                None => trimmed.split(['=', ' ', '\t']).next().map(|n| (0, n)),
+            };
+            if let Some((skip, name)) = found {
+                if name == key {
+                    return Some(Span::new(lead + skip, lead + skip + key.len()));
+                }
+            }
+        }
+        offset += line.len();
+    }
+    None
+}
+
 /// The text of a model file being read, its name, and the copy every expression of it shares.
 struct Reader<'a> {
     text: &'a str,
@@ -358,6 +481,105 @@ struct Reader<'a> {
 }
 
 impl Reader<'_> {
+    /// A key of `[section]` as a text whose origin points at the key (at the value's place
+    /// when the key cannot be found, as for an inline table).
+    fn key_text(&self, section: &str, key: &str, value_span: std::ops::Range<usize>) -> Text {
+        let at = table_key_span(self.text, section, key).map_or(value_span.start, |s| s.start);
+        Text {
+            text: key.to_string(),
+            origin: Origin {
+                name: self.file.to_string(),
+                file_text: Some(self.shared.clone()),
+                offset: at,
+            },
+        }
+    }
+
+    /// An error at `span` of the file.
+    fn error_at(&self, span: Span, message: String, label: &str, hint: &str) -> ModelError {
+        ModelError::in_file(
+            Diagnostic::new(message).with_span(span, label).with_hint(hint),
+            self.file,
+            self.text,
+        )
+    }
+
+    /// `fields`, `[metric]` and `[start]`: read as written; checked against each other when
+    /// the model is built (so that flags can complete them).
+    fn several_fields(&self, raw: &RawModel) -> Result<SeveralFields, ModelError> {
+        let Some(fields) = &raw.fields else {
+            let stray = [("metric", !raw.metric.is_empty()), ("start", !raw.start.is_empty())];
+            if let Some((key, _)) = stray.iter().find(|(_, given)| *given) {
+                let span = header_span(self.text, &[key]).unwrap_or_default();
+                return Err(self.error_at(
+                    span,
+                    format!("`[{key}]` belongs to a model of several fields, and this one has no `fields`"),
+                    "needs `fields = [...]`",
+                    "declare the fields with `fields = [\"x\", \"y\"]`; a one-field model uses `field` and `kinetic`",
+                ));
+            }
+            return Ok(SeveralFields::default());
+        };
+        for (key, given) in [("field", raw.field.is_some()), ("kinetic", raw.kinetic.is_some())] {
+            if given {
+                let span = key_span(self.text, None, key).unwrap_or_default();
+                return Err(self.error_at(
+                    span,
+                    format!("`{key}` and `fields` are given together"),
+                    "leave this out",
+                    "with `fields = [...]` the kinetic part is the [metric] table; `field` and `kinetic` are the one-field form",
+                ));
+            }
+        }
+        if fields.get_ref().is_empty() {
+            let span = fields.span();
+            return Err(self.error_at(
+                Span::new(span.start, span.end),
+                "`fields` is empty".to_string(),
+                "no field",
+                "list the fields, e.g. `fields = [\"x\", \"y\"]`",
+            ));
+        }
+        let mut out = SeveralFields {
+            fields: fields.get_ref().iter().map(|f| self.origin_of(f, "fields")).collect(),
+            ..SeveralFields::default()
+        };
+        for (key, value) in &raw.metric {
+            out.metric.push(MetricEntry {
+                key: self.key_text("metric", key, value.span()),
+                value: self.raw_text(value, &format!("metric.{key}")),
+            });
+        }
+        for (key, entry) in &raw.start {
+            match entry.get_ref() {
+                RawStartEntry::Value(v) => out.start_point.push(FieldValue {
+                    name: self.key_text("start", key, entry.span()),
+                    value: self.raw_text(&toml::Spanned::new(entry.span(), v.clone()), &format!("start.{key}")),
+                }),
+                RawStartEntry::Table(t) if key == "velocity" => {
+                    for (name, v) in t {
+                        out.start_velocity.push(FieldValue {
+                            name: self.key_text("start.velocity", name, v.span()),
+                            value: self.raw_text(v, &format!("start.velocity.{name}")),
+                        });
+                    }
+                }
+                RawStartEntry::Table(_) => {
+                    let span = header_span(self.text, &["start", key])
+                        .or_else(|| table_key_span(self.text, "start", key))
+                        .unwrap_or_default();
+                    return Err(self.error_at(
+                        span,
+                        format!("unknown table `[start.{key}]`"),
+                        "not a start table",
+                        "[start] holds a value for each field, and the table [start.velocity]",
+                    ));
+                }
+            }
+        }
+        Ok(out)
+    }
+
     /// An expression of the file: its errors point into the file where the string appears
     /// verbatim, at the string itself otherwise.
     fn origin_of(&self, s: &toml::Spanned<String>, key: &str) -> Text {
@@ -582,6 +804,11 @@ fn check_identifier(name: &str, text: &str, file: &str, section: Option<&str>) -
 const TABLE_KEYS: [&str; 3] = ["params", "scan", "settings"];
 
 fn check_keys(table: &toml::Table, text: &str, file: &str) -> Result<(), ModelError> {
+    // The keys of several fields are listed only to a file that declares `fields`, so that
+    // a one-field file's hints stay as they are.
+    let several = table.contains_key("fields");
+    let all_keys: Vec<&str> = TOP_KEYS.iter().chain(&FIELDS_KEYS).copied().collect();
+    let top_keys: &[&str] = if several { &all_keys } else { &TOP_KEYS };
     let unknown = |key: &str, section: Option<&str>, known: &[&str]| {
         let span = key_span(text, section, key).unwrap_or_default();
         let mut d = Diagnostic::new(format!(
@@ -625,13 +852,13 @@ fn check_keys(table: &toml::Table, text: &str, file: &str) -> Result<(), ModelEr
         )
     };
     for (key, value) in table {
-        if !TOP_KEYS.contains(&key.as_str()) {
+        if !TOP_KEYS.contains(&key.as_str()) && !FIELDS_KEYS.contains(&key.as_str()) {
             let header = matches!(value, toml::Value::Table(_) | toml::Value::Array(_))
                 .then(|| header_span(text, &[key]))
                 .flatten();
             return Err(match header {
                 Some(span) if key_span(text, None, key).is_none() => unknown_table(key, span),
-                _ => unknown(key, None, &TOP_KEYS),
+                _ => unknown(key, None, top_keys),
             });
         }
     }
