@@ -10,6 +10,10 @@
 //!   (positive on a sphere), stored at `((a * n + b) * n + c) * n + d`;
 //! - the covariant Hessian V_;ab = d_a d_b V - Gamma^c_ab V_c.
 
+pub mod background;
+pub mod closed_form;
+pub mod ode;
+
 use crate::analysis::error::AnalysisError;
 use nalgebra::DMatrix;
 
