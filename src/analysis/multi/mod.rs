@@ -12,7 +12,11 @@
 
 pub mod background;
 pub mod closed_form;
+pub mod delta_n;
+pub mod modes;
 pub mod ode;
+pub mod predict;
+pub mod trajectory;
 
 use crate::analysis::error::AnalysisError;
 use nalgebra::DMatrix;
