@@ -916,7 +916,7 @@ impl ErrorKind {
             ),
             MultiTooFewEfolds { available, needed, n_star } => write!(
                 f,
-                "the background gives {} e-folds from the start to the end of inflation, fewer than the {} needed for N_* = {}",
+                "the background gives {} e-folds from the start to the end of inflation, fewer than the {} needed for N_* = {} and its modes, which start inside the horizon",
                 number(*available),
                 number(*needed),
                 typed(*n_star)

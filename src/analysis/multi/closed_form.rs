@@ -65,6 +65,8 @@ impl FieldSpace for Diagonal {
     fn local(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
         let n = self.c.len();
         at.v = 0.0;
+        at.gamma.fill(0.0);
+        at.riemann.fill(0.0);
         for a in 0..n {
             let Some((g, half_log_slope)) = self.metric[a].at(phi[a]) else {
                 return Err(ErrorKind::BadInRange {
