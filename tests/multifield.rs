@@ -285,6 +285,7 @@ fn closed_form_geometry_matches_sympy() {
         c: vec![1.0, 1.0],
         metric: vec![Metric1::Pole(0.5), Metric1::Pole(1.0 / 3.0)],
     };
+    let mut at = efold::analysis::multi::Local::zeros(2);
     prod.local(&[0.3, -0.2], &mut at).unwrap();
     for (k, v) in p["Gamma_at_point"].as_object().unwrap() {
         let i: Vec<usize> = k.split(',').map(|x| x.parse().unwrap()).collect();

@@ -466,6 +466,11 @@ pub enum ErrorKind {
         /// The start.
         at: Vec<f64>,
     },
+    /// The metric G_ab is not positive definite at a point of the trajectory.
+    MultiMetricNotPositive {
+        /// The field point.
+        at: Vec<f64>,
+    },
     /// A number of a multi-field prediction is not finite.
     MultiNotFinite {
         /// The report key.
@@ -580,6 +585,7 @@ impl ErrorKind {
             ],
             MultiTooFewEfolds { .. } => &["start further up the potential, or ask for fewer e-folds"],
             MultiStartNotInflating { .. } => &["start where the potential is flatter, or with a smaller velocity"],
+            MultiMetricNotPositive { .. } => &["the kinetic term must be positive in every direction along the trajectory: check the metric there"],
             MultiNotFinite { .. } => &[
                 "V or the metric is not smooth enough along the trajectory, or the numbers leave double precision",
             ],
@@ -648,6 +654,7 @@ impl fmt::Display for ErrorKind {
             | MultiNeverEnds { .. }
             | MultiTooFewEfolds { .. }
             | MultiStartNotInflating { .. }
+            | MultiMetricNotPositive { .. }
             | MultiNotFinite { .. } => self.fmt_multi(f),
         }
     }
@@ -927,6 +934,7 @@ impl ErrorKind {
                 point(at),
                 number(*eps_h)
             ),
+            MultiMetricNotPositive { at } => write!(f, "the metric is not positive definite at ({})", point(at)),
             MultiNotFinite { key, value, n_star } => write!(
                 f,
                 "{key} = {value} at N_* = {} is not a finite number",

@@ -109,6 +109,14 @@ impl<'s> Flow<'s> {
         Ok(eps_h(&self.local, &y[n..2 * n]))
     }
 
+    /// eps_H at a state from the geometry of the last evaluation, which must have been at
+    /// the same point: the integrator calls an event right after the right-hand side at the
+    /// state it is given.
+    pub fn eps_last(&self, y: &[f64]) -> f64 {
+        let n = self.n();
+        eps_h(&self.local, &y[n..2 * n])
+    }
+
     /// ln H at a state.
     pub fn ln_h(&mut self, y: &[f64]) -> Result<f64, AnalysisError> {
         let eps = self.eps(y)?;
@@ -161,7 +169,7 @@ pub fn start_state(flow: &mut Flow<'_>, phi: &[f64], velocity: Option<&[f64]>) -
     let l = flow.at(phi)?;
     let pi = velocity.map_or_else(|| attractor(l), <[f64]>::to_vec);
     let eps = eps_h(l, &pi);
-    if !(eps < 1.0) {
+    if eps.is_nan() || eps >= 1.0 {
         return Err(ErrorKind::MultiStartNotInflating {
             eps_h: eps,
             at: phi.to_vec(),
@@ -181,7 +189,7 @@ pub fn run(flow: &mut Flow<'_>, start: &[f64], limits: &MultiLimits) -> Result<R
         start,
         limits.max_efolds,
         &tolerances(limits),
-        &mut |_, y| flow.borrow_mut().eps(y).ok().map(|e| e - 1.0),
+        &mut |_, y| Some(flow.borrow().eps_last(y) - 1.0),
         &mut |n, y| checkpoints.push((n, y.to_vec())),
     )
     .map_err(failure)?;
@@ -203,6 +211,37 @@ pub fn run(flow: &mut Flow<'_>, start: &[f64], limits: &MultiLimits) -> Result<R
         end: end.y,
         checkpoints,
     })
+}
+
+/// The e-folds from `start` to eps_H = 1 (at most `limits.max_efolds`), keeping no
+/// checkpoints: steps up to `limits.free_step`.
+pub fn efolds_to_end(flow: &mut Flow<'_>, start: &[f64], limits: &MultiLimits) -> Result<f64, AnalysisError> {
+    let flow = RefCell::new(flow);
+    let tol = Tolerances {
+        h_max: limits.free_step,
+        ..tolerances(limits)
+    };
+    let end = integrate(
+        &mut |_: f64, y: &[f64], dy: &mut [f64]| flow.borrow_mut().rhs(y, dy).map(|_| ()),
+        0.0,
+        start,
+        limits.max_efolds,
+        &tol,
+        &mut |_, y| Some(flow.borrow().eps_last(y) - 1.0),
+        &mut |_, _| {},
+    )
+    .map_err(failure)?;
+    if !end.event {
+        let n = start.len() / 2;
+        let eps = flow.borrow_mut().eps(&end.y)?;
+        return Err(ErrorKind::MultiNeverEnds {
+            ran: end.t,
+            eps_h: eps,
+            at: end.y[..n].to_vec(),
+        }
+        .into());
+    }
+    Ok(end.t)
 }
 
 /// The state at N (from the start), integrated from the nearest checkpoint below at the

@@ -65,8 +65,8 @@ impl FieldSpace for Diagonal {
     fn local(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
         let n = self.c.len();
         at.v = 0.0;
-        at.gamma.fill(0.0);
-        at.riemann.fill(0.0);
+        // Only the Gamma^a_aa are written below: the rest of `at` (made with `Local::zeros`)
+        // stays zero, R^a_bcd included (the space is flat).
         for a in 0..n {
             let Some((g, half_log_slope)) = self.metric[a].at(phi[a]) else {
                 return Err(ErrorKind::BadInRange {

@@ -11,7 +11,7 @@
 //!   f_NL = (5/6) N^a N^b N_;ab/(N^c N_c)^2 with N_;ab = N_ab - Gamma^c_ab N_c;
 //!   H_* and eps from the exact background at the pivot.
 
-use super::background::{eps_h, run, start_state, Flow};
+use super::background::{eps_h, start_state, Flow};
 use crate::analysis::error::AnalysisError;
 use crate::config::MultiLimits;
 use nalgebra::{DMatrix, DVector};
@@ -48,7 +48,7 @@ pub struct DeltaNObservables {
 /// e-folds from phi, on its own attractor, to eps_H = 1.
 pub fn efolds_to_end(flow: &mut Flow<'_>, phi: &[f64], limits: &MultiLimits) -> Result<f64, AnalysisError> {
     let y0 = start_state(flow, phi, None)?;
-    Ok(run(flow, &y0, limits)?.n_end)
+    super::background::efolds_to_end(flow, &y0, limits)
 }
 
 /// N_a, N_ab at steps of field distance `h` (module docs).

@@ -110,7 +110,7 @@ fn bunch_davies(l: &Local, y: &[f64], z: f64) -> Result<Vec<f64>, AnalysisError>
         .g_inv
         .clone()
         .cholesky()
-        .ok_or_else(|| AnalysisError::from(ErrorKind::MultiNotFinite { key: "G^-1", value: f64::NAN, n_star: f64::NAN }))?
+        .ok_or_else(|| AnalysisError::from(ErrorKind::MultiMetricNotPositive { at: y[..n].to_vec() }))?
         .l();
     let e_inv = e.clone().try_inverse().unwrap_or_else(|| DMatrix::zeros(n, n));
     let mf = &e_inv * m * &e;
@@ -134,8 +134,60 @@ fn bunch_davies(l: &Local, y: &[f64], z: f64) -> Result<Vec<f64>, AnalysisError>
     Ok(out)
 }
 
+/// Scratch of one mode's right-hand side (no allocation per evaluation): M^a_b/H^2 and
+/// A^a_c = Gamma^a_cb pi^b, row by row.
+struct Scratch {
+    m: Vec<f64>,
+    a: Vec<f64>,
+    hess: Vec<f64>,
+    pil: Vec<f64>,
+    vup: Vec<f64>,
+}
+
+impl Scratch {
+    fn new(n: usize) -> Scratch {
+        Scratch {
+            m: vec![0.0; n * n],
+            a: vec![0.0; n * n],
+            hess: vec![0.0; n * n],
+            pil: vec![0.0; n],
+            vup: vec![0.0; n],
+        }
+    }
+
+    /// M^a_b/H^2 (as [`mass_matrix`], the curvature term skipped where R^a_bcd is zero) and
+    /// A^a_c at a point.
+    fn fill(&mut self, l: &Local, pi: &[f64], eps: f64, h2: f64) {
+        let n = l.n();
+        for a in 0..n {
+            self.pil[a] = (0..n).map(|b| l.g[(a, b)] * pi[b]).sum();
+            self.vup[a] = (0..n).map(|b| l.g_inv[(a, b)] * l.dv[b]).sum();
+            for b in 0..n {
+                self.hess[a * n + b] = l.ddv[(a, b)] - (0..n).map(|c| l.gamma(c, a, b) * l.dv[c]).sum::<f64>();
+                self.a[a * n + b] = (0..n).map(|c| l.gamma(a, b, c) * pi[c]).sum();
+            }
+        }
+        let curved = l.riemann.iter().any(|r| *r != 0.0);
+        for a in 0..n {
+            for b in 0..n {
+                let gh: f64 = (0..n).map(|c| l.g_inv[(a, c)] * self.hess[c * n + b]).sum();
+                let mut curv = 0.0;
+                if curved {
+                    for c in 0..n {
+                        for d in 0..n {
+                            curv += l.riemann(a, c, d, b) * pi[c] * pi[d];
+                        }
+                    }
+                }
+                self.m[a * n + b] =
+                    (gh + self.vup[a] * self.pil[b] + pi[a] * l.dv[b]) / h2 + (3.0 - eps) * pi[a] * self.pil[b] - curv;
+            }
+        }
+    }
+}
+
 /// The right-hand side of the background with the modes of ln k, into dy.
-fn rhs(flow: &mut Flow<'_>, ln_k: f64, nn: f64, y: &[f64], dy: &mut [f64]) -> Result<(), AnalysisError> {
+fn rhs(flow: &mut Flow<'_>, sc: &mut Scratch, ln_k: f64, nn: f64, y: &[f64], dy: &mut [f64]) -> Result<(), AnalysisError> {
     let n = flow.n();
     let lay = Layout { n };
     let eps = flow.rhs(&y[..2 * n], &mut dy[..2 * n])?;
@@ -143,9 +195,7 @@ fn rhs(flow: &mut Flow<'_>, ln_k: f64, nn: f64, y: &[f64], dy: &mut [f64]) -> Re
     let pi = &y[n..2 * n];
     let h2 = l.v / (3.0 - eps);
     let z2 = (2.0 * (ln_k - nn)).exp() / h2;
-    let m = mass_matrix(l, pi, eps, h2);
-    // A^a_c = Gamma^a_cb pi^b
-    let a_mat = DMatrix::from_fn(n, n, |a, c| (0..n).map(|b| l.gamma(a, c, b) * pi[b]).sum::<f64>());
+    sc.fill(l, pi, eps, h2);
     let (q0, p0) = (lay.q(), lay.p());
     let w = 2 * n;
     for a in 0..n {
@@ -153,9 +203,9 @@ fn rhs(flow: &mut Flow<'_>, ln_k: f64, nn: f64, y: &[f64], dy: &mut [f64]) -> Re
             let (mut aq, mut ap, mut mq) = (0.0, 0.0, 0.0);
             for b in 0..n {
                 let (qb, pb) = (y[q0 + b * w + col], y[p0 + b * w + col]);
-                aq += a_mat[(a, b)] * qb;
-                ap += a_mat[(a, b)] * pb;
-                mq += m[(a, b)] * qb;
+                aq += sc.a[a * n + b] * qb;
+                ap += sc.a[a * n + b] * pb;
+                mq += sc.m[a * n + b] * qb;
             }
             let (q, p) = (y[q0 + a * w + col], y[p0 + a * w + col]);
             dy[q0 + a * w + col] = p - aq;
@@ -235,17 +285,18 @@ pub fn mode(flow: &mut Flow<'_>, run: &Run, ln_k: f64, limits: &MultiLimits) -> 
     let tol = Tolerances {
         rtol: limits.mode_rtol,
         atol,
-        h_max: 1.0,
+        h_max: limits.free_step,
         max_steps: 1_000_000,
     };
     let flow = RefCell::new(flow);
+    let mut sc = Scratch::new(n);
     let end = integrate(
-        &mut |nn: f64, y: &[f64], dy: &mut [f64]| rhs(&mut flow.borrow_mut(), ln_k, nn, y, dy),
+        &mut |nn: f64, y: &[f64], dy: &mut [f64]| rhs(&mut flow.borrow_mut(), &mut sc, ln_k, nn, y, dy),
         n0,
         &y0,
         run.n_end + 5.0,
         &tol,
-        &mut |_, y| flow.borrow_mut().eps(&y[..2 * n]).ok().map(|e| e - 1.0),
+        &mut |_, y| Some(flow.borrow().eps_last(&y[..2 * n]) - 1.0),
         &mut |_, _| {},
     )
     .map_err(|f| match f {
@@ -307,4 +358,21 @@ fn spectra(l: &Local, y: &[f64], steps: usize) -> ModeSpectra {
 /// stencils, error O(h^4); common practice).
 pub fn stencil(ln_p: &[f64; 5], h: f64) -> (f64, f64) {
     crate::analysis::perturbations::tilts(ln_p, h)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// In de Sitter (eps = 0) a massless mode has A1 = 1, A2 = 0: F = z (1 + i/z), and
+    /// dF/dN = z (-(1 + i z)(1 + i/z) + i/z) (own derivation from the exact massless solution
+    /// Q ~ (1 + i/x) e^{ix} / a with x = z = k/aH).
+    #[test]
+    fn hankel_start_is_exact_for_a_massless_field_in_de_sitter() {
+        let z = 7.0;
+        let [fr, fi, dfr, dfi] = hankel(&DMatrix::from_element(1, 1, 1.0), z, 0.0);
+        assert!((fr[(0, 0)] - z).abs() < 1e-14 && (fi[(0, 0)] - 1.0).abs() < 1e-14);
+        // -(1 + i z)(1 + i/z) + i/z = -(1 - 1) - i (z + 1/z) + i/z = -i z
+        assert!(dfr[(0, 0)].abs() < 1e-12 && (dfi[(0, 0)] + z * z).abs() < 1e-12, "{dfr} {dfi}");
+    }
 }

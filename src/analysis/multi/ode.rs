@@ -136,7 +136,8 @@ impl Work {
 /// Integrates dy/dt = f from (t0, y0) to t_end (either direction). `on_step(t, y)` is called
 /// at the start and after each accepted step; `event(t, y)` may return a value whose sign
 /// change between two accepted steps stops the integration at its zero (located to 1e-13 of
-/// the step). Fails on a state that is not finite, a step below rounding, or the step cap.
+/// the step). `event` is always called right after `f` was evaluated at the same (t, y), so
+/// it may reuse what `f` computed there. Fails on a state that is not finite, a step below rounding, or the step cap.
 pub fn integrate(
     f: &mut dyn Rhs,
     t0: f64,

@@ -100,7 +100,7 @@ fn check(space: &dyn FieldSpace, n_stars: &[f64], limits: &MultiLimits) -> Resul
     if n_stars.is_empty() {
         return Err(ErrorKind::NoEfolds.into());
     }
-    if let Some(&bad) = n_stars.iter().find(|x| !(**x > 0.0) || !x.is_finite()) {
+    if let Some(&bad) = n_stars.iter().find(|x| x.is_nan() || **x <= 0.0 || !x.is_finite()) {
         return Err(ErrorKind::BadEfolds { n_star: bad }.into());
     }
     Ok(())

@@ -210,3 +210,44 @@ pub fn stages(flow: &mut Flow<'_>, run: &Run, samples: &[Sample], limits: &Multi
     }
     Ok(out)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::closed_form::{Diagonal, Disk, Metric1};
+    use super::super::FieldSpace;
+    use super::*;
+
+    /// Flat space, V = (x^2 + y^2)/2 at (1, 0): moving along the gradient does not turn;
+    /// moving across it with pi = (0, 0.1) turns at eta_perp/H = (3 - eps) |G^-1 dV/V| / |pi|
+    /// = (3 - 0.005) 2 / 0.1 (own derivation: all of D_N pi but its -(3 - eps) pi part is
+    /// normal to T).
+    #[test]
+    fn turn_rate_of_closed_forms() {
+        let mut s = Diagonal::quadratic([1.0, 1.0], Metric1::Flat);
+        let mut l = Local::zeros(2);
+        s.local(&[1.0, 0.0], &mut l).unwrap();
+        assert!(turn_rate(&l, &[-0.2, 0.0]).abs() < 1e-15);
+        let want = (3.0 - 0.005) * 2.0 / 0.1;
+        assert!((turn_rate(&l, &[0.0, 0.1]) - want).abs() < 1e-12 * want);
+    }
+
+    /// On the Poincaré disk (alpha = 1) the curvature part of the entropic mass is eps R with
+    /// R = -4/3 (tests/reference/geometry.json, `Ricci_scalar_symbolic` = -4/(3 alpha)).
+    #[test]
+    fn entropic_mass_carries_eps_times_the_scalar_curvature() {
+        let mut s = Disk { alpha: 1.0 };
+        let mut l = Local::zeros(2);
+        s.local(&[0.3, -0.2], &mut l).unwrap();
+        let pi = [-0.01, 0.02];
+        let eps = eps_h(&l, &pi);
+        let h2 = l.v / (3.0 - eps);
+        let m = super::super::modes::mass_matrix(&l, &pi, eps, h2);
+        let (t, _) = tangent(&l, &pi);
+        let sn = normal(&l, &t);
+        let v_ss = quad_form(&l.covariant_hessian(), &sn, &sn) / h2;
+        let curvature = entropic_mass2(&l, &pi, &m).unwrap() - v_ss;
+        assert!((curvature - eps * (-4.0 / 3.0)).abs() < 1e-12, "{curvature} {eps}");
+        // s is a unit vector normal to T.
+        assert!((quad_form(&l.g, &sn, &sn) - 1.0).abs() < 1e-14 && quad_form(&l.g, &sn, &t).abs() < 1e-14);
+    }
+}
