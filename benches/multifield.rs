@@ -30,7 +30,10 @@ fn two_fields(b: Bencher, delta_n: bool) {
     let s = settings(delta_n);
     b.bench_local(|| {
         let mut space = Diagonal::quadratic([1.0, 9.0], Metric1::Flat);
-        predict(&mut space, black_box(&[12.0, 12.0]), None, &N_STARS, &s).unwrap().predictions.len()
+        predict(&mut space, black_box(&[12.0, 12.0]), None, &N_STARS, &s)
+            .unwrap()
+            .predictions
+            .len()
     });
 }
 
@@ -45,6 +48,9 @@ fn seven_fields(b: Bencher, delta_n: bool) {
             c: vec![1.0 / 14.0; 7],
             metric: vec![Metric1::Pole(1.0 / 3.0); 7],
         };
-        predict(&mut space, black_box(&start), None, &N_STARS, &s).unwrap().predictions.len()
+        predict(&mut space, black_box(&start), None, &N_STARS, &s)
+            .unwrap()
+            .predictions
+            .len()
     });
 }

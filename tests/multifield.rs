@@ -65,32 +65,58 @@ fn no_delta_n() -> MultiSettings {
 fn close(what: &str, a: f64, b: f64, tol: f64) {
     let d = a - b;
     eprintln!("{what}: {a:.12e} reference {b:.12e} difference {d:.2e} (allowed {tol:.0e})");
-    assert!(d.abs() <= tol, "{what}: {a} against {b}: difference {d:e} beyond {tol:e}");
+    assert!(
+        d.abs() <= tol,
+        "{what}: {a} against {b}: difference {d:e} beyond {tol:e}"
+    );
 }
 
 /// |a/b - 1| <= tol, printed.
 fn close_rel(what: &str, a: f64, b: f64, tol: f64) {
     let d = a / b - 1.0;
     eprintln!("{what}: {a:.12e} reference {b:.12e} relative difference {d:.2e} (allowed {tol:.0e})");
-    assert!(d.abs() <= tol, "{what}: {a} against {b}: relative difference {d:e} beyond {tol:e}");
+    assert!(
+        d.abs() <= tol,
+        "{what}: {a} against {b}: relative difference {d:e} beyond {tol:e}"
+    );
 }
 
 /// The exact route at each N_* against the reference's exact predictions.
 fn exact_against_reference(name: &str, report: &MultiReport) {
     let r = reference();
     let m = &r["models"][name];
-    close_rel(&format!("{name} N_total"), report.n_total, m["N_total"].as_f64().unwrap(), 1e-9);
+    close_rel(
+        &format!("{name} N_total"),
+        report.n_total,
+        m["N_total"].as_f64().unwrap(),
+        1e-9,
+    );
     for p in &report.predictions {
         let q = &m["predictions"][format!("{}", p.n_star)];
         let tag = format!("{name} N_*={}", p.n_star);
         close(&format!("{tag} n_s"), p.n_s, q["n_s"].as_f64().unwrap(), 1e-9);
         close_rel(&format!("{tag} r"), p.r, q["r"].as_f64().unwrap(), 1e-9);
-        close(&format!("{tag} alpha_s"), p.alpha_s, q["alpha_s"].as_f64().unwrap(), 1e-7);
+        close(
+            &format!("{tag} alpha_s"),
+            p.alpha_s,
+            q["alpha_s"].as_f64().unwrap(),
+            1e-7,
+        );
         close(&format!("{tag} n_t"), p.n_t, q["n_t"].as_f64().unwrap(), 1e-10);
         close_rel(&format!("{tag} P_zeta"), p.p_zeta, q["P_zeta"].as_f64().unwrap(), 1e-9);
-        close(&format!("{tag} eps_H"), p.eps_h, q["eps_pivot"].as_f64().unwrap(), 1e-10);
+        close(
+            &format!("{tag} eps_H"),
+            p.eps_h,
+            q["eps_pivot"].as_f64().unwrap(),
+            1e-10,
+        );
         for (a, x) in p.fields_star.iter().enumerate() {
-            close(&format!("{tag} phi^{a}_*"), *x, q["phi_pivot"][a].as_f64().unwrap(), 1e-8);
+            close(
+                &format!("{tag} phi^{a}_*"),
+                *x,
+                q["phi_pivot"][a].as_f64().unwrap(),
+                1e-8,
+            );
         }
     }
 }
@@ -108,29 +134,79 @@ fn two_quadratics_with_mass_ratio_match_the_reference() {
         let tag = format!("B N_*={}", p.n_star);
         // P_iso is what is left of the decayed heavy mode (4e-15): stated to 2e-8 relative.
         close_rel(&format!("{tag} P_iso"), p.p_iso, q["P_iso"].as_f64().unwrap(), 1e-6);
-        close(&format!("{tag} P_cross"), p.p_cross.unwrap(), q["P_cross"].as_f64().unwrap(), 1e-12);
+        close(
+            &format!("{tag} P_cross"),
+            p.p_cross.unwrap(),
+            q["P_cross"].as_f64().unwrap(),
+            1e-12,
+        );
         let d = &m["delta_N"][&key];
-        close_rel(&format!("{tag} delta-N P_zeta"), p.p_zeta_delta_n.unwrap(), d["P_zeta"].as_f64().unwrap(), 1e-8);
-        close_rel(&format!("{tag} delta-N r"), p.r_delta_n.unwrap(), d["r"].as_f64().unwrap(), 1e-8);
-        close(&format!("{tag} delta-N n_s"), p.n_s_delta_n.unwrap(), d["n_s"].as_f64().unwrap(), 1e-9);
-        close(&format!("{tag} delta-N f_NL"), p.f_nl.unwrap(), d["f_NL"].as_f64().unwrap(), 1e-8);
+        close_rel(
+            &format!("{tag} delta-N P_zeta"),
+            p.p_zeta_delta_n.unwrap(),
+            d["P_zeta"].as_f64().unwrap(),
+            1e-8,
+        );
+        close_rel(
+            &format!("{tag} delta-N r"),
+            p.r_delta_n.unwrap(),
+            d["r"].as_f64().unwrap(),
+            1e-8,
+        );
+        close(
+            &format!("{tag} delta-N n_s"),
+            p.n_s_delta_n.unwrap(),
+            d["n_s"].as_f64().unwrap(),
+            1e-9,
+        );
+        close(
+            &format!("{tag} delta-N f_NL"),
+            p.f_nl.unwrap(),
+            d["f_NL"].as_f64().unwrap(),
+            1e-8,
+        );
         let dn = p.delta_n.as_ref().unwrap();
         for a in 0..2 {
             close(&format!("{tag} N_{a}"), dn.n_a[a], d["N_a"][a].as_f64().unwrap(), 1e-8);
             for b in 0..2 {
-                close(&format!("{tag} N_{a}{b}"), dn.n_ab[a][b], d["N_ab"][a][b].as_f64().unwrap(), 1e-6);
+                close(
+                    &format!("{tag} N_{a}{b}"),
+                    dn.n_ab[a][b],
+                    d["N_ab"][a][b].as_f64().unwrap(),
+                    1e-6,
+                );
             }
         }
         // The analytic sum-separable f_NL (Vernizzi & Wands 2006, from memory; in the JSON):
         // slow roll and the numerical delta-N agree to 1e-4 in f_NL. (Their n_s and r differ by
         // the slow-roll approximation, 7e-4 and 6e-3 relative, MULTIFIELD.md.)
         let vw = &m["vernizzi_wands_analytic"][&key];
-        close(&format!("{tag} f_NL against the analytic sum-separable"), p.f_nl.unwrap(), vw["f_NL"].as_f64().unwrap(), 1e-4);
-        close(&format!("{tag} N_xx against the analytic 1/2"), dn.n_ab[0][0], vw["N_ab"][0][0].as_f64().unwrap(), 1e-3);
+        close(
+            &format!("{tag} f_NL against the analytic sum-separable"),
+            p.f_nl.unwrap(),
+            vw["f_NL"].as_f64().unwrap(),
+            1e-4,
+        );
+        close(
+            &format!("{tag} N_xx against the analytic 1/2"),
+            dn.n_ab[0][0],
+            vw["N_ab"][0][0].as_f64().unwrap(),
+            1e-3,
+        );
     }
     let t = &m["max_turn_rate"];
-    close("B max turn rate", report.max_turn.turn_rate, t["eta_perp_over_H_max"].as_f64().unwrap(), 1e-8);
-    close("B max turn N before end", report.max_turn.n_before_end, t["N_before_end"].as_f64().unwrap(), 1e-4);
+    close(
+        "B max turn rate",
+        report.max_turn.turn_rate,
+        t["eta_perp_over_H_max"].as_f64().unwrap(),
+        1e-8,
+    );
+    close(
+        "B max turn N before end",
+        report.max_turn.n_before_end,
+        t["N_before_end"].as_f64().unwrap(),
+        1e-4,
+    );
 }
 
 /// The one-field exact predictions of the reference (`one_field_quadratic` or
@@ -150,7 +226,10 @@ fn against_one_field(name: &str, key: &str, report: &MultiReport, tol: f64) {
 fn single_field_quadratic(phi0: f64, n_stars: &[f64]) -> Vec<(f64, f64)> {
     use efold::model::{Model, ModelSpec};
     let mut spec = ModelSpec::inline("phi^2/2", None);
-    spec.range = Some((efold::model::Text::inline("lo", "0"), efold::model::Text::inline("hi", "inf")));
+    spec.range = Some((
+        efold::model::Text::inline("lo", "0"),
+        efold::model::Text::inline("hi", "inf"),
+    ));
     let config = efold::config::Config::default();
     let m = Model::build(&spec, &config).unwrap();
     let opts = efold::predict::Options {
@@ -174,14 +253,28 @@ fn equal_masses_are_the_one_field_quadratic() {
     let report = run("A", &n_stars, &MultiSettings::default());
     exact_against_reference("A", &report);
     against_one_field("A", "one_field_quadratic", &report, 1e-6);
-    for (p, (n_s, r)) in report.predictions.iter().zip(single_field_quadratic(369f64.sqrt(), &n_stars)) {
+    for (p, (n_s, r)) in report
+        .predictions
+        .iter()
+        .zip(single_field_quadratic(369f64.sqrt(), &n_stars))
+    {
         let tag = format!("A N_*={} against efold's single-field exact route", p.n_star);
         close(&format!("{tag}: n_s"), p.n_s, n_s, 1e-6);
         close_rel(&format!("{tag}: r"), p.r, r, 1e-6);
         // delta-N of the reference (its N_a, and the observables)
         let d = &reference()["models"]["A"]["delta_N"][format!("{}", p.n_star)];
-        close(&format!("A N_*={} delta-N n_s", p.n_star), p.n_s_delta_n.unwrap(), d["n_s"].as_f64().unwrap(), 1e-9);
-        close(&format!("A N_*={} delta-N f_NL", p.n_star), p.f_nl.unwrap(), d["f_NL"].as_f64().unwrap(), 1e-8);
+        close(
+            &format!("A N_*={} delta-N n_s", p.n_star),
+            p.n_s_delta_n.unwrap(),
+            d["n_s"].as_f64().unwrap(),
+            1e-9,
+        );
+        close(
+            &format!("A N_*={} delta-N f_NL", p.n_star),
+            p.f_nl.unwrap(),
+            d["f_NL"].as_f64().unwrap(),
+            1e-8,
+        );
         assert!(p.turn_rate < 1e-12 && p.p_cross.unwrap().abs() < 1e-12, "{p:?}");
     }
     assert!(report.max_turn.turn_rate < 1e-12, "{:?}", report.max_turn);
@@ -227,8 +320,18 @@ fn two_alphas_turn_into_two_stages() {
     let r = reference();
     let m = &r["models"]["E"];
     let t = &m["max_turn_rate"];
-    close("E max turn rate", report.max_turn.turn_rate, t["eta_perp_over_H_max"].as_f64().unwrap(), 1e-8);
-    close("E max turn N before end", report.max_turn.n_before_end, t["N_before_end"].as_f64().unwrap(), 1e-4);
+    close(
+        "E max turn rate",
+        report.max_turn.turn_rate,
+        t["eta_perp_over_H_max"].as_f64().unwrap(),
+        1e-8,
+    );
+    close(
+        "E max turn N before end",
+        report.max_turn.n_before_end,
+        t["N_before_end"].as_f64().unwrap(),
+        1e-4,
+    );
     eprintln!("E stages: {:?}", report.stages);
     assert_eq!(report.stages.len(), 2, "{:?}", report.stages);
     let (first, second) = (&report.stages[0], &report.stages[1]);
@@ -239,7 +342,12 @@ fn two_alphas_turn_into_two_stages() {
         let q = &m["predictions"][format!("{}", p.n_star)];
         let tag = format!("E N_*={}", p.n_star);
         close_rel(&format!("{tag} P_iso"), p.p_iso, q["P_iso"].as_f64().unwrap(), 1e-8);
-        close(&format!("{tag} P_cross"), p.p_cross.unwrap(), q["P_cross"].as_f64().unwrap(), 1e-11);
+        close(
+            &format!("{tag} P_cross"),
+            p.p_cross.unwrap(),
+            q["P_cross"].as_f64().unwrap(),
+            1e-11,
+        );
     }
     let after = &report.predictions[0];
     let twelve = m["twelve_alpha_over_N2"]["20"]["alpha_x_1_6"].as_f64().unwrap();
@@ -257,7 +365,12 @@ fn curved_field_space_gives_the_reference_isocurvature() {
     let rep = predict(&mut s, &[0.990799680812754, 0.0], None, &[55.0], &no_delta_n()).unwrap();
     let p = &rep.predictions[0];
     close_rel("disk P_iso", p.p_iso, c["P_iso_single_mode"].as_f64().unwrap(), 1e-8);
-    close_rel("disk P_zeta", p.p_zeta, c["P_zeta_two_field_route"].as_f64().unwrap(), 1e-8);
+    close_rel(
+        "disk P_zeta",
+        p.p_zeta,
+        c["P_zeta_two_field_route"].as_f64().unwrap(),
+        1e-8,
+    );
     // Geodesic motion: no turn; the entropic mass carries eps R = 2 eps K < 0.
     assert!(p.turn_rate < 1e-12, "{}", p.turn_rate);
 }
@@ -273,13 +386,28 @@ fn closed_form_geometry_matches_sympy() {
     let d = &g["poincare_disk"];
     for (k, v) in d["Gamma_at_point"].as_object().unwrap() {
         let i: Vec<usize> = k.split(',').map(|x| x.parse().unwrap()).collect();
-        close(&format!("disk Gamma {k}"), at.gamma(i[0], i[1], i[2]), v.as_f64().unwrap(), 1e-14);
+        close(
+            &format!("disk Gamma {k}"),
+            at.gamma(i[0], i[1], i[2]),
+            v.as_f64().unwrap(),
+            1e-14,
+        );
     }
     for (k, v) in d["Riemann_at_point"].as_object().unwrap() {
         let i: Vec<usize> = k.split(',').map(|x| x.parse().unwrap()).collect();
-        close(&format!("disk R {k}"), at.riemann(i[0], i[1], i[2], i[3]), v.as_f64().unwrap(), 1e-13);
+        close(
+            &format!("disk R {k}"),
+            at.riemann(i[0], i[1], i[2], i[3]),
+            v.as_f64().unwrap(),
+            1e-13,
+        );
     }
-    close("disk G_00", at.g[(0, 0)], d["metric_at_point"]["0,0"].as_f64().unwrap(), 1e-14);
+    close(
+        "disk G_00",
+        at.g[(0, 0)],
+        d["metric_at_point"]["0,0"].as_f64().unwrap(),
+        1e-14,
+    );
     let p = &g["product_of_pole_metrics"];
     let mut prod = Diagonal {
         c: vec![1.0, 1.0],
@@ -289,7 +417,12 @@ fn closed_form_geometry_matches_sympy() {
     prod.local(&[0.3, -0.2], &mut at).unwrap();
     for (k, v) in p["Gamma_at_point"].as_object().unwrap() {
         let i: Vec<usize> = k.split(',').map(|x| x.parse().unwrap()).collect();
-        close(&format!("product Gamma {k}"), at.gamma(i[0], i[1], i[2]), v.as_f64().unwrap(), 1e-14);
+        close(
+            &format!("product Gamma {k}"),
+            at.gamma(i[0], i[1], i[2]),
+            v.as_f64().unwrap(),
+            1e-14,
+        );
     }
     assert!(p["flat"].as_bool().unwrap() && at.riemann.iter().all(|x| *x == 0.0));
 }

@@ -2,7 +2,7 @@
 //! the text to print. The binary only calls [`main`].
 //!
 //! Exit codes. This table is their one description; the codes are chosen by the constructors
-//! of [`Failure`] ([`Failure::input`], [`Failure::drifted`], [`Failure::quiet`]) and by clap
+//! of [`Failure`] (`Failure::input`, `Failure::drifted`, [`Failure::quiet`]) and by clap
 //! for the arguments it refuses:
 //!
 //! | code | meaning |

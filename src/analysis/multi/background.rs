@@ -327,7 +327,14 @@ mod tests {
         let mut s = Diagonal::quadratic([1.0, 1.0], Metric1::Flat);
         let mut flow = Flow::new(&mut s);
         let e = start_state(&mut flow, &[1.0], None).unwrap_err();
-        assert!(matches!(*e.kind, ErrorKind::MultiDimension { got: 1, expected: 2, .. }));
+        assert!(matches!(
+            *e.kind,
+            ErrorKind::MultiDimension {
+                got: 1,
+                expected: 2,
+                ..
+            }
+        ));
         let e = start_state(&mut flow, &[1.0, 1.0], Some(&[1.0, 1.0, 0.0])).unwrap_err();
         assert!(matches!(*e.kind, ErrorKind::MultiDimension { what: "velocity", .. }));
         let e = start_state(&mut flow, &[1.0, 1.0], Some(&[1.0, 1.0])).unwrap_err();

@@ -131,7 +131,8 @@ impl FieldSpace for Disk {
                 for c in 0..2 {
                     at.gamma[(a * 2 + b) * 2 + c] = d(a, b) * dw[c] + d(a, c) * dw[b] - d(b, c) * dw[a];
                     for e in 0..2 {
-                        at.riemann[((a * 2 + b) * 2 + c) * 2 + e] = k * (d(a, c) * e2w * d(b, e) - d(a, e) * e2w * d(b, c));
+                        at.riemann[((a * 2 + b) * 2 + c) * 2 + e] =
+                            k * (d(a, c) * e2w * d(b, e) - d(a, e) * e2w * d(b, c));
                     }
                 }
             }

@@ -35,7 +35,9 @@ pub fn mass_matrix(l: &Local, pi: &[f64], eps: f64, h2: f64) -> DMatrix<f64> {
     let hess = l.covariant_hessian();
     let gi_hess = &l.g_inv * hess;
     let pil: Vec<f64> = (0..n).map(|a| (0..n).map(|b| l.g[(a, b)] * pi[b]).sum()).collect();
-    let vup: Vec<f64> = (0..n).map(|a| (0..n).map(|b| l.g_inv[(a, b)] * l.dv[b]).sum()).collect();
+    let vup: Vec<f64> = (0..n)
+        .map(|a| (0..n).map(|b| l.g_inv[(a, b)] * l.dv[b]).sum())
+        .collect();
     DMatrix::from_fn(n, n, |a, b| {
         let mut curv = 0.0;
         for c in 0..n {
@@ -187,7 +189,14 @@ impl Scratch {
 }
 
 /// The right-hand side of the background with the modes of ln k, into dy.
-fn rhs(flow: &mut Flow<'_>, sc: &mut Scratch, ln_k: f64, nn: f64, y: &[f64], dy: &mut [f64]) -> Result<(), AnalysisError> {
+fn rhs(
+    flow: &mut Flow<'_>,
+    sc: &mut Scratch,
+    ln_k: f64,
+    nn: f64,
+    y: &[f64],
+    dy: &mut [f64],
+) -> Result<(), AnalysisError> {
     let n = flow.n();
     let lay = Layout { n };
     let eps = flow.rhs(&y[..2 * n], &mut dy[..2 * n])?;
@@ -373,6 +382,9 @@ mod tests {
         let [fr, fi, dfr, dfi] = hankel(&DMatrix::from_element(1, 1, 1.0), z, 0.0);
         assert!((fr[(0, 0)] - z).abs() < 1e-14 && (fi[(0, 0)] - 1.0).abs() < 1e-14);
         // -(1 + i z)(1 + i/z) + i/z = -(1 - 1) - i (z + 1/z) + i/z = -i z
-        assert!(dfr[(0, 0)].abs() < 1e-12 && (dfi[(0, 0)] + z * z).abs() < 1e-12, "{dfr} {dfi}");
+        assert!(
+            dfr[(0, 0)].abs() < 1e-12 && (dfi[(0, 0)] + z * z).abs() < 1e-12,
+            "{dfr} {dfi}"
+        );
     }
 }

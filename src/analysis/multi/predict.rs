@@ -137,7 +137,12 @@ pub fn predict(
 }
 
 /// The prediction at one N_*.
-fn at_pivot(flow: &mut Flow<'_>, bg: &Run, n_star: f64, settings: &MultiSettings) -> Result<MultiPrediction, AnalysisError> {
+fn at_pivot(
+    flow: &mut Flow<'_>,
+    bg: &Run,
+    n_star: f64,
+    settings: &MultiSettings,
+) -> Result<MultiPrediction, AnalysisError> {
     let limits = &settings.limits;
     let n = flow.n();
     // The lowest k of the stencil starts ln(k_start) + 2 steps (and a margin) before the pivot.

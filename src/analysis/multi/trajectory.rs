@@ -94,7 +94,12 @@ pub fn normal(l: &Local, t: &[f64]) -> Vec<f64> {
 pub fn in_frame(l: &Local, u: &[f64]) -> Option<Vec<f64>> {
     let c = l.g.clone().cholesky()?;
     let lt = c.l().transpose();
-    Some((&lt * nalgebra::DVector::from_column_slice(u)).iter().copied().collect())
+    Some(
+        (&lt * nalgebra::DVector::from_column_slice(u))
+            .iter()
+            .copied()
+            .collect(),
+    )
 }
 
 /// m_s^2/H^2 = s_a M^a_b s^b for two fields (module docs), given M^a_b/H^2.
@@ -134,7 +139,12 @@ pub fn profile(flow: &mut Flow<'_>, run: &Run) -> Result<Vec<Sample>, AnalysisEr
 
 /// The largest turn rate: the largest at the checkpoints, refined by golden-section search
 /// between its neighbours (to 1e-7 e-folds).
-pub fn max_turn(flow: &mut Flow<'_>, run: &Run, samples: &[Sample], limits: &MultiLimits) -> Result<MaxTurn, AnalysisError> {
+pub fn max_turn(
+    flow: &mut Flow<'_>,
+    run: &Run,
+    samples: &[Sample],
+    limits: &MultiLimits,
+) -> Result<MaxTurn, AnalysisError> {
     let n = flow.n();
     let i = (0..samples.len())
         .max_by(|&a, &b| samples[a].turn_rate.total_cmp(&samples[b].turn_rate))
@@ -182,7 +192,12 @@ pub fn max_turn(flow: &mut Flow<'_>, run: &Run, samples: &[Sample], limits: &Mul
 
 /// The stages: maximal stretches of checkpoints with turn rate below `limits.stage_turn`, at
 /// least `limits.stage_min_efolds` long, from the start toward the end.
-pub fn stages(flow: &mut Flow<'_>, run: &Run, samples: &[Sample], limits: &MultiLimits) -> Result<Vec<Stage>, AnalysisError> {
+pub fn stages(
+    flow: &mut Flow<'_>,
+    run: &Run,
+    samples: &[Sample],
+    limits: &MultiLimits,
+) -> Result<Vec<Stage>, AnalysisError> {
     let n = flow.n();
     let mut out = Vec::new();
     let mut i = 0;
