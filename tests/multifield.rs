@@ -100,7 +100,9 @@ fn exact_against_reference(name: &str, report: &MultiReport) {
             &format!("{tag} alpha_s"),
             p.alpha_s,
             q["alpha_s"].as_f64().unwrap(),
-            1e-7,
+            // The second difference over h = 0.05 multiplies relative errors of P (1e-10 on
+            // either side) by up to 64/(12 h^2) ~ 2000: 2e-7, with the reference's 5e-8.
+            3e-7,
         );
         close(&format!("{tag} n_t"), p.n_t, q["n_t"].as_f64().unwrap(), 1e-10);
         close_rel(&format!("{tag} P_zeta"), p.p_zeta, q["P_zeta"].as_f64().unwrap(), 1e-9);
@@ -305,8 +307,10 @@ fn heavy_spectator_is_the_one_field_quadratic() {
     against_one_field("F", "one_field_quadratic", &report, 1e-6);
     for p in &report.predictions {
         assert_eq!(p.fields_star[1], 0.0);
-        // The heavy mode decays like a^-3/2: its isocurvature is zero for any test.
-        assert!(p.p_iso < 1e-40 && p.beta_iso < 1e-40, "{p:?}");
+        // The heavy mode decays like a^-3/2 (reference: P_iso ~ 1e-58 to 1e-74): what is left
+        // is the modes' absolute tolerance, 1e-3 (H/2 pi) mode_rtol ~ 1e-14 in Q, squared.
+        eprintln!("F N_*={} P_iso {:e}, beta_iso {:e}", p.n_star, p.p_iso, p.beta_iso);
+        assert!(p.p_iso < 1e-20 && p.beta_iso < 1e-20, "{p:?}");
     }
 }
 

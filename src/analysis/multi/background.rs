@@ -10,7 +10,7 @@
 //! Stewart 1996, in e-folds, from memory; as in tests/reference/MULTIFIELD.md). The state is
 //! (phi^0..phi^{n-1}, pi^0..pi^{n-1}); inflation ends at eps_H = 1.
 
-use super::ode::{integrate, Failure, Tolerances};
+use super::ode::{integrate, integrate_extrapolated, Failure, Tolerances};
 use super::{FieldSpace, Local};
 use crate::analysis::error::{AnalysisError, ErrorKind};
 use crate::config::MultiLimits;
@@ -214,21 +214,21 @@ pub fn run(flow: &mut Flow<'_>, start: &[f64], limits: &MultiLimits) -> Result<R
 }
 
 /// The e-folds from `start` to eps_H = 1 (at most `limits.max_efolds`), keeping no
-/// checkpoints: steps up to `limits.free_step`.
+/// checkpoints: extrapolation steps ([`super::ode::integrate_extrapolated`]) up to
+/// `limits.free_step`.
 pub fn efolds_to_end(flow: &mut Flow<'_>, start: &[f64], limits: &MultiLimits) -> Result<f64, AnalysisError> {
     let flow = RefCell::new(flow);
     let tol = Tolerances {
         h_max: limits.free_step,
         ..tolerances(limits)
     };
-    let end = integrate(
+    let end = integrate_extrapolated(
         &mut |_: f64, y: &[f64], dy: &mut [f64]| flow.borrow_mut().rhs(y, dy).map(|_| ()),
         0.0,
         start,
         limits.max_efolds,
         &tol,
         &mut |_, y| Some(flow.borrow().eps_last(y) - 1.0),
-        &mut |_, _| {},
     )
     .map_err(failure)?;
     if !end.event {
