@@ -175,7 +175,7 @@ pub struct MultiLimits {
     /// checkpoints at most. Default 0.05.
     pub bg_step: f64,
     /// Largest step of the runs that keep no checkpoints (the delta-N runs and the modes), in
-    /// e-folds. Default 1: the error control sets the step well below it.
+    /// e-folds. Default 4: outside the horizon the solutions are smooth over several e-folds.
     pub free_step: f64,
     /// Modes start when k/aH falls to this (deep inside the horizon). Default 100.
     pub k_start: f64,
@@ -198,7 +198,7 @@ impl Default for MultiLimits {
             bg_rtol: 1e-12,
             mode_rtol: 1e-11,
             bg_step: 0.05,
-            free_step: 1.0,
+            free_step: 4.0,
             k_start: 100.0,
             tilt_step: 0.05,
             delta_n_step: 0.02,

@@ -243,13 +243,19 @@ pub fn crossing(
 ) -> Result<(f64, Vec<f64>), AnalysisError> {
     let kappa_of = |ln_k: f64| ln_k.exp();
     let gap = |flow: &mut Flow<'_>, nn: f64, y: &[f64]| flow.ln_h(y).map(|lh| ln_k - nn - lh - target.ln());
-    let mut j = None;
-    for (i, (nn, y)) in run.checkpoints.iter().enumerate() {
-        if gap(flow, *nn, y)? < 0.0 {
-            j = Some(i);
-            break;
+    // k/aH falls monotonically while eps_H < 1 (d ln(aH)/dN = 1 - eps_H): bisect the
+    // checkpoints for the first one past the target.
+    let cps = &run.checkpoints;
+    let (mut lo, mut hi) = (0usize, cps.len());
+    while lo < hi {
+        let mid = (lo + hi) / 2;
+        if gap(flow, cps[mid].0, &cps[mid].1)? < 0.0 {
+            hi = mid;
+        } else {
+            lo = mid + 1;
         }
     }
+    let j = (lo < cps.len()).then_some(lo);
     let j = match j {
         Some(0) => {
             return Err(ErrorKind::StartsTooLate {

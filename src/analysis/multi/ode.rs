@@ -282,71 +282,6 @@ fn locate(
     })
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn tol(rtol: f64) -> Tolerances {
-        Tolerances {
-            rtol,
-            atol: vec![1e-300],
-            h_max: 1.0,
-            max_steps: 100_000,
-        }
-    }
-
-    /// y' = y cos t: y = exp(sin t) (closed form), to the tolerance.
-    #[test]
-    fn closed_form_to_tolerance() {
-        let mut f = |t: f64, y: &[f64], dy: &mut [f64]| {
-            dy[0] = y[0] * t.cos();
-            Ok(())
-        };
-        let r = integrate(&mut f, 0.0, &[1.0], 5.0, &tol(1e-10), &mut |_, _| None, &mut |_, _| {}).unwrap();
-        let exact = 5f64.sin().exp();
-        assert!(((r.y[0] - exact) / exact).abs() < 1e-8, "{r:?}");
-    }
-
-    /// The same with extrapolation steps, to a tighter tolerance in far fewer steps.
-    #[test]
-    fn extrapolation_to_tolerance() {
-        let mut f = |t: f64, y: &[f64], dy: &mut [f64]| {
-            dy[0] = y[0] * t.cos();
-            Ok(())
-        };
-        let r = integrate_extrapolated(&mut f, 0.0, &[1.0], 5.0, &tol(1e-12), &mut |_, _| None).unwrap();
-        let exact = 5f64.sin().exp();
-        assert!(((r.y[0] - exact) / exact).abs() < 1e-10, "{r:?}");
-        assert!(r.steps < 60, "{}", r.steps);
-        let mut g = |_: f64, _: &[f64], dy: &mut [f64]| {
-            dy[0] = 1.0;
-            Ok(())
-        };
-        let r = integrate_extrapolated(&mut g, 0.0, &[0.0], 5.0, &tol(1e-10), &mut |_, y| Some(y[0] - 0.7)).unwrap();
-        assert!(r.event && (r.t - 0.7).abs() < 1e-12, "{r:?}");
-    }
-
-    /// The event y = 0.7 on y' = 1, located to 1e-12.
-    #[test]
-    fn event_located() {
-        let mut f = |_: f64, _: &[f64], dy: &mut [f64]| {
-            dy[0] = 1.0;
-            Ok(())
-        };
-        let r = integrate(
-            &mut f,
-            0.0,
-            &[0.0],
-            5.0,
-            &tol(1e-10),
-            &mut |_, y| Some(y[0] - 0.7),
-            &mut |_, _| {},
-        )
-        .unwrap();
-        assert!(r.event && (r.t - 0.7).abs() < 1e-12, "{r:?}");
-    }
-}
-
 /// The substep counts of [`gbs_step`]: 2, 4, ..., 16 (eight columns, error of order 2 x 8).
 const GBS: [usize; 8] = [2, 4, 6, 8, 10, 12, 14, 16];
 
@@ -511,4 +446,69 @@ fn locate_extrapolated(
         steps,
         error_ratio: worst,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn tol(rtol: f64) -> Tolerances {
+        Tolerances {
+            rtol,
+            atol: vec![1e-300],
+            h_max: 1.0,
+            max_steps: 100_000,
+        }
+    }
+
+    /// y' = y cos t: y = exp(sin t) (closed form), to the tolerance.
+    #[test]
+    fn closed_form_to_tolerance() {
+        let mut f = |t: f64, y: &[f64], dy: &mut [f64]| {
+            dy[0] = y[0] * t.cos();
+            Ok(())
+        };
+        let r = integrate(&mut f, 0.0, &[1.0], 5.0, &tol(1e-10), &mut |_, _| None, &mut |_, _| {}).unwrap();
+        let exact = 5f64.sin().exp();
+        assert!(((r.y[0] - exact) / exact).abs() < 1e-8, "{r:?}");
+    }
+
+    /// The same with extrapolation steps, to a tighter tolerance in far fewer steps.
+    #[test]
+    fn extrapolation_to_tolerance() {
+        let mut f = |t: f64, y: &[f64], dy: &mut [f64]| {
+            dy[0] = y[0] * t.cos();
+            Ok(())
+        };
+        let r = integrate_extrapolated(&mut f, 0.0, &[1.0], 5.0, &tol(1e-12), &mut |_, _| None).unwrap();
+        let exact = 5f64.sin().exp();
+        assert!(((r.y[0] - exact) / exact).abs() < 1e-10, "{r:?}");
+        assert!(r.steps < 60, "{}", r.steps);
+        let mut g = |_: f64, _: &[f64], dy: &mut [f64]| {
+            dy[0] = 1.0;
+            Ok(())
+        };
+        let r = integrate_extrapolated(&mut g, 0.0, &[0.0], 5.0, &tol(1e-10), &mut |_, y| Some(y[0] - 0.7)).unwrap();
+        assert!(r.event && (r.t - 0.7).abs() < 1e-12, "{r:?}");
+    }
+
+    /// The event y = 0.7 on y' = 1, located to 1e-12.
+    #[test]
+    fn event_located() {
+        let mut f = |_: f64, _: &[f64], dy: &mut [f64]| {
+            dy[0] = 1.0;
+            Ok(())
+        };
+        let r = integrate(
+            &mut f,
+            0.0,
+            &[0.0],
+            5.0,
+            &tol(1e-10),
+            &mut |_, y| Some(y[0] - 0.7),
+            &mut |_, _| {},
+        )
+        .unwrap();
+        assert!(r.event && (r.t - 0.7).abs() < 1e-12, "{r:?}");
+    }
 }
