@@ -333,10 +333,12 @@ fn gbs_step(f: &mut dyn Rhs, t: f64, y: &[f64], h: f64, tol: &Tolerances) -> Res
     Ok((prev.pop().unwrap_or_default(), err))
 }
 
-/// [`integrate`] with Gragg–Bulirsch–Stoer steps ([`gbs_step`], error of order 16): far fewer
-/// steps at tight tolerances on smooth problems (the modes outside the horizon). The same
-/// contract: `event` right after `f` at the same state, its zero located by Brent's method
-/// (to 1e-13 of the step).
+/// [`integrate`] with Gragg–Bulirsch–Stoer steps (the modified midpoint rule with 2, 4, ...,
+/// 16 substeps extrapolated in h^2, error of order 16): far fewer steps at tight tolerances
+/// on smooth problems (the modes outside the horizon). The same contract: `event` right after
+/// `f` at the same state, its zero located by Brent's method (to 1e-13 of the step). The
+/// step's error estimate, scaled by the tolerances, is kept below 1; `End::error_ratio` is
+/// the largest accepted.
 pub fn integrate_extrapolated(
     f: &mut dyn Rhs,
     t0: f64,
