@@ -155,6 +155,59 @@ pub const DEFAULT_N_STARS: [f64; 3] = [50.0, 55.0, 60.0];
 /// not given: 55, the middle of [`DEFAULT_N_STARS`].
 pub const DEFAULT_N_STAR: f64 = 55.0;
 
+/// Limits and tolerances of the multi-field analyses ([`crate::analysis::multi`]), with their
+/// defaults.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MultiLimits {
+    /// Most fields. Default 16: the mode matrix has 4 n^2 real components, and a prediction
+    /// with delta-N runs 4 n^2 backgrounds, so 16 fields are already some thousand times the
+    /// work of two.
+    pub max_fields: usize,
+    /// Cap on the e-folds of one background run. Default 10 000: no model of the trade needs
+    /// more, and a trajectory that has not ended by then is reported as never ending.
+    pub max_efolds: f64,
+    /// Relative tolerance of the background integration. Default 1e-12 (absolute 1e-3 times
+    /// it), as the multi-field reference calculation uses.
+    pub bg_rtol: f64,
+    /// Relative tolerance of the mode integrations. Default 1e-11.
+    pub mode_rtol: f64,
+    /// Largest step of the background in e-folds, which is also the spacing of its
+    /// checkpoints at most. Default 0.05.
+    pub bg_step: f64,
+    /// Largest step of the runs that keep no checkpoints (the delta-N runs and the modes), in
+    /// e-folds. Default 4: outside the horizon the solutions are smooth over several e-folds.
+    pub free_step: f64,
+    /// Modes start when k/aH falls to this (deep inside the horizon). Default 100.
+    pub k_start: f64,
+    /// Step of the five-point stencils for the tilts, in ln k. Default 0.05.
+    pub tilt_step: f64,
+    /// Field distance of the first delta-N step (the second is half of it). Default 0.02.
+    pub delta_n_step: f64,
+    /// Turn rate eta_perp/H below which the trajectory counts as running along one direction
+    /// (a stage). Default 0.03: a third of the largest turn of the reference turning models.
+    pub stage_turn: f64,
+    /// Shortest stage reported, in e-folds. Default 1.
+    pub stage_min_efolds: f64,
+}
+
+impl Default for MultiLimits {
+    fn default() -> Self {
+        MultiLimits {
+            max_fields: 16,
+            max_efolds: 10_000.0,
+            bg_rtol: 1e-12,
+            mode_rtol: 1e-11,
+            bg_step: 0.05,
+            free_step: 4.0,
+            k_start: 100.0,
+            tilt_step: 0.05,
+            delta_n_step: 0.02,
+            stage_turn: 0.03,
+            stage_min_efolds: 1.0,
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -456,6 +456,63 @@ pub enum ErrorKind {
         /// Each target there.
         misses: Vec<Miss>,
     },
+
+    // --- Several fields.
+    /// More fields than the multi-field analyses take.
+    MultiTooManyFields {
+        /// The model's fields.
+        n: usize,
+        /// The limit ([`crate::config::MultiLimits::max_fields`]).
+        max: usize,
+    },
+    /// A start point or velocity with the wrong number of components.
+    MultiDimension {
+        /// What was given (`start`, `velocity`).
+        what: &'static str,
+        /// Its components.
+        got: usize,
+        /// The model's fields.
+        expected: usize,
+    },
+    /// The multi-field background never reaches eps_H = 1 within the cap on e-folds.
+    MultiNeverEnds {
+        /// The e-folds it ran.
+        ran: f64,
+        /// eps_H where it stopped.
+        eps_h: f64,
+        /// The field point where it stopped.
+        at: Vec<f64>,
+    },
+    /// The multi-field background gives fewer e-folds than an N_* (with room for its modes).
+    MultiTooFewEfolds {
+        /// The e-folds from the start to the end of inflation.
+        available: f64,
+        /// The e-folds needed before the end.
+        needed: f64,
+        /// The N_* asked for.
+        n_star: f64,
+    },
+    /// The start of the multi-field background is not an inflating point (eps_H >= 1 there).
+    MultiStartNotInflating {
+        /// eps_H at the start.
+        eps_h: f64,
+        /// The start.
+        at: Vec<f64>,
+    },
+    /// The metric G_ab is not positive definite at a point of the trajectory.
+    MultiMetricNotPositive {
+        /// The field point.
+        at: Vec<f64>,
+    },
+    /// A number of a multi-field prediction is not finite.
+    MultiNotFinite {
+        /// The report key.
+        key: &'static str,
+        /// Its value.
+        value: f64,
+        /// N_*.
+        n_star: f64,
+    },
 }
 
 /// Significant digits of fitted parameter values in messages (as in the fit's report).
@@ -562,6 +619,18 @@ impl ErrorKind {
             FitUnknownFree { .. } => &["--free takes a parameter's name"],
             FitStart { .. } => &["start the fit from values that predict"],
             FitJacobian { .. } => &["start closer to a solution"],
+            MultiTooManyFields { .. } => &["split the model, or raise the limit in config::MultiLimits"],
+            MultiDimension { .. } => &["give one number per field, in the model's field order"],
+            MultiNeverEnds { .. } => &[
+                "inflation would have to end by another mechanism, or the trajectory has not reached its end within the cap",
+                "start closer to the minimum, or raise the cap in config::MultiLimits",
+            ],
+            MultiTooFewEfolds { .. } => &["start further up the potential, or ask for fewer e-folds"],
+            MultiStartNotInflating { .. } => &["start where the potential is flatter, or with a smaller velocity"],
+            MultiMetricNotPositive { .. } => &["the kinetic term must be positive in every direction along the trajectory: check the metric there"],
+            MultiNotFinite { .. } => &[
+                "V or the metric is not smooth enough along the trajectory, or the numbers leave double precision",
+            ],
             FitNoSolution { .. } => &[
                 "the targets may be out of the model's reach at this N_*: check them against a scan",
                 "or start from other values with --param",
@@ -625,6 +694,13 @@ impl fmt::Display for ErrorKind {
             | FitJacobian { .. }
             | FitJacobianAtSolution { .. }
             | FitNoSolution { .. } => self.fmt_fit(f),
+            MultiTooManyFields { .. }
+            | MultiDimension { .. }
+            | MultiNeverEnds { .. }
+            | MultiTooFewEfolds { .. }
+            | MultiStartNotInflating { .. }
+            | MultiMetricNotPositive { .. }
+            | MultiNotFinite { .. } => self.fmt_multi(f),
         }
     }
 }
@@ -916,6 +992,49 @@ impl ErrorKind {
                 number(*n_before_end)
             ),
             NoWavenumbers => f.write_str("no wavenumbers asked for"),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages of the multi-field analyses.
+    fn fmt_multi(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        let point = |at: &[f64]| at.iter().map(|x| number(*x)).collect::<Vec<_>>().join(", ");
+        match self {
+            MultiTooManyFields { n, max } => write!(
+                f,
+                "the model has {n} fields; the multi-field analyses take at most {max}"
+            ),
+            MultiDimension { what, got, expected } => write!(
+                f,
+                "the {what} has {got} component(s), but the model has {expected} field(s)"
+            ),
+            MultiNeverEnds { ran, eps_h, at } => write!(
+                f,
+                "inflation does not end: after {} e-folds eps_H is {} at ({}), still below 1",
+                number(*ran),
+                number(*eps_h),
+                point(at)
+            ),
+            MultiTooFewEfolds { available, needed, n_star } => write!(
+                f,
+                "the background gives {} e-folds from the start to the end of inflation, fewer than the {} needed for N_* = {} and its modes, which start inside the horizon",
+                number(*available),
+                number(*needed),
+                typed(*n_star)
+            ),
+            MultiStartNotInflating { eps_h, at } => write!(
+                f,
+                "the start ({}) does not inflate: eps_H = {} there (inflation needs eps_H < 1)",
+                point(at),
+                number(*eps_h)
+            ),
+            MultiMetricNotPositive { at } => write!(f, "the metric is not positive definite at ({})", point(at)),
+            MultiNotFinite { key, value, n_star } => write!(
+                f,
+                "{key} = {value} at N_* = {} is not a finite number",
+                typed(*n_star)
+            ),
             _ => unreachable!("{self:?} is not formatted here"),
         }
     }

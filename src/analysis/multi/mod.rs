@@ -10,7 +10,14 @@
 //!   (positive on a sphere), stored at `((a * n + b) * n + c) * n + d`;
 //! - the covariant Hessian V_;ab = d_a d_b V - Gamma^c_ab V_c.
 
+pub mod background;
+pub mod closed_form;
+pub mod delta_n;
+pub mod modes;
+pub mod ode;
+pub mod predict;
 pub mod space;
+pub mod trajectory;
 
 use crate::analysis::error::AnalysisError;
 use nalgebra::DMatrix;
