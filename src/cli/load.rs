@@ -17,6 +17,14 @@ use std::path::Path;
 /// `example` is the command line suggested when no model is given, e.g.
 /// `efold predict models/pole-order-2-quadratic.toml`.
 pub(crate) fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<Model, Failure> {
+    let model = load_model_any(a, example, config)?;
+    let command = example.split_whitespace().take(2).collect::<Vec<_>>().join(" ");
+    model.one_field_only(&command)?;
+    Ok(model)
+}
+
+/// [`load_model`] for a command that also takes models of several fields (`predict`).
+pub(crate) fn load_model_any(a: &ModelArgs, example: &str, config: &Config) -> Result<Model, Failure> {
     let mut spec = match (&a.model, &a.potential) {
         (Some(path), _) => ModelSpec::load_with(path, &config.limits)?,
         (None, Some(v)) => ModelSpec::inline(v, None),
@@ -28,10 +36,7 @@ pub(crate) fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Resul
         }
     };
     apply_flags(&mut spec, a)?;
-    let model = Model::build(&spec, config)?;
-    let command = example.split_whitespace().take(2).collect::<Vec<_>>().join(" ");
-    model.one_field_only(&command)?;
-    Ok(model)
+    Ok(Model::build(&spec, config)?)
 }
 
 /// `FLAG` text as the origin of a part of it (`start..end`), so that an error in that part is

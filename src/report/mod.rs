@@ -4,6 +4,7 @@
 
 pub mod fit;
 pub mod inspect;
+pub mod multi;
 pub mod numfmt;
 pub mod output;
 pub mod plot;

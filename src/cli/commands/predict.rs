@@ -1,25 +1,31 @@
 //! `predict`: n_s, r and the rest at each N_*.
 
 use crate::analysis::background::Settings;
+use crate::analysis::multi::predict::{predict as multi_predict, MultiSettings};
+use crate::analysis::multi::space::ModelFieldSpace;
 use crate::cli::args::{Method, PredictArgs, TableFormat};
 use crate::cli::check::{
     check_efolds_count, check_predict_flags, check_start_velocity, min_exact_efolds, opts_fix_n_star, reheating_from,
 };
 use crate::cli::files::write_figure;
-use crate::cli::load::{checked_n_stars, load_data, load_model};
+use crate::cli::load::{checked_n_stars, load_data, load_model_any};
 use crate::cli::Failure;
 use crate::config::{Config, SLOW_ROLL_WARN_EFOLDS};
 use crate::diag::Diagnostic;
 use crate::drivers::inspect::{figure, FigureMarks};
 use crate::drivers::predict::{csv, text, Options, Report};
 use crate::drivers::prepared::Prepared;
-use crate::report::numfmt;
+use crate::model::Model;
+use crate::report::{multi, numfmt};
 
 /// `efold predict`: the observables at each N_*, with the figure of V if asked for.
 pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Failure> {
     check_efolds_count(&a.efolds.efolds, config)?;
     check_predict_flags(a)?;
-    let model = load_model(&a.model, "efold predict models/pole-order-2-quadratic.toml", config)?;
+    let model = load_model_any(&a.model, "efold predict models/pole-order-2-quadratic.toml", config)?;
+    if model.n_fields() > 1 {
+        return predict_several_fields(a, &model, config);
+    }
     if let (Some(phi), Some(v)) = (a.start_phi, a.start_velocity) {
         check_start_velocity(&model, phi, v)?;
     }
@@ -95,4 +101,40 @@ fn write_potential_figure(a: &PredictArgs, prep: &Prepared<'_>, rep: &Report, co
     }
     let svg = figure(prep.model(), &ins, &marks, config, a.figure.figure_width)?;
     write_figure(&a.figure, &svg)
+}
+
+/// `efold predict` on a model of several fields: the exact background from the model's start,
+/// the Mukhanov–Sasaki mode matrix at each N_* and the slow-roll delta-N beside it. The
+/// one-field options (branches, second order, reheating, a start given by flag, figures) do not
+/// apply and are refused.
+fn predict_several_fields(a: &PredictArgs, model: &Model, config: &Config) -> Result<String, Failure> {
+    let refused = [
+        (a.branch.is_some(), "--branch"),
+        (a.second_order, "--second-order"),
+        (
+            a.start_phi.is_some() || a.start_velocity.is_some(),
+            "--start-phi / --start-velocity",
+        ),
+        (reheating_from(a)?.is_some(), "--reheat"),
+        (a.figure.wanted(), "--svg / --pdf"),
+    ];
+    if let Some((_, flag)) = refused.iter().find(|(given, _)| *given) {
+        return Err(Diagnostic::new(format!(
+            "{flag} is an option of one-field models; the model `{}` has {} fields",
+            model.spec.name,
+            model.n_fields()
+        ))
+        .with_hint("a model of several fields starts where its [start] table says, and is predicted on the exact route with delta-N beside it")
+        .into());
+    }
+    let data = load_data(&a.data, config)?;
+    let n_stars = checked_n_stars(&a.efolds.efolds, &model.spec, config)?;
+    let mut space = ModelFieldSpace::new(model).expect("a model of several fields has a field space");
+    let (start, velocity) = space.start()?;
+    let rep = multi_predict(&mut space, &start, Some(&velocity), &n_stars, &MultiSettings::default())?;
+    Ok(match a.format {
+        TableFormat::Json => multi::json(&model.spec.name, &rep, data.a_s()),
+        TableFormat::Csv => multi::csv(&rep),
+        TableFormat::Text => multi::text(&model.spec.name, &rep),
+    })
 }
