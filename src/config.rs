@@ -188,6 +188,10 @@ pub struct MultiLimits {
     pub stage_turn: f64,
     /// Shortest stage reported, in e-folds. Default 1.
     pub stage_min_efolds: f64,
+    /// `efold predict` computes the slow-roll delta-N beside the exact route for models of at
+    /// most this many fields. Default 3: delta-N takes 4 n^2 + 1 background runs per N_*, so
+    /// seven fields spend minutes in it with the compiled geometry.
+    pub delta_n_max_fields: usize,
 }
 
 impl Default for MultiLimits {
@@ -204,6 +208,7 @@ impl Default for MultiLimits {
             delta_n_step: 0.02,
             stage_turn: 0.03,
             stage_min_efolds: 1.0,
+            delta_n_max_fields: 3,
         }
     }
 }

@@ -117,11 +117,17 @@ pub fn csv(rep: &MultiReport) -> String {
 pub fn text(model: &str, rep: &MultiReport) -> String {
     use std::fmt::Write as _;
     let mut o = String::new();
+    let with_delta_n = rep.predictions.iter().any(|p| p.n_s_delta_n.is_some());
     let _ = writeln!(
         o,
-        "{model}: {} fields ({}), exact background and Mukhanov–Sasaki modes, slow-roll delta-N beside",
+        "{model}: {} fields ({}), exact background and Mukhanov–Sasaki modes{}",
         rep.fields.len(),
-        rep.fields.join(", ")
+        rep.fields.join(", "),
+        if with_delta_n {
+            ", slow-roll delta-N beside"
+        } else {
+            " (delta-N only for models of at most config::MultiLimits::delta_n_max_fields fields)"
+        }
     );
     let _ = writeln!(o, "inflation lasts {} e-folds", numfmt::number(rep.n_total));
     let _ = writeln!(

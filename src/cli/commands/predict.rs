@@ -131,7 +131,9 @@ fn predict_several_fields(a: &PredictArgs, model: &Model, config: &Config) -> Re
     let n_stars = checked_n_stars(&a.efolds.efolds, &model.spec, config)?;
     let mut space = ModelFieldSpace::new(model).expect("a model of several fields has a field space");
     let (start, velocity) = space.start()?;
-    let rep = multi_predict(&mut space, &start, Some(&velocity), &n_stars, &MultiSettings::default())?;
+    let mut settings = MultiSettings::default();
+    settings.delta_n = model.n_fields() <= settings.limits.delta_n_max_fields;
+    let rep = multi_predict(&mut space, &start, Some(&velocity), &n_stars, &settings)?;
     Ok(match a.format {
         TableFormat::Json => multi::json(&model.spec.name, &rep, data.a_s()),
         TableFormat::Csv => multi::csv(&rep),
