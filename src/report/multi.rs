@@ -67,7 +67,7 @@ pub fn json(model: &str, rep: &MultiReport, a_s: f64) -> String {
 }
 
 /// The CSV columns after the fields at the pivot.
-const CSV_KEYS: [&str; 12] = [
+pub const CSV_KEYS: [&str; 12] = [
     "n_s",
     "r",
     "alpha_s",
