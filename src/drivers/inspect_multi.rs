@@ -189,7 +189,12 @@ fn inspect_space(
 
 /// The `[metric]` entry G_ff.
 fn diagonal_entry<'a>(model: &'a Model, f: &str) -> Option<&'a Text> {
-    model.spec.metric.iter().find(|e| e.key.text.trim() == f).map(|e| &e.value)
+    model
+        .spec
+        .metric
+        .iter()
+        .find(|e| e.key.text.trim() == f)
+        .map(|e| &e.value)
 }
 
 /// True when the expression `e` names no field but `f`.
@@ -206,10 +211,7 @@ fn poles_along(model: &Model, f: &str, phi: &[f64], config: &Config) -> Result<V
     let Some(entry) = diagonal_entry(model, f) else {
         return Ok(Vec::new());
     };
-    let mut params: Vec<ParamSpec> = model
-        .param_pairs()
-        .map(|(name, v)| number_param(name, v))
-        .collect();
+    let mut params: Vec<ParamSpec> = model.param_pairs().map(|(name, v)| number_param(name, v)).collect();
     for (g, v) in model.field_names().iter().zip(phi) {
         if g != f {
             params.push(number_param(g, *v));
@@ -269,4 +271,37 @@ fn trajectory(
         max_turn: max_turn(&mut flow, &bg, &samples, limits)?,
         stages: stages(&mut flow, &bg, &samples, limits)?,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn build(text: &str) -> Model {
+        Model::build(&ModelSpec::from_toml(text, "m.toml").unwrap(), &Config::default()).unwrap()
+    }
+
+    /// The unit sphere, G = diag(1, sin(theta)^2): R = 2 (handbook value, the 2-sphere of
+    /// radius 1 in the convention positive on a sphere).
+    #[test]
+    fn scalar_curvature_of_the_unit_sphere() {
+        let model = build(
+            "fields = [\"t\", \"p\"]\npotential = \"1 + t^2\"\n[metric]\nt = 1\np = \"sin(t)^2\"\n[start]\nt = 1\np = 0\n",
+        );
+        let mut space = ModelFieldSpace::new(&model).unwrap();
+        let mut at = Local::zeros(2);
+        space.local(&[0.7, 0.3], &mut at).unwrap();
+        assert!((ricci_scalar(&at) - 2.0).abs() < 1e-12, "{}", ricci_scalar(&at));
+    }
+
+    /// An entry naming another field is not along its own field alone; parameters do not count.
+    #[test]
+    fn entries_naming_other_fields() {
+        let fields = ["x".to_string(), "y".to_string()];
+        let limits = Limits::default();
+        let e = |s: &str| Text::inline("m", s);
+        assert!(names_only(&e("1/(1 - x^2/(6*a))^2"), "x", &fields, &limits));
+        assert!(!names_only(&e("exp(2*y) + x"), "x", &fields, &limits));
+        assert!(names_only(&e("1"), "y", &fields, &limits));
+    }
 }

@@ -85,7 +85,11 @@ fn start_text(o: &mut String, names: &[String], s: &StartPoint) {
     let _ = writeln!(o, "  dphi/dN ({from}): {}", point(names, &s.velocity));
     let _ = writeln!(o, "  V = {}, eps_H = {}", numfmt::number(s.v), numfmt::number(s.eps_h));
     for (name, row) in names.iter().zip(&s.metric) {
-        let _ = writeln!(o, "  G[{name}] = [{}]", row.iter().map(|g| numfmt::number(*g)).collect::<Vec<_>>().join(", "));
+        let _ = writeln!(
+            o,
+            "  G[{name}] = [{}]",
+            row.iter().map(|g| numfmt::number(*g)).collect::<Vec<_>>().join(", ")
+        );
     }
     let _ = writeln!(
         o,
@@ -105,7 +109,9 @@ fn poles_text(o: &mut String, ins: &MultiInspection) {
         let mut any = false;
         for p in ins.poles.iter().filter(|p| &p.field == f) {
             any = true;
-            let alpha = p.alpha.map_or(String::new(), |a| format!(", alpha = {}", numfmt::number(a)));
+            let alpha = p
+                .alpha
+                .map_or(String::new(), |a| format!(", alpha = {}", numfmt::number(a)));
             let _ = writeln!(
                 o,
                 "pole of G[{f}] at {f} = {} (others at the start): order {}, residue {}{alpha}",
@@ -133,7 +139,11 @@ pub fn text(ins: &MultiInspection) -> String {
     start_text(&mut o, names, &ins.start);
     poles_text(&mut o, ins);
     let t = &ins.trajectory;
-    let _ = writeln!(o, "inflation lasts {} e-folds from the start", numfmt::number(t.n_total));
+    let _ = writeln!(
+        o,
+        "inflation lasts {} e-folds from the start",
+        numfmt::number(t.n_total)
+    );
     let _ = writeln!(
         o,
         "largest turn eta_perp/H = {} at {} e-folds before the end ({})",

@@ -53,9 +53,12 @@ fn inspect_several_fields(a: &InspectArgs, model: &Model, config: &Config) -> Re
         Some(Err(MultiInspectError::Analysis(e))) => return Err(e.into()),
         Some(Err(MultiInspectError::Model(e))) => return Err(e.into()),
         None => {
-            return Err(Diagnostic::new(format!("the model `{}` compiled without its field-space geometry", model.spec.name))
-                .with_hint("write the model with `fields = [...]`, a [metric] table and a [start] table")
-                .into())
+            return Err(Diagnostic::new(format!(
+                "the model `{}` compiled without its field-space geometry",
+                model.spec.name
+            ))
+            .with_hint("write the model with `fields = [...]`, a [metric] table and a [start] table")
+            .into())
         }
     };
     Ok(match a.format {
