@@ -3,7 +3,7 @@
 //! alone (the single-field pole analysis along that field, the others held at the start), and
 //! the trajectory of the multi-field background from the start (no modes, no delta-N).
 
-use crate::analysis::error::AnalysisError;
+use crate::analysis::error::{AnalysisError, ErrorKind};
 use crate::analysis::multi::background::{eps_h, run, start_state, Flow};
 use crate::analysis::multi::space::ModelFieldSpace;
 use crate::analysis::multi::trajectory::{max_turn, profile, stages, MaxTurn, Stage};
@@ -155,6 +155,7 @@ fn inspect_space(
         ricci_scalar: ricci_scalar(&at),
         velocity,
     };
+    check_finite(&fields, &start)?;
     let metric: Vec<MetricText> = model
         .spec
         .metric
@@ -185,6 +186,25 @@ fn inspect_space(
         poles,
         trajectory,
     })
+}
+
+/// An error naming the first number of the start's report that is not finite.
+fn check_finite(fields: &[String], s: &StartPoint) -> Result<(), AnalysisError> {
+    let named = [
+        ("eps_H", s.eps_h),
+        ("det G", s.determinant),
+        ("the scalar curvature R", s.ricci_scalar),
+    ];
+    match named.iter().find(|(_, x)| !x.is_finite()) {
+        Some((what, value)) => Err(ErrorKind::FieldSpaceNotFinite {
+            fields: fields.to_vec(),
+            point: s.point.clone(),
+            what: what.to_string(),
+            value: *value,
+        }
+        .into()),
+        None => Ok(()),
+    }
 }
 
 /// The `[metric]` entry G_ff.
@@ -234,7 +254,10 @@ fn poles_along(model: &Model, f: &str, phi: &[f64], config: &Config) -> Result<V
         if kind != EndKind::Pole {
             continue;
         }
-        if let Some(p) = analyse_pole(&mut ev, end, inward, width) {
+        // A pole whose order or residue could not be measured is not reported.
+        let measured =
+            analyse_pole(&mut ev, end, inward, width).filter(|p| p.order.is_finite() && p.residue.is_finite());
+        if let Some(p) = measured {
             out.push(FieldPole {
                 field: f.to_string(),
                 at: p.phi,
