@@ -85,16 +85,15 @@ fn bad_models_of_several_fields_are_errors_at_their_place() {
 }
 
 /// The shipped models of several fields are read and checked, and every command that analyses
-/// one field refuses them in the loading layer, naming the command (`predict` takes them:
-/// `tests/predict_fields.rs`).
+/// one field refuses them in the loading layer, naming the command (`predict` and `inspect`
+/// take them: `tests/predict_fields.rs`, `tests/inspect_fields.rs`).
 #[test]
 fn one_field_commands_refuse_a_model_of_several_fields() {
     let model = format!(
         "{}/models/several-fields/two-pole-fields-merging.toml",
         env!("CARGO_MANIFEST_DIR")
     );
-    let runs: [&[&str]; 4] = [
-        &["inspect", &model],
+    let runs: [&[&str]; 3] = [
         &["spectrum", &model],
         &["scan", &model, "--vary", "a=0.4:0.6:3"],
         &["fit", &model, "--free", "a", "--target", "n_s=0.965"],
@@ -126,9 +125,25 @@ fn inline_models_of_several_fields() {
         v.extend(extra);
         efold(&v)
     };
-    // A complete inline model is read and checked, then refused by the one-field command.
-    let r = with(&[
-        "--metric", "x=1", "--metric", "y=1", "--metric", "x y=0.2", "--start", "x=1", "--start", "y=2",
+    // A complete inline model is read and checked, then refused by a one-field command.
+    let r = efold(&[
+        "spectrum",
+        "--potential",
+        "x^2 + y^2",
+        "--field",
+        "x",
+        "--field",
+        "y",
+        "--metric",
+        "x=1",
+        "--metric",
+        "y=1",
+        "--metric",
+        "x y=0.2",
+        "--start",
+        "x=1",
+        "--start",
+        "y=2",
     ]);
     assert_eq!(r.code, 2);
     assert!(r.stderr.contains("has 2 fields"), "{}", r.stderr);

@@ -4,6 +4,7 @@
 
 pub mod fit;
 pub mod inspect;
+pub mod inspect_multi;
 pub mod multi;
 pub mod numfmt;
 pub mod output;
