@@ -85,17 +85,16 @@ fn bad_models_of_several_fields_are_errors_at_their_place() {
 }
 
 /// The shipped models of several fields are read and checked, and every command that analyses
-/// one field refuses them in the loading layer, naming the command (`predict` takes them:
-/// `tests/predict_fields.rs`).
+/// one field refuses them in the loading layer, naming the command (`predict` and `spectrum`
+/// take them: `tests/predict_fields.rs`, `tests/spectrum_fields.rs`).
 #[test]
 fn one_field_commands_refuse_a_model_of_several_fields() {
     let model = format!(
         "{}/models/several-fields/two-pole-fields-merging.toml",
         env!("CARGO_MANIFEST_DIR")
     );
-    let runs: [&[&str]; 4] = [
+    let runs: [&[&str]; 3] = [
         &["inspect", &model],
-        &["spectrum", &model],
         &["scan", &model, "--vary", "a=0.4:0.6:3"],
         &["fit", &model, "--free", "a", "--target", "n_s=0.965"],
     ];

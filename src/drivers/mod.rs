@@ -9,3 +9,4 @@ pub mod predict;
 pub mod prepared;
 pub mod scan;
 pub mod spectrum;
+pub mod spectrum_multi;
