@@ -54,7 +54,7 @@ pub struct MultiSpectrum {
 /// What a multi-field spectrum is asked for.
 #[derive(Debug, Clone, PartialEq)]
 pub struct MultiSpectrumRequest<'a> {
-    /// The background's start (fields, then dphi^a/dN).
+    /// The background's start, the fields in field order.
     pub start: &'a [f64],
     /// Its velocity dphi^a/dN.
     pub velocity: &'a [f64],
