@@ -141,6 +141,12 @@ pub const MAX_REHEAT_EFOLDS: f64 = 100.0;
 /// leaves the horizon after inflation has practically ended.
 pub const MIN_EFOLDS: f64 = 1.0;
 
+/// A mode of a multi-field spectrum must cross the horizon (k = aH) at least this many
+/// e-folds before the end of inflation: outside the horizon its growing solution takes over
+/// like e^(-2N) against the decaying one, so after 5 e-folds the decaying part is below 1e-4
+/// of its share at crossing (common practice: modes freeze a few e-folds after crossing).
+pub const MULTI_SPECTRUM_FREEZE_EFOLDS: f64 = 5.0;
+
 /// Below this N_* a slow-roll prediction carries a warning: so close to the end of inflation
 /// the slow-roll parameters are no longer small (common practice: the CMB pivot lies some
 /// 50-60 e-folds before the end).

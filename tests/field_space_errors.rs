@@ -85,16 +85,16 @@ fn bad_models_of_several_fields_are_errors_at_their_place() {
 }
 
 /// The shipped models of several fields are read and checked, and every command that analyses
-/// one field refuses them in the loading layer, naming the command (`predict` and `inspect`
-/// take them: `tests/predict_fields.rs`, `tests/inspect_fields.rs`).
+/// one field refuses them in the loading layer, naming the command (`predict`, `inspect` and
+/// `spectrum` take them: `tests/predict_fields.rs`, `tests/inspect_fields.rs`,
+/// `tests/spectrum_fields.rs`).
 #[test]
 fn one_field_commands_refuse_a_model_of_several_fields() {
     let model = format!(
         "{}/models/several-fields/two-pole-fields-merging.toml",
         env!("CARGO_MANIFEST_DIR")
     );
-    let runs: [&[&str]; 3] = [
-        &["spectrum", &model],
+    let runs: [&[&str]; 2] = [
         &["scan", &model, "--vary", "a=0.4:0.6:3"],
         &["fit", &model, "--free", "a", "--target", "n_s=0.965"],
     ];
@@ -127,7 +127,11 @@ fn inline_models_of_several_fields() {
     };
     // A complete inline model is read and checked, then refused by a one-field command.
     let r = efold(&[
-        "spectrum",
+        "fit",
+        "--free",
+        "q",
+        "--target",
+        "n_s=0.96",
         "--potential",
         "x^2 + y^2",
         "--field",

@@ -492,6 +492,27 @@ pub enum ErrorKind {
         /// The N_* asked for.
         n_star: f64,
     },
+    /// A multi-field spectrum's lowest k would have to start inside the horizon before the
+    /// background starts.
+    MultiSpectrumTooFewEfolds {
+        /// The e-folds from the start to the end of inflation.
+        available: f64,
+        /// The e-folds the lowest k needs before the end.
+        needed: f64,
+        /// The lowest k, in Mpc^-1.
+        k_min_mpc: f64,
+        /// k/aH where a mode starts.
+        k_start: f64,
+    },
+    /// A k of a multi-field spectrum crosses the horizon too close to the end to freeze.
+    MultiSpectrumExitsLate {
+        /// The k, in Mpc^-1.
+        k_mpc: f64,
+        /// e-folds between its crossing (k = aH) and the end; `None` when it never crosses.
+        n_before_end: Option<f64>,
+        /// The fewest e-folds a mode needs outside the horizon.
+        min_efolds: f64,
+    },
     /// The start of the multi-field background is not an inflating point (eps_H >= 1 there).
     MultiStartNotInflating {
         /// eps_H at the start.
@@ -626,6 +647,8 @@ impl ErrorKind {
                 "start closer to the minimum, or raise the cap in config::MultiLimits",
             ],
             MultiTooFewEfolds { .. } => &["start further up the potential, or ask for fewer e-folds"],
+            MultiSpectrumTooFewEfolds { .. } => &["raise --k-min, lower --efolds, or start the model further up the potential"],
+            MultiSpectrumExitsLate { .. } => &["lower --k-max, or raise --efolds"],
             MultiStartNotInflating { .. } => &["start where the potential is flatter, or with a smaller velocity"],
             MultiMetricNotPositive { .. } => &["the kinetic term must be positive in every direction along the trajectory: check the metric there"],
             MultiNotFinite { .. } => &[
@@ -698,6 +721,8 @@ impl fmt::Display for ErrorKind {
             | MultiDimension { .. }
             | MultiNeverEnds { .. }
             | MultiTooFewEfolds { .. }
+            | MultiSpectrumTooFewEfolds { .. }
+            | MultiSpectrumExitsLate { .. }
             | MultiStartNotInflating { .. }
             | MultiMetricNotPositive { .. }
             | MultiNotFinite { .. } => self.fmt_multi(f),
@@ -1022,6 +1047,36 @@ impl ErrorKind {
                 number(*available),
                 number(*needed),
                 typed(*n_star)
+            ),
+            MultiSpectrumTooFewEfolds {
+                available,
+                needed,
+                k_min_mpc,
+                k_start,
+            } => write!(
+                f,
+                "the background gives {} e-folds from the start to the end of inflation, fewer than the {} needed by the lowest k = {} Mpc^-1: its mode must start at k/aH = {} inside the horizon after the background starts",
+                number(*available),
+                number(*needed),
+                typed(*k_min_mpc),
+                typed(*k_start)
+            ),
+            MultiSpectrumExitsLate {
+                k_mpc,
+                n_before_end: Some(n),
+                min_efolds,
+            } => write!(
+                f,
+                "k = {} Mpc^-1 leaves the horizon only {} e-folds before the end of inflation, too late to freeze (a mode needs {} e-folds outside)",
+                typed(*k_mpc),
+                number(*n),
+                typed(*min_efolds)
+            ),
+            MultiSpectrumExitsLate { k_mpc, min_efolds, .. } => write!(
+                f,
+                "k = {} Mpc^-1 never leaves the horizon before the end of inflation (a mode needs {} e-folds outside to freeze)",
+                typed(*k_mpc),
+                typed(*min_efolds)
             ),
             MultiStartNotInflating { eps_h, at } => write!(
                 f,

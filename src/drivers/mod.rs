@@ -10,3 +10,4 @@ pub mod predict;
 pub mod prepared;
 pub mod scan;
 pub mod spectrum;
+pub mod spectrum_multi;

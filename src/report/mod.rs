@@ -12,6 +12,7 @@ pub mod plot;
 pub mod predict;
 pub mod scan;
 pub mod spectrum;
+pub mod spectrum_multi;
 
 /// The parameters for people, `name = value`: a value written as a plain number as typed,
 /// one computed from an expression to the default significant digits.
