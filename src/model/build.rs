@@ -278,7 +278,7 @@ impl Model {
         .with_hint(format!(
             "`{command}` takes a model with one field: `field` and `kinetic`, or `fields = [\"phi\"]` with one [metric] entry"
         ))
-        .with_hint("`efold predict` takes models of several fields (the exact route, with delta-N beside it)");
+        .with_hint("`efold predict`, `efold inspect` and `efold spectrum` take models of several fields");
         Err(match self.spec.fields.first() {
             Some(first) => fields::error_in(
                 first,
