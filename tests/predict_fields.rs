@@ -76,3 +76,27 @@ fn one_field_options_are_refused() {
         assert!(r.stdout.is_empty());
     }
 }
+
+/// A start at the minimum of V (V = 0, no slope) has no slow-roll velocity: a clear error, not
+/// a NaN.
+#[test]
+fn a_start_at_the_minimum_is_refused() {
+    let dir = std::env::temp_dir().join(format!("efold-fields-minimum-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let m = dir.join("at-minimum.toml");
+    std::fs::write(
+        &m,
+        "fields = [\"x\", \"y\"]\npotential = \"(x^2 + 9*y^2)/2\"\n[metric]\nx = \"1\"\ny = \"1\"\n[start]\nx = 0\ny = 0\n",
+    )
+    .unwrap();
+    let r = efold(&["predict", m.to_str().unwrap()]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr
+            .contains("the slow-roll velocity -G^ab V_b / V is not defined there"),
+        "{}",
+        r.stderr
+    );
+    assert!(!r.stderr.contains("NaN") && !r.stderr.contains("nan"), "{}", r.stderr);
+    std::fs::remove_dir_all(&dir).ok();
+}

@@ -1078,6 +1078,11 @@ impl ErrorKind {
                 typed(*k_mpc),
                 typed(*min_efolds)
             ),
+            MultiStartNotInflating { eps_h, at } if eps_h.is_nan() => write!(
+                f,
+                "the start ({}) does not inflate: the slow-roll velocity -G^ab V_b / V is not defined there (V = 0 at a stationary point)",
+                point(at)
+            ),
             MultiStartNotInflating { eps_h, at } => write!(
                 f,
                 "the start ({}) does not inflate: eps_H = {} there (inflation needs eps_H < 1)",
