@@ -100,3 +100,27 @@ fn a_start_at_the_minimum_is_refused() {
     assert!(!r.stderr.contains("NaN") && !r.stderr.contains("nan"), "{}", r.stderr);
     std::fs::remove_dir_all(&dir).ok();
 }
+
+/// A start value of a model of several fields is a constant: one that names a field, or an
+/// unknown name, is an error that lists every field.
+#[test]
+fn start_values_name_every_field_in_their_errors() {
+    let dir = std::env::temp_dir().join(format!("efold-fields-start-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let head = "fields = [\"x\", \"y\"]\npotential = \"(x^2 + 9*y^2)/2\"\n[metric]\nx = \"1\"\ny = \"1\"\n[start]\n";
+    for (name, start, want) in [
+        (
+            "names-a-field",
+            "x = 2\ny = \"x\"\n",
+            "depends on a field (the fields are `x`, `y`)",
+        ),
+        ("unknown", "x = \"nan\"\ny = 1\n", "in scope: the fields `x`, `y`"),
+    ] {
+        let m = dir.join(format!("{name}.toml"));
+        std::fs::write(&m, format!("{head}{start}")).unwrap();
+        let r = efold(&["predict", m.to_str().unwrap()]);
+        assert_eq!(r.code, 2, "{name}: {}", r.stderr);
+        assert!(r.stderr.contains(want), "{name}: {}", r.stderr);
+    }
+    std::fs::remove_dir_all(&dir).ok();
+}

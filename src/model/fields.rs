@@ -247,7 +247,8 @@ pub(super) fn field_values(
             ));
         }
         let label = format!("{what} of `{name}`");
-        out[i] = Some(constant_value(&e.value, &names[0], table, config, &label)?);
+        let all: Vec<&str> = names.iter().map(|n| n.as_str()).collect();
+        out[i] = Some(constant_value(&e.value, &all, table, config, &label)?);
     }
     let mut values = Vec::with_capacity(names.len());
     for (i, v) in out.into_iter().enumerate() {

@@ -12,6 +12,12 @@ use crate::language::tape::Tape;
 /// Every parameter's value, in order: each an expression of `pi` and earlier ones.
 pub(super) fn resolve_params(spec: &ModelSpec, config: &Config) -> Result<ParamTable, ModelError> {
     let mut table = ParamTable::default();
+    // A model of several fields names them all in its errors; one field as always.
+    let fields: Vec<&str> = if spec.fields.len() > 1 {
+        spec.fields.iter().map(|f| f.text.as_str()).collect()
+    } else {
+        vec![spec.field.as_str()]
+    };
     for p in &spec.params {
         if p.name == spec.field {
             return Err(ModelError::plain(
@@ -24,14 +30,8 @@ pub(super) fn resolve_params(spec: &ModelSpec, config: &Config) -> Result<ParamT
                 Diagnostic::new(format!("parameter `{}` is given twice", p.name)).with_hint("give each parameter once"),
             ));
         }
-        let v = constant(
-            &p.value,
-            &spec.field,
-            &table,
-            config,
-            &format!("parameter `{}`", p.name),
-        )
-        .map_err(|e| later_hint(e, spec, table.names().len()))?;
+        let v = constant(&p.value, &fields, &table, config, &format!("parameter `{}`", p.name))
+            .map_err(|e| later_hint(e, spec, table.names().len()))?;
         table.push(&p.name, v);
     }
     Ok(table)
@@ -126,11 +126,27 @@ impl ParamTable {
         text: &str,
         limits: &crate::config::Limits,
     ) -> Result<f64, ConstantError> {
+        self.evaluate_over(&[field], origin, text, limits)
+    }
+
+    /// [`ParamTable::evaluate`] for a model of several fields: `text` may depend on none of
+    /// `fields`, and an error lists them all.
+    pub fn evaluate_over(
+        &self,
+        fields: &[&str],
+        origin: &str,
+        text: &str,
+        limits: &crate::config::Limits,
+    ) -> Result<f64, ConstantError> {
+        let scope = |params: &[&str]| match fields {
+            [one] => Scope::new(one, params),
+            _ => Scope::with_fields(fields, params).unwrap_or_else(|_| Scope::new(fields[0], params)),
+        };
         let full = || {
             // Only on the way to an error: the scope of every parameter so far, so that the
             // message lists them as it always has.
             let refs: Vec<&str> = self.names.iter().map(String::as_str).collect();
-            let mut g = Graph::new(Scope::new(field, &refs));
+            let mut g = Graph::new(scope(&refs));
             match lower_into(&mut g, origin, text, limits) {
                 Err(e) => ConstantError::Expr(e),
                 Ok(_) => unreachable!("an expression that fails over its own names fails over all of them"),
@@ -143,7 +159,7 @@ impl ParamTable {
         collect_params(&ast, &self.index, &mut used);
         let names: Vec<&str> = used.iter().map(|&i| self.names[i].as_str()).collect();
         let values: Vec<f64> = used.iter().map(|&i| self.values[i]).collect();
-        let mut g = Graph::new(Scope::new(field, &names));
+        let mut g = Graph::new(scope(&names));
         let Ok(id) = g.lower(&ast) else {
             return Err(full());
         };
@@ -192,16 +208,16 @@ fn collect_params(
 /// model of several fields); `what` names it in errors.
 pub(super) fn constant_value(
     t: &Text,
-    field: &str,
+    fields: &[&str],
     table: &ParamTable,
     config: &Config,
     what: &str,
 ) -> Result<f64, ModelError> {
-    constant(t, field, table, config, what)
+    constant(t, fields, table, config, what)
 }
 
 /// Evaluates a constant expression (a parameter or a range end).
-fn constant(t: &Text, field: &str, table: &ParamTable, config: &Config, what: &str) -> Result<f64, ModelError> {
+fn constant(t: &Text, fields: &[&str], table: &ParamTable, config: &Config, what: &str) -> Result<f64, ModelError> {
     // A plain number needs no compiler.
     if let Ok(v) = t.text.trim().parse::<f64>() {
         if v.is_finite()
@@ -212,12 +228,19 @@ fn constant(t: &Text, field: &str, table: &ParamTable, config: &Config, what: &s
             return Ok(v);
         }
     }
-    match table.evaluate(field, &t.origin.name, &t.text, &config.limits) {
+    match table.evaluate_over(fields, &t.origin.name, &t.text, &config.limits) {
         Ok(v) => Ok(v),
         Err(ConstantError::Expr(e)) => Err(ModelError::from_expr(e, &t.origin)),
         Err(ConstantError::Varying) => Err(ModelError::plain(
-            Diagnostic::new(format!("{what}: `{}` depends on the field `{field}`", t.text.trim()))
-                .with_hint("a value may use numbers, `pi` and parameters defined before it"),
+            Diagnostic::new(match fields {
+                [one] => format!("{what}: `{}` depends on the field `{one}`", t.text.trim()),
+                _ => format!(
+                    "{what}: `{}` depends on a field (the fields are `{}`)",
+                    t.text.trim(),
+                    fields.join("`, `")
+                ),
+            })
+            .with_hint("a value may use numbers, `pi` and parameters defined before it"),
         )),
         Err(ConstantError::NotFinite(v)) => Err(ModelError::plain(Diagnostic::new(format!(
             "{what}: `{}` is not a finite number ({v})",
@@ -248,7 +271,7 @@ fn range_end(t: &Text, field: &str, table: &ParamTable, config: &Config) -> Resu
     match t.text.trim() {
         "inf" | "+inf" => Ok(f64::INFINITY),
         "-inf" => Ok(f64::NEG_INFINITY),
-        _ => constant(t, field, table, config, "range"),
+        _ => constant(t, &[field], table, config, "range"),
     }
 }
 
