@@ -124,3 +124,31 @@ fn start_values_name_every_field_in_their_errors() {
     }
     std::fs::remove_dir_all(&dir).ok();
 }
+
+/// `--metric` and `--start` name each key once, as `--param` does: a second one is an error at
+/// its place, never a silent choice.
+#[test]
+fn repeated_metric_and_start_flags_are_refused() {
+    let base = ["predict", "--potential", "x^2 + y^2", "--field", "x", "--field", "y"];
+    for (extra, want) in [
+        (
+            &[
+                "--metric", "x=1", "--metric", "x y=0", "--metric", "x  y=0.1", "--metric", "y=1",
+            ][..],
+            "`--metric x y` is given twice",
+        ),
+        (
+            &[
+                "--metric", "x=1", "--metric", "y=1", "--start", "x=10", "--start", "x=11", "--start", "y=1",
+            ][..],
+            "`--start x` is given twice",
+        ),
+    ] {
+        let mut args = base.to_vec();
+        args.extend_from_slice(extra);
+        let r = efold(&args);
+        assert_eq!(r.code, 2, "{}", r.stderr);
+        assert!(r.stderr.contains(want), "{}", r.stderr);
+        assert!(r.stdout.is_empty());
+    }
+}

@@ -67,18 +67,28 @@ pub(crate) fn check_field_name(name: &str) -> Result<(), Failure> {
 
 /// A `--param NAME=...` given twice is refused (else the last would silently win).
 pub(crate) fn check_params_once(flags: &[String]) -> Result<(), Failure> {
-    let name_of = |f: &str| f.split_once('=').map(|(n, _)| n.trim().to_string());
+    check_keys_once("--param", flags, "a --param replaces the model file's value")
+}
+
+/// Each `KEY=VALUE` of a repeated flag (`--param`, `--metric`, `--start`) names its key once
+/// (keys compared word by word, so `x y` and `x  y` are one metric entry); `replaces` says what
+/// one flag does, for the hint.
+pub(crate) fn check_keys_once(flag_name: &str, flags: &[String], replaces: &str) -> Result<(), Failure> {
+    let name_of = |f: &str| {
+        f.split_once('=')
+            .map(|(n, _)| n.split_whitespace().collect::<Vec<_>>().join(" "))
+    };
     for (i, flag) in flags.iter().enumerate() {
         let Some(name) = name_of(flag) else { continue };
         if let Some(first) = flags[..i].iter().find(|f| name_of(f).as_deref() == Some(name.as_str())) {
             let start = flag.find(name.as_str()).unwrap_or(0);
-            let d = Diagnostic::new(format!("`--param {name}` is given twice"))
+            let d = Diagnostic::new(format!("`{flag_name} {name}` is given twice"))
                 .with_span(
                     Span::new(start, start + name.len()),
                     format!("given again here; the first was `{first}`"),
                 )
-                .with_hint("give each --param once (a --param replaces the model file's value)");
-            return Err(Failure::input(d.render(Some(&Source::new("--param", flag)))));
+                .with_hint(format!("give each {flag_name} once ({replaces})"));
+            return Err(Failure::input(d.render(Some(&Source::new(flag_name, flag)))));
         }
     }
     Ok(())

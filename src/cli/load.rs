@@ -3,7 +3,9 @@
 //! `--efolds`, else the model's `efolds` setting, else [`DEFAULT_N_STARS`]); and text files read
 //! with a size limit.
 
-use super::check::{check_efolds_count, check_efolds_values, check_field_name, check_params_once, split_binding};
+use super::check::{
+    check_efolds_count, check_efolds_values, check_field_name, check_keys_once, check_params_once, split_binding,
+};
 use super::Failure;
 use crate::cli::args::{DataArgs, ModelArgs};
 use crate::config::{Config, DEFAULT_N_STARS};
@@ -82,6 +84,8 @@ fn apply_field_flags(spec: &mut ModelSpec, a: &ModelArgs) -> Result<(), Failure>
         spec.fields = a.field.iter().map(|f| flag_part("--field", f, 0, f.len())).collect();
         spec.field = a.field[0].clone();
     }
+    check_keys_once("--metric", &a.metric, "a --metric replaces the model file's entry")?;
+    check_keys_once("--start", &a.start, "a --start replaces the model file's value")?;
     for m in &a.metric {
         let (key, value) = flag_binding("--metric", m, "FIELDS=EXPR")?;
         let words = |k: &str| {

@@ -10,7 +10,7 @@
 //! Stewart 1996, in e-folds, from memory; as in tests/reference/MULTIFIELD.md). The state is
 //! (phi^0..phi^{n-1}, pi^0..pi^{n-1}); inflation ends at eps_H = 1.
 
-use super::ode::{integrate, integrate_extrapolated, Failure, Tolerances};
+use super::ode::{integrate, integrate_extrapolated, End, Failure, Tolerances};
 use super::{FieldSpace, Local};
 use crate::analysis::error::{AnalysisError, ErrorKind};
 use crate::config::MultiLimits;
@@ -194,14 +194,7 @@ pub fn run(flow: &mut Flow<'_>, start: &[f64], limits: &MultiLimits) -> Result<R
     )
     .map_err(failure)?;
     if !end.event {
-        let n = start.len() / 2;
-        let eps = flow.borrow_mut().eps(&end.y)?;
-        return Err(ErrorKind::MultiNeverEnds {
-            ran: end.t,
-            eps_h: eps,
-            at: end.y[..n].to_vec(),
-        }
-        .into());
+        return Err(never_ends(&mut flow.borrow_mut(), &end)?);
     }
     checkpoints.retain(|c| c.0 < end.t);
     checkpoints.push((end.t, end.y.clone()));
@@ -211,6 +204,18 @@ pub fn run(flow: &mut Flow<'_>, start: &[f64], limits: &MultiLimits) -> Result<R
         end: end.y,
         checkpoints,
     })
+}
+
+/// The error of a run that reached its cap without eps_H = 1: how far it ran, eps_H and the
+/// field point there.
+fn never_ends(flow: &mut Flow<'_>, end: &End) -> Result<AnalysisError, AnalysisError> {
+    let eps = flow.eps(&end.y)?;
+    Ok(ErrorKind::MultiNeverEnds {
+        ran: end.t,
+        eps_h: eps,
+        at: end.y[..end.y.len() / 2].to_vec(),
+    }
+    .into())
 }
 
 /// The e-folds from `start` to eps_H = 1 (at most `limits.max_efolds`), keeping no
@@ -232,14 +237,7 @@ pub fn efolds_to_end(flow: &mut Flow<'_>, start: &[f64], limits: &MultiLimits) -
     )
     .map_err(failure)?;
     if !end.event {
-        let n = start.len() / 2;
-        let eps = flow.borrow_mut().eps(&end.y)?;
-        return Err(ErrorKind::MultiNeverEnds {
-            ran: end.t,
-            eps_h: eps,
-            at: end.y[..n].to_vec(),
-        }
-        .into());
+        return Err(never_ends(&mut flow.borrow_mut(), &end)?);
     }
     Ok(end.t)
 }
