@@ -30,20 +30,7 @@ pub fn text(sp: &Spectrum, name: &str) -> String {
         ("P_zeta (slow roll)", column(&|r| r.p_zeta_slow_roll)),
         ("N to end [e-folds]", column(&|r| r.n_before_end)),
     ];
-    let widths: Vec<usize> = cols
-        .iter()
-        .map(|(h, c)| c.iter().map(String::len).chain([h.len()]).max().unwrap_or(0))
-        .collect();
-    let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
-    let _ = writeln!(o, "{}", header.join("  "));
-    for i in 0..sp.rows.len() {
-        let cells: Vec<String> = cols
-            .iter()
-            .zip(&widths)
-            .map(|((_, c), w)| format!("{:>w$}", c[i]))
-            .collect();
-        let _ = writeln!(o, "{}", cells.join("  "));
-    }
+    o.push_str(&columns(&cols, sp.rows.len()));
     let p = &sp.peak;
     let _ = writeln!(o);
     match grid_end(&sp.rows, p) {
@@ -182,4 +169,26 @@ fn at_grid_end(what: &str, end: GridEnd, row: &SpectrumRow, value: f64) -> Strin
         number(row.k_mpc),
         number(row.n_before_end)
     )
+}
+
+/// Columns of cells under their titles, each right-aligned to its widest entry, two spaces
+/// apart: the table of a spectrum (one field or several).
+pub(crate) fn columns(cols: &[(&str, Vec<String>)], rows: usize) -> String {
+    use std::fmt::Write as _;
+    let mut o = String::new();
+    let widths: Vec<usize> = cols
+        .iter()
+        .map(|(h, c)| c.iter().map(String::len).chain([h.len()]).max().unwrap_or(0))
+        .collect();
+    let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
+    let _ = writeln!(o, "{}", header.join("  "));
+    for i in 0..rows {
+        let cells: Vec<String> = cols
+            .iter()
+            .zip(&widths)
+            .map(|((_, c), w)| format!("{:>w$}", c[i]))
+            .collect();
+        let _ = writeln!(o, "{}", cells.join("  "));
+    }
+    o
 }

@@ -2,6 +2,7 @@
 
 use crate::drivers::spectrum_multi::{MultiSpectrum, MultiSpectrumRow};
 use crate::report::numfmt::{self, number, typed};
+use crate::report::spectrum::columns;
 use std::fmt::Write as _;
 
 /// The spectrum as an aligned table under the pivot, the scale and the fields.
@@ -39,20 +40,7 @@ pub fn text(sp: &MultiSpectrum, name: &str) -> String {
     }
     cols.push(("P_t", column(&|r| r.p_t)));
     cols.push(("N to end [e-folds]", column(&|r| r.n_before_end)));
-    let widths: Vec<usize> = cols
-        .iter()
-        .map(|(h, c)| c.iter().map(String::len).chain([h.len()]).max().unwrap_or(0))
-        .collect();
-    let header: Vec<String> = cols.iter().zip(&widths).map(|((h, _), w)| format!("{h:>w$}")).collect();
-    let _ = writeln!(o, "{}", header.join("  "));
-    for i in 0..sp.rows.len() {
-        let cells: Vec<String> = cols
-            .iter()
-            .zip(&widths)
-            .map(|((_, c), w)| format!("{:>w$}", c[i]))
-            .collect();
-        let _ = writeln!(o, "{}", cells.join("  "));
-    }
+    o.push_str(&columns(&cols, sp.rows.len()));
     o
 }
 
