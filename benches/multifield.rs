@@ -3,13 +3,17 @@
 //! from k/aH = 100 to the end), and with `delta_n` the slow-roll delta-N (4 n^2 + 1 background
 //! runs per N_*). On the closed-form field spaces of the reference models
 //! (tests/reference/MULTIFIELD.md): B, two quadratics with mass ratio 9, and D, seven pole
-//! fields. One thread.
+//! fields. One thread. The same on the shipped models, compiled (the geometry from the tape):
+//! `compiled` with the model's file name.
 //!
 //! Run with `cargo bench --bench multifield`.
 
 use divan::{black_box, Bencher};
 use efold::analysis::multi::closed_form::{Diagonal, Metric1};
 use efold::analysis::multi::predict::{predict, MultiSettings};
+use efold::analysis::multi::space::ModelFieldSpace;
+use efold::config::Config;
+use efold::model::{Model, ModelSpec};
 
 fn main() {
     divan::main();
@@ -49,6 +53,40 @@ fn seven_fields(b: Bencher, delta_n: bool) {
             metric: vec![Metric1::Pole(1.0 / 3.0); 7],
         };
         predict(&mut space, black_box(&start), None, &N_STARS, &s)
+            .unwrap()
+            .predictions
+            .len()
+    });
+}
+
+/// A shipped model of several fields, compiled.
+fn shipped(name: &str) -> Model {
+    let path = format!("{}/models/several-fields/{name}.toml", env!("CARGO_MANIFEST_DIR"));
+    let spec = ModelSpec::load(std::path::Path::new(&path)).expect("a shipped model");
+    Model::build(&spec, &Config::default()).expect("it builds")
+}
+
+/// The shipped models, compiled, from their [start], with and without delta-N: what
+/// `efold predict` computes, without the process around it.
+#[divan::bench(
+    args = [
+        ("two-field-quadratic-mass-ratio", false),
+        ("two-field-quadratic-mass-ratio", true),
+        ("two-pole-fields-merging", true),
+        ("two-alphas-turning", true),
+        ("seven-equal-pole-fields", false),
+        ("seven-equal-pole-fields", true),
+    ],
+    sample_count = 5,
+    sample_size = 1
+)]
+fn compiled(b: Bencher, (name, delta_n): (&str, bool)) {
+    let model = shipped(name);
+    let s = settings(delta_n);
+    b.bench_local(|| {
+        let mut space = ModelFieldSpace::new(&model).expect("several fields");
+        let (start, velocity) = space.start().unwrap();
+        predict(&mut space, black_box(&start), Some(&velocity), &N_STARS, &s)
             .unwrap()
             .predictions
             .len()

@@ -436,12 +436,13 @@ fn closed_form_geometry_matches_sympy() {
 #[test]
 fn halving_tolerances_and_an_earlier_start_leave_n_s() {
     let base = run("B", &[55.0], &no_delta_n()).predictions[0].clone();
+    let d = MultiLimits::default();
     let tight = MultiSettings {
         limits: MultiLimits {
-            bg_rtol: 5e-13,
-            mode_rtol: 5e-12,
+            bg_rtol: d.bg_rtol / 2.0,
+            mode_rtol: d.mode_rtol / 2.0,
             k_start: 1000.0,
-            ..MultiLimits::default()
+            ..d
         },
         delta_n: false,
     };

@@ -661,6 +661,12 @@ impl Evaluator<'_> {
         self.regs[self.tape.outputs[i] as usize]
     }
 
+    /// Whether output `i` depends on the fields: `false` for an output the tape computes from
+    /// constants and parameters alone, whose value is the same at every point.
+    pub fn output_varies(&self, i: usize) -> bool {
+        self.tape.outputs[i] >= self.tape.var_reg
+    }
+
     /// Evaluates every output at up to [`BATCH`] points at once; read the results with
     /// [`Evaluator::batch_output`]. Each point gets exactly the operations of
     /// [`Evaluator::eval`], so the results are bit-identical to evaluating point by point;

@@ -33,6 +33,40 @@ pub struct Model {
     start: Option<Vec<f64>>,
     /// The start velocity dphi^a/dN of a model of several fields (`[start.velocity]`), if given.
     start_velocity: Option<Vec<f64>>,
+    /// A model of several fields: a second tape of what the background needs alone.
+    background: Option<BackgroundTape>,
+}
+
+/// The part of a model's tape that the background of several fields evaluates at every step:
+/// V, d_a V, G_ab and d_c G_ab (not the Hessian of V nor the metric's second partials, which
+/// only the perturbations need), compiled from the same graph.
+#[derive(Debug, Clone)]
+pub struct BackgroundTape {
+    /// The tape.
+    pub tape: Tape,
+    /// For each of its outputs, the index of the same quantity on the model's tape (in
+    /// [`Model::layout`]).
+    pub outputs: Vec<usize>,
+}
+
+impl BackgroundTape {
+    /// The background part of a tape of several fields laid out by `layout`.
+    fn of(compiled: &Compiled, layout: Layout) -> BackgroundTape {
+        let n = layout.fields();
+        let mut outputs = vec![layout.v()];
+        outputs.extend((0..n).filter_map(|a| layout.grad(a)));
+        for a in 0..n {
+            for b in a..n {
+                outputs.extend(layout.component(a, b));
+                outputs.extend((0..n).filter_map(|c| layout.metric_partial(a, b, c)));
+            }
+        }
+        let roots: Vec<_> = outputs.iter().map(|&i| compiled.roots[i]).collect();
+        BackgroundTape {
+            tape: Tape::compile(&compiled.graph, &roots),
+            outputs,
+        }
+    }
 }
 
 impl Model {
@@ -74,6 +108,7 @@ impl Model {
             velocity: start_velocity.as_deref(),
         };
         fields::check_start(spec, at)?;
+        let background = Some(BackgroundTape::of(&geometry.compiled, geometry.layout));
         Ok(Model {
             spec: spec.clone(),
             scope: geometry.scope,
@@ -83,6 +118,7 @@ impl Model {
             layout: geometry.layout,
             start: Some(start),
             start_velocity,
+            background,
         })
     }
 
@@ -152,6 +188,7 @@ impl Model {
             layout,
             start: None,
             start_velocity: None,
+            background: None,
         })
     }
 
@@ -221,6 +258,14 @@ impl Model {
     /// are read where [`Model::layout`] puts them (`output(layout.k())` is K, and so on).
     pub fn evaluator(&self) -> Evaluator<'_> {
         self.compiled.tape.evaluator(&self.params)
+    }
+
+    /// For a model of several fields, an evaluator of the background's part of the tape
+    /// ([`BackgroundTape`]), bound to the parameters, with the layout index of each of its
+    /// outputs; `None` for one field.
+    pub fn background_evaluator(&self) -> Option<(Evaluator<'_>, &[usize])> {
+        let b = self.background.as_ref()?;
+        Some((b.tape.evaluator(&self.params), &b.outputs))
     }
 
     /// Which tape output holds what: for the one-field models built today, V, K, sqrt(K),

@@ -144,13 +144,7 @@ pub fn text(ins: &MultiInspection) -> String {
         "inflation lasts {} e-folds from the start",
         numfmt::number(t.n_total)
     );
-    let _ = writeln!(
-        o,
-        "largest turn eta_perp/H = {} at {} e-folds before the end ({})",
-        numfmt::number(t.max_turn.turn_rate),
-        numfmt::number(t.max_turn.n_before_end),
-        point(names, &t.max_turn.fields)
-    );
+    let _ = writeln!(o, "{}", crate::report::multi::largest_turn(&t.max_turn, Some(names)));
     for (i, s) in t.stages.iter().enumerate() {
         let _ = writeln!(
             o,

@@ -2,6 +2,7 @@
 //! the delta-N numbers sit in a `delta_n` object beside the exact ones.
 
 use crate::analysis::multi::predict::{MultiPrediction, MultiReport};
+use crate::analysis::multi::trajectory::{MaxTurn, STRAIGHT_TURN};
 use crate::report::numfmt;
 use serde_json::{json, Map, Value};
 
@@ -130,12 +131,7 @@ pub fn text(model: &str, rep: &MultiReport) -> String {
         }
     );
     let _ = writeln!(o, "inflation lasts {} e-folds", numfmt::number(rep.n_total));
-    let _ = writeln!(
-        o,
-        "largest turn eta_perp/H = {} at {} e-folds before the end",
-        numfmt::number(rep.max_turn.turn_rate),
-        numfmt::number(rep.max_turn.n_before_end)
-    );
+    let _ = writeln!(o, "{}", largest_turn(&rep.max_turn, None));
     for (i, s) in rep.stages.iter().enumerate() {
         let _ = writeln!(
             o,
@@ -190,4 +186,30 @@ fn table(rep: &MultiReport) -> String {
         o.push_str(&format!("  {label:<width$}  {}\n", line.join("  ")));
     }
     o
+}
+
+/// The line on the largest turn: where it is and how large, or that the trajectory runs
+/// straight where the largest eta_perp/H is below [`STRAIGHT_TURN`] (rounding: a trajectory
+/// on a line of symmetry turns by some 1e-16, at no meaningful place). With the field names,
+/// the point is given too.
+pub fn largest_turn(t: &MaxTurn, names: Option<&[String]>) -> String {
+    if t.turn_rate < STRAIGHT_TURN {
+        return format!(
+            "the trajectory runs straight: eta_perp/H stays below {} everywhere",
+            numfmt::number(STRAIGHT_TURN)
+        );
+    }
+    let at = names.map_or_else(String::new, |names| {
+        let point: Vec<String> = names
+            .iter()
+            .zip(&t.fields)
+            .map(|(n, v)| format!("{n} = {}", numfmt::number(*v)))
+            .collect();
+        format!(" ({})", point.join(", "))
+    });
+    format!(
+        "largest turn eta_perp/H = {} at {} e-folds before the end{at}",
+        numfmt::number(t.turn_rate),
+        numfmt::number(t.n_before_end)
+    )
 }

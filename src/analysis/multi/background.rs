@@ -94,8 +94,18 @@ impl<'s> Flow<'s> {
         Ok(&self.local)
     }
 
-    /// d(phi, pi)/dN at a state (phi, pi): returns eps_H.
+    /// d(phi, pi)/dN at a state (phi, pi): returns eps_H. Evaluates what the background
+    /// needs ([`FieldSpace::local_background`]); see [`Flow::rhs_full`].
     pub fn rhs(&mut self, y: &[f64], dy: &mut [f64]) -> Result<f64, AnalysisError> {
+        let n = self.n();
+        self.space.local_background(&y[..n], &mut self.local)?;
+        dy[..n].copy_from_slice(&y[n..2 * n]);
+        Ok(acceleration(&self.local, &y[n..2 * n], &mut dy[n..2 * n]))
+    }
+
+    /// [`Flow::rhs`] with the whole geometry evaluated (the Hessian and R^a_bcd, which the
+    /// perturbations need) into [`Flow::local`].
+    pub fn rhs_full(&mut self, y: &[f64], dy: &mut [f64]) -> Result<f64, AnalysisError> {
         let n = self.n();
         self.space.local(&y[..n], &mut self.local)?;
         dy[..n].copy_from_slice(&y[n..2 * n]);
@@ -105,7 +115,7 @@ impl<'s> Flow<'s> {
     /// eps_H at a state.
     pub fn eps(&mut self, y: &[f64]) -> Result<f64, AnalysisError> {
         let n = self.n();
-        self.space.local(&y[..n], &mut self.local)?;
+        self.space.local_background(&y[..n], &mut self.local)?;
         Ok(eps_h(&self.local, &y[n..2 * n]))
     }
 

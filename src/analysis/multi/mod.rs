@@ -39,6 +39,9 @@ pub struct Local {
     pub gamma: Vec<f64>,
     /// R^a_bcd at `((a * n + b) * n + c) * n + d`.
     pub riemann: Vec<f64>,
+    /// `false` where the field space knows R^a_bcd to be zero everywhere by the metric's form
+    /// (the tensor is then all zeros and the curvature terms can be skipped); `true` otherwise.
+    pub curved: bool,
 }
 
 impl Local {
@@ -52,6 +55,7 @@ impl Local {
             g_inv: DMatrix::zeros(n, n),
             gamma: vec![0.0; n * n * n],
             riemann: vec![0.0; n * n * n * n],
+            curved: true,
         }
     }
 
@@ -93,4 +97,10 @@ pub trait FieldSpace {
     /// Fills `at` (made with [`Local::zeros`]) at the point `phi`: an error where V or the
     /// metric is not finite, or the metric is not positive definite.
     fn local(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError>;
+    /// What the background needs of [`FieldSpace::local`]: V, d_a V, G, G^-1 and Gamma,
+    /// exactly as `local` computes them; the Hessian and R^a_bcd of `at` may be left from an
+    /// earlier point. By default the whole of `local`.
+    fn local_background(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
+        self.local(phi, at)
+    }
 }

@@ -101,6 +101,10 @@ impl Layout {
     fn len(&self) -> usize {
         self.h() + 4
     }
+    /// The length of one wavenumber's part (Q~, D_N Q~, h~, h~').
+    fn block(&self) -> usize {
+        self.len() - 2 * self.n
+    }
 }
 
 /// The Bunch–Davies start of the modes at a background state y with z = k/aH: the full
@@ -173,7 +177,7 @@ impl Scratch {
                 self.a[a * n + b] = (0..n).map(|c| l.gamma(a, b, c) * pi[c]).sum();
             }
         }
-        let curved = l.riemann.iter().any(|r| *r != 0.0);
+        let curved = l.curved && l.riemann.iter().any(|r| *r != 0.0);
         for a in 0..n {
             for b in 0..n {
                 let gh: f64 = (0..n).map(|c| l.g_inv[(a, c)] * self.hess[c * n + b]).sum();
@@ -192,24 +196,38 @@ impl Scratch {
     }
 }
 
-/// The right-hand side of the background with the modes of ln k, into dy.
+/// The right-hand side of the background with the modes of each ln k (one block of
+/// [`Layout::block`] after the background per wavenumber), into dy: the geometry is
+/// evaluated once for all of them.
 fn rhs(
     flow: &mut Flow<'_>,
     sc: &mut Scratch,
-    ln_k: f64,
+    ln_ks: &[f64],
     nn: f64,
     y: &[f64],
     dy: &mut [f64],
 ) -> Result<(), AnalysisError> {
     let n = flow.n();
     let lay = Layout { n };
-    let eps = flow.rhs(&y[..2 * n], &mut dy[..2 * n])?;
+    let eps = flow.rhs_full(&y[..2 * n], &mut dy[..2 * n])?;
     let l = &flow.local;
     let pi = &y[n..2 * n];
     let h2 = l.v / (3.0 - eps);
-    let z2 = (2.0 * (ln_k - nn)).exp() / h2;
     sc.fill(l, pi, eps, h2);
-    let (q0, p0) = (lay.q(), lay.p());
+    let w = lay.block();
+    for (j, ln_k) in ln_ks.iter().enumerate() {
+        let z2 = (2.0 * (ln_k - nn)).exp() / h2;
+        let at = 2 * n + j * w;
+        mode_rhs(sc, n, eps, z2, &y[at..at + w], &mut dy[at..at + w]);
+    }
+    Ok(())
+}
+
+/// One wavenumber's block of the right-hand side (Q~, D_N Q~, h~, h~' from offset 0), with
+/// z2 = (k/aH)^2 and the scratch filled at the background point.
+fn mode_rhs(sc: &Scratch, n: usize, eps: f64, z2: f64, y: &[f64], dy: &mut [f64]) {
+    let lay = Layout { n };
+    let (q0, p0) = (lay.q() - 2 * n, lay.p() - 2 * n);
     let w = 2 * n;
     for a in 0..n {
         for col in 0..w {
@@ -225,12 +243,11 @@ fn rhs(
             dy[p0 + a * w + col] = -(3.0 - eps) * p - z2 * q - mq - ap;
         }
     }
-    let h0 = lay.h();
+    let h0 = lay.h() - 2 * n;
     for i in 0..2 {
         dy[h0 + i] = y[h0 + 2 + i];
         dy[h0 + 2 + i] = -(3.0 - eps) * y[h0 + 2 + i] - z2 * y[h0 + i];
     }
-    Ok(())
 }
 
 /// (N, background state) where k/aH falls to `target` on a run.
@@ -290,51 +307,123 @@ pub fn crossing(
 
 /// One mode of wavenumber ln k, from k/aH = `limits.k_start` to the end of inflation.
 pub fn mode(flow: &mut Flow<'_>, run: &Run, ln_k: f64, limits: &MultiLimits) -> Result<ModeSpectra, AnalysisError> {
+    Ok(modes(flow, run, &[ln_k], limits)?[0])
+}
+
+/// The modes of several wavenumbers ln k (close together, as a stencil's), integrated as one
+/// state on one background: each mode joins with its Bunch–Davies state where its own k/aH
+/// falls to `limits.k_start`, lowest k first, so every mode starts exactly as it would alone,
+/// and from then on the geometry is evaluated once a step for all of them (the step control
+/// holds every mode to `mode_rtol`). Spectra in the order of `ln_ks`.
+pub fn modes(
+    flow: &mut Flow<'_>,
+    run: &Run,
+    ln_ks: &[f64],
+    limits: &MultiLimits,
+) -> Result<Vec<ModeSpectra>, AnalysisError> {
     let n = flow.n();
     let lay = Layout { n };
-    let (n0, y_bg) = crossing(flow, run, ln_k, limits.k_start, limits)?;
-    let l = flow.at(&y_bg[..n])?;
-    let h = (l.v / (3.0 - super::background::eps_h(l, &y_bg[n..]))).sqrt();
-    let z = (ln_k - n0 - h.ln()).exp();
-    let y0 = bunch_davies(l, &y_bg, z)?;
-    let mut atol = vec![1e-3 * limits.bg_rtol; lay.len()];
-    for a in atol.iter_mut().skip(2 * n) {
-        *a = 1e-3 * h / (2.0 * PI) * limits.mode_rtol;
+    let mut order: Vec<usize> = (0..ln_ks.len()).collect();
+    order.sort_by(|&i, &j| ln_ks[i].total_cmp(&ln_ks[j]));
+    let mut joined: Vec<f64> = Vec::with_capacity(ln_ks.len());
+    let (mut t, mut y, mut steps) = (f64::NAN, Vec::new(), 0);
+    let mut amplitude = 0.0;
+    for &j in &order {
+        let (nj, y_bg) = crossing(flow, run, ln_ks[j], limits.k_start, limits)?;
+        if !joined.is_empty() && nj > t {
+            let seg = Segment {
+                ln_ks: &joined,
+                amplitude,
+                limits,
+            };
+            let end = seg.run(flow, t, &y, nj, ln_ks[j].exp())?;
+            if end.event {
+                return Err(ErrorKind::StartsTooLate {
+                    kappa: ln_ks[j].exp(),
+                    k_over_ah: limits.k_start,
+                }
+                .into());
+            }
+            (t, y, steps) = (end.t, end.y, steps + end.steps);
+        }
+        let l = flow.at(&y_bg[..n])?;
+        let h = (l.v / (3.0 - super::background::eps_h(l, &y_bg[n..]))).sqrt();
+        let z = (ln_ks[j] - nj - h.ln()).exp();
+        let start = bunch_davies(l, &y_bg, z)?;
+        if joined.is_empty() {
+            (t, y, amplitude) = (nj, y_bg, h / (2.0 * PI));
+        }
+        y.extend_from_slice(&start[2 * n..]);
+        joined.push(ln_ks[j]);
     }
-    let tol = Tolerances {
-        rtol: limits.mode_rtol,
-        atol,
-        h_max: limits.free_step,
-        max_steps: 1_000_000,
+    let kappa = ln_ks[order[0]].exp();
+    let seg = Segment {
+        ln_ks: &joined,
+        amplitude,
+        limits,
     };
-    let flow = RefCell::new(flow);
-    let mut sc = Scratch::new(n);
-    let end = integrate_extrapolated(
-        &mut |nn: f64, y: &[f64], dy: &mut [f64]| rhs(&mut flow.borrow_mut(), &mut sc, ln_k, nn, y, dy),
-        n0,
-        &y0,
-        run.n_end + 5.0,
-        &tol,
-        &mut |_, y| Some(flow.borrow().eps_last(&y[..2 * n]) - 1.0),
-    )
-    .map_err(|f| match f {
-        super::ode::Failure::Rhs(e) => e,
-        super::ode::Failure::Numeric(error) => ErrorKind::ModeIntegration {
-            kappa: ln_k.exp(),
-            error,
-        }
-        .into(),
-    })?;
+    let end = seg.run(flow, t, &y, run.n_end + 5.0, kappa)?;
     if !end.event {
-        return Err(ErrorKind::ModeExitsLate {
-            kappa: ln_k.exp(),
-            k_over_ah: 0.0,
-        }
-        .into());
+        return Err(ErrorKind::ModeExitsLate { kappa, k_over_ah: 0.0 }.into());
     }
-    let flow = flow.into_inner();
     let l = flow.at(&end.y[..n])?;
-    Ok(spectra(l, &end.y, end.steps))
+    let w = lay.block();
+    let mut out = vec![None; ln_ks.len()];
+    for (m, &j) in order.iter().enumerate() {
+        let one = [&end.y[..2 * n], &end.y[2 * n + m * w..2 * n + (m + 1) * w]].concat();
+        out[j] = Some(spectra(l, &one, steps + end.steps));
+    }
+    Ok(out.into_iter().map(|s| s.expect("every mode joined")).collect())
+}
+
+/// One stretch of the joint integration of the modes of `ln_ks` (in the order their blocks
+/// follow the background), to the end of inflation or a time.
+struct Segment<'a> {
+    ln_ks: &'a [f64],
+    /// H/(2 pi) where the first mode starts: the scale of the modes' absolute tolerance.
+    amplitude: f64,
+    limits: &'a MultiLimits,
+}
+
+impl Segment<'_> {
+    /// From (t0, y0) to t1 or the end of inflation (eps_H = 1), whichever comes first;
+    /// failures name the wavenumber `kappa`.
+    fn run(
+        &self,
+        flow: &mut Flow<'_>,
+        t0: f64,
+        y0: &[f64],
+        t1: f64,
+        kappa: f64,
+    ) -> Result<super::ode::End, AnalysisError> {
+        let n = flow.n();
+        let limits = self.limits;
+        let mut atol = vec![1e-3 * limits.bg_rtol; y0.len()];
+        for a in atol.iter_mut().skip(2 * n) {
+            *a = 1e-3 * self.amplitude * limits.mode_rtol;
+        }
+        let tol = Tolerances {
+            rtol: limits.mode_rtol,
+            atol,
+            h_max: limits.free_step,
+            max_steps: 1_000_000,
+        };
+        let flow = RefCell::new(flow);
+        let mut sc = Scratch::new(n);
+        let ln_ks = self.ln_ks;
+        integrate_extrapolated(
+            &mut |nn: f64, y: &[f64], dy: &mut [f64]| rhs(&mut flow.borrow_mut(), &mut sc, ln_ks, nn, y, dy),
+            t0,
+            y0,
+            t1,
+            &tol,
+            &mut |_, y| Some(flow.borrow().eps_last(&y[..2 * n]) - 1.0),
+        )
+        .map_err(|f| match f {
+            super::ode::Failure::Rhs(e) => e,
+            super::ode::Failure::Numeric(error) => ErrorKind::ModeIntegration { kappa, error }.into(),
+        })
+    }
 }
 
 /// The spectra of a mode state at the end of inflation.

@@ -150,9 +150,8 @@ fn at_pivot(
     let y = before_end(flow, bg, n_star, needed, limits)?;
     let ln_k_star = (bg.n_end - n_star) + flow.ln_h(&y)?;
     let h = limits.tilt_step;
-    let spectra = (-2..=2)
-        .map(|j| modes::mode(flow, bg, ln_k_star + j as f64 * h, limits))
-        .collect::<Result<Vec<_>, _>>()?;
+    let ln_ks: Vec<f64> = (-2..=2).map(|j| ln_k_star + j as f64 * h).collect();
+    let spectra = modes::modes(flow, bg, &ln_ks, limits)?;
     let ln_s: [f64; 5] = std::array::from_fn(|i| spectra[i].p_zeta.ln());
     let ln_t: [f64; 5] = std::array::from_fn(|i| spectra[i].p_t.ln());
     let (ns1, alpha_s) = modes::stencil(&ln_s, h);

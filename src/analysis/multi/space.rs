@@ -21,6 +21,7 @@ use super::{FieldSpace, Local};
 use crate::analysis::error::{AnalysisError, ErrorKind};
 use crate::language::tape::Evaluator;
 use crate::model::{Layout, MetricError, Model};
+use nalgebra::DMatrix;
 
 /// The field space of a compiled model of several fields: evaluates [`Local`] at a point
 /// from the model's tape.
@@ -44,6 +45,9 @@ pub struct ModelFieldSpace<'m> {
     model: &'m Model,
     layout: Layout,
     ev: Evaluator<'m>,
+    /// The background's part of the tape, and where each of its outputs goes in `outputs`.
+    bg: Evaluator<'m>,
+    bg_outputs: &'m [usize],
     /// The tape's outputs at the last point.
     outputs: Vec<f64>,
     /// d_c G_ab at `(c * n + a) * n + b`.
@@ -56,6 +60,62 @@ pub struct ModelFieldSpace<'m> {
     dgamma: Vec<f64>,
     /// d_e Gamma_dbc - (d_e G_dg) Gamma^g_bc at `((e * n + d) * n + b) * n + c`.
     inner: Vec<f64>,
+    /// What the metric's form makes zero, found once from the tape.
+    form: Form,
+    /// The lower Cholesky factor L of G at the last point, row by row, and L^-1.
+    chol: Vec<f64>,
+    chol_inv: Vec<f64>,
+    /// The output of each G_ab, column-major as the matrices are stored.
+    components: Vec<Option<usize>>,
+    /// Whether every G_ab is the same at every point, and then G and G^-1 once computed.
+    metric_fixed: bool,
+    fixed_ready: bool,
+    fixed_g: DMatrix<f64>,
+    fixed_g_inv: DMatrix<f64>,
+}
+
+/// What the form of a metric makes zero at every point, as the tape shows it: an output that
+/// does not depend on the fields and is zero at one point is zero everywhere.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Form {
+    /// Every d_c G_ab is zero: Gamma and R^a_bcd vanish.
+    Constant,
+    /// G is diagonal and G_aa depends on phi^a alone: the only Christoffel symbols are
+    /// Gamma^a_aa = d_a G_aa / (2 G_aa), and R^a_bcd = 0 (a product of one-field spaces,
+    /// each flat by a change of its own coordinate; common practice).
+    Separable,
+    /// Anything else: the full computation.
+    General,
+}
+
+impl Form {
+    /// The form of `layout`'s metric on the evaluator's tape.
+    fn of(layout: Layout, ev: &mut Evaluator<'_>) -> Form {
+        let n = layout.fields();
+        ev.eval_at(&vec![0.0; n]);
+        let zero = |i: Option<usize>| i.is_none_or(|i| !ev.output_varies(i) && ev.output(i) == 0.0);
+        let mut constant = true;
+        let mut separable = true;
+        for a in 0..n {
+            for b in 0..n {
+                if a != b && !zero(layout.component(a, b)) {
+                    separable = false;
+                }
+                for c in 0..n {
+                    let flat = zero(layout.metric_partial(a, b, c));
+                    constant &= flat;
+                    if !flat && (a != b || c != a) {
+                        separable = false;
+                    }
+                }
+            }
+        }
+        match (constant, separable) {
+            (true, _) => Form::Constant,
+            (false, true) => Form::Separable,
+            (false, false) => Form::General,
+        }
+    }
 }
 
 impl<'m> ModelFieldSpace<'m> {
@@ -67,16 +127,31 @@ impl<'m> ModelFieldSpace<'m> {
             return None;
         }
         let n = layout.fields();
+        let mut ev = model.evaluator();
+        let form = Form::of(layout, &mut ev);
+        let components: Vec<Option<usize>> = (0..n * n).map(|k| layout.component(k % n, k / n)).collect();
+        let metric_fixed = components.iter().flatten().all(|&i| !ev.output_varies(i));
+        let (bg, bg_outputs) = model.background_evaluator()?;
         Some(ModelFieldSpace {
             model,
             layout,
-            ev: model.evaluator(),
+            ev,
+            bg,
+            bg_outputs,
             outputs: vec![0.0; layout.n_outputs()],
             dg: vec![0.0; n * n * n],
             ddg: vec![0.0; n * n * n * n],
             gamma_low: vec![0.0; n * n * n],
             dgamma: vec![0.0; n * n * n * n],
             inner: vec![0.0; n * n * n * n],
+            form,
+            chol: vec![0.0; n * n],
+            chol_inv: vec![0.0; n * n],
+            components,
+            metric_fixed,
+            fixed_ready: false,
+            fixed_g: DMatrix::zeros(n, n),
+            fixed_g_inv: DMatrix::zeros(n, n),
         })
     }
 
@@ -116,27 +191,61 @@ impl<'m> ModelFieldSpace<'m> {
         .into())
     }
 
-    /// V, its gradient and Hessian, and the partials of the metric into `at` and the buffers,
-    /// each checked finite.
-    fn read_derivatives(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
+    /// V and its gradient into `at`, each checked finite.
+    fn read_gradient(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
         let (n, l) = (self.layout.fields(), self.layout);
+        at.v = self.outputs[l.v()];
+        let mut finite = at.v.is_finite();
+        for (a, dv) in at.dv.iter_mut().enumerate() {
+            // A layout of several fields keeps d_a V at 1 + a (Layout::grad).
+            debug_assert_eq!(l.grad(a), Some(1 + a));
+            *dv = self.outputs[1 + a];
+            finite &= dv.is_finite();
+        }
+        if finite {
+            return Ok(());
+        }
         let names = self.model.field_names();
-        at.v = self.finite(phi, || "V".into(), self.outputs[l.v()])?;
+        self.finite(phi, || "V".into(), at.v)?;
         for a in 0..n {
             let i = l.grad(a).expect("a field");
-            at.dv[a] = self.finite(phi, || format!("d_{} V", names[a]), self.outputs[i])?;
+            self.finite(phi, || format!("d_{} V", names[a]), self.outputs[i])?;
+        }
+        Ok(())
+    }
+
+    /// The Hessian d_a d_b V into `at`, checked finite.
+    fn read_hessian(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
+        let (n, l) = (self.layout.fields(), self.layout);
+        let names = self.model.field_names();
+        for a in 0..n {
             for b in 0..n {
                 let i = l.hessian(a, b).expect("a field");
                 let what = || format!("d_{} d_{} V", names[a], names[b]);
                 at.ddv[(a, b)] = self.finite(phi, what, self.outputs[i])?;
             }
         }
+        Ok(())
+    }
+
+    /// The metric's first partials d_c G_ab into their buffer (for a separable metric only
+    /// the d_a G_aa it has), and with `second` the second partials too, each checked finite.
+    fn read_metric_partials(&mut self, phi: &[f64], second: bool) -> Result<(), AnalysisError> {
+        let (n, l) = (self.layout.fields(), self.layout);
+        let names = self.model.field_names();
         for a in 0..n {
             for b in 0..n {
                 for c in 0..n {
+                    if self.form == Form::Separable && (a != b || c != a) {
+                        self.dg[(c * n + a) * n + b] = 0.0;
+                        continue;
+                    }
                     let first = l.metric_partial(a, b, c).map_or(0.0, |i| self.outputs[i]);
                     let what = || format!("d_{} G_{}{}", names[c], names[a], names[b]);
                     self.dg[(c * n + a) * n + b] = self.finite(phi, what, first)?;
+                    if !second {
+                        continue;
+                    }
                     for d in 0..n {
                         let second = l.metric_second_partial(a, b, c, d).map_or(0.0, |i| self.outputs[i]);
                         let what = || format!("d_{} d_{} G_{}{}", names[c], names[d], names[a], names[b]);
@@ -148,7 +257,92 @@ impl<'m> ModelFieldSpace<'m> {
         Ok(())
     }
 
-    /// Gamma_dbc, Gamma^a_bc and d_e Gamma^a_bc from G^-1 and the metric's partials.
+    /// G and G^-1 into `at` from the tape's outputs, by a Cholesky factor kept in the scratch
+    /// (no allocation); `false` where a component is not finite or a pivot is not positive,
+    /// which [`Metric::read`](crate::model::Metric::read) then diagnoses.
+    fn metric_in_place(&mut self, at: &mut Local) -> bool {
+        if self.metric_fixed && self.fixed_ready {
+            at.g.copy_from(&self.fixed_g);
+            at.g_inv.copy_from(&self.fixed_g_inv);
+            return true;
+        }
+        let mut finite = true;
+        for (k, g) in at.g.as_mut_slice().iter_mut().enumerate() {
+            // Column-major, as `components`.
+            *g = self.components[k].map_or(0.0, |i| self.outputs[i]);
+            finite &= g.is_finite();
+        }
+        if !finite {
+            return false;
+        }
+        let ok = if self.form == Form::Constant || self.form == Form::Separable {
+            Self::diagonal_inverse(at)
+        } else {
+            self.cholesky_inverse(at)
+        };
+        if ok && self.metric_fixed {
+            self.fixed_g.copy_from(&at.g);
+            self.fixed_g_inv.copy_from(&at.g_inv);
+            self.fixed_ready = true;
+        }
+        ok
+    }
+
+    /// G^-1 of a diagonal G (a separable or constant metric whose off-diagonal entries are
+    /// zero by its form), each G_aa checked positive; `false` where one is not.
+    fn diagonal_inverse(at: &mut Local) -> bool {
+        let n = at.n();
+        if (0..n).any(|a| (0..n).any(|b| a != b && at.g[(a, b)] != 0.0)) {
+            return false;
+        }
+        at.g_inv.fill(0.0);
+        for a in 0..n {
+            let g = at.g[(a, a)];
+            if g.is_nan() || g <= 0.0 {
+                return false;
+            }
+            at.g_inv[(a, a)] = 1.0 / g;
+        }
+        true
+    }
+
+    /// G^-1 by the Cholesky factor G = L L^T kept in the scratch; `false` where a pivot is not
+    /// positive.
+    fn cholesky_inverse(&mut self, at: &mut Local) -> bool {
+        let n = at.n();
+        let (l, li) = (&mut self.chol, &mut self.chol_inv);
+        // G = L L^T, row by row (the test of Metric::read).
+        for j in 0..n {
+            let pivot = at.g[(j, j)] - (0..j).map(|k| l[j * n + k] * l[j * n + k]).sum::<f64>();
+            if pivot.is_nan() || pivot <= 0.0 {
+                return false;
+            }
+            let ljj = pivot.sqrt();
+            l[j * n + j] = ljj;
+            for i in j + 1..n {
+                let s = at.g[(i, j)] - (0..j).map(|k| l[i * n + k] * l[j * n + k]).sum::<f64>();
+                l[i * n + j] = s / ljj;
+            }
+        }
+        // L^-1 (lower triangular) by forward substitution, then G^-1 = L^-T L^-1.
+        for i in 0..n {
+            li[i * n + i] = 1.0 / l[i * n + i];
+            for j in 0..i {
+                let s: f64 = (j..i).map(|k| l[i * n + k] * li[k * n + j]).sum();
+                li[i * n + j] = -s / l[i * n + i];
+            }
+        }
+        for a in 0..n {
+            for b in 0..=a {
+                let s: f64 = (a..n).map(|k| li[k * n + a] * li[k * n + b]).sum();
+                at.g_inv[(a, b)] = s;
+                at.g_inv[(b, a)] = s;
+            }
+        }
+        true
+    }
+
+    /// Gamma_dbc and Gamma^a_bc from G^-1 and the metric's first partials.
     fn christoffel(&mut self, at: &mut Local) {
         let n = self.layout.fields();
         let dg = |c: usize, a: usize, b: usize| self.dg[(c * n + a) * n + b];
@@ -169,6 +363,12 @@ impl<'m> ModelFieldSpace<'m> {
                 }
             }
         }
+    }
+
+    /// d_e Gamma^a_bc from G^-1, Gamma and the metric's first and second partials.
+    fn christoffel_derivative(&mut self, at: &Local) {
+        let n = self.layout.fields();
+        let dg = |c: usize, a: usize, b: usize| self.dg[(c * n + a) * n + b];
         let ddg = |e: usize, c: usize, a: usize, b: usize| self.ddg[((e * n + c) * n + a) * n + b];
         // inner[e, d, b, c] = d_e Gamma_dbc - (d_e G_dg) Gamma^g_bc, then contracted with G^ad:
         // two passes of O(n^5) rather than one of O(n^6).
@@ -237,15 +437,75 @@ impl FieldSpace for ModelFieldSpace<'_> {
     }
 
     fn local(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
+        self.check_dimension(phi, at)?;
+        self.ev.eval_at(phi);
+        for (i, o) in self.outputs.iter_mut().enumerate() {
+            *o = self.ev.output(i);
+        }
+        self.background_from_outputs(phi, at)?;
+        self.read_hessian(phi, at)?;
+        if self.form == Form::General {
+            self.read_metric_partials(phi, true)?;
+            self.christoffel_derivative(at);
+            self.riemann(at);
+        } else {
+            at.riemann.fill(0.0);
+        }
+        Ok(())
+    }
+
+    fn local_background(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
+        self.check_dimension(phi, at)?;
+        self.bg.eval_at(phi);
+        for (k, &i) in self.bg_outputs.iter().enumerate() {
+            self.outputs[i] = self.bg.output(k);
+        }
+        self.background_from_outputs(phi, at)
+    }
+}
+
+impl ModelFieldSpace<'_> {
+    /// An error unless `phi` and `at` have one entry per field.
+    fn check_dimension(&self, phi: &[f64], at: &Local) -> Result<(), AnalysisError> {
         let n = self.layout.fields();
         if phi.len() != n || at.n() != n {
             let given = if phi.len() != n { phi.len() } else { at.n() };
             return Err(ErrorKind::PointDimension { fields: n, given }.into());
         }
-        self.ev.eval_at(phi);
-        for (i, o) in self.outputs.iter_mut().enumerate() {
-            *o = self.ev.output(i);
+        Ok(())
+    }
+
+    /// V, d_a V, G, G^-1 and Gamma into `at` from the background's outputs in `outputs`.
+    fn background_from_outputs(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
+        let n = self.layout.fields();
+        if !self.metric_in_place(at) {
+            self.metric_error(phi, at)?;
         }
+        self.read_gradient(phi, at)?;
+        at.curved = self.form == Form::General;
+        match self.form {
+            Form::Constant => at.gamma.fill(0.0),
+            Form::Separable => {
+                self.read_metric_partials(phi, false)?;
+                at.gamma.fill(0.0);
+                for a in 0..n {
+                    at.gamma[(a * n + a) * n + a] = 0.5 * self.dg[(a * n + a) * n + a] / at.g[(a, a)];
+                }
+            }
+            Form::General => {
+                self.read_metric_partials(phi, false)?;
+                self.christoffel(at);
+            }
+        }
+        Ok(())
+    }
+}
+
+impl ModelFieldSpace<'_> {
+    /// The metric's own diagnosis where the in-place factor failed: a component that is not
+    /// finite, or the Cholesky row whose pivot is not positive. (Should the metric's check
+    /// pass after all, its G and G^-1 are used.)
+    fn metric_error(&mut self, phi: &[f64], at: &mut Local) -> Result<(), AnalysisError> {
         let names = self.model.field_names();
         let g = self.layout.metric().read(&self.outputs, phi).map_err(|e| match e {
             MetricError::NotFinite { a, b, value, .. } => ErrorKind::FieldSpaceNotFinite {
@@ -264,9 +524,6 @@ impl FieldSpace for ModelFieldSpace<'_> {
         })?;
         at.g.copy_from(g.matrix());
         at.g_inv.copy_from(&g.inverse());
-        self.read_derivatives(phi, at)?;
-        self.christoffel(at);
-        self.riemann(at);
         Ok(())
     }
 }

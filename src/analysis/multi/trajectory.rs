@@ -44,6 +44,11 @@ pub struct MaxTurn {
     pub fields: Vec<f64>,
 }
 
+/// Below this largest eta_perp/H a trajectory is reported as running straight: 1e-10, far
+/// above the rounding of a trajectory kept on a line of symmetry (some 1e-16) and far below
+/// any turn that moves an observable.
+pub const STRAIGHT_TURN: f64 = 1e-10;
+
 /// A stretch of the trajectory whose turn rate stays below [`MultiLimits::stage_turn`].
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Stage {
