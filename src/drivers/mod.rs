@@ -9,5 +9,6 @@ pub mod inspect_multi;
 pub mod predict;
 pub mod prepared;
 pub mod scan;
+pub mod scan_multi;
 pub mod spectrum;
 pub mod spectrum_multi;

@@ -11,6 +11,7 @@ pub mod output;
 pub mod plot;
 pub mod predict;
 pub mod scan;
+pub mod scan_multi;
 pub mod spectrum;
 pub mod spectrum_multi;
 
