@@ -3,6 +3,7 @@
 //! model that can be rebound to new parameter values without compiling again.
 
 pub mod fit;
+pub mod fit_multi;
 pub mod golden;
 pub mod inspect;
 pub mod inspect_multi;

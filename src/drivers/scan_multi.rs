@@ -164,8 +164,13 @@ impl MultiScanJob<'_> {
     /// The prediction's settings: delta-N beside the exact route where `efold predict` computes
     /// it (at most `MultiLimits::delta_n_max_fields` fields).
     pub fn settings(&self) -> MultiSettings {
+        MultiScanJob::settings_for(self.model)
+    }
+
+    /// The settings of `efold predict` for `model` (see [`MultiScanJob::settings`]).
+    pub fn settings_for(model: &Model) -> MultiSettings {
         let mut settings = MultiSettings::default();
-        settings.delta_n = self.model.n_fields() <= settings.limits.delta_n_max_fields;
+        settings.delta_n = model.n_fields() <= settings.limits.delta_n_max_fields;
         settings
     }
 
@@ -189,25 +194,20 @@ impl MultiScanJob<'_> {
     }
 }
 
-/// Rebinds `model` to one grid point: the start coordinates set in its `[start]` (the slow-roll
-/// attractor's velocity follows unless the model gives `[start.velocity]`), then the
-/// parameters, with every check of a model built afresh at these values.
-pub fn rebind_point(
-    model: &mut Model,
-    axes: &[Axis],
-    params: &[(String, f64)],
-    config: &Config,
-) -> Result<(), PointError> {
+/// Rebinds `model` to one point: each `(name, value)` a parameter, or a start coordinate
+/// `start.FIELD` set in its `[start]` (the slow-roll attractor's velocity follows unless the
+/// model gives `[start.velocity]`), with every check of a model built afresh at these values.
+pub fn rebind_point(model: &mut Model, values: &[(String, f64)], config: &Config) -> Result<(), PointError> {
     let mut pairs: Vec<(&str, f64)> = Vec::new();
-    for (axis, (_, v)) in axes.iter().zip(params) {
-        match axis.name.strip_prefix(START_PREFIX) {
+    for (name, v) in values {
+        match name.strip_prefix(START_PREFIX) {
             Some(field) => {
                 let entry = model.spec.start_point.iter_mut().find(|e| e.name.text == field);
                 if let Some(e) = entry {
-                    e.value = Text::inline(&format!("--vary {}", axis.name), &format!("{v:e}"));
+                    e.value = Text::inline(name, &format!("{v:e}"));
                 }
             }
-            None => pairs.push((axis.name.as_str(), *v)),
+            None => pairs.push((name.as_str(), *v)),
         }
     }
     model.rebind(&pairs, config)?;
@@ -225,8 +225,7 @@ pub fn predict_bound(model: &Model, n_stars: &[f64], settings: &MultiSettings) -
 fn point_rows(job: &MultiScanJob<'_>, model: &mut Model, settings: &MultiSettings, point: usize) -> Vec<MultiScanRow> {
     let values = grid_point(job.axes, point);
     let params: Vec<(String, f64)> = job.axes.iter().map(|a| a.name.clone()).zip(values).collect();
-    let rep =
-        rebind_point(model, job.axes, &params, job.config).and_then(|_| predict_bound(model, job.n_stars, settings));
+    let rep = rebind_point(model, &params, job.config).and_then(|_| predict_bound(model, job.n_stars, settings));
     match rep {
         Ok(rep) => row_cells(&rep)
             .into_iter()
@@ -369,7 +368,7 @@ mod tests {
             Axis::new("ratio", 4.0, 4.0, 1, false).unwrap(),
         ];
         let params = vec![("start.x".to_string(), 11.0), ("ratio".to_string(), 4.0)];
-        rebind_point(&mut m, &axes, &params, &config).unwrap();
+        rebind_point(&mut m, &params, &config).unwrap();
         let text = "fields = [\"x\", \"y\"]\npotential = \"(x^2 + ratio*y^2)/2\"\n[params]\nratio = 4\n\
                     [metric]\nx = 1\ny = 1\n[start]\nx = 11\ny = 12\n";
         let fresh = Model::build(&ModelSpec::from_toml(text, "m.toml").unwrap(), &config).unwrap();

@@ -3,6 +3,7 @@
 //! and SVG ([`predict`], [`inspect`], [`spectrum`], [`scan`], [`fit`]).
 
 pub mod fit;
+pub mod fit_multi;
 pub mod inspect;
 pub mod inspect_multi;
 pub mod multi;
