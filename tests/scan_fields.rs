@@ -27,6 +27,14 @@ fn table(csv: &str) -> (Vec<String>, Vec<Vec<String>>) {
     (header, lines.collect())
 }
 
+/// The prediction at N_* = 55 of a model of the independent reference calculation,
+/// `tests/reference/multifield.json` (written by `tests/reference/gen_multifield.py`).
+fn reference(model: &str) -> serde_json::Value {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/reference/multifield.json");
+    let v: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    v["models"][model]["predictions"]["55"].clone()
+}
+
 fn cell(header: &[String], row: &[String], key: &str) -> f64 {
     let i = header
         .iter()
@@ -72,6 +80,17 @@ fn each_row_is_the_prediction_of_the_rebound_model() {
         }
         assert!(row.last().unwrap().is_empty(), "no error: {row:?}");
     }
+    // At ratio 9 the model is model B of the reference calculation (multifield.json): n_s to
+    // 1e-8 and r to 1e-7 relative, the accuracy tests/predict_fields.rs holds it to.
+    let b = reference("B");
+    let (n_s, r) = (cell(&header, &rows[1], "n_s"), cell(&header, &rows[1], "r"));
+    assert!(
+        (n_s - b["n_s"].as_f64().unwrap()).abs() < 1e-8,
+        "n_s {n_s} vs {}",
+        b["n_s"]
+    );
+    let r_ref = b["r"].as_f64().unwrap();
+    assert!((r - r_ref).abs() < 1e-7 * r_ref, "r {r} vs {r_ref}");
 }
 
 /// With equal masses V = m^2 (x^2 + y^2)/2 depends on the radius alone, so the trajectory is
@@ -107,6 +126,18 @@ fn equal_masses_give_the_one_field_quadratic() {
         let got = cell(&header, &rows[0], key);
         assert!((got - want).abs() < 1e-6, "{key}: {got} vs one field {want}");
     }
+    // Model A of the reference calculation (multifield.json) is the same potential started at
+    // (15, 12): the motion is radial from any start, so its n_s and r at N_* = 55 are these
+    // (to 1e-8 and 1e-7 relative, as tests/predict_fields.rs holds efold to the reference).
+    let a = reference("A");
+    let (n_s, r) = (cell(&header, &rows[0], "n_s"), cell(&header, &rows[0], "r"));
+    assert!(
+        (n_s - a["n_s"].as_f64().unwrap()).abs() < 1e-8,
+        "n_s {n_s} vs {}",
+        a["n_s"]
+    );
+    let r_ref = a["r"].as_f64().unwrap();
+    assert!((r - r_ref).abs() < 1e-7 * r_ref, "r {r} vs {r_ref}");
     // and no turn: the isocurvature part stays at the level of rounding
     assert!(cell(&header, &rows[0], "turn_rate").abs() < 1e-10);
 }
