@@ -110,7 +110,7 @@ fn watch_follows_a_model_of_several_fields() {
     });
     let deadline = std::time::Instant::now() + std::time::Duration::from_secs(600);
     let mut lines: Vec<String> = Vec::new();
-    let mut wait_for = |lines: &mut Vec<String>, prefix: &str| {
+    let wait_for = |lines: &mut Vec<String>, prefix: &str| {
         while !lines.iter().any(|l| l.starts_with(prefix)) {
             let left = deadline.saturating_duration_since(std::time::Instant::now());
             match rx.recv_timeout(left) {

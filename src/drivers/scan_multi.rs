@@ -19,15 +19,6 @@ use crate::report::scan_multi::{header_cells, row_cells};
 /// How an axis name names a start coordinate: `start.FIELD`.
 pub const START_PREFIX: &str = "start.";
 
-/// What one axis varies.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-enum Varied {
-    /// A parameter (rebound with [`Model::rebind`]).
-    Param,
-    /// The start coordinate of this field (by index).
-    Start(usize),
-}
-
 /// Why a `--vary` of a model of several fields cannot be made.
 #[derive(Debug, Clone, PartialEq)]
 pub enum MultiAxisError {
@@ -182,16 +173,6 @@ impl MultiScanJob<'_> {
         cols.push("error".to_string());
         cols
     }
-
-    fn varied(&self) -> Vec<Varied> {
-        self.axes
-            .iter()
-            .map(|a| match a.name.strip_prefix(START_PREFIX) {
-                Some(f) => Varied::Start(self.model.field_names().iter().position(|x| x == f).expect("a field")),
-                None => Varied::Param,
-            })
-            .collect()
-    }
 }
 
 /// Rebinds `model` to one point: each `(name, value)` a parameter, or a start coordinate
@@ -256,7 +237,6 @@ fn point_rows(job: &MultiScanJob<'_>, model: &mut Model, settings: &MultiSetting
 /// `sink` stops the scan and is returned.
 pub fn run_chunks<E>(job: &MultiScanJob<'_>, sink: &mut dyn FnMut(&[MultiScanRow]) -> Result<(), E>) -> Result<(), E> {
     use rayon::prelude::*;
-    debug_assert!(job.varied().len() == job.axes.len());
     let total = total_points(job.axes).unwrap_or(usize::MAX);
     let range = job.shard.map_or(0..total, |s| s.range(total));
     let bar = if job.progress {
@@ -367,7 +347,7 @@ mod tests {
             Axis::new("start.x", 11.0, 11.0, 1, false).unwrap(),
             Axis::new("ratio", 4.0, 4.0, 1, false).unwrap(),
         ];
-        let params = vec![("start.x".to_string(), 11.0), ("ratio".to_string(), 4.0)];
+        let params: Vec<(String, f64)> = axes.iter().map(|a| (a.name.clone(), a.values[0])).collect();
         rebind_point(&mut m, &params, &config).unwrap();
         let text = "fields = [\"x\", \"y\"]\npotential = \"(x^2 + ratio*y^2)/2\"\n[params]\nratio = 4\n\
                     [metric]\nx = 1\ny = 1\n[start]\nx = 11\ny = 12\n";

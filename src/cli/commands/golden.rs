@@ -108,7 +108,15 @@ fn check_one(f: &Path, data: &DataSet, tolerance: f64, config: &Config, out: &mu
                 let _ = writeln!(out, "{}: unchanged", f.display());
                 return true;
             }
-            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.drifts.len());
+            let used = rep.tolerance(tolerance);
+            let beyond = match used == tolerance {
+                true => String::new(),
+                false => format!(
+                    " beyond {} (config::MULTI_GOLDEN_TOLERANCE, for a model of several fields)",
+                    numfmt::typed(used)
+                ),
+            };
+            let _ = writeln!(out, "{}: {} value(s) drifted{beyond}", f.display(), d.drifts.len());
             for line in d.lines() {
                 let _ = writeln!(out, "{line}");
             }
