@@ -161,6 +161,43 @@ pub const DEFAULT_N_STARS: [f64; 3] = [50.0, 55.0, 60.0];
 /// not given: 55, the middle of [`DEFAULT_N_STARS`].
 pub const DEFAULT_N_STAR: f64 = 55.0;
 
+/// The smallest relative tolerance with which `golden check` and `watch` compare the
+/// predictions of a model of several fields (a smaller `--tolerance` is raised to it). Default
+/// 1e-6: the exact multi-field route integrates the background to 1e-12 and the modes to 1e-11
+/// (relative), and n_s and alpha_s come from five-point stencils in ln k of step 0.05, which
+/// magnify the modes' error some hundredfold; 1e-6 leaves room for a change of step sizes or
+/// evaluation order without hiding a change of the model or its physics.
+pub const MULTI_GOLDEN_TOLERANCE: f64 = 1e-6;
+
+/// The solver of `efold fit` on a model of several fields, where each evaluation is a whole
+/// multi-field prediction (a tenth of a second to some seconds), with its defaults.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MultiFitSettings {
+    /// Stop when every scaled residual (n_s, alpha_s in units of 1e-3; r, A_s as logarithms)
+    /// is below this. Default 1e-4: n_s to 1e-7 and r to 1e-4 of itself, above the exact
+    /// route's own scatter (see [`MULTI_GOLDEN_TOLERANCE`]) so that the solver does not chase
+    /// rounding.
+    pub tol: f64,
+    /// Most predictions one fit makes (trial points and finite differences together). Default
+    /// 40: with one free parameter a Levenberg–Marquardt iteration costs three, so some dozen
+    /// iterations.
+    pub max_evaluations: usize,
+    /// Step of the central differences in each fitted variable (the logarithm of a positive
+    /// one, else relative to its size, at least 1e-3 of it). Default 1e-4: the change of n_s it
+    /// makes is some thousand times the route's scatter.
+    pub step: f64,
+}
+
+impl Default for MultiFitSettings {
+    fn default() -> Self {
+        MultiFitSettings {
+            tol: 1e-4,
+            max_evaluations: 40,
+            step: 1e-4,
+        }
+    }
+}
+
 /// Limits and tolerances of the multi-field analyses ([`crate::analysis::multi`]), with their
 /// defaults.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -84,6 +84,28 @@ pub struct Miss {
     pub residual: f64,
 }
 
+/// `NAME = VALUE, ..., gives OBSERVABLE = ... (wanted ..., scaled residual ...); ...`: the best
+/// point of a fit and what it reaches there.
+fn fit_best(at: &[(String, f64)], misses: &[Miss]) -> String {
+    let at: Vec<String> = at
+        .iter()
+        .map(|(k, v)| format!("{k} = {}", crate::report::numfmt::number_digits(*v, FIT_PARAM_DIGITS)))
+        .collect();
+    let parts: Vec<String> = misses
+        .iter()
+        .map(|m| {
+            format!(
+                "{} = {} (wanted {}, scaled residual {})",
+                m.observable,
+                crate::report::numfmt::number(m.reached),
+                crate::report::numfmt::typed(m.wanted),
+                crate::report::numfmt::scientific(m.residual, 3)
+            )
+        })
+        .collect();
+    format!("{}, gives {}", at.join(", "), parts.join("; "))
+}
+
 /// Why an analysis failed, with the numbers that say so. Each kind has its message
 /// ([`fmt::Display`]) and its hints ([`ErrorKind::hints`]).
 #[derive(Debug, Clone, PartialEq)]
@@ -456,6 +478,25 @@ pub enum ErrorKind {
         /// Each target there.
         misses: Vec<Miss>,
     },
+    /// A fit of a model of several fields used its budget of predictions before it reached
+    /// the targets.
+    FitBudget {
+        /// Predictions made (the budget, `config::MultiFitSettings::max_evaluations`).
+        evaluations: usize,
+        /// The best point found: (name, value) of each free parameter.
+        at: Vec<(String, f64)>,
+        /// Each target there.
+        misses: Vec<Miss>,
+    },
+    /// `--free` names neither a parameter nor a start coordinate of a model of several fields.
+    FitUnknownFreeSeveral {
+        /// The name.
+        name: String,
+        /// The model's fields.
+        fields: Vec<String>,
+        /// The model's parameters.
+        params: Vec<String>,
+    },
 
     // --- Several fields.
     /// More fields than the multi-field analyses take.
@@ -640,6 +681,12 @@ impl ErrorKind {
             FitUnknownFree { .. } => &["--free takes a parameter's name"],
             FitStart { .. } => &["start the fit from values that predict"],
             FitJacobian { .. } => &["start closer to a solution"],
+            FitBudget { .. } => &[
+                "start closer to the solution with --param (or --start), or raise config::MultiFitSettings::max_evaluations",
+            ],
+            FitUnknownFreeSeveral { .. } => &[
+                "--free takes a parameter's name, or a start coordinate as `start.FIELD`",
+            ],
             MultiTooManyFields { .. } => &["split the model, or raise the limit in config::MultiLimits"],
             MultiDimension { .. } => &["give one number per field, in the model's field order"],
             MultiNeverEnds { .. } => &[
@@ -716,7 +763,9 @@ impl fmt::Display for ErrorKind {
             | FitStart { .. }
             | FitJacobian { .. }
             | FitJacobianAtSolution { .. }
-            | FitNoSolution { .. } => self.fmt_fit(f),
+            | FitNoSolution { .. }
+            | FitBudget { .. }
+            | FitUnknownFreeSeveral { .. } => self.fmt_fit(f),
             MultiTooManyFields { .. }
             | MultiDimension { .. }
             | MultiNeverEnds { .. }
@@ -1113,6 +1162,28 @@ impl ErrorKind {
             FitStart { cause } => write!(f, "the model does not predict at the starting values: {cause}"),
             FitJacobian { cause } => write!(f, "the Jacobian could not be formed: {cause}"),
             FitJacobianAtSolution { cause } => f.write_str(cause),
+            FitBudget {
+                evaluations,
+                at,
+                misses,
+            } => write!(
+                f,
+                "the fit used its {evaluations} predictions (config::MultiFitSettings::max_evaluations) before it reached the targets: the best found, at {}",
+                fit_best(at, misses)
+            ),
+            FitUnknownFreeSeveral { name, fields, params } => {
+                let quote = |v: &[String]| v.iter().map(|x| format!("`{x}`")).collect::<Vec<_>>().join(", ");
+                let params = match params.is_empty() {
+                    true => "no parameters".to_string(),
+                    false => format!("the parameters {}", quote(params)),
+                };
+                write!(
+                    f,
+                    "`{name}` is not a parameter of the model, which has {} fields ({}) and {params}",
+                    fields.len(),
+                    quote(fields)
+                )
+            }
             FitNoSolution { at, misses } => {
                 let at: Vec<String> = at
                     .iter()

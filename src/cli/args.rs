@@ -70,7 +70,8 @@ pub struct FitArgs {
     #[command(flatten)]
     pub(crate) model: ModelArgs,
     /// A parameter to solve for (repeatable; at most as many as targets). Its value in the
-    /// model (or --param) is the starting point.
+    /// model (or --param) is the starting point. On a model of several fields also a start
+    /// coordinate, start.FIELD.
     #[arg(long = "free", value_name = "NAME", required = true)]
     pub(crate) free: Vec<String>,
     /// A target, NAME=VALUE with NAME one of n_s, r, alpha_s, A_s (repeatable).
@@ -99,7 +100,8 @@ pub struct ScanArgs {
     #[command(flatten)]
     pub(crate) model: ModelArgs,
     /// A parameter to vary: NAME=LO:HI:COUNT, `:log` appended for a logarithmic grid, or NAME
-    /// alone for the model file's `[scan]` range. Once or twice.
+    /// alone for the model file's `[scan]` range. Once or twice. On a model of several fields
+    /// also a start coordinate, start.FIELD=LO:HI:COUNT.
     #[arg(long, value_name = "NAME=LO:HI:COUNT[:log]", required = true)]
     pub(crate) vary: Vec<String>,
     #[command(flatten)]

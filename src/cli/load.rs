@@ -8,16 +8,24 @@ use super::check::{
 };
 use super::Failure;
 use crate::cli::args::{DataArgs, ModelArgs};
-use crate::config::{Config, DEFAULT_N_STARS};
+use crate::config::{Config, DEFAULT_N_STARS, MULTI_GOLDEN_TOLERANCE};
 use crate::data::DataSet;
 use crate::diag::{Diagnostic, Source, Span};
+use crate::drivers::golden::several_fields_report;
 use crate::drivers::predict::{predict, Options, Report};
+use crate::drivers::scan::PointError;
+use crate::drivers::scan_multi::{predict_bound, MultiScanJob};
 use crate::model::{FieldValue, MetricEntry, Model, ModelSpec, Origin, Text};
+use crate::report::multi;
 use std::path::Path;
 
-/// Builds the model from a file and/or the inline flags (flags override the file).
+/// Builds the model from a file and/or the inline flags (flags override the file), refusing a
+/// model of several fields ([`Model::one_field_only`]) for a command that analyses one field.
 /// `example` is the command line suggested when no model is given, e.g.
 /// `efold predict models/pole-order-2-quadratic.toml`.
+// Every command of the crate takes models of several fields today ([`load_model_any`]); this
+// stays for a command of one field only.
+#[allow(dead_code)]
 pub(crate) fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Result<Model, Failure> {
     let model = load_model_any(a, example, config)?;
     let command = example.split_whitespace().take(2).collect::<Vec<_>>().join(" ");
@@ -25,7 +33,7 @@ pub(crate) fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Resul
     Ok(model)
 }
 
-/// [`load_model`] for a command that also takes models of several fields (`predict`).
+/// [`load_model`] for a command that also takes models of several fields.
 pub(crate) fn load_model_any(a: &ModelArgs, example: &str, config: &Config) -> Result<Model, Failure> {
     let mut spec = match (&a.model, &a.potential) {
         (Some(path), _) => ModelSpec::load_with(path, &config.limits)?,
@@ -137,9 +145,7 @@ fn apply_flags(spec: &mut ModelSpec, a: &ModelArgs) -> Result<(), Failure> {
 /// The model of one file, without flags (`golden`, `watch`).
 pub(crate) fn load_model_file(path: &Path, config: &Config) -> Result<Model, Failure> {
     let spec = ModelSpec::load_with(path, &config.limits)?;
-    let model = Model::build(&spec, config)?;
-    model.one_field_only("efold golden` / `efold watch")?;
-    Ok(model)
+    Ok(Model::build(&spec, config)?)
 }
 
 /// The data set of `--data`, or the built-in one.
@@ -169,17 +175,63 @@ pub(crate) fn checked_n_stars(flag: &[f64], spec: &ModelSpec, config: &Config) -
     Ok(n_stars)
 }
 
-/// The slow-roll report of one model file, at its own N_* (or [`DEFAULT_N_STARS`]), against
-/// `data`: what `golden` writes and checks and `watch` follows.
-pub(crate) fn predict_model_file(path: &Path, data: &DataSet, config: &Config) -> Result<Report, Failure> {
+/// The report `golden` writes and checks and `watch` follows for one model file: for one
+/// field the slow-roll report, for several the exact multi-field one of `efold predict` with
+/// the model's input ([`several_fields_report`]).
+pub(crate) enum FileReport {
+    /// A model of one field.
+    One(Box<Report>),
+    /// A model of several fields.
+    Several(serde_json::Value),
+}
+
+impl FileReport {
+    /// The report as JSON.
+    pub(crate) fn value(&self) -> serde_json::Value {
+        match self {
+            FileReport::One(rep) => serde_json::to_value(rep).expect("serialisable"),
+            FileReport::Several(v) => v.clone(),
+        }
+    }
+
+    /// The report as the text of a golden file.
+    pub(crate) fn text(&self) -> String {
+        match self {
+            FileReport::One(rep) => format!("{}\n", serde_json::to_string_pretty(rep).expect("serialisable")),
+            FileReport::Several(v) => format!("{}\n", serde_json::to_string_pretty(v).expect("serialisable")),
+        }
+    }
+
+    /// The tolerance to compare with, from the flag's: for several fields at least
+    /// [`MULTI_GOLDEN_TOLERANCE`].
+    pub(crate) fn tolerance(&self, flag: f64) -> f64 {
+        match self {
+            FileReport::One(_) => flag,
+            FileReport::Several(_) => flag.max(MULTI_GOLDEN_TOLERANCE),
+        }
+    }
+}
+
+/// The report of one model file, at its own N_* (or [`DEFAULT_N_STARS`]), against `data`
+/// (see [`FileReport`]).
+pub(crate) fn predict_model_file(path: &Path, data: &DataSet, config: &Config) -> Result<FileReport, Failure> {
     let model = load_model_file(path, config)?;
     let (n_stars, _) = n_stars_of(&[], &model.spec);
+    if model.n_fields() > 1 {
+        let settings = MultiScanJob::settings_for(&model);
+        let rep = predict_bound(&model, &n_stars, &settings).map_err(|e| match e {
+            PointError::Analysis(a) => Failure::from(a),
+            PointError::Model(d) => Failure::from(*d),
+        })?;
+        let text = multi::json(&model.spec.name, &rep, data.a_s());
+        return Ok(FileReport::Several(several_fields_report(&model, &text)));
+    }
     let opts = Options {
         n_stars,
         data: data.clone(),
         ..Options::default()
     };
-    Ok(predict(&model, &opts, config)?)
+    Ok(FileReport::One(Box::new(predict(&model, &opts, config)?)))
 }
 
 /// Reads a whole text file of at most `limit` bytes (`Limits::max_shard_bytes`), stopping at

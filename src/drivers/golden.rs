@@ -546,6 +546,63 @@ pub fn diff(old: &serde_json::Value, new: &serde_json::Value, tolerance: f64) ->
     }
 }
 
+/// The golden report of a model of several fields: the JSON of `efold predict` for it
+/// ([`crate::report::multi::json`]), its `model` (the name alone there) replaced by the input
+/// (name, description, fields, potential, metric, parameters, start), so that a diff names the
+/// input that changed.
+pub fn several_fields_report(model: &crate::model::Model, prediction_json: &str) -> serde_json::Value {
+    use serde_json::{json, Map, Value};
+    let spec = &model.spec;
+    let texts = |pairs: Vec<(&String, &String)>| -> Value {
+        Value::Object(
+            pairs
+                .into_iter()
+                .map(|(k, v)| (k.clone(), json!(v)))
+                .collect::<Map<_, _>>(),
+        )
+    };
+    let numbers = |names: &[String], values: &[f64]| -> Value {
+        Value::Object(
+            names
+                .iter()
+                .cloned()
+                .zip(values.iter().map(|v| json!(v)))
+                .collect::<Map<_, _>>(),
+        )
+    };
+    let input = json!({
+        "name": spec.name,
+        "description": spec.description,
+        "fields": model.field_names(),
+        "potential": spec.potential.text,
+        "metric": texts(spec.metric.iter().map(|e| (&e.key.text, &e.value.text)).collect()),
+        "params": numbers(&model.scope.params, &model.params),
+        "start": numbers(model.field_names(), model.start().unwrap_or_default()),
+    });
+    let mut v: Value = serde_json::from_str(prediction_json).expect("the prediction's own JSON");
+    if let Some(m) = v.as_object_mut() {
+        m.insert("model".into(), input);
+    }
+    v
+}
+
+/// The fields of the model a golden report was written for, when it has several (`None`: a
+/// report of one field).
+pub fn report_fields(report: &serde_json::Value) -> Option<Vec<String>> {
+    report
+        .get("fields")?
+        .as_array()
+        .map(|a| a.iter().map(|f| f.as_str().unwrap_or_default().to_string()).collect())
+}
+
+/// The kind of model a report is of, for people: `one field`, `2 fields (x, y)`.
+pub fn kind_text(fields: &Option<Vec<String>>) -> String {
+    match fields {
+        Some(f) => format!("{} fields ({})", f.len(), f.join(", ")),
+        None => "one field".to_string(),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

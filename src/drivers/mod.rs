@@ -3,11 +3,13 @@
 //! model that can be rebound to new parameter values without compiling again.
 
 pub mod fit;
+pub mod fit_multi;
 pub mod golden;
 pub mod inspect;
 pub mod inspect_multi;
 pub mod predict;
 pub mod prepared;
 pub mod scan;
+pub mod scan_multi;
 pub mod spectrum;
 pub mod spectrum_multi;

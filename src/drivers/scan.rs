@@ -80,6 +80,11 @@ pub enum AxisError {
         /// The flag's value.
         text: String,
     },
+    /// A start coordinate (`start.FIELD`) varied without a range.
+    NoStartRange {
+        /// The axis name, `start.FIELD`.
+        name: String,
+    },
 }
 
 impl std::fmt::Display for AxisError {
@@ -123,6 +128,10 @@ impl std::fmt::Display for AxisError {
                 write!(f, "`{field}` in `--vary {text}`: the fourth field may only be `log`")
             }
             AxisError::TooManyFields { text } => write!(f, "`--vary {text}` has too many fields"),
+            AxisError::NoStartRange { name } => write!(
+                f,
+                "no range for `{name}`: a start coordinate has no default range; give `--vary {name}=LO:HI:COUNT`"
+            ),
         }
     }
 }
@@ -191,27 +200,39 @@ impl Axis {
     /// A count above `max_count` (`Limits::max_axis_points`) is refused before anything is
     /// allocated.
     pub fn parse(text: &str, spec: &ModelSpec, default_count: usize, max_count: usize) -> Result<Axis, AxisError> {
+        let (name, range) = match text.split_once('=') {
+            Some((n, r)) => (n.trim(), Some(r.trim())),
+            None => (text.trim(), None),
+        };
+        let Some(p) = spec.params.iter().find(|p| p.name == name) else {
+            return Err(AxisError::NotAParameter {
+                name: name.to_string(),
+                params: spec.params.iter().map(|p| p.name.clone()).collect(),
+            });
+        };
+        let no_range = || AxisError::NoRange { name: name.to_string() };
+        Axis::parse_range(text, name, range, p.scan.ok_or_else(no_range), default_count, max_count)
+    }
+
+    /// The range part of `--vary {text}` (`range`, after `NAME=`) for the axis `name`; without
+    /// one, `default` (the model's scan range, or why there is none) with `default_count`
+    /// points. A count above `max_count` is refused before anything is allocated.
+    pub fn parse_range(
+        text: &str,
+        name: &str,
+        range: Option<&str>,
+        default: Result<(f64, f64, bool), AxisError>,
+        default_count: usize,
+        max_count: usize,
+    ) -> Result<Axis, AxisError> {
         let too_many = |count: usize| AxisError::TooMany {
             text: text.to_string(),
             count,
             max: max_count,
         };
         let with_field = |field: &str| (text.to_string(), field.to_string());
-        let (name, range) = match text.split_once('=') {
-            Some((n, r)) => (n.trim(), Some(r.trim())),
-            None => (text.trim(), None),
-        };
-        if !spec.params.iter().any(|p| p.name == name) {
-            return Err(AxisError::NotAParameter {
-                name: name.to_string(),
-                params: spec.params.iter().map(|p| p.name.clone()).collect(),
-            });
-        }
         let Some(range) = range else {
-            let p = spec.params.iter().find(|p| p.name == name).expect("checked above");
-            let Some((lo, hi, log)) = p.scan else {
-                return Err(AxisError::NoRange { name: name.to_string() });
-            };
+            let (lo, hi, log) = default?;
             if default_count > max_count {
                 return Err(too_many(default_count));
             }
@@ -525,7 +546,7 @@ fn point_rows(job: &ScanJob<'_>, prep: Option<&mut Prepared<'_>>, opts: &Options
 }
 
 /// The parameter values of a point: the first axis varies slowest.
-fn grid_point(axes: &[Axis], mut index: usize) -> Vec<f64> {
+pub fn grid_point(axes: &[Axis], mut index: usize) -> Vec<f64> {
     let mut out = vec![0.0; axes.len()];
     for (i, a) in axes.iter().enumerate().rev() {
         out[i] = a.values[index % a.values.len()];
@@ -576,6 +597,9 @@ pub struct Provenance {
     pub total: usize,
     /// The N_* of every point, in row order.
     pub efolds: Vec<f64>,
+    /// The fields of a scan of a model of several fields (absent for one field).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fields: Option<Vec<String>>,
 }
 
 /// What starts a CSV shard's first line.
@@ -597,7 +621,11 @@ pub fn definition_id(spec: &ModelSpec, axes: &[Axis], n_stars: &[f64], data: &Da
         "efolds": n_stars,
         "data": data,
     });
-    let text = serde_json::to_string(&def).expect("serialisable");
+    fingerprint(&serde_json::to_string(&def).expect("serialisable"))
+}
+
+/// 64-bit FNV-1a of `text`, in hex: the fingerprint of [`definition_id`].
+pub fn fingerprint(text: &str) -> String {
     // FNV-1a, 64 bits (offset basis and prime of the published definition, from memory).
     let mut h: u64 = 0xcbf2_9ce4_8422_2325;
     for b in text.bytes() {
@@ -629,13 +657,18 @@ impl Table {
 
     /// What comes before the rows.
     pub fn start(&self, axes: &[String]) -> String {
+        self.start_with_header(&csv_header(axes))
+    }
+
+    /// What comes before the rows, with this CSV header (without its newline).
+    pub fn start_with_header(&self, header: &str) -> String {
         let prov = self
             .provenance
             .as_ref()
             .map(|p| serde_json::to_string(p).expect("serialisable"));
         match (self.json, prov) {
-            (false, None) => format!("{}\n", csv_header(axes)),
-            (false, Some(p)) => format!("{SHARD_LINE}{p}\n{}\n", csv_header(axes)),
+            (false, None) => format!("{header}\n"),
+            (false, Some(p)) => format!("{SHARD_LINE}{p}\n{header}\n"),
             (true, None) => "[".to_string(),
             (true, Some(p)) => format!("{{\n\"shard\": {p},\n\"rows\": ["),
         }
@@ -647,10 +680,22 @@ impl Table {
             self.written += rows.len();
             return csv_rows(rows);
         }
+        let rows: Vec<JsonRow> = rows.iter().map(json_row).collect();
+        self.json_rows(&rows)
+    }
+
+    /// These CSV lines (`count` records), as they follow the rows already written.
+    pub fn csv_lines(&mut self, lines: String, count: usize) -> String {
+        self.written += count;
+        lines
+    }
+
+    /// These JSON rows, as they follow the rows already written.
+    pub fn json_rows(&mut self, rows: &[JsonRow]) -> String {
         let mut o = String::new();
         for r in rows {
             // The element as serde_json's pretty printer nests it: every line two spaces in.
-            let text = serde_json::to_string_pretty(&json_row(r)).expect("serialisable");
+            let text = serde_json::to_string_pretty(r).expect("serialisable");
             o.push_str(if self.written == 0 { "\n" } else { ",\n" });
             for (i, line) in text.lines().enumerate() {
                 if i > 0 {
@@ -840,6 +885,18 @@ pub enum MergeError {
         /// This file is JSON.
         json: bool,
     },
+    /// A shard of a scan of a model of several fields among shards of one of one field, or
+    /// the other way round.
+    MixedKinds {
+        /// The file.
+        name: String,
+        /// Its fields, if its model has several.
+        fields: Option<Vec<String>>,
+        /// The first file.
+        first: String,
+        /// The first file's fields, if its model has several.
+        first_fields: Option<Vec<String>>,
+    },
     /// A shard of another scan.
     OtherScan {
         /// The file.
@@ -933,6 +990,7 @@ impl std::fmt::Display for MergeError {
             | RowCount { .. }
             | NoPointIndex { .. } => self.fmt_file(f),
             MixedFormats { .. }
+            | MixedKinds { .. }
             | OtherScan { .. }
             | CutDifferently { .. }
             | BadIndex { .. }
@@ -1019,6 +1077,23 @@ impl MergeError {
                 format(*json),
                 format(!json)
             ),
+            MixedKinds {
+                name,
+                fields,
+                first,
+                first_fields,
+            } => {
+                let kind = |fields: &Option<Vec<String>>| match fields {
+                    Some(names) => format!("a model of {} fields ({})", names.len(), names.join(", ")),
+                    None => "a model of one field".to_string(),
+                };
+                write!(
+                    f,
+                    "{name}: a shard of a scan of {}, but {first} is one of {}: shards of one-field and several-field scans cannot be merged",
+                    kind(fields),
+                    kind(first_fields)
+                )
+            }
             OtherScan { name, first } => write!(
                 f,
                 "{name}: a shard of another scan than {first} (model, grid, N_* or data differ)"
@@ -1212,6 +1287,14 @@ fn check_provenance(f: &ShardFile<'_>, first: &ShardFile<'_>) -> Result<(), Merg
         return Err(MergeError::MixedFormats {
             name: name(),
             json: f.json,
+        });
+    }
+    if p.fields.is_some() != first.prov.fields.is_some() {
+        return Err(MergeError::MixedKinds {
+            name: name(),
+            fields: p.fields.clone(),
+            first: first.name.to_string(),
+            first_fields: first.prov.fields.clone(),
         });
     }
     if p.scan != first.prov.scan || p.total != first.prov.total || p.efolds != first.prov.efolds {

@@ -3,6 +3,7 @@
 //! and SVG ([`predict`], [`inspect`], [`spectrum`], [`scan`], [`fit`]).
 
 pub mod fit;
+pub mod fit_multi;
 pub mod inspect;
 pub mod inspect_multi;
 pub mod multi;
@@ -11,6 +12,7 @@ pub mod output;
 pub mod plot;
 pub mod predict;
 pub mod scan;
+pub mod scan_multi;
 pub mod spectrum;
 pub mod spectrum_multi;
 

@@ -8,7 +8,7 @@ use crate::cli::Failure;
 use crate::config::Config;
 use crate::data::DataSet;
 use crate::diag::Diagnostic;
-use crate::drivers::golden::{diff, golden_path, model_files};
+use crate::drivers::golden::{diff, golden_path, kind_text, model_files, report_fields};
 use crate::report::numfmt;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -37,14 +37,16 @@ fn golden_write(a: &GoldenWriteArgs, config: &Config) -> Result<String, Failure>
     let mut out = String::new();
     for f in &files {
         let rep = predict_model_file(f, &data, config).map_err(|e| Failure::input(format!("{}: {e}", f.display())))?;
-        let text = format!("{}\n", serde_json::to_string_pretty(&rep).expect("serialisable"));
-        write_output_file(&golden_path(f), &text)?;
+        write_output_file(&golden_path(f), &rep.text())?;
         let _ = writeln!(out, "wrote {}", golden_path(f).display());
     }
     Ok(out)
 }
 
-/// `golden check`: every model against its golden file; exit code 1 if any drifted.
+/// `golden check`: every model against its golden file; exit code 1 if any drifted, or if a
+/// golden file is of a model of one field and the model now has several, or the other way
+/// round. A model of several fields is compared with at least
+/// [`crate::config::MULTI_GOLDEN_TOLERANCE`].
 fn golden_check(a: &GoldenCheckArgs, config: &Config) -> Result<String, Failure> {
     check_tolerance(a.tolerance)?;
     let data = load_data(&a.data, config)?;
@@ -88,13 +90,33 @@ fn check_one(f: &Path, data: &DataSet, tolerance: f64, config: &Config, out: &mu
             false
         }
         Ok(rep) => {
-            let new = serde_json::to_value(&rep).expect("serialisable");
-            let d = diff(&old, &new, tolerance);
+            let new = rep.value();
+            let (was, now) = (report_fields(&old), report_fields(&new));
+            if was.is_some() != now.is_some() {
+                let _ = writeln!(
+                    out,
+                    "{}: its golden file {} holds the predictions of a model of {}, but the model now has {}: the two cannot be compared (run `efold golden write` to replace it)",
+                    f.display(),
+                    g.display(),
+                    kind_text(&was),
+                    kind_text(&now)
+                );
+                return false;
+            }
+            let d = diff(&old, &new, rep.tolerance(tolerance));
             if d.is_empty() {
                 let _ = writeln!(out, "{}: unchanged", f.display());
                 return true;
             }
-            let _ = writeln!(out, "{}: {} value(s) drifted", f.display(), d.drifts.len());
+            let used = rep.tolerance(tolerance);
+            let beyond = match used == tolerance {
+                true => String::new(),
+                false => format!(
+                    " beyond {} (config::MULTI_GOLDEN_TOLERANCE, for a model of several fields)",
+                    numfmt::typed(used)
+                ),
+            };
+            let _ = writeln!(out, "{}: {} value(s) drifted{beyond}", f.display(), d.drifts.len());
             for line in d.lines() {
                 let _ = writeln!(out, "{line}");
             }

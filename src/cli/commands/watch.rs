@@ -72,13 +72,17 @@ fn files(a: &WatchArgs) -> Result<Vec<PathBuf>, Failure> {
     }
 }
 
-/// Predicts every file and prints what changed since `last` (on the first round, every file).
+/// Predicts every file and prints what changed since `last` (on the first round, every file);
+/// a model of several fields is compared with at least
+/// [`crate::config::MULTI_GOLDEN_TOLERANCE`].
 fn round(a: &WatchArgs, data: &DataSet, config: &Config, last: &mut Last, first: bool) -> Result<(), Failure> {
     for f in files(a)? {
-        let now = predict_model_file(&f, data, config).map(|r| serde_json::to_value(&r).expect("serialisable"));
+        let rep = predict_model_file(&f, data, config);
+        let tolerance = rep.as_ref().map_or(a.tolerance, |r| r.tolerance(a.tolerance));
+        let now = rep.map(|r| r.value());
         let line = match (last.get(&f), &now) {
             (_, Err(e)) => Some(format!("{}: fails to predict\n{e}", f.display())),
-            (Some(Ok(old)), Ok(new)) => changes(&f, old, new, a.tolerance, first),
+            (Some(Ok(old)), Ok(new)) => changes(&f, old, new, tolerance, first),
             (_, Ok(new)) => Some(format!("{}: {}", f.display(), summary(new))),
         };
         if let Some(line) = line {
