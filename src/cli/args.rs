@@ -206,6 +206,8 @@ pub enum Method {
     SlowRoll,
     /// Exact background and Mukhanov–Sasaki modes.
     Exact,
+    /// Slow-roll delta-N on the exact background, without modes (models of several fields).
+    DeltaN,
 }
 
 /// `efold predict`.
@@ -224,8 +226,9 @@ pub struct PredictArgs {
     /// Second-order slow-roll observables (Hubble-flow expansion).
     #[arg(long)]
     pub(crate) second_order: bool,
-    /// How to compute the observables: the slow-roll formulas, or the exact background and
-    /// Mukhanov–Sasaki spectra (N_* then counts from eps_H = 1).
+    /// How to compute the observables: the slow-roll formulas, the exact background and
+    /// Mukhanov–Sasaki spectra (N_* then counts from eps_H = 1), or, for several fields, the
+    /// slow-roll delta-N alone.
     #[arg(long, value_enum, default_value_t = Method::SlowRoll)]
     pub(crate) method: Method,
     /// With --method exact: start the background at this field value instead of on the

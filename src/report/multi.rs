@@ -1,7 +1,9 @@
 //! A prediction of several fields as JSON, CSV and text. Field values are keyed by field name;
 //! the delta-N numbers sit in a `delta_n` object beside the exact ones.
 
+use crate::analysis::multi::delta_n_route::{DeltaNPrediction, DeltaNReport};
 use crate::analysis::multi::predict::{MultiPrediction, MultiReport};
+use crate::analysis::multi::trajectory::{MaxTurn, Stage};
 use crate::report::numfmt;
 use serde_json::{json, Map, Value};
 
@@ -129,14 +131,23 @@ pub fn text(model: &str, rep: &MultiReport) -> String {
             " (delta-N only for models of at most config::MultiLimits::delta_n_max_fields fields)"
         }
     );
-    let _ = writeln!(o, "inflation lasts {} e-folds", numfmt::number(rep.n_total));
+    o.push_str(&trajectory_text(rep.n_total, &rep.max_turn, &rep.stages));
+    o.push_str(&render_rows(&table(rep)));
+    o
+}
+
+/// The trajectory's lines of a text report: its length, the largest turn, the stages.
+fn trajectory_text(n_total: f64, max_turn: &MaxTurn, stages: &[Stage]) -> String {
+    use std::fmt::Write as _;
+    let mut o = String::new();
+    let _ = writeln!(o, "inflation lasts {} e-folds", numfmt::number(n_total));
     let _ = writeln!(
         o,
         "largest turn eta_perp/H = {} at {} e-folds before the end",
-        numfmt::number(rep.max_turn.turn_rate),
-        numfmt::number(rep.max_turn.n_before_end)
+        numfmt::number(max_turn.turn_rate),
+        numfmt::number(max_turn.n_before_end)
     );
-    for (i, s) in rep.stages.iter().enumerate() {
+    for (i, s) in stages.iter().enumerate() {
         let _ = writeln!(
             o,
             "stage {}: from {} to {} e-folds before the end ({} e-folds)",
@@ -146,14 +157,16 @@ pub fn text(model: &str, rep: &MultiReport) -> String {
             numfmt::number(s.efolds)
         );
     }
-    o.push_str(&table(rep));
     o
 }
 
+/// A row of a text table: a label and one value per N_* (`None`: not computed, drawn `-`).
+type Row = (String, Vec<Option<f64>>);
+
 /// The rows of the text report: a label and one value per N_*.
-fn table(rep: &MultiReport) -> String {
+fn table(rep: &MultiReport) -> Vec<Row> {
     let ps = &rep.predictions;
-    let mut rows: Vec<(String, Vec<Option<f64>>)> = vec![("N_*".into(), ps.iter().map(|p| Some(p.n_star)).collect())];
+    let mut rows: Vec<Row> = vec![("N_*".into(), ps.iter().map(|p| Some(p.n_star)).collect())];
     for (a, f) in rep.fields.iter().enumerate() {
         rows.push((format!("{f}_*"), ps.iter().map(|p| Some(p.fields_star[a])).collect()));
     }
@@ -170,6 +183,11 @@ fn table(rep: &MultiReport) -> String {
         col("r (delta-N)", &|p| p.r_delta_n),
         col("eta_perp/H", &|p| Some(p.turn_rate)),
     ]);
+    rows
+}
+
+/// The rows drawn as aligned columns, each row in one style (numfmt's rule).
+fn render_rows(rows: &[Row]) -> String {
     let width = rows.iter().map(|(l, _)| l.len()).max().unwrap_or(0);
     let cells: Vec<Vec<String>> = rows
         .iter()
@@ -189,5 +207,120 @@ fn table(rep: &MultiReport) -> String {
         let line: Vec<String> = row.iter().map(|c| format!("{c:>cw$}")).collect();
         o.push_str(&format!("  {label:<width$}  {}\n", line.join("  ")));
     }
+    o
+}
+
+/// The delta-N numbers of one prediction, as the exact route's `delta_n` object has them,
+/// with N and its derivatives.
+fn delta_n_json(names: &[String], p: &DeltaNPrediction) -> Value {
+    let d = &p.delta_n;
+    let n_ab: Map<String, Value> = names
+        .iter()
+        .zip(&d.n_ab)
+        .map(|(name, row)| (name.clone(), by_field(names, row)))
+        .collect();
+    json!({
+        "n_s": p.observables.n_s,
+        "r": p.observables.r,
+        "f_nl": p.observables.f_nl,
+        "p_zeta_unscaled": p.observables.p_zeta,
+        "n": d.n,
+        "n_a": by_field(names, &d.n_a),
+        "n_ab": n_ab,
+        "error_n_a": d.error_n_a,
+        "error_n_ab": d.error_n_ab,
+    })
+}
+
+/// One delta-N prediction as a JSON object: the keys of the exact route's, those the modes
+/// give (`alpha_s`, `n_t`, `p_iso`, `p_cross`, `beta_iso`) null, n_s, r, f_NL and P_zeta those
+/// of delta-N.
+fn delta_n_prediction_json(names: &[String], p: &DeltaNPrediction, a_s: f64) -> Value {
+    let o = &p.observables;
+    json!({
+        "n_star": p.n_star,
+        "fields_star": by_field(names, &p.fields_star),
+        "fields_end": by_field(names, &p.fields_end),
+        "n_s": o.n_s,
+        "r": o.r,
+        "alpha_s": null,
+        "n_t": null,
+        "p_zeta_unscaled": o.p_zeta,
+        "potential_scale": a_s / o.p_zeta,
+        "p_iso": null,
+        "p_cross": null,
+        "beta_iso": null,
+        "f_nl": o.f_nl,
+        "eps_h": p.eps_h,
+        "turn_rate": p.turn_rate,
+        "entropic_mass2": p.entropic_mass2,
+        "n_total": p.n_total,
+        "delta_n": delta_n_json(names, p),
+    })
+}
+
+/// The delta-N route's report as JSON, in the exact route's layout with `"method": "delta-n"`.
+pub fn json_delta_n(model: &str, rep: &DeltaNReport, a_s: f64) -> String {
+    let names = &rep.fields;
+    let v = json!({
+        "model": model,
+        "method": "delta-n",
+        "fields": names,
+        "n_total": rep.n_total,
+        "stages": rep.stages,
+        "max_turn": {
+            "turn_rate": rep.max_turn.turn_rate,
+            "n_before_end": rep.max_turn.n_before_end,
+            "fields": by_field(names, &rep.max_turn.fields),
+        },
+        "predictions": rep.predictions.iter().map(|p| delta_n_prediction_json(names, p, a_s)).collect::<Vec<_>>(),
+    });
+    format!("{}\n", serde_json::to_string_pretty(&v).expect("serialisable"))
+}
+
+/// The CSV columns of the delta-N route after the fields at the pivot.
+pub const CSV_KEYS_DELTA_N: [&str; 6] = ["n_s", "r", "p_zeta_unscaled", "f_nl", "eps_h", "turn_rate"];
+
+/// The delta-N route as CSV: `n_star`, the fields at the pivot, then [`CSV_KEYS_DELTA_N`].
+pub fn csv_delta_n(rep: &DeltaNReport) -> String {
+    let mut cols = vec!["n_star".to_string()];
+    cols.extend(rep.fields.iter().map(|f| format!("{f}_star")));
+    cols.extend(CSV_KEYS_DELTA_N.iter().map(|k| k.to_string()));
+    let mut o = cols.join(",") + "\n";
+    for p in &rep.predictions {
+        let mut row = vec![format!("{}", p.n_star)];
+        let o_ = &p.observables;
+        let values = [o_.n_s, o_.r, o_.p_zeta, o_.f_nl, p.eps_h, p.turn_rate];
+        row.extend(p.fields_star.iter().chain(&values).map(|v| format!("{v:e}")));
+        o.push_str(&(row.join(",") + "\n"));
+    }
+    o
+}
+
+/// The delta-N route for people: the trajectory, then one column per N_*.
+pub fn text_delta_n(model: &str, rep: &DeltaNReport) -> String {
+    let mut o = format!(
+        "{model}: {} fields ({}), slow-roll delta-N on the exact background (no Mukhanov–Sasaki modes)\n",
+        rep.fields.len(),
+        rep.fields.join(", ")
+    );
+    o.push_str(&trajectory_text(rep.n_total, &rep.max_turn, &rep.stages));
+    let ps = &rep.predictions;
+    let mut rows: Vec<Row> = vec![("N_*".into(), ps.iter().map(|p| Some(p.n_star)).collect())];
+    for (a, f) in rep.fields.iter().enumerate() {
+        rows.push((format!("{f}_*"), ps.iter().map(|p| Some(p.fields_star[a])).collect()));
+    }
+    let col = |label: &str, g: &dyn Fn(&DeltaNPrediction) -> f64| {
+        (label.to_string(), ps.iter().map(|p| Some(g(p))).collect())
+    };
+    rows.extend([
+        col("n_s", &|p| p.observables.n_s),
+        col("r", &|p| p.observables.r),
+        col("f_NL", &|p| p.observables.f_nl),
+        col("P_zeta", &|p| p.observables.p_zeta),
+        col("eps_H", &|p| p.eps_h),
+        col("eta_perp/H", &|p| p.turn_rate),
+    ]);
+    o.push_str(&render_rows(&rows));
     o
 }

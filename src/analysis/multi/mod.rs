@@ -13,6 +13,7 @@
 pub mod background;
 pub mod closed_form;
 pub mod delta_n;
+pub mod delta_n_route;
 pub mod modes;
 pub mod ode;
 pub mod predict;
