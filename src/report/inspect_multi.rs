@@ -56,6 +56,8 @@ pub fn json(ins: &MultiInspection) -> Value {
         "start": start_json(names, &ins.start),
         "separable": ins.separable,
         "poles": ins.poles.iter().map(pole_json).collect::<Vec<_>>(),
+        "alpha_eff": ins.alpha_eff.alpha,
+        "alpha_eff_line": crate::report::multi::alpha_eff_line_json(names, &ins.alpha_eff),
         "trajectory": {
             "n_total": t.n_total,
             "stages": t.stages,

@@ -1,6 +1,8 @@
 //! A prediction of several fields as JSON, CSV and text. Field values are keyed by field name;
 //! the delta-N numbers sit in a `delta_n` object beside the exact ones.
 
+use crate::analysis::multi::alpha_eff::AlphaEff;
+use crate::analysis::multi::at_pivot::PivotExtras;
 use crate::analysis::multi::delta_n_route::{DeltaNPrediction, DeltaNReport};
 use crate::analysis::multi::predict::{MultiPrediction, MultiReport};
 use crate::analysis::multi::trajectory::{MaxTurn, Stage};
@@ -50,6 +52,13 @@ fn prediction_json(names: &[String], p: &MultiPrediction, a_s: f64) -> Value {
 /// V as written (`p_zeta_unscaled`); `potential_scale` is the factor on V that gives the
 /// observed A_s.
 pub fn json(model: &str, rep: &MultiReport, a_s: f64) -> String {
+    json_with(model, rep, &[], a_s)
+}
+
+/// [`json`] with the geometry around each pivot (`extras`, one per prediction, or none):
+/// `alpha_eff` (null where there is none) and `alpha_eff_line` (the direction, what the line
+/// meets behind and ahead, and the reason for an absent alpha_eff).
+pub fn json_with(model: &str, rep: &MultiReport, extras: &[PivotExtras], a_s: f64) -> String {
     let names = &rep.fields;
     let max_turn = json!({
         "turn_rate": rep.max_turn.turn_rate,
@@ -63,9 +72,54 @@ pub fn json(model: &str, rep: &MultiReport, a_s: f64) -> String {
         "n_total": rep.n_total,
         "stages": rep.stages,
         "max_turn": max_turn,
-        "predictions": rep.predictions.iter().map(|p| prediction_json(names, p, a_s)).collect::<Vec<_>>(),
+        "predictions": rep
+            .predictions
+            .iter()
+            .enumerate()
+            .map(|(i, p)| with_extras(names, prediction_json(names, p, a_s), extras.get(i)))
+            .collect::<Vec<_>>(),
     });
     format!("{}\n", serde_json::to_string_pretty(&v).expect("serialisable"))
+}
+
+/// A prediction's object with the keys of its [`PivotExtras`] added.
+fn with_extras(names: &[String], mut p: Value, extras: Option<&PivotExtras>) -> Value {
+    let (Some(x), Some(obj)) = (extras, p.as_object_mut()) else {
+        return p;
+    };
+    obj.insert("alpha_eff".into(), json!(x.alpha_eff.alpha));
+    obj.insert("alpha_eff_line".into(), alpha_eff_line_json(names, &x.alpha_eff));
+    p
+}
+
+/// The line of an [`AlphaEff`] as JSON: the unit direction by field, what the line meets
+/// behind and ahead, and the reason for an absent alpha_eff (null when there is one).
+pub fn alpha_eff_line_json(names: &[String], a: &AlphaEff) -> Value {
+    json!({
+        "direction": by_field(names, &a.direction),
+        "behind": a.behind,
+        "ahead": a.ahead,
+        "reason": a.reason,
+    })
+}
+
+/// The rows of the geometry around each pivot, and the notes under the table (why an
+/// alpha_eff is absent).
+fn extras_rows(n_stars: &[f64], extras: &[PivotExtras]) -> (Vec<Row>, String) {
+    if extras.is_empty() {
+        return (Vec::new(), String::new());
+    }
+    let rows = vec![(
+        "alpha_eff".to_string(),
+        extras.iter().map(|x| x.alpha_eff.alpha).collect(),
+    )];
+    let mut notes = String::new();
+    for (n, x) in n_stars.iter().zip(extras) {
+        if let Some(why) = &x.alpha_eff.reason {
+            notes.push_str(&format!("alpha_eff at N_* = {}: none, {why}\n", numfmt::typed(*n)));
+        }
+    }
+    (rows, notes)
 }
 
 /// The CSV columns after the fields at the pivot.
@@ -117,6 +171,11 @@ pub fn csv(rep: &MultiReport) -> String {
 
 /// The report for people: the trajectory, then one column per N_*.
 pub fn text(model: &str, rep: &MultiReport) -> String {
+    text_with(model, rep, &[])
+}
+
+/// [`text`] with the geometry around each pivot: rows after the spectra's, notes below.
+pub fn text_with(model: &str, rep: &MultiReport, extras: &[PivotExtras]) -> String {
     use std::fmt::Write as _;
     let mut o = String::new();
     let with_delta_n = rep.predictions.iter().any(|p| p.n_s_delta_n.is_some());
@@ -132,7 +191,12 @@ pub fn text(model: &str, rep: &MultiReport) -> String {
         }
     );
     o.push_str(&trajectory_text(rep.n_total, &rep.max_turn, &rep.stages));
-    o.push_str(&render_rows(&table(rep)));
+    let n_stars: Vec<f64> = rep.predictions.iter().map(|p| p.n_star).collect();
+    let (more, notes) = extras_rows(&n_stars, extras);
+    let mut rows = table(rep);
+    rows.extend(more);
+    o.push_str(&render_rows(&rows));
+    o.push_str(&notes);
     o
 }
 
@@ -260,7 +324,7 @@ fn delta_n_prediction_json(names: &[String], p: &DeltaNPrediction, a_s: f64) -> 
 }
 
 /// The delta-N route's report as JSON, in the exact route's layout with `"method": "delta-n"`.
-pub fn json_delta_n(model: &str, rep: &DeltaNReport, a_s: f64) -> String {
+pub fn json_delta_n(model: &str, rep: &DeltaNReport, extras: &[PivotExtras], a_s: f64) -> String {
     let names = &rep.fields;
     let v = json!({
         "model": model,
@@ -273,7 +337,12 @@ pub fn json_delta_n(model: &str, rep: &DeltaNReport, a_s: f64) -> String {
             "n_before_end": rep.max_turn.n_before_end,
             "fields": by_field(names, &rep.max_turn.fields),
         },
-        "predictions": rep.predictions.iter().map(|p| delta_n_prediction_json(names, p, a_s)).collect::<Vec<_>>(),
+        "predictions": rep
+            .predictions
+            .iter()
+            .enumerate()
+            .map(|(i, p)| with_extras(names, delta_n_prediction_json(names, p, a_s), extras.get(i)))
+            .collect::<Vec<_>>(),
     });
     format!("{}\n", serde_json::to_string_pretty(&v).expect("serialisable"))
 }
@@ -298,7 +367,7 @@ pub fn csv_delta_n(rep: &DeltaNReport) -> String {
 }
 
 /// The delta-N route for people: the trajectory, then one column per N_*.
-pub fn text_delta_n(model: &str, rep: &DeltaNReport) -> String {
+pub fn text_delta_n(model: &str, rep: &DeltaNReport, extras: &[PivotExtras]) -> String {
     let mut o = format!(
         "{model}: {} fields ({}), slow-roll delta-N on the exact background (no Mukhanov–Sasaki modes)\n",
         rep.fields.len(),
@@ -321,6 +390,10 @@ pub fn text_delta_n(model: &str, rep: &DeltaNReport) -> String {
         col("eps_H", &|p| p.eps_h),
         col("eta_perp/H", &|p| p.turn_rate),
     ]);
+    let n_stars: Vec<f64> = ps.iter().map(|p| p.n_star).collect();
+    let (more, notes) = extras_rows(&n_stars, extras);
+    rows.extend(more);
     o.push_str(&render_rows(&rows));
+    o.push_str(&notes);
     o
 }

@@ -1,6 +1,7 @@
 //! `predict`: n_s, r and the rest at each N_*.
 
 use crate::analysis::background::Settings;
+use crate::analysis::multi::at_pivot::{pivot_extras, PivotExtras};
 use crate::analysis::multi::delta_n_route::predict_delta_n;
 use crate::analysis::multi::predict::{predict as multi_predict, MultiSettings};
 use crate::analysis::multi::space::ModelFieldSpace;
@@ -143,18 +144,28 @@ fn predict_several_fields(a: &PredictArgs, model: &Model, config: &Config) -> Re
     if a.method == Method::DeltaN {
         // delta-N alone: the limit on delta-N beside the exact route does not apply.
         let rep = predict_delta_n(&mut space, &start, Some(&velocity), &n_stars, &MultiSettings::default())?;
+        let extras: Vec<PivotExtras> = rep
+            .predictions
+            .iter()
+            .map(|p| pivot_extras(model, &p.fields_star, &p.velocity_star, config))
+            .collect();
         return Ok(match a.format {
-            TableFormat::Json => multi::json_delta_n(&model.spec.name, &rep, data.a_s()),
+            TableFormat::Json => multi::json_delta_n(&model.spec.name, &rep, &extras, data.a_s()),
             TableFormat::Csv => multi::csv_delta_n(&rep),
-            TableFormat::Text => multi::text_delta_n(&model.spec.name, &rep),
+            TableFormat::Text => multi::text_delta_n(&model.spec.name, &rep, &extras),
         });
     }
     let mut settings = MultiSettings::default();
     settings.delta_n = model.n_fields() <= settings.limits.delta_n_max_fields;
     let rep = multi_predict(&mut space, &start, Some(&velocity), &n_stars, &settings)?;
+    let extras: Vec<PivotExtras> = rep
+        .predictions
+        .iter()
+        .map(|p| pivot_extras(model, &p.fields_star, &p.velocity_star, config))
+        .collect();
     Ok(match a.format {
-        TableFormat::Json => multi::json(&model.spec.name, &rep, data.a_s()),
+        TableFormat::Json => multi::json_with(&model.spec.name, &rep, &extras, data.a_s()),
         TableFormat::Csv => multi::csv(&rep),
-        TableFormat::Text => multi::text(&model.spec.name, &rep),
+        TableFormat::Text => multi::text_with(&model.spec.name, &rep, &extras),
     })
 }
