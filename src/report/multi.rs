@@ -89,6 +89,12 @@ fn with_extras(names: &[String], mut p: Value, extras: Option<&PivotExtras>) -> 
     };
     obj.insert("alpha_eff".into(), json!(x.alpha_eff.alpha));
     obj.insert("alpha_eff_line".into(), alpha_eff_line_json(names, &x.alpha_eff));
+    let mut c = serde_json::to_value(x.couplings.couplings).expect("serialisable");
+    if let Some(m) = c.as_object_mut() {
+        m.insert("tangent".into(), by_field(names, &x.couplings.tangent));
+        m.insert("normal".into(), by_field(names, &x.couplings.normal));
+    }
+    obj.insert("couplings".into(), c);
     p
 }
 
@@ -103,16 +109,24 @@ pub fn alpha_eff_line_json(names: &[String], a: &AlphaEff) -> Value {
     })
 }
 
+/// The couplings in the frame of the trajectory, in the order of the text table.
+pub const COUPLING_KEYS: [&str; 8] = ["V_T", "V_TT", "V_TN", "V_NN", "V_TTT", "V_TTN", "V_TNN", "V_NNN"];
+
 /// The rows of the geometry around each pivot, and the notes under the table (why an
 /// alpha_eff is absent).
 fn extras_rows(n_stars: &[f64], extras: &[PivotExtras]) -> (Vec<Row>, String) {
     if extras.is_empty() {
         return (Vec::new(), String::new());
     }
-    let rows = vec![(
+    let mut rows = vec![(
         "alpha_eff".to_string(),
         extras.iter().map(|x| x.alpha_eff.alpha).collect(),
     )];
+    let c = |x: &PivotExtras| serde_json::to_value(x.couplings.couplings).expect("serialisable");
+    let all: Vec<Value> = extras.iter().map(c).collect();
+    for key in COUPLING_KEYS {
+        rows.push((format!("{key}/V"), all.iter().map(|v| v[key].as_f64()).collect()));
+    }
     let mut notes = String::new();
     for (n, x) in n_stars.iter().zip(extras) {
         if let Some(why) = &x.alpha_eff.reason {

@@ -14,6 +14,7 @@ pub mod alpha_eff;
 pub mod at_pivot;
 pub mod background;
 pub mod closed_form;
+pub mod couplings;
 pub mod delta_n;
 pub mod delta_n_route;
 pub mod modes;

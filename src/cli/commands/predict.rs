@@ -148,7 +148,7 @@ fn predict_several_fields(a: &PredictArgs, model: &Model, config: &Config) -> Re
             .predictions
             .iter()
             .map(|p| pivot_extras(model, &p.fields_star, &p.velocity_star, config))
-            .collect();
+            .collect::<Result<_, _>>()?;
         return Ok(match a.format {
             TableFormat::Json => multi::json_delta_n(&model.spec.name, &rep, &extras, data.a_s()),
             TableFormat::Csv => multi::csv_delta_n(&rep),
@@ -162,7 +162,7 @@ fn predict_several_fields(a: &PredictArgs, model: &Model, config: &Config) -> Re
         .predictions
         .iter()
         .map(|p| pivot_extras(model, &p.fields_star, &p.velocity_star, config))
-        .collect();
+        .collect::<Result<_, _>>()?;
     Ok(match a.format {
         TableFormat::Json => multi::json_with(&model.spec.name, &rep, &extras, data.a_s()),
         TableFormat::Csv => multi::csv(&rep),
