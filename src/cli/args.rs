@@ -341,7 +341,7 @@ impl FigureArgs {
 
 /// `efold inspect`.
 #[derive(Debug, clap::Args)]
-#[command(mut_arg("svg", |a| a.help("Write a figure of V against the field and against chi to this SVG file")))]
+#[command(mut_arg("svg", |a| a.help("Write a figure of V against the field and against chi to this SVG file (several fields: V over a plane of two fields, with the trajectory)")))]
 pub struct InspectArgs {
     #[command(flatten)]
     pub(crate) model: ModelArgs,
@@ -351,6 +351,10 @@ pub struct InspectArgs {
     /// Add a table of (phi, chi, V) with this many rows.
     #[arg(long, value_name = "ROWS", allow_negative_numbers = true)]
     pub(crate) table: Option<usize>,
+    /// With --svg or --pdf on a model of several fields: the two fields of the figure's plane,
+    /// the others held at their start values [default: the first two fields].
+    #[arg(long, value_name = "X,Y")]
+    pub(crate) plane: Option<String>,
     #[command(flatten)]
     pub(crate) figure: FigureArgs,
 }
