@@ -12,7 +12,7 @@
 
 use std::collections::HashMap;
 
-/// Values z on the grid xs × ys: `z[j * xs.len() + i]` at (xs[i], ys[j]).
+/// Values z on the grid xs × ys: `z[j * xs.len() + i]` at `(xs[i], ys[j])`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Grid {
     /// The x coordinates, ascending.

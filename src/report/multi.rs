@@ -55,7 +55,7 @@ pub fn json(model: &str, rep: &MultiReport, a_s: f64) -> String {
     json_with(model, rep, &[], a_s)
 }
 
-/// [`json`] with the geometry around each pivot (`extras`, one per prediction, or none):
+/// [`json()`] with the geometry around each pivot (`extras`, one per prediction, or none):
 /// `alpha_eff` (null where there is none) and `alpha_eff_line` (the direction, what the line
 /// meets behind and ahead, and the reason for an absent alpha_eff).
 pub fn json_with(model: &str, rep: &MultiReport, extras: &[PivotExtras], a_s: f64) -> String {
@@ -188,7 +188,7 @@ pub fn text(model: &str, rep: &MultiReport) -> String {
     text_with(model, rep, &[])
 }
 
-/// [`text`] with the geometry around each pivot: rows after the spectra's, notes below.
+/// [`text()`] with the geometry around each pivot: rows after the spectra's, notes below.
 pub fn text_with(model: &str, rep: &MultiReport, extras: &[PivotExtras]) -> String {
     use std::fmt::Write as _;
     let mut o = String::new();

@@ -5,7 +5,8 @@
 //! of [`super::trajectory::normal`], T turned by +90 degrees, N^a = (-T_1, T_0)/sqrt(det G)
 //! (T_a = G_ab T^b). For n > 2 fields the normals N_1 .. N_{n-1} are the coordinate directions
 //! e_0, e_1, ... made orthonormal against T and each other by Gram–Schmidt in the metric G (a
-//! direction whose remainder is below 1e-8 of its length is skipped); the couplings reported
+//! direction whose remainder is below [`crate::config::FRAME_GRAM_SCHMIDT_CUT`] of its length
+//! is skipped); the couplings reported
 //! are the documented subset with N = N_1, the first of them, and the frame's vectors are
 //! reported with them.
 //!
@@ -31,13 +32,11 @@ use super::space::ModelFieldSpace;
 use super::trajectory::normal;
 use super::{FieldSpace, Local};
 use crate::analysis::error::AnalysisError;
+use crate::config::FRAME_GRAM_SCHMIDT_CUT;
 use crate::language::tape::Tape;
 use crate::model::Model;
 use nalgebra::DVector;
 use serde::Serialize;
-
-/// A Gram–Schmidt remainder below this fraction of the direction's length is dropped.
-const GRAM_SCHMIDT_CUT: f64 = 1e-8;
 
 /// The frame couplings at one point, in units of V (module docs).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -214,7 +213,7 @@ fn frame(l: &Local, pi: &[f64]) -> (Vec<f64>, Vec<Vec<f64>>) {
             e.iter_mut().zip(&b).for_each(|(x, y)| *x -= p * y);
         }
         let rest = g(&e, &e).max(0.0).sqrt();
-        if rest > GRAM_SCHMIDT_CUT * length && basis.len() < n {
+        if rest > FRAME_GRAM_SCHMIDT_CUT * length && basis.len() < n {
             basis.push(e.iter().map(|x| x / rest).collect());
         }
     }
