@@ -152,6 +152,12 @@ pub const MULTI_SPECTRUM_FREEZE_EFOLDS: f64 = 5.0;
 /// 50-60 e-folds before the end).
 pub const SLOW_ROLL_WARN_EFOLDS: f64 = 20.0;
 
+/// The frame of the couplings of several fields ([`crate::analysis::multi::couplings`]): a
+/// coordinate direction whose Gram–Schmidt remainder against the frame so far is below this
+/// fraction of its own length is skipped as dependent. Default 1e-8 (well above rounding, far
+/// below any direction that matters).
+pub const FRAME_GRAM_SCHMIDT_CUT: f64 = 1e-8;
+
 /// The N_* values predicted when neither `--efolds` nor the model's `efolds` setting gives
 /// them: 50, 55 and 60 (common practice: the CMB pivot leaves the horizon some 50-60 e-folds
 /// before the end of inflation, depending on reheating).

@@ -1090,6 +1090,13 @@ impl ErrorKind {
                 number(*eps_h),
                 point(at)
             ),
+            // delta-N alone needs only the pivot itself after the start
+            MultiTooFewEfolds { available, needed, n_star } if needed <= n_star => write!(
+                f,
+                "the background gives {} e-folds from the start to the end of inflation, fewer than the N_* = {} asked for",
+                number(*available),
+                typed(*n_star)
+            ),
             MultiTooFewEfolds { available, needed, n_star } => write!(
                 f,
                 "the background gives {} e-folds from the start to the end of inflation, fewer than the {} needed for N_* = {} and its modes, which start inside the horizon",

@@ -208,6 +208,8 @@ pub enum Method {
     SlowRoll,
     /// Exact background and Mukhanov–Sasaki modes.
     Exact,
+    /// Slow-roll delta-N on the exact background, without modes (models of several fields).
+    DeltaN,
 }
 
 /// `efold predict`.
@@ -226,8 +228,9 @@ pub struct PredictArgs {
     /// Second-order slow-roll observables (Hubble-flow expansion).
     #[arg(long)]
     pub(crate) second_order: bool,
-    /// How to compute the observables: the slow-roll formulas, or the exact background and
-    /// Mukhanov–Sasaki spectra (N_* then counts from eps_H = 1).
+    /// How to compute the observables: the slow-roll formulas, the exact background and
+    /// Mukhanov–Sasaki spectra (N_* then counts from eps_H = 1), or, for several fields, the
+    /// slow-roll delta-N alone.
     #[arg(long, value_enum, default_value_t = Method::SlowRoll)]
     pub(crate) method: Method,
     /// With --method exact: start the background at this field value instead of on the
@@ -340,7 +343,7 @@ impl FigureArgs {
 
 /// `efold inspect`.
 #[derive(Debug, clap::Args)]
-#[command(mut_arg("svg", |a| a.help("Write a figure of V against the field and against chi to this SVG file")))]
+#[command(mut_arg("svg", |a| a.help("Write a figure of V against the field and against chi to this SVG file (several fields: V over a plane of two fields, with the trajectory)")))]
 pub struct InspectArgs {
     #[command(flatten)]
     pub(crate) model: ModelArgs,
@@ -350,6 +353,10 @@ pub struct InspectArgs {
     /// Add a table of (phi, chi, V) with this many rows.
     #[arg(long, value_name = "ROWS", allow_negative_numbers = true)]
     pub(crate) table: Option<usize>,
+    /// With --svg or --pdf on a model of several fields: the two fields of the figure's plane,
+    /// the others held at their start values [default: the first two fields].
+    #[arg(long, value_name = "X,Y")]
+    pub(crate) plane: Option<String>,
     #[command(flatten)]
     pub(crate) figure: FigureArgs,
 }

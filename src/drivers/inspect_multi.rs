@@ -4,6 +4,7 @@
 //! the trajectory of the multi-field background from the start (no modes, no delta-N).
 
 use crate::analysis::error::{AnalysisError, ErrorKind};
+use crate::analysis::multi::alpha_eff::{alpha_eff, AlphaEff};
 use crate::analysis::multi::background::{eps_h, run, start_state, Flow};
 use crate::analysis::multi::space::ModelFieldSpace;
 use crate::analysis::multi::trajectory::{max_turn, profile, stages, MaxTurn, Stage};
@@ -91,6 +92,9 @@ pub struct MultiInspection {
     pub poles: Vec<FieldPole>,
     /// The background's trajectory.
     pub trajectory: TrajectorySummary,
+    /// The effective alpha along the start's direction of motion
+    /// ([`crate::analysis::multi::alpha_eff`]).
+    pub alpha_eff: AlphaEff,
 }
 
 /// An error of `inspect` on several fields.
@@ -176,6 +180,7 @@ fn inspect_space(
         poles.extend(poles_along(model, f, &phi, config)?);
     }
     let trajectory = trajectory(space, &start, &MultiLimits::default())?;
+    let alpha_eff = alpha_eff(model, &start.point, &start.velocity, config);
     Ok(MultiInspection {
         name: model.spec.name.clone(),
         fields,
@@ -185,6 +190,7 @@ fn inspect_space(
         separable,
         poles,
         trajectory,
+        alpha_eff,
     })
 }
 

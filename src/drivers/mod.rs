@@ -7,6 +7,7 @@ pub mod fit_multi;
 pub mod golden;
 pub mod inspect;
 pub mod inspect_multi;
+pub mod plane;
 pub mod predict;
 pub mod prepared;
 pub mod scan;

@@ -2,6 +2,7 @@
 //! by field name).
 
 use crate::drivers::inspect_multi::{FieldPole, MultiInspection, StartPoint};
+use crate::drivers::plane::PlaneFigure;
 use crate::report::numfmt;
 use serde_json::{json, Map, Value};
 use std::fmt::Write as _;
@@ -56,6 +57,8 @@ pub fn json(ins: &MultiInspection) -> Value {
         "start": start_json(names, &ins.start),
         "separable": ins.separable,
         "poles": ins.poles.iter().map(pole_json).collect::<Vec<_>>(),
+        "alpha_eff": ins.alpha_eff.alpha,
+        "alpha_eff_line": crate::report::multi::alpha_eff_line_json(names, &ins.alpha_eff),
         "trajectory": {
             "n_total": t.n_total,
             "stages": t.stages,
@@ -156,4 +159,113 @@ pub fn text(ins: &MultiInspection) -> String {
         );
     }
     o
+}
+
+/// Pivots closer than this fraction of the window (in both directions) share one label.
+const PIVOT_MERGE: f64 = 0.025;
+
+/// The pivots' dots and labels: each labelled by its N_*, those that (nearly) coincide on the
+/// plane by one label listing their N_*, on the first of them.
+fn pivot_labels(f: &PlaneFigure) -> Vec<((f64, f64), String)> {
+    let span = |v: &[f64]| (v[v.len() - 1] - v[0]).abs().max(1e-300);
+    let (wx, wy) = (span(&f.grid.xs), span(&f.grid.ys));
+    let near =
+        |p: (f64, f64), q: (f64, f64)| (p.0 - q.0).abs() < PIVOT_MERGE * wx && (p.1 - q.1).abs() < PIVOT_MERGE * wy;
+    let mut out: Vec<((f64, f64), String)> = Vec::new();
+    let mut groups: Vec<((f64, f64), Vec<f64>)> = Vec::new();
+    for &(n, at) in &f.pivots {
+        match groups.iter_mut().find(|(p, _)| near(*p, at)) {
+            Some(g) => {
+                g.1.push(n);
+                out.push((at, String::new()));
+            }
+            None => groups.push((at, vec![n])),
+        }
+    }
+    for (at, ns) in groups {
+        let list: Vec<String> = ns.iter().map(|n| numfmt::typed(*n)).collect();
+        out.push((at, list.join(", ")));
+    }
+    out
+}
+
+/// Contour levels of V in the plane figure.
+const PLANE_LEVELS: usize = 14;
+/// V spanning more than this ratio (all positive) is contoured and coloured in its logarithm.
+const LOG_SPAN: f64 = 100.0;
+
+/// The figure of V over a plane of two fields: contour lines coloured by V (colour bar, in
+/// the logarithm where V spans decades), the trajectory projected on the plane, its start, the
+/// end of inflation and each pivot marked.
+pub fn figure(f: &PlaneFigure, width_pt: f64) -> String {
+    use crate::report::contour::levels;
+    use crate::report::plot::{self, ColorBar, Marker, Panel, Series, Shape};
+    let finite: Vec<f64> = f.grid.z.iter().copied().filter(|v| v.is_finite()).collect();
+    let lo = finite.iter().copied().fold(f64::INFINITY, f64::min);
+    let hi = finite.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let log = lo > 0.0 && hi / lo > LOG_SPAN;
+    let frac = |v: f64| {
+        if log {
+            (v.ln() - lo.ln()) / (hi.ln() - lo.ln())
+        } else {
+            (v - lo) / (hi - lo)
+        }
+    };
+    let mut shapes = Vec::new();
+    for level in levels(lo, hi, PLANE_LEVELS, log) {
+        let color = plot::sequential(frac(level));
+        for line in f.grid.lines(level) {
+            shapes.push(Shape {
+                points: line,
+                color: color.clone(),
+                width: 1.1,
+            });
+        }
+    }
+    let marker = |(x, y): (f64, f64), label: String, color: &str| Marker {
+        x,
+        y,
+        label,
+        color: color.into(),
+    };
+    let mut markers = vec![
+        marker(f.start, "start".into(), "#303030"),
+        marker(f.end, "end of inflation".into(), "#b03030"),
+    ];
+    for (at, label) in pivot_labels(f) {
+        markers.push(marker(at, label, "#8a4a00"));
+    }
+    let held: Vec<String> = f
+        .held
+        .iter()
+        .map(|(n, v)| format!("{} = {}", plot::symbol(n), plot::plain(&numfmt::number(*v))))
+        .collect();
+    let [a, b] = &f.axes;
+    let title = if held.is_empty() {
+        format!("$V$({}, {}); pivots by $N$_*", plot::symbol(a), plot::symbol(b))
+    } else {
+        format!("$V$ at {} (start); pivots by $N$_*", held.join(", "))
+    };
+    let panel = Panel {
+        title,
+        x_label: plot::symbol(a),
+        y_label: plot::symbol(b),
+        series: vec![Series {
+            name: "trajectory".into(),
+            points: f.path.clone(),
+            color: "black".into(),
+            dashed: false,
+        }],
+        markers,
+        shapes,
+        colorbar: Some(ColorBar {
+            label: "$V$ [$M$_p^4]".into(),
+            lo,
+            hi,
+            log,
+            colors: (0..=8).map(|i| plot::sequential(i as f64 / 8.0)).collect(),
+        }),
+        ..Panel::default()
+    };
+    plot::render(&f.name, &[panel], width_pt)
 }

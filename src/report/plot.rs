@@ -58,6 +58,18 @@ pub struct Region {
     pub label: String,
 }
 
+/// A line in data coordinates drawn under the series and left out of the legend and of the
+/// label placement: a contour line, say.
+#[derive(Debug, Clone)]
+pub struct Shape {
+    /// (x, y) points; non-finite points break the line.
+    pub points: Vec<(f64, f64)>,
+    /// A CSS colour.
+    pub color: String,
+    /// Stroke width in layout units.
+    pub width: f64,
+}
+
 /// One set of axes.
 #[derive(Debug, Clone, Default)]
 pub struct Panel {
@@ -79,6 +91,8 @@ pub struct Panel {
     pub regions: Vec<Region>,
     /// The colour bar of a colour-coded quantity, right of the axes.
     pub colorbar: Option<ColorBar>,
+    /// Lines under the series (contours), in no legend.
+    pub shapes: Vec<Shape>,
 }
 
 /// A colour scale: `colors` spaced evenly from `lo` (first) to `hi` (last), linearly or in the
@@ -464,6 +478,12 @@ impl Frame {
             }
         }
         xs.extend(p.vlines.iter().map(|v| v.x).filter(|x| x.is_finite()));
+        for &(x, y) in p.shapes.iter().flat_map(|s| s.points.iter()) {
+            if x.is_finite() && ty(y).is_finite() {
+                xs.push(x);
+                ys.push(ty(y));
+            }
+        }
         for g in &p.regions {
             xs.extend([g.x.0, g.x.1].into_iter().filter(|x| x.is_finite()));
             if let Some((lo, hi)) = g.y {
@@ -529,6 +549,7 @@ fn panel(out: &mut String, p: &Panel, index: usize, W: f64, H: f64) -> Vec<Rect>
         index, fr.pw, fr.ph
     );
     regions(out, p, &fr);
+    shapes(out, p, &fr, index);
     curves(out, p, &fr, index);
     let placed = labels(out, p, &fr);
     if let Some(cb) = &p.colorbar {
@@ -622,6 +643,48 @@ fn regions(out: &mut String, p: &Panel, fr: &Frame) {
             g.opacity,
         );
     }
+}
+
+/// The shapes as paths, clipped to the box.
+fn shapes(out: &mut String, p: &Panel, fr: &Frame, index: usize) {
+    for s in &p.shapes {
+        let mut d = String::new();
+        let mut pen_up = true;
+        for &(x, y) in &s.points {
+            let Some((px, py)) = fr.place(x, y) else {
+                pen_up = true;
+                continue;
+            };
+            let _ = write!(d, "{}{px:.2},{py:.2} ", if pen_up { "M" } else { "L" });
+            pen_up = false;
+        }
+        let _ = writeln!(
+            out,
+            "<path class=\"shape\" d=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"{}\" clip-path=\"url(#clip{index})\"/>",
+            d.trim_end(),
+            s.color,
+            s.width
+        );
+    }
+}
+
+/// A sequential colour scale from dark blue (t = 0) through teal and green to yellow (t = 1),
+/// readable in grey as it darkens monotonically.
+pub fn sequential(t: f64) -> String {
+    const STOPS: [(f64, f64, f64); 5] = [
+        (48.0, 18.0, 110.0),
+        (38.0, 90.0, 160.0),
+        (30.0, 150.0, 140.0),
+        (120.0, 195.0, 80.0),
+        (245.0, 225.0, 40.0),
+    ];
+    let t = if t.is_finite() { t.clamp(0.0, 1.0) } else { 0.0 };
+    let x = t * (STOPS.len() - 1) as f64;
+    let k = (x.floor() as usize).min(STOPS.len() - 2);
+    let f = x - k as f64;
+    let (a, b) = (STOPS[k], STOPS[k + 1]);
+    let c = |u: f64, v: f64| (u + f * (v - u)).round() as u8;
+    format!("#{:02x}{:02x}{:02x}", c(a.0, b.0), c(a.1, b.1), c(a.2, b.2))
 }
 
 /// The series as paths, the pen lifted over points that cannot be drawn.

@@ -10,9 +10,13 @@
 //!   (positive on a sphere), stored at `((a * n + b) * n + c) * n + d`;
 //! - the covariant Hessian V_;ab = d_a d_b V - Gamma^c_ab V_c.
 
+pub mod alpha_eff;
+pub mod at_pivot;
 pub mod background;
 pub mod closed_form;
+pub mod couplings;
 pub mod delta_n;
+pub mod delta_n_route;
 pub mod modes;
 pub mod ode;
 pub mod predict;

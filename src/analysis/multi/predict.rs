@@ -33,6 +33,8 @@ pub struct MultiPrediction {
     pub n_star: f64,
     /// The fields at the pivot's exit, in field order.
     pub fields_star: Vec<f64>,
+    /// dphi^a/dN at the pivot's exit.
+    pub velocity_star: Vec<f64>,
     /// The fields at the end of inflation (eps_H = 1).
     pub fields_end: Vec<f64>,
     /// n_s of P_zeta at the end of inflation.
@@ -167,6 +169,7 @@ fn at_pivot(
     let p = MultiPrediction {
         n_star,
         fields_star: y[..n].to_vec(),
+        velocity_star: y[n..].to_vec(),
         fields_end: bg.end[..n].to_vec(),
         n_s: 1.0 + ns1,
         r: mid.p_t / mid.p_zeta,

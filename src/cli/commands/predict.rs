@@ -1,6 +1,8 @@
 //! `predict`: n_s, r and the rest at each N_*.
 
 use crate::analysis::background::Settings;
+use crate::analysis::multi::at_pivot::{pivot_extras, PivotExtras};
+use crate::analysis::multi::delta_n_route::predict_delta_n;
 use crate::analysis::multi::predict::{predict as multi_predict, MultiSettings};
 use crate::analysis::multi::space::ModelFieldSpace;
 use crate::cli::args::{Method, PredictArgs, TableFormat};
@@ -25,6 +27,14 @@ pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Fa
     let model = load_model_any(&a.model, "efold predict models/pole-order-2-quadratic.toml", config)?;
     if model.n_fields() > 1 {
         return predict_several_fields(a, &model, config);
+    }
+    if a.method == Method::DeltaN {
+        return Err(Diagnostic::new(format!(
+            "--method delta-n is for models of several fields; the model `{}` has one field",
+            model.spec.name
+        ))
+        .with_hint("for one field, delta-N is the slow-roll computation: use `--method slow-roll` (or `--method exact` for the exact spectrum)")
+        .into());
     }
     if let (Some(phi), Some(v)) = (a.start_phi, a.start_velocity) {
         check_start_velocity(&model, phi, v)?;
@@ -124,19 +134,38 @@ fn predict_several_fields(a: &PredictArgs, model: &Model, config: &Config) -> Re
             model.spec.name,
             model.n_fields()
         ))
-        .with_hint("a model of several fields starts where its [start] table says, and is predicted on the exact route with delta-N beside it")
+        .with_hint("a model of several fields starts where its [start] table says, and is predicted on the exact route with delta-N beside it (or by delta-N alone with --method delta-n)")
         .into());
     }
     let data = load_data(&a.data, config)?;
     let n_stars = checked_n_stars(&a.efolds.efolds, &model.spec, config)?;
     let mut space = ModelFieldSpace::new(model).expect("a model of several fields has a field space");
     let (start, velocity) = space.start()?;
+    if a.method == Method::DeltaN {
+        // delta-N alone: the limit on delta-N beside the exact route does not apply.
+        let rep = predict_delta_n(&mut space, &start, Some(&velocity), &n_stars, &MultiSettings::default())?;
+        let extras: Vec<PivotExtras> = rep
+            .predictions
+            .iter()
+            .map(|p| pivot_extras(model, &p.fields_star, &p.velocity_star, config))
+            .collect::<Result<_, _>>()?;
+        return Ok(match a.format {
+            TableFormat::Json => multi::json_delta_n(&model.spec.name, &rep, &extras, data.a_s()),
+            TableFormat::Csv => multi::csv_delta_n(&rep),
+            TableFormat::Text => multi::text_delta_n(&model.spec.name, &rep, &extras),
+        });
+    }
     let mut settings = MultiSettings::default();
     settings.delta_n = model.n_fields() <= settings.limits.delta_n_max_fields;
     let rep = multi_predict(&mut space, &start, Some(&velocity), &n_stars, &settings)?;
+    let extras: Vec<PivotExtras> = rep
+        .predictions
+        .iter()
+        .map(|p| pivot_extras(model, &p.fields_star, &p.velocity_star, config))
+        .collect::<Result<_, _>>()?;
     Ok(match a.format {
-        TableFormat::Json => multi::json(&model.spec.name, &rep, data.a_s()),
+        TableFormat::Json => multi::json_with(&model.spec.name, &rep, &extras, data.a_s()),
         TableFormat::Csv => multi::csv(&rep),
-        TableFormat::Text => multi::text(&model.spec.name, &rep),
+        TableFormat::Text => multi::text_with(&model.spec.name, &rep, &extras),
     })
 }
