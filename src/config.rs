@@ -241,6 +241,12 @@ pub struct BasinLimits {
     pub h_max: f64,
     /// Most starts of one run (grid or `--random`). Default 10 000 000.
     pub max_starts: usize,
+    /// Relative tolerance of the background runs of delta-N at a pivot (several fields).
+    /// Default 1e-9: N changes by some 1e-7 in a run of 60 e-folds, which moves the first
+    /// derivatives N_a (steps of 0.02 in field distance) by about 1e-5 of themselves, far
+    /// below what n_s and r resolve, at a fraction of the cost of
+    /// [`MultiLimits::bg_rtol`]'s 1e-12.
+    pub delta_n_rtol: f64,
 }
 
 impl Default for BasinLimits {
@@ -252,6 +258,7 @@ impl Default for BasinLimits {
             rtol: 1e-10,
             h_max: 0.5,
             max_starts: 10_000_000,
+            delta_n_rtol: 1e-9,
         }
     }
 }

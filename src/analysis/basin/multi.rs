@@ -1,15 +1,28 @@
-//! Several fields: the covariant background of [`crate::analysis::multi::background`] run
-//! segment by segment from any start ([`super::Flowing`]), the minimum of V the field settles
-//! in (descent along -G^ab d_b V), the direction it rolls along at the end of inflation, and
-//! n_s and r from slow-roll delta-N at the pivots.
+//! Several fields: the covariant background run segment by segment from any start
+//! ([`super::Flowing`]), the minimum of V the field settles in (descent along -G^ab d_b V), the
+//! direction it rolls along at the end of inflation, and n_s and r from slow-roll delta-N at
+//! the pivots.
+//!
+//! The state is (phi^a, p^a) with p^a = dphi^a/dt / sqrt(V_s) (cosmic time, V_s the potential
+//! at the start), N counting e-folds:
+//!
+//! ```text
+//! dphi^a/dN = p^a / H,
+//! dp^a/dN = -3 p^a - Gamma^a_bc p^b p^c / H - G^ab V_b / (V_s H),
+//! H^2 = (G_ab p^a p^b / 2 + V / V_s) / 3,   eps_H = (G_ab p^a p^b / 2) / H^2
+//! ```
+//!
+//! (the covariant Klein–Gordon and Friedmann equations, common practice; the form of
+//! [`crate::analysis::multi::background`] with pi^a = dphi^a/dN = p^a / H, multiplied out so
+//! that nothing divides by V, which vanishes where the field crosses a minimum).
 
 use super::{outcome_of, track, Ask, Flowing, Segment, StartResult, Stop, Velocity};
 use crate::analysis::error::{AnalysisError, ErrorKind};
-use crate::analysis::multi::background::{attractor, eps_h, Flow};
+use crate::analysis::multi::background::{attractor, eps_h, quad_form, Flow};
 use crate::analysis::multi::delta_n::{delta_n, observables};
 use crate::analysis::multi::ode::{integrate, Failure, Tolerances};
 use crate::analysis::multi::space::ModelFieldSpace;
-use crate::analysis::multi::FieldSpace;
+use crate::analysis::multi::{FieldSpace, Local};
 use crate::config::{BasinLimits, MultiLimits};
 use crate::model::Model;
 use std::cell::RefCell;
@@ -20,6 +33,10 @@ pub struct MultiBasin<'m> {
     n: usize,
     tol: Tolerances,
     multi: MultiLimits,
+    /// V_s.
+    v_scale: f64,
+    /// The geometry at the last point evaluated.
+    local: Local,
     /// (N, state) at every accepted step of the current run, ascending.
     checkpoints: Vec<(f64, Vec<f64>)>,
 }
@@ -40,6 +57,8 @@ impl<'m> MultiBasin<'m> {
                 max_steps: (lim.cap_efolds / lim.h_max) as usize * 20 + 100_000,
             },
             multi,
+            v_scale: 1.0,
+            local: Local::zeros(n),
             checkpoints: Vec::new(),
         })
     }
@@ -47,8 +66,7 @@ impl<'m> MultiBasin<'m> {
     /// The velocity pi^a = dphi^a/dN of a start at phi.
     pub fn velocity(&mut self, phi: &[f64], v: Velocity) -> Result<Vec<f64>, AnalysisError> {
         let n = self.n;
-        let mut flow = Flow::new(&mut self.space);
-        let l = flow.at(phi)?;
+        let l = self.at(phi)?;
         if l.v.is_nan() || l.v <= 0.0 {
             return Err(ErrorKind::BasinStartNotUsable {
                 at: phi.to_vec(),
@@ -92,8 +110,7 @@ impl<'m> MultiBasin<'m> {
 
     fn try_run(&mut self, phi: &[f64], v: Velocity, ask: &Ask<'_>) -> Result<StartResult, AnalysisError> {
         let pi = self.velocity(phi, v)?;
-        let y0 = [phi, &pi[..]].concat();
-        self.checkpoints.clear();
+        let y0 = self.start_state(phi, &pi)?;
         let t = track(self, &y0, ask.limits)?;
         let n = self.n;
         let outcome = outcome_of(&t, ask.need);
@@ -105,6 +122,7 @@ impl<'m> MultiBasin<'m> {
                     continue;
                 }
                 let y = self.state_at(n_end - ns)?;
+                let y = self.to_pi(&y)?;
                 let mut flow = Flow::new(&mut self.space);
                 let d = delta_n(&mut flow, &y[..n], &self.multi)?;
                 let o = observables(&mut flow, &y, &d)?;
@@ -131,6 +149,59 @@ impl<'m> MultiBasin<'m> {
             r,
             reason: t.left.map(|e| e.message),
         })
+    }
+
+    /// The geometry at phi, kept in the scratch.
+    fn at(&mut self, phi: &[f64]) -> Result<&Local, AnalysisError> {
+        self.space.local(phi, &mut self.local)?;
+        Ok(&self.local)
+    }
+
+    /// The state (phi, p) of a start with velocity pi^a = dphi^a/dN (eps_H < 3), and V_s set to
+    /// V at phi; the checkpoints of the last run are dropped.
+    pub fn start_state(&mut self, phi: &[f64], pi: &[f64]) -> Result<Vec<f64>, AnalysisError> {
+        self.checkpoints.clear();
+        let l = self.at(phi)?;
+        let h = (1.0 / (3.0 - eps_h(l, pi))).sqrt();
+        self.v_scale = l.v;
+        Ok([phi.to_vec(), pi.iter().map(|x| h * x).collect()].concat())
+    }
+
+    /// A state (phi, p) as (phi, pi) with pi = p / H, the form of the multi-field analyses.
+    pub fn to_pi(&mut self, y: &[f64]) -> Result<Vec<f64>, AnalysisError> {
+        let n = self.n;
+        let v_s = self.v_scale;
+        let l = self.at(&y[..n])?;
+        let h = hubble(l, &y[n..], v_s);
+        Ok([y[..n].to_vec(), y[n..].iter().map(|p| p / h).collect()].concat())
+    }
+
+    /// d(phi, p)/dN at a state (module docs), from the geometry at phi; an error where V < 0.
+    fn rhs(&mut self, y: &[f64], dy: &mut [f64]) -> Result<(), AnalysisError> {
+        let n = self.n;
+        let v_s = self.v_scale;
+        let l = self.at(&y[..n])?;
+        if l.v.is_nan() || l.v < 0.0 {
+            return Err(ErrorKind::BasinLeftDomain {
+                at: y[..n].to_vec(),
+                ran: f64::NAN,
+            }
+            .into());
+        }
+        let p = &y[n..];
+        let h = hubble(l, p, v_s);
+        for a in 0..n {
+            let mut christoffel = 0.0;
+            for b in 0..n {
+                for c in 0..n {
+                    christoffel += l.gamma(a, b, c) * p[b] * p[c];
+                }
+            }
+            let grad = (0..n).map(|b| l.g_inv[(a, b)] * l.dv[b]).sum::<f64>() / v_s;
+            dy[a] = p[a] / h;
+            dy[n + a] = -3.0 * p[a] - (christoffel + grad) / h;
+        }
+        Ok(())
     }
 
     /// The field with the largest share pi^a G_ab pi^b of the kinetic energy at a state.
@@ -183,48 +254,56 @@ impl<'m> MultiBasin<'m> {
     }
 }
 
+/// H at a point with velocity p (module docs).
+fn hubble(l: &crate::analysis::multi::Local, p: &[f64], v_s: f64) -> f64 {
+    ((0.5 * quad_form(&l.g, p, p) + l.v / v_s) / 3.0).sqrt()
+}
+
+/// eps_H at a point with velocity p (module docs).
+fn eps_of(l: &crate::analysis::multi::Local, p: &[f64], v_s: f64) -> f64 {
+    let kin = 0.5 * quad_form(&l.g, p, p);
+    3.0 * kin / (kin + l.v / v_s)
+}
+
 impl Flowing for MultiBasin<'_> {
     fn eps(&mut self, y: &[f64]) -> Result<f64, AnalysisError> {
-        Flow::new(&mut self.space).eps(y)
+        let n = self.n;
+        let v_s = self.v_scale;
+        let l = self.at(&y[..n])?;
+        Ok(eps_of(l, &y[n..], v_s))
     }
 
     fn segment(&mut self, t0: f64, y0: &[f64], t_end: f64, inflating: bool) -> Result<Segment, Stop> {
         let n = self.n;
-        let flow = RefCell::new(Flow::new(&mut self.space));
-        let cps = RefCell::new(&mut self.checkpoints);
+        let v_s = self.v_scale;
+        let tol = self.tol.clone();
+        let mut cps = std::mem::take(&mut self.checkpoints);
+        let this = RefCell::new(self);
         let mut first = true;
         let start_sign = if inflating { -1.0 } else { 1.0 };
         let end = integrate(
-            &mut |_: f64, y: &[f64], dy: &mut [f64]| {
-                let mut f = flow.borrow_mut();
-                f.rhs(y, dy)?;
-                if f.local.v.is_nan() || f.local.v <= 0.0 {
-                    return Err(ErrorKind::BasinLeftDomain {
-                        at: y[..n].to_vec(),
-                        ran: f64::NAN,
-                    }
-                    .into());
-                }
-                Ok(())
-            },
+            &mut |_: f64, y: &[f64], dy: &mut [f64]| this.borrow_mut().rhs(y, dy),
             t0,
             y0,
             t_end,
-            &self.tol,
+            &tol,
             &mut |_, y| {
                 if first {
                     first = false;
                     return Some(start_sign);
                 }
-                Some(flow.borrow().eps_last(y) - 1.0)
+                // right after the right-hand side at y: the geometry is that of y
+                let b = this.borrow();
+                Some(eps_of(&b.local, &y[n..], v_s) - 1.0)
             },
             &mut |t, y| {
-                let mut c = cps.borrow_mut();
-                if c.last().is_none_or(|c| t > c.0) {
-                    c.push((t, y.to_vec()));
+                if cps.last().is_none_or(|c| t > c.0) {
+                    cps.push((t, y.to_vec()));
                 }
             },
         );
+        let me = this.into_inner();
+        me.checkpoints = cps;
         match end {
             Ok(e) => Ok(Segment {
                 t: e.t,
@@ -232,7 +311,7 @@ impl Flowing for MultiBasin<'_> {
                 crossed: e.event,
             }),
             Err(Failure::Rhs(e)) => {
-                let (t, y) = self.checkpoints.last().cloned().unwrap_or((t0, y0.to_vec()));
+                let (t, y) = me.checkpoints.last().cloned().unwrap_or((t0, y0.to_vec()));
                 Err(Stop::Left(e, t, y))
             }
             Err(Failure::Numeric(e)) => Err(Stop::Failed(ErrorKind::BackgroundIntegration(e).into())),
@@ -245,13 +324,13 @@ impl Flowing for MultiBasin<'_> {
         if n0 == n_at {
             return Ok(y0);
         }
-        let mut flow = Flow::new(&mut self.space);
+        let tol = self.tol.clone();
         let end = integrate(
-            &mut |_: f64, y: &[f64], dy: &mut [f64]| flow.rhs(y, dy).map(|_| ()),
+            &mut |_: f64, y: &[f64], dy: &mut [f64]| self.rhs(y, dy),
             n0,
             &y0,
             n_at,
-            &self.tol,
+            &tol,
             &mut |_, _| None,
             &mut |_, _| {},
         )

@@ -227,7 +227,10 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
         need: a.need,
         n_stars: &n_stars,
         limits: &limits,
-        multi: MultiLimits::default(),
+        multi: MultiLimits {
+            bg_rtol: limits.delta_n_rtol,
+            ..MultiLimits::default()
+        },
         shard,
         progress: std::io::stderr().is_terminal(),
     };
