@@ -311,6 +311,17 @@ pub struct BasinArgs {
     pub(crate) data: DataArgs,
 }
 
+/// `efold basin-merge`.
+#[derive(Debug, clap::Args)]
+#[command(mut_arg("out", |a| a.help("Write the merged output here (atomically) instead of standard output")))]
+pub struct BasinMergeArgs {
+    /// The JSON shard files of one `efold basin --shard K/N --format json` run.
+    #[arg(required = true)]
+    pub(crate) files: Vec<PathBuf>,
+    #[command(flatten)]
+    pub(crate) out: OutArgs,
+}
+
 /// The velocity of `efold basin --velocity`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum BasinVelocity {

@@ -1,7 +1,8 @@
 //! A basin run as text, JSON and CSV.
 //!
-//! JSON: one object, `model`, `fields`, `need`, `efolds`, `velocity`, `sampling` (and `seed`,
-//! `shard` where they apply), `summary` (`count`, `fraction_enough`, `fraction_uncertainty`,
+//! JSON: one object, `model`, `fields`, `need`, `efolds`, `velocity`, `sampling` (and `seed`
+//! for a random sample), `definition` (the samples and velocity as given), `shard` (for a
+//! shard), `summary` (`count`, `fraction_enough`, `fraction_uncertainty`,
 //! `outcomes`, `minima`, `directions`, `clusters`) and `points`, each with `index`, `start`
 //! (field name -> value), `x_kinetic`, `direction`, `n_total`, `n_inflating`, `outcome`,
 //! `end`, `minimum`, `rolls_along`, `n_s` and `r` (lists aligned with `efolds`, null where
@@ -47,6 +48,8 @@ pub struct Header {
     pub sampling: String,
     /// The seed of a random sample.
     pub seed: Option<u64>,
+    /// What defines the run beyond these: the samples and the velocity as given.
+    pub definition: String,
     /// Shard provenance (a JSON object), if sharded.
     pub shard: Option<Value>,
 }
@@ -106,6 +109,7 @@ pub fn json(h: &Header, s: &Summary, points: &[BasinPoint]) -> String {
     if let Some(seed) = h.seed {
         top.insert("seed".into(), json!(seed).into());
     }
+    top.insert("definition".into(), json!(h.definition).into());
     if let Some(sh) = &h.shard {
         top.insert("shard".into(), sh.clone().into());
     }
@@ -258,4 +262,153 @@ pub fn text(h: &Header, s: &Summary) -> String {
         }
     }
     o
+}
+
+/// Why shards of a basin run cannot be merged.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct MergeError(pub String);
+
+impl std::fmt::Display for MergeError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for MergeError {}
+
+/// The keys every shard of one run shares (the run's definition).
+const DEFINITION_KEYS: [&str; 8] = [
+    "model",
+    "fields",
+    "need",
+    "efolds",
+    "velocity",
+    "sampling",
+    "seed",
+    "definition",
+];
+
+/// One point read back from a shard's JSON.
+fn point_from_json(names: &[String], v: &Value) -> Option<BasinPoint> {
+    use crate::analysis::basin::{Outcome, StartResult};
+    let by_name = |m: &Value| -> Option<Vec<f64>> { names.iter().map(|n| m.get(n)?.as_f64()).collect() };
+    let opt_list = |m: &Value| -> Option<Vec<Option<f64>>> {
+        m.as_array()?
+            .iter()
+            .map(|x| if x.is_null() { Some(None) } else { x.as_f64().map(Some) })
+            .collect()
+    };
+    let outcome = Outcome::ALL.into_iter().find(|o| v["outcome"] == o.name())?;
+    let result = StartResult {
+        n_total: v["n_total"].as_f64()?,
+        n_inflating: v["n_inflating"].as_f64()?,
+        outcome,
+        end: if v["end"].is_null() {
+            Vec::new()
+        } else {
+            by_name(&v["end"])?
+        },
+        minimum: if v["minimum"].is_null() {
+            None
+        } else {
+            Some(by_name(&v["minimum"])?)
+        },
+        rolls_along: match v["rolls_along"].as_str() {
+            Some(s) => Some(names.iter().position(|n| n == s)?),
+            None => None,
+        },
+        n_s: opt_list(&v["n_s"])?,
+        r: opt_list(&v["r"])?,
+        reason: v["reason"].as_str().map(String::from),
+    };
+    Some(BasinPoint {
+        index: v["index"].as_u64()? as usize,
+        start: by_name(&v["start"])?,
+        x_kinetic: v["x_kinetic"].as_f64(),
+        direction: match v["direction"].as_str() {
+            Some("down") => Some("down"),
+            Some("up") => Some("up"),
+            Some(_) => return None,
+            None => None,
+        },
+        result,
+    })
+}
+
+/// Joins the JSON shards of one `efold basin --shard K/N` run (`(file name, text)`, in any
+/// order) into the output of the unsharded run, byte for byte: every shard 1..N exactly once,
+/// all of one run (the same definition and size), their slices contiguous; the summary is
+/// computed again from all the points.
+pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
+    let err = |m: String| MergeError(m);
+    let mut shards: Vec<(String, Value)> = Vec::new();
+    for (name, t) in texts {
+        let v: Value =
+            serde_json::from_str(t).map_err(|e| err(format!("`{name}` is not the JSON of `efold basin`: {e}")))?;
+        if !v["shard"].is_object() {
+            return Err(err(format!(
+                "`{name}` is not a shard: it has no `shard` record (run with --shard K/N)"
+            )));
+        }
+        shards.push((name.clone(), v));
+    }
+    let Some((first_name, first)) = shards.first().cloned() else {
+        return Err(err("no shards given".into()));
+    };
+    let n = first["shard"]["shards"].as_u64().unwrap_or(0) as usize;
+    let total = first["shard"]["total"].clone();
+    for (name, v) in &shards {
+        for k in DEFINITION_KEYS {
+            if v.get(k) != first.get(k) {
+                return Err(err(format!(
+                    "`{name}` and `{first_name}` are shards of different runs (`{k}` differs)"
+                )));
+            }
+        }
+        if v["shard"]["shards"].as_u64() != Some(n as u64) || v["shard"]["total"] != total {
+            return Err(err(format!(
+                "`{name}` and `{first_name}` cut the run into different shards"
+            )));
+        }
+    }
+    shards.sort_by_key(|(_, v)| v["shard"]["shard"].as_u64().unwrap_or(0));
+    let ks: Vec<u64> = shards
+        .iter()
+        .map(|(_, v)| v["shard"]["shard"].as_u64().unwrap_or(0))
+        .collect();
+    if ks != (1..=n as u64).collect::<Vec<_>>() {
+        return Err(err(format!(
+            "the shards given are {ks:?}; a run of {n} shards needs each of 1..={n} once"
+        )));
+    }
+    let names: Vec<String> = serde_json::from_value(first["fields"].clone()).map_err(|e| err(e.to_string()))?;
+    let mut points = Vec::new();
+    let mut next = 0u64;
+    for (name, v) in &shards {
+        if v["shard"]["points"][0].as_u64() != Some(next) {
+            return Err(err(format!("`{name}` does not start where the shard before it ends")));
+        }
+        next = v["shard"]["points"][1].as_u64().unwrap_or(0);
+        for p in v["points"].as_array().into_iter().flatten() {
+            points.push(
+                point_from_json(&names, p)
+                    .ok_or_else(|| err(format!("`{name}` has a point that is not as written")))?,
+            );
+        }
+    }
+    let n_stars: Vec<f64> = serde_json::from_value(first["efolds"].clone()).map_err(|e| err(e.to_string()))?;
+    let random = first["sampling"] == "random";
+    let header = Header {
+        model: first["model"].as_str().unwrap_or_default().to_string(),
+        fields: names.clone(),
+        need: first["need"].as_f64().unwrap_or(0.0),
+        n_stars: n_stars.clone(),
+        velocity: first["velocity"].as_str().unwrap_or_default().to_string(),
+        sampling: first["sampling"].as_str().unwrap_or_default().to_string(),
+        seed: first["seed"].as_u64(),
+        definition: first["definition"].as_str().unwrap_or_default().to_string(),
+        shard: None,
+    };
+    let summary = crate::drivers::basin::summarise(&points, &names, &n_stars, random);
+    Ok(json(&header, &summary, &points))
 }

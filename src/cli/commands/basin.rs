@@ -251,6 +251,7 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
         .to_string(),
         sampling: if a.random.is_some() { "random" } else { "grid" }.to_string(),
         seed: a.random.map(|_| a.seed),
+        definition: definition(a),
         shard: shard.map(|s| shard_provenance(&job, s)),
     };
     let table = match a.format {
@@ -270,6 +271,42 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
             Ok(String::new())
         }
         None => Ok(table),
+    }
+}
+
+/// The samples and the velocity as given, which with the other keys define a run (shards of
+/// one run share it).
+fn definition(a: &BasinArgs) -> String {
+    let mut parts: Vec<String> = a.sample.iter().map(|s| format!("--sample {s}")).collect();
+    match &a.kinetic_ratio {
+        Some(k) => parts.push(format!("--kinetic-ratio {k} --direction {:?}", a.direction).to_lowercase()),
+        None => parts.push(format!("--velocity {:?}", a.velocity).to_lowercase()),
+    }
+    if let Some(n) = a.random {
+        parts.push(format!("--random {n}"));
+    }
+    parts.join(" ")
+}
+
+/// `efold basin-merge`: the JSON shards of one run joined into the unsharded output.
+pub(crate) fn merge_cmd(a: &crate::cli::args::BasinMergeArgs, config: &Config) -> Result<String, Failure> {
+    let mut texts = Vec::new();
+    for f in &a.files {
+        let t = crate::cli::load::read_bounded(f, config.limits.max_shard_bytes)?;
+        texts.push((f.display().to_string(), t));
+    }
+    let merged =
+        crate::report::basin::merge(&texts).map_err(|e| {
+            Failure::from(Diagnostic::new(e.to_string()).with_hint(
+                "give every JSON file of one `efold basin --shard K/N --format json` run, K = 1..N, each once",
+            ))
+        })?;
+    match &a.out.out {
+        Some(path) => {
+            write_output_file(path, &merged)?;
+            Ok(String::new())
+        }
+        None => Ok(merged),
     }
 }
 
