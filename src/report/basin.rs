@@ -1,4 +1,4 @@
-//! A basin run as text, JSON and CSV.
+//! A basin run as text, JSON and CSV, and its figure ([`figure`]).
 //!
 //! JSON: one object, `model`, `fields`, `need`, `efolds`, `velocity`, `sampling` (and `seed`
 //! for a random sample), `definition` (the samples and velocity as given), `shard` (for a
@@ -8,8 +8,11 @@
 //! `end`, `minimum`, `rolls_along`, `n_s` and `r` (lists aligned with `efolds`, null where
 //! the run has too few e-folds) and `reason`. CSV: one row per start and N_*.
 
+use crate::analysis::basin::sample::Plan;
+use crate::data::DataSet;
 use crate::drivers::basin::{BasinPoint, Summary};
 use crate::report::numfmt::{number, row_opt, typed};
+use crate::report::plot::{self, ColorBar, Marker, Panel, Region, Series};
 use indexmap::IndexMap;
 use serde_json::{json, Value};
 
@@ -411,4 +414,331 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
     };
     let summary = crate::drivers::basin::summarise(&points, &names, &n_stars, random);
     Ok(json(&header, &summary, &points))
+}
+
+/// How a sampled coordinate is drawn: its values (log10 of them on a logarithmic axis) and
+/// its label.
+struct MapAxis {
+    index: usize,
+    log: bool,
+    label: String,
+}
+
+impl MapAxis {
+    fn value(&self, coords: &[f64]) -> f64 {
+        let v = coords[self.index];
+        if self.log {
+            v.log10()
+        } else {
+            v
+        }
+    }
+}
+
+/// The axes of the map: the plan's first two coordinates, each logarithmic where it was
+/// sampled so (a grid axis spanning more than a factor 20 above zero, or a `:log` range).
+fn map_axes(plan: &Plan) -> Vec<MapAxis> {
+    let names = plan.names();
+    let logs: Vec<bool> = match plan {
+        Plan::Grid(axes) => axes
+            .iter()
+            .map(|a| {
+                let lo = a.values.iter().copied().fold(f64::INFINITY, f64::min);
+                let hi = a.values.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+                lo > 0.0 && hi / lo > 20.0
+            })
+            .collect(),
+        Plan::Random { ranges, .. } => ranges.iter().map(|r| r.log).collect(),
+    };
+    names
+        .iter()
+        .zip(logs)
+        .enumerate()
+        .take(2)
+        .map(|(index, (name, log))| {
+            let sym = if name == crate::drivers::basin::X_NAME {
+                "$X$ = $\\rho$_{kin}/$V$".to_string()
+            } else {
+                plot::symbol(name)
+            };
+            MapAxis {
+                index,
+                log,
+                label: if log { format!("log_{{10}} {sym}") } else { sym },
+            }
+        })
+        .collect()
+}
+
+/// The colour of total e-folds on the map's scale (blue few, yellow many), grey for a start
+/// that failed or never inflated.
+struct Shade {
+    lo: f64,
+    hi: f64,
+}
+
+impl Shade {
+    fn of(points: &[BasinPoint]) -> Shade {
+        let ns: Vec<f64> = points.iter().map(|p| p.result.n_total).filter(|n| *n > 0.0).collect();
+        let lo = ns.iter().copied().fold(f64::INFINITY, f64::min);
+        let hi = ns.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        if lo.is_finite() && hi > lo {
+            Shade { lo, hi }
+        } else if lo.is_finite() {
+            Shade {
+                lo: lo / 2.0,
+                hi: lo * 2.0,
+            }
+        } else {
+            Shade { lo: 0.1, hi: 100.0 }
+        }
+    }
+
+    fn color(&self, p: &BasinPoint) -> String {
+        let n = p.result.n_total;
+        if p.result.outcome == crate::analysis::basin::Outcome::Failed || n <= 0.0 {
+            return "#b0b0b0".into();
+        }
+        let t = ((n.ln() - self.lo.ln()) / (self.hi.ln() - self.lo.ln())).clamp(0.0, 1.0);
+        gradient(t)
+    }
+
+    fn bar(&self) -> ColorBar {
+        ColorBar {
+            label: "$N$_{total}".into(),
+            lo: self.lo,
+            hi: self.hi,
+            log: true,
+            colors: (0..=8).map(|i| gradient(i as f64 / 8.0)).collect(),
+        }
+    }
+}
+
+/// Blue (few e-folds) through green to yellow (many).
+fn gradient(t: f64) -> String {
+    let (r, g, b) = (
+        (40.0 + t * (250.0 - 40.0)) as u8,
+        (60.0 + t * (200.0 - 60.0)) as u8,
+        (160.0 - t * 130.0) as u8,
+    );
+    format!("#{r:02x}{g:02x}{b:02x}")
+}
+
+/// The cells of a grid map (one per point of the first two axes, edges half-way between
+/// neighbours) and the boundaries between cells of different outcomes, as one line broken
+/// between segments. Points that differ only in further coordinates share a cell: the last
+/// drawn shows.
+fn grid_cells(
+    axes: &[MapAxis],
+    grid: &[Vec<f64>; 2],
+    points: &[(Vec<f64>, &BasinPoint)],
+    shade: &Shade,
+) -> (Vec<Region>, Series) {
+    let edges = |vs: &[f64], i: usize| -> (f64, f64) {
+        let lo = if i == 0 {
+            vs[0] - 0.5 * (vs.get(1).map_or(1.0, |v| v - vs[0]))
+        } else {
+            0.5 * (vs[i - 1] + vs[i])
+        };
+        let hi = if i + 1 == vs.len() {
+            vs[i] + 0.5 * (if i > 0 { vs[i] - vs[i - 1] } else { 1.0 })
+        } else {
+            0.5 * (vs[i] + vs[i + 1])
+        };
+        (lo, hi)
+    };
+    let find = |vs: &[f64], v: f64| vs.iter().position(|&w| w == v);
+    let mut outcome = vec![vec![None; grid[1].len()]; grid[0].len()];
+    let mut cells = Vec::new();
+    for (c, p) in points {
+        let (Some(i), Some(j)) = (find(&grid[0], axes[0].value(c)), find(&grid[1], axes[1].value(c))) else {
+            continue;
+        };
+        outcome[i][j] = Some(p.result.outcome);
+        cells.push(Region {
+            x: edges(&grid[0], i),
+            y: Some(edges(&grid[1], j)),
+            color: shade.color(p),
+            opacity: 1.0,
+            label: String::new(),
+        });
+    }
+    let mut line = Vec::new();
+    for i in 0..grid[0].len() {
+        for j in 0..grid[1].len() {
+            let (xe, ye) = (edges(&grid[0], i), edges(&grid[1], j));
+            if i + 1 < grid[0].len() && outcome[i][j] != outcome[i + 1][j] {
+                line.extend([(xe.1, ye.0), (xe.1, ye.1), (f64::NAN, f64::NAN)]);
+            }
+            if j + 1 < grid[1].len() && outcome[i][j] != outcome[i][j + 1] {
+                line.extend([(xe.0, ye.1), (xe.1, ye.1), (f64::NAN, f64::NAN)]);
+            }
+        }
+    }
+    let boundaries = Series {
+        name: "outcome boundaries".into(),
+        points: line,
+        color: "black".into(),
+        dashed: false,
+    };
+    (cells, boundaries)
+}
+
+/// The map panel: cells (a grid) or points (random samples, or one sampled coordinate
+/// against N_total) coloured by total e-folds.
+fn map_panel(fields: &[String], plan: &Plan, points: &[BasinPoint], shade: &Shade, need: Option<f64>) -> Panel {
+    let axes = map_axes(plan);
+    let coords: Vec<(Vec<f64>, &BasinPoint)> = points.iter().map(|p| (plan_coords(fields, plan, p), p)).collect();
+    let mut panel = Panel {
+        title: "$N$_{total} of each start".into(),
+        colorbar: Some(shade.bar()),
+        ..Panel::default()
+    };
+    if axes.len() < 2 {
+        // one coordinate: N_total against it, coloured the same
+        panel.x_label = axes.first().map_or(String::new(), |a| a.label.clone());
+        panel.y_label = "$N$_{total}".into();
+        panel.log_y = true;
+        panel.markers = coords
+            .iter()
+            .filter(|(_, p)| p.result.n_total > 0.0)
+            .map(|(c, p)| Marker {
+                x: axes[0].value(c),
+                y: p.result.n_total,
+                label: String::new(),
+                color: shade.color(p),
+            })
+            .collect();
+        if let (Some(lo), Some(hi)) = (grid_lo_hi(&panel.markers), need) {
+            panel.series = vec![Series {
+                name: "needed".into(),
+                points: vec![(lo, hi), (grid_hi(&panel.markers), hi)],
+                color: "#444444".into(),
+                dashed: true,
+            }];
+            panel.title = format!("$N$_{{total}}; dashed: {} needed", typed(hi));
+        }
+        return panel;
+    }
+    panel.x_label = axes[0].label.clone();
+    panel.y_label = axes[1].label.clone();
+    if let Plan::Grid(g) = plan {
+        let values = |k: usize| -> Vec<f64> {
+            g[k].values
+                .iter()
+                .map(|&v| if axes[k].log { v.log10() } else { v })
+                .collect()
+        };
+        let (cells, boundaries) = grid_cells(&axes, &[values(0), values(1)], &coords, shade);
+        panel.regions = cells;
+        panel.series = vec![boundaries];
+        panel.markers = outcome_labels(&axes, &coords);
+        panel.title = "$N$_{total}, outcome boundaries".into();
+    } else {
+        panel.markers = coords
+            .iter()
+            .map(|(c, p)| Marker {
+                x: axes[0].value(c),
+                y: axes[1].value(c),
+                label: String::new(),
+                color: shade.color(p),
+            })
+            .collect();
+    }
+    panel
+}
+
+/// The smallest x of some markers.
+fn grid_lo_hi(m: &[Marker]) -> Option<f64> {
+    m.iter().map(|m| m.x).reduce(f64::min)
+}
+
+/// The largest x of some markers.
+fn grid_hi(m: &[Marker]) -> f64 {
+    m.iter().map(|m| m.x).fold(f64::NEG_INFINITY, f64::max)
+}
+
+/// One label per outcome on the map, at the start of that outcome nearest to the middle of
+/// its starts (the median in each coordinate).
+fn outcome_labels(axes: &[MapAxis], coords: &[(Vec<f64>, &BasinPoint)]) -> Vec<Marker> {
+    use crate::analysis::basin::Outcome;
+    let mut out = Vec::new();
+    for o in Outcome::ALL {
+        let pts: Vec<(f64, f64)> = coords
+            .iter()
+            .filter(|(_, p)| p.result.outcome == o)
+            .map(|(c, _)| (axes[0].value(c), axes[1].value(c)))
+            .collect();
+        let median = |mut v: Vec<f64>| {
+            v.sort_by(f64::total_cmp);
+            v.get(v.len() / 2).copied()
+        };
+        let (Some(mx), Some(my)) = (
+            median(pts.iter().map(|p| p.0).collect()),
+            median(pts.iter().map(|p| p.1).collect()),
+        ) else {
+            continue;
+        };
+        let span = |k: usize| {
+            let vs = coords.iter().map(|(c, _)| axes[k].value(c));
+            let (lo, hi) = vs.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(v), b.max(v)));
+            (hi - lo).max(1e-300)
+        };
+        let (sx, sy) = (span(0), span(1));
+        let Some(&(x, y)) = pts.iter().min_by(|a, b| {
+            let d = |p: &(f64, f64)| ((p.0 - mx) / sx).powi(2) + ((p.1 - my) / sy).powi(2);
+            d(a).total_cmp(&d(b))
+        }) else {
+            continue;
+        };
+        out.push(Marker {
+            x,
+            y,
+            label: o.name().replace('_', " "),
+            color: "black".into(),
+        });
+    }
+    out
+}
+
+/// The plan's coordinates of a point: its sampled fields and X, in plan order.
+fn plan_coords(fields: &[String], plan: &Plan, p: &BasinPoint) -> Vec<f64> {
+    plan.names()
+        .iter()
+        .map(|n| match fields.iter().position(|f| f == n) {
+            Some(j) => p.start[j],
+            None => p.x_kinetic.unwrap_or(f64::NAN),
+        })
+        .collect()
+}
+
+/// The figure: the map of the starts over the two sampled coordinates coloured by total
+/// e-folds (log scale, with its colour bar; on a grid with the boundaries between outcomes),
+/// and the n_s-r points of the starts with enough e-folds at the first N_*, over the data's
+/// bands (those of the scan figure).
+pub fn figure(h: &Header, plan: &Plan, points: &[BasinPoint], data: &DataSet, width_pt: f64) -> String {
+    let shade = Shade::of(points);
+    let map = map_panel(&h.fields, plan, points, &shade, Some(h.need));
+    let first = h.n_stars.first().copied().unwrap_or(f64::NAN);
+    let markers: Vec<Marker> = points
+        .iter()
+        .filter_map(|p| {
+            Some(Marker {
+                x: p.result.n_s.first().copied().flatten()?,
+                y: p.result.r.first().copied().flatten()?,
+                label: String::new(),
+                color: shade.color(p),
+            })
+        })
+        .collect();
+    let ns_r = Panel {
+        title: format!("inflating starts at $N$_* = {}", typed(first)),
+        x_label: "$n$_s".into(),
+        y_label: "$r$".into(),
+        log_y: true,
+        markers,
+        regions: crate::report::scan::data_regions(data),
+        ..Panel::default()
+    };
+    plot::render(&format!("basin of {}", h.model), &[map, ns_r], width_pt)
 }

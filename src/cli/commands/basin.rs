@@ -209,14 +209,16 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
         .map(Shard::parse)
         .transpose()
         .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
-    if let (Some(out), Some(svg)) = (&a.out.out, &a.figure.svg) {
-        refuse_one_file(
-            out,
-            svg,
-            format!("--out `{}` and the figure `{}`", out.display(), svg.display()),
-            "the figure would overwrite the table",
-            "give the table and the figure different files",
-        )?;
+    for fig in [&a.figure.svg, &a.figure.pdf] {
+        if let (Some(out), Some(file)) = (&a.out.out, fig) {
+            refuse_one_file(
+                out,
+                file,
+                format!("--out `{}` and the figure `{}`", out.display(), file.display()),
+                "the figure would overwrite the table",
+                "give the table and the figure different files",
+            )?;
+        }
     }
     let data = load_data(&a.data, config)?;
     use std::io::IsTerminal;
@@ -260,10 +262,8 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
         TableFormat::Csv => crate::report::basin::csv(&names, &n_stars, &points),
     };
     if a.figure.wanted() {
-        let _ = (&data, &plan, write_figure);
-        return Err(Diagnostic::new("the basin figure is not drawn by this version")
-            .with_hint("leave out --svg and --pdf")
-            .into());
+        let svg = crate::report::basin::figure(&header, &plan, &points, &data, a.figure.figure_width);
+        write_figure(&a.figure, &svg)?;
     }
     match &a.out.out {
         Some(path) => {
