@@ -61,7 +61,17 @@ fn the_json_has_the_documented_keys_and_its_summary_counts_the_points() {
     let top: Vec<&str> = ordered.top.keys().map(String::as_str).collect();
     assert_eq!(
         top,
-        ["model", "fields", "need", "efolds", "velocity", "sampling", "summary", "points"]
+        [
+            "model",
+            "fields",
+            "need",
+            "efolds",
+            "velocity",
+            "sampling",
+            "definition",
+            "summary",
+            "points"
+        ]
     );
     let points = v["points"].as_array().unwrap();
     assert_eq!(points.len(), 8 * 3 * 2);
