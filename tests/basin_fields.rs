@@ -226,3 +226,14 @@ fn a_field_at_its_minimum_reduces_to_one_field() {
     assert!((s1 - s2).abs() < 1e-4, "{s1} {s2}");
     assert!((r1 / r2 - 1.0).abs() < 2e-2, "{r1} {r2}");
 }
+
+/// A sample range reaching a pole of the metric (x = 1 for a = 1/6) is refused before any
+/// start runs, with a caret under the range.
+#[test]
+fn a_range_outside_the_domain_of_several_fields_is_refused() {
+    let r = efold(&["basin", &model("two-alphas-turning"), "--sample", "x=-1:0.5:3"]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(r.stdout.is_empty());
+    let stderr = r.stderr.replace(env!("CARGO_MANIFEST_DIR"), "ROOT");
+    insta::assert_snapshot!("basin_error_fields_outside_domain", stderr);
+}

@@ -105,19 +105,63 @@ fn ratio_axis(text: &str, config: &Config) -> Result<(Axis, bool), Failure> {
     Ok((axis, text.trim_end().ends_with(":log")))
 }
 
-/// A one-field model's sample ranges must lie inside its domain.
+/// The sample text of a field as given.
+fn sample_text(a: &BasinArgs, name: &str) -> String {
+    a.sample
+        .iter()
+        .find(|s| s.split_once('=').is_some_and(|(n, _)| n.trim() == name))
+        .cloned()
+        .unwrap_or_default()
+}
+
+/// A model of several fields must be defined at the ends of every sampled range (the other
+/// fields at the model's start): V and the metric finite, the metric positive definite.
+fn check_ends_defined(a: &BasinArgs, axes: &[(Axis, bool)], model: &Model) -> Result<(), Failure> {
+    use crate::analysis::multi::FieldSpace;
+    let Some(mut space) = crate::analysis::multi::space::ModelFieldSpace::new(model) else {
+        return Ok(());
+    };
+    let fields = model.field_names();
+    let base = model.start().map_or_else(|| vec![0.0; fields.len()], <[f64]>::to_vec);
+    let mut at = crate::analysis::multi::Local::zeros(fields.len());
+    for (axis, _) in axes {
+        let Some(j) = fields.iter().position(|f| *f == axis.name) else {
+            continue;
+        };
+        for &end in [axis.values[0], *axis.values.last().expect("an axis has a value")].iter() {
+            let mut phi = base.clone();
+            phi[j] = end;
+            if let Err(e) = space.local(&phi, &mut at) {
+                let text = sample_text(a, &axis.name);
+                let eq = text.find('=').map_or(0, |i| i + 1);
+                return Err(flag_error(
+                    "--sample",
+                    &text,
+                    (eq, text.len()),
+                    "outside the domain",
+                    format!(
+                        "the sample of `{}` reaches {}, where the model is not defined: {}",
+                        axis.name,
+                        crate::report::numfmt::typed(end),
+                        e.message
+                    ),
+                    "sample inside the domain (`efold inspect` shows it), the other fields at the model's [start]",
+                ));
+            }
+        }
+    }
+    Ok(())
+}
+
+/// The sample ranges must lie inside the model's domain: one field, its interval; several,
+/// where V and the metric are defined at the ends of each range.
 fn check_in_domain(a: &BasinArgs, axes: &[(Axis, bool)], model: &Model) -> Result<(), Failure> {
     if model.n_fields() != 1 {
-        return Ok(());
+        return check_ends_defined(a, axes, model);
     }
     let iv = basin::domain_of(model)?;
     for (axis, _) in axes.iter().filter(|(x, _)| x.name != X_NAME) {
-        let text = a
-            .sample
-            .iter()
-            .find(|s| s.split_once('=').is_some_and(|(n, _)| n.trim() == axis.name))
-            .cloned()
-            .unwrap_or_default();
+        let text = sample_text(a, &axis.name);
         if let Some(&bad) = axis.values.iter().find(|&&x| !iv.contains(x)) {
             let eq = text.find('=').map_or(0, |i| i + 1);
             return Err(flag_error(
@@ -140,7 +184,7 @@ fn check_in_domain(a: &BasinArgs, axes: &[(Axis, bool)], model: &Model) -> Resul
 }
 
 /// The plan: a grid of the axes, or --random samples of their ranges.
-fn plan_of(a: &BasinArgs, axes: Vec<(Axis, bool)>, config: &Config, limits: &BasinLimits) -> Result<Plan, Failure> {
+fn plan_of(a: &BasinArgs, axes: Vec<(Axis, bool)>, limits: &BasinLimits) -> Result<Plan, Failure> {
     let plan = match a.random {
         None => Plan::Grid(axes.into_iter().map(|(x, _)| x).collect()),
         Some(count) => Plan::Random {
@@ -157,7 +201,6 @@ fn plan_of(a: &BasinArgs, axes: Vec<(Axis, bool)>, config: &Config, limits: &Bas
             seed: a.seed,
         },
     };
-    let _ = config;
     match plan.len() {
         Some(n) if n <= limits.max_starts && n > 0 => Ok(plan),
         n => Err(Diagnostic::new(format!(
@@ -170,9 +213,8 @@ fn plan_of(a: &BasinArgs, axes: Vec<(Axis, bool)>, config: &Config, limits: &Bas
     }
 }
 
-/// `efold basin`: every check first, then the starts, the summary and the outputs.
-pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failure> {
-    let model = load_model_any(&a.model, EXAMPLE, config)?;
+/// The N_* list (`--efolds`, default 55) and `--need`, checked.
+fn n_stars_and_need(a: &BasinArgs, config: &Config) -> Result<Vec<f64>, Failure> {
     let n_stars = if a.efolds.efolds.is_empty() {
         vec![DEFAULT_N_STAR]
     } else {
@@ -187,10 +229,12 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
         "give at least 0 e-folds",
         "e.g. `--need 60`",
     )?;
-    let limits = BasinLimits::default();
-    let mut axes = sample_axes(a, &model, config)?;
-    check_in_domain(a, &axes, &model)?;
-    let velocity = match (&a.kinetic_ratio, a.velocity) {
+    Ok(n_stars)
+}
+
+/// The velocity of the starts; with --kinetic-ratio its axis joins the others.
+fn velocity_plan(a: &BasinArgs, axes: &mut Vec<(Axis, bool)>, config: &Config) -> Result<VelocityPlan, Failure> {
+    Ok(match (&a.kinetic_ratio, a.velocity) {
         (Some(text), _) => {
             axes.push(ratio_axis(text, config)?);
             VelocityPlan::Kinetic(match a.direction {
@@ -201,14 +245,11 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
         }
         (None, BasinVelocity::Attractor) => VelocityPlan::Attractor,
         (None, BasinVelocity::Rest) => VelocityPlan::Rest,
-    };
-    let plan = plan_of(a, axes, config, &limits)?;
-    let shard = a
-        .shard
-        .as_deref()
-        .map(Shard::parse)
-        .transpose()
-        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
+    })
+}
+
+/// The table and a figure on one file are refused.
+fn check_outputs(a: &BasinArgs) -> Result<(), Failure> {
     for fig in [&a.figure.svg, &a.figure.pdf] {
         if let (Some(out), Some(file)) = (&a.out.out, fig) {
             refuse_one_file(
@@ -220,6 +261,25 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
             )?;
         }
     }
+    Ok(())
+}
+
+/// `efold basin`: every check first, then the starts, the summary and the outputs.
+pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failure> {
+    let model = load_model_any(&a.model, EXAMPLE, config)?;
+    let n_stars = n_stars_and_need(a, config)?;
+    let limits = BasinLimits::default();
+    let mut axes = sample_axes(a, &model, config)?;
+    check_in_domain(a, &axes, &model)?;
+    let velocity = velocity_plan(a, &mut axes, config)?;
+    let plan = plan_of(a, axes, &limits)?;
+    let shard = a
+        .shard
+        .as_deref()
+        .map(Shard::parse)
+        .transpose()
+        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
+    check_outputs(a)?;
     let data = load_data(&a.data, config)?;
     use std::io::IsTerminal;
     let job = BasinJob {
@@ -238,28 +298,12 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
     };
     let points = basin::run(&job)?;
     basin::check_all(&points, &limits)?;
-    let names = model.field_names().to_vec();
-    let summary = basin::summarise(&points, &names, &n_stars, a.random.is_some());
-    let header = Header {
-        model: model.spec.name.clone(),
-        fields: names.clone(),
-        need: a.need,
-        n_stars: n_stars.clone(),
-        velocity: match velocity {
-            VelocityPlan::Attractor => "attractor",
-            VelocityPlan::Rest => "rest",
-            VelocityPlan::Kinetic(_) => "kinetic",
-        }
-        .to_string(),
-        sampling: if a.random.is_some() { "random" } else { "grid" }.to_string(),
-        seed: a.random.map(|_| a.seed),
-        definition: definition(a),
-        shard: shard.map(|s| shard_provenance(&job, s)),
-    };
+    let header = header(a, &job);
+    let summary = basin::summarise(&points, &header.fields, &n_stars, a.random.is_some());
     let table = match a.format {
         TableFormat::Text => crate::report::basin::text(&header, &summary),
         TableFormat::Json => crate::report::basin::json(&header, &summary, &points),
-        TableFormat::Csv => crate::report::basin::csv(&names, &n_stars, &points),
+        TableFormat::Csv => crate::report::basin::csv(&header.fields, &n_stars, &points),
     };
     if a.figure.wanted() {
         let svg = crate::report::basin::figure(&header, &plan, &points, &data, a.figure.figure_width);
@@ -271,6 +315,26 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
             Ok(String::new())
         }
         None => Ok(table),
+    }
+}
+
+/// What the reports say about the run besides its points.
+fn header(a: &BasinArgs, job: &BasinJob<'_>) -> Header {
+    Header {
+        model: job.model.spec.name.clone(),
+        fields: job.model.field_names().to_vec(),
+        need: a.need,
+        n_stars: job.n_stars.to_vec(),
+        velocity: match job.velocity {
+            VelocityPlan::Attractor => "attractor",
+            VelocityPlan::Rest => "rest",
+            VelocityPlan::Kinetic(_) => "kinetic",
+        }
+        .to_string(),
+        sampling: if a.random.is_some() { "random" } else { "grid" }.to_string(),
+        seed: a.random.map(|_| a.seed),
+        definition: definition(a),
+        shard: job.shard.map(|s| shard_provenance(job, s)),
     }
 }
 
