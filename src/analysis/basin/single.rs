@@ -72,14 +72,18 @@ impl<'m> SingleFlow<'m> {
     /// d(phi, p)/dN, or NaN outside the domain or where V < 0 (`left` records where).
     fn rhs(&self, y: &State, left: &Cell<Option<f64>>) -> State {
         if !self.iv.contains(y[0]) {
-            left.set(Some(y[0]));
+            if y[0].is_finite() {
+                left.set(Some(y[0]));
+            }
             return [f64::NAN; 2];
         }
         let mut ev = self.ev.borrow_mut();
         let v = ev.eval(y[0]);
         let (dv, sqrt_k) = (ev.output(self.out.dv()), ev.output(self.out.sqrt_k()));
         if !(v >= 0.0 && v.is_finite()) {
-            left.set(Some(y[0]));
+            if y[1].is_finite() {
+                left.set(Some(y[0]));
+            }
             return [f64::NAN; 2];
         }
         let p = y[1];
@@ -262,11 +266,9 @@ impl<'m> SingleBasin<'m> {
                 }
             }
         }
-        let minimum = if t.left.is_none() && t.n_end.is_some() {
-            self.minimum_from(t.last[0])
-        } else {
-            None
-        };
+        // after the end of inflation the field settles in a minimum, or leaves the domain
+        // through its end where V is lowest there
+        let minimum = t.n_end.and_then(|_| self.minimum_from(t.last[0]));
         Ok(StartResult {
             n_total: t.n_total(),
             n_inflating: t.n_inflating,
@@ -290,7 +292,8 @@ impl<'m> SingleBasin<'m> {
     }
 
     /// The local minimum of V reached by walking downhill from phi: steps doubling until V'
-    /// changes sign, then the zero of V' by Brent's method (to 1e-12 relative).
+    /// changes sign, then the zero of V' by Brent's method (to 1e-12 relative); the end of the
+    /// domain if the walk reaches it first (a minimum at the end of the model's range).
     pub fn minimum_from(&mut self, phi: f64) -> Option<f64> {
         let d0 = self.slope(phi);
         if !d0.is_finite() {
@@ -306,7 +309,8 @@ impl<'m> SingleBasin<'m> {
             let b = a + dir * h;
             let d = self.slope(b);
             if !d.is_finite() {
-                return None;
+                let end = if dir < 0.0 { self.flow.iv.lo } else { self.flow.iv.hi };
+                return (!self.flow.iv.contains(b) && end.is_finite()).then_some(end);
             }
             if d.signum() != d0.signum() || d == 0.0 {
                 let (lo, hi) = if a < b { (a, b) } else { (b, a) };
