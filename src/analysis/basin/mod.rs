@@ -357,6 +357,72 @@ pub fn hubble_negative(eps_h: f64, at: &[f64]) -> AnalysisError {
 mod tests {
     use super::*;
 
+    /// A background whose eps_H - 1 changes sign at given N (its state is N itself): the
+    /// e-fold rule on a schedule known exactly.
+    struct Schedule {
+        /// eps_H at N = 0 is above 1 when `starts_above`.
+        starts_above: bool,
+        /// The N where eps_H - 1 changes sign, ascending.
+        crossings: Vec<f64>,
+    }
+
+    impl Flowing for Schedule {
+        fn eps(&mut self, y: &[f64]) -> Result<f64, AnalysisError> {
+            let before = self.crossings.iter().filter(|&&c| c <= y[0]).count();
+            let above = self.starts_above ^ (before % 2 == 1);
+            Ok(if above { 2.0 } else { 0.5 })
+        }
+        fn segment(&mut self, t0: f64, _: &[f64], t_end: f64, _: bool) -> Result<Segment, Stop> {
+            match self.crossings.iter().find(|&&c| c > t0 && c <= t_end) {
+                Some(&c) => Ok(Segment {
+                    t: c,
+                    y: vec![c],
+                    crossed: true,
+                }),
+                None => Ok(Segment {
+                    t: t_end,
+                    y: vec![t_end],
+                    crossed: false,
+                }),
+            }
+        }
+        fn state_at(&mut self, n: f64) -> Result<Vec<f64>, AnalysisError> {
+            Ok(vec![n])
+        }
+    }
+
+    fn run(starts_above: bool, crossings: &[f64]) -> Track {
+        let mut s = Schedule {
+            starts_above,
+            crossings: crossings.to_vec(),
+        };
+        track(&mut s, &[0.0], &BasinLimits::default()).unwrap()
+    }
+
+    #[test]
+    fn the_efold_rule_counts_from_the_first_fall_to_the_last_end() {
+        // kination until 1.5, inflation to 61.5, then oscillation dips (0.4 e-fold) that do
+        // not count: n_total = 60, n_inflating = 60
+        let t = run(true, &[1.5, 61.5, 62.0, 62.4, 63.0, 63.3]);
+        assert_eq!((t.n_begin, t.n_end), (Some(1.5), Some(61.5)));
+        assert_eq!(t.n_total(), 60.0);
+        assert_eq!(t.n_inflating, 60.0);
+        // a restart lasting 3 e-folds after a pause of 1.5: it counts, and the gap does not
+        let t = run(true, &[1.5, 41.5, 43.0, 46.0]);
+        assert_eq!(t.n_end, Some(46.0));
+        assert_eq!(t.n_total(), 44.5);
+        assert_eq!(t.n_inflating, 43.0);
+        // a second stretch after the settling window (2 e-folds) is not looked for
+        assert_eq!(run(false, &[10.0, 13.0, 20.0]).n_end, Some(10.0));
+        // inflating from the start, and never ending within the cap
+        let t = run(false, &[]);
+        assert_eq!((t.n_begin, t.n_end), (Some(0.0), None));
+        assert_eq!(t.n_total(), BasinLimits::default().cap_efolds);
+        // never inflating
+        let t = run(true, &[]);
+        assert_eq!((t.n_begin, t.n_total()), (None, 0.0));
+    }
+
     #[test]
     fn the_energy_split_gives_eps_h() {
         // derived in the module docs: eps_H = 3X/(1+X); X = eps/(3 - eps) inverts it
