@@ -265,6 +265,50 @@ impl Default for MultiLimits {
     }
 }
 
+/// Limits and tolerances of `efold basin` ([`crate::analysis::basin`]), with their defaults.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BasinLimits {
+    /// Cap on the e-folds of one start's run. Default 5000: a plateau start from rest that
+    /// inflates longer than this is reported as never ending (stuck on the plateau).
+    pub cap_efolds: f64,
+    /// After eps_H rises through 1, the run goes on this many e-folds to see whether inflation
+    /// restarts. Default 2.
+    pub settle_efolds: f64,
+    /// A dip of eps_H below 1 after an end counts as inflation restarting only if it lasts this
+    /// many e-folds; shorter ones are the turning points of oscillations about a minimum.
+    /// Default 1 (the first oscillation after the end keeps eps_H < 1 for well under an
+    /// e-fold in the shipped models).
+    pub restart_efolds: f64,
+    /// Relative tolerance of the background integration per step. Default 1e-10 (absolute
+    /// 1e-13).
+    pub rtol: f64,
+    /// Largest step in e-folds. Default 0.5: slow roll is smooth over many e-folds, and the
+    /// step control shortens the steps of kinetic domination and oscillations.
+    pub h_max: f64,
+    /// Most starts of one run (grid or `--random`). Default 10 000 000.
+    pub max_starts: usize,
+    /// Relative tolerance of the background runs of delta-N at a pivot (several fields).
+    /// Default 1e-9: N changes by some 1e-7 in a run of 60 e-folds, which moves the first
+    /// derivatives N_a (steps of 0.02 in field distance) by about 1e-5 of themselves, far
+    /// below what n_s and r resolve, at a fraction of the cost of
+    /// [`MultiLimits::bg_rtol`]'s 1e-12.
+    pub delta_n_rtol: f64,
+}
+
+impl Default for BasinLimits {
+    fn default() -> Self {
+        BasinLimits {
+            cap_efolds: 5000.0,
+            settle_efolds: 2.0,
+            restart_efolds: 1.0,
+            rtol: 1e-10,
+            h_max: 0.5,
+            max_starts: 10_000_000,
+            delta_n_rtol: 1e-9,
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

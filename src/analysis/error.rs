@@ -575,6 +575,56 @@ pub enum ErrorKind {
         /// N_*.
         n_star: f64,
     },
+    /// A basin start whose velocity gives eps_H >= 3, so that H^2 = V / (3 - eps_H) <= 0.
+    BasinHubbleNegative {
+        /// eps_H of the start.
+        eps_h: f64,
+        /// The field point.
+        at: Vec<f64>,
+    },
+    /// A basin run reached a point where V <= 0, V or the metric is not finite, or the field
+    /// is outside the model's domain.
+    BasinLeftDomain {
+        /// The field point.
+        at: Vec<f64>,
+        /// e-folds run before.
+        ran: f64,
+    },
+    /// A basin start where V is not positive and finite.
+    BasinStartNotUsable {
+        /// The field point.
+        at: Vec<f64>,
+        /// V there.
+        v: f64,
+    },
+    /// A velocity along the gradient at a point where the gradient vanishes.
+    BasinNoGradient {
+        /// The field point.
+        at: Vec<f64>,
+    },
+    /// A basin start outside the model's domain.
+    BasinStartOutside {
+        /// The field point.
+        at: Vec<f64>,
+        /// The domain's lower ends.
+        lo: Vec<f64>,
+        /// Its upper ends.
+        hi: Vec<f64>,
+    },
+    /// Every start of a basin run reached the cap on e-folds.
+    BasinEveryStartCapped {
+        /// The starts.
+        count: usize,
+        /// The cap.
+        cap: f64,
+    },
+    /// Every start of a basin run failed; the first reason.
+    BasinEveryStartFailed {
+        /// The starts.
+        count: usize,
+        /// Why the first failed.
+        first: String,
+    },
 }
 
 /// Significant digits of fitted parameter values in messages (as in the fit's report).
@@ -701,6 +751,17 @@ impl ErrorKind {
             MultiNotFinite { .. } => &[
                 "V or the metric is not smooth enough along the trajectory, or the numbers leave double precision",
             ],
+            BasinHubbleNegative { .. } => &[
+                "the slow-roll attractor's velocity is not defined where eps_V >= 3: start with --velocity rest or --kinetic-ratio",
+            ],
+            BasinLeftDomain { .. } => &["the model is not defined beyond this point: check V and the metric there, or sample nearer the minimum"],
+            BasinStartNotUsable { .. } => &["sample only where V > 0 (`efold inspect` shows the domain)"],
+            BasinNoGradient { .. } => &["at a stationary point of V there is no downhill or uphill direction: use --velocity rest there"],
+            BasinStartOutside { .. } => &["give sample ranges inside the domain (`efold inspect` shows it)"],
+            BasinEveryStartCapped { .. } => &[
+                "the field stays on a plateau or at a hilltop: sample nearer the minimum, or raise the cap in config::BasinLimits",
+            ],
+            BasinEveryStartFailed { .. } => &["check the sample ranges and the velocity against the potential"],
             FitNoSolution { .. } => &[
                 "the targets may be out of the model's reach at this N_*: check them against a scan",
                 "or start from other values with --param",
@@ -775,6 +836,13 @@ impl fmt::Display for ErrorKind {
             | MultiStartNotInflating { .. }
             | MultiMetricNotPositive { .. }
             | MultiNotFinite { .. } => self.fmt_multi(f),
+            BasinHubbleNegative { .. }
+            | BasinLeftDomain { .. }
+            | BasinStartNotUsable { .. }
+            | BasinNoGradient { .. }
+            | BasinStartOutside { .. }
+            | BasinEveryStartCapped { .. }
+            | BasinEveryStartFailed { .. } => self.fmt_basin(f),
         }
     }
 }
@@ -1151,6 +1219,54 @@ impl ErrorKind {
                 "{key} = {value} at N_* = {} is not a finite number",
                 typed(*n_star)
             ),
+            _ => unreachable!("{self:?} is not formatted here"),
+        }
+    }
+
+    /// The messages of basins of initial conditions.
+    fn fmt_basin(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use ErrorKind::*;
+        let point = |at: &[f64]| at.iter().map(|x| number(*x)).collect::<Vec<_>>().join(", ");
+        match self {
+            BasinHubbleNegative { eps_h, at } => write!(
+                f,
+                "the velocity at ({}) gives eps_H = {}, at least 3, so H^2 = V/(3 - eps_H) is not positive",
+                point(at),
+                number(*eps_h)
+            ),
+            BasinLeftDomain { at, .. } => write!(f, "the background leaves the domain at ({})", point(at)),
+            BasinStartNotUsable { at, v } => write!(
+                f,
+                "V = {} at the start ({}): a start needs V > 0",
+                number(*v),
+                point(at)
+            ),
+            BasinNoGradient { at } => write!(
+                f,
+                "the gradient of V vanishes at ({}): no direction for the velocity",
+                point(at)
+            ),
+            BasinStartOutside { at, lo, hi } => {
+                let ends: Vec<String> = lo
+                    .iter()
+                    .zip(hi)
+                    .map(|(l, h)| format!("[{}, {}]", number(*l), number(*h)))
+                    .collect();
+                write!(
+                    f,
+                    "the start ({}) lies outside the domain {}",
+                    point(at),
+                    ends.join(" x ")
+                )
+            }
+            BasinEveryStartCapped { count, cap } => write!(
+                f,
+                "every one of the {count} starts is still inflating after the cap of {} e-folds",
+                number(*cap)
+            ),
+            BasinEveryStartFailed { count, first } => {
+                write!(f, "every one of the {count} starts failed; the first: {first}")
+            }
             _ => unreachable!("{self:?} is not formatted here"),
         }
     }

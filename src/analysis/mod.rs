@@ -8,8 +8,10 @@
 //! - [`reheating`]: the e-fold count of the pivot scale after a reheating history.
 //! - [`pivot`]: the observables at the pivot that every route reports.
 //! - [`multi`]: several fields: the potential and the geometry of field space at a point.
+//! - [`basin`]: basins of initial conditions, one field or several.
 
 pub mod background;
+pub mod basin;
 pub mod error;
 pub mod multi;
 pub mod perturbations;

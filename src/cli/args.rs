@@ -264,6 +264,89 @@ pub struct PredictArgs {
     pub(crate) figure: FigureArgs,
 }
 
+/// `efold basin`.
+#[derive(Debug, clap::Args)]
+#[command(mut_arg("svg", |a| a.help("Write the basin map and the n_s-r points of the inflating starts to this SVG file")))]
+#[command(mut_arg("efolds", |a| a.help("N_* values at which n_s and r are given, comma-separated [default: 55]")))]
+pub struct BasinArgs {
+    #[command(flatten)]
+    pub(crate) model: ModelArgs,
+    /// A field to sample: FIELD=LO:HI:COUNT, `:log` appended for a logarithmic grid (with
+    /// --random the count is not used). Repeatable, once per field at most; fields not sampled
+    /// stay at the model's [start].
+    #[arg(
+        long,
+        value_name = "FIELD=LO:HI:COUNT[:log]",
+        required = true,
+        allow_hyphen_values = true
+    )]
+    pub(crate) sample: Vec<String>,
+    /// The velocity at every start: the slow-roll attractor's, or rest.
+    #[arg(long, value_enum, default_value_t = BasinVelocity::Attractor, conflicts_with = "kinetic_ratio")]
+    pub(crate) velocity: BasinVelocity,
+    /// The velocity set by X = kinetic / potential energy at the start, sampled LO:HI:COUNT
+    /// (`:log` appended for a logarithmic grid), along --direction.
+    #[arg(long, value_name = "LO:HI:COUNT[:log]", allow_hyphen_values = true)]
+    pub(crate) kinetic_ratio: Option<String>,
+    /// With --kinetic-ratio: along minus the gradient (down), plus it (up), or each start both.
+    #[arg(long, value_enum, default_value_t = BasinDirection::Down, requires = "kinetic_ratio")]
+    pub(crate) direction: BasinDirection,
+    /// N random starts, uniform in the sampled ranges, instead of the grid.
+    #[arg(long, value_name = "N", allow_negative_numbers = true)]
+    pub(crate) random: Option<usize>,
+    /// The seed of --random.
+    #[arg(long, default_value_t = 1, requires = "random", allow_negative_numbers = true)]
+    pub(crate) seed: u64,
+    /// e-folds a start must inflate for the outcome `enough`.
+    #[arg(long, default_value_t = 60.0, allow_hyphen_values = true)]
+    pub(crate) need: f64,
+    #[command(flatten)]
+    pub(crate) efolds: EfoldsArgs,
+    /// Compute only the K-th of N slices of the starts (for job arrays); join with `efold basin-merge`.
+    #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
+    pub(crate) shard: Option<String>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = TableFormat::Text)]
+    pub(crate) format: TableFormat,
+    #[command(flatten)]
+    pub(crate) out: OutArgs,
+    #[command(flatten)]
+    pub(crate) figure: FigureArgs,
+    #[command(flatten)]
+    pub(crate) data: DataArgs,
+}
+
+/// `efold basin-merge`.
+#[derive(Debug, clap::Args)]
+#[command(mut_arg("out", |a| a.help("Write the merged output here (atomically) instead of standard output")))]
+pub struct BasinMergeArgs {
+    /// The JSON shard files of one `efold basin --shard K/N --format json` run.
+    #[arg(required = true)]
+    pub(crate) files: Vec<PathBuf>,
+    #[command(flatten)]
+    pub(crate) out: OutArgs,
+}
+
+/// The velocity of `efold basin --velocity`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum BasinVelocity {
+    /// The slow-roll attractor's at the start.
+    Attractor,
+    /// At rest.
+    Rest,
+}
+
+/// `efold basin --direction`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum BasinDirection {
+    /// Along minus the gradient of V.
+    Down,
+    /// Along the gradient.
+    Up,
+    /// Each start twice, down then up.
+    Both,
+}
+
 /// The model: a TOML file, or given inline; flags override the file.
 #[derive(Debug, clap::Args)]
 pub struct ModelArgs {

@@ -32,9 +32,10 @@ mod files;
 mod load;
 
 pub use args::{
-    CompileArgs, DataArgs, EfoldsArgs, Emit, EvalArgs, FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs,
-    GoldenCheckArgs, GoldenWriteArgs, InspectArgs, MergeArgs, Method, ModelArgs, OutArgs, PredictArgs, ScanArgs,
-    ScanFormat, ScopeArgs, SpectrumArgs, SpectrumFormat, TableFormat, WatchArgs,
+    BasinArgs, BasinDirection, BasinMergeArgs, BasinVelocity, CompileArgs, DataArgs, EfoldsArgs, Emit, EvalArgs,
+    FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs, InspectArgs, MergeArgs,
+    Method, ModelArgs, OutArgs, PredictArgs, ScanArgs, ScanFormat, ScopeArgs, SpectrumArgs, SpectrumFormat,
+    TableFormat, WatchArgs,
 };
 
 /// efold: from a potential and a kinetic function to inflationary predictions.
@@ -64,6 +65,11 @@ pub enum Command {
     Scan(ScanArgs),
     /// Join the shards of a scan into the table an unsharded run writes.
     Merge(MergeArgs),
+    /// Basins of initial conditions: from many starts (field values and velocities), how many
+    /// e-folds, which outcome and which n_s and r.
+    Basin(BasinArgs),
+    /// Join the JSON shards of a basin run into the output an unsharded run writes.
+    BasinMerge(BasinMergeArgs),
     /// Solve for parameter values that reproduce target observables.
     Fit(FitArgs),
     /// Golden predictions for a directory of models: write them, or check that nothing drifted.
@@ -187,6 +193,8 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Spectrum(a) => commands::spectrum::spectrum_cmd(a, &config),
         Command::Scan(a) => commands::scan::scan_cmd(a, &config),
         Command::Merge(a) => commands::scan::merge_cmd(a, &config),
+        Command::Basin(a) => commands::basin::basin_cmd(a, &config),
+        Command::BasinMerge(a) => commands::basin::merge_cmd(a, &config),
         Command::Fit(a) => commands::fit::fit_cmd(a, &config),
         Command::Golden(a) => commands::golden::golden_cmd(a, &config),
         Command::Watch(a) => commands::watch::watch_cmd(a, &config),

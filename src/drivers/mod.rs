@@ -2,6 +2,7 @@
 //! [`spectrum`], [`scan`], [`fit`], [`golden`]), on one [`prepared::Prepared`] analysis of a
 //! model that can be rebound to new parameter values without compiling again.
 
+pub mod basin;
 pub mod fit;
 pub mod fit_multi;
 pub mod golden;

@@ -2,6 +2,7 @@
 //! ([`plot`]), the atomic writer ([`output`]), and each command's result as text, CSV, JSON
 //! and SVG ([`predict`], [`inspect`], [`spectrum`], [`scan`], [`fit`]).
 
+pub mod basin;
 pub mod contour;
 pub mod fit;
 pub mod fit_multi;

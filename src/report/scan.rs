@@ -216,7 +216,7 @@ fn curves(axes: &[Axis], ok: &[(&ScanRow, &Prediction)]) -> Vec<Series> {
 }
 
 /// The data's n_s bands (1 and 2 sigma) and the region its r limit excludes.
-fn data_regions(data: &DataSet) -> Vec<Region> {
+pub fn data_regions(data: &DataSet) -> Vec<Region> {
     let (m, s) = (data.n_s.mean, data.n_s.sigma);
     vec![
         Region {
