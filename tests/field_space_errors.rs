@@ -84,39 +84,6 @@ fn bad_models_of_several_fields_are_errors_at_their_place() {
     }
 }
 
-/// The shipped models of several fields are read and checked, and every command that analyses
-/// one field refuses them in the loading layer, naming the command (`predict`, `inspect` and
-/// `spectrum` take them: `tests/predict_fields.rs`, `tests/inspect_fields.rs`,
-/// `tests/spectrum_fields.rs`).
-#[test]
-fn one_field_commands_refuse_a_model_of_several_fields() {
-    let model = format!(
-        "{}/models/several-fields/two-pole-fields-merging.toml",
-        env!("CARGO_MANIFEST_DIR")
-    );
-    let runs: [&[&str]; 2] = [
-        &["scan", &model, "--vary", "a=0.4:0.6:3"],
-        &["fit", &model, "--free", "a", "--target", "n_s=0.965"],
-    ];
-    for args in runs {
-        let r = efold(args);
-        assert_eq!(r.code, 2, "{args:?}: {}", r.stderr);
-        let command = format!("`efold {}` analyses models of one field only", args[0]);
-        assert!(r.stderr.contains(&command), "{args:?}: {}", r.stderr);
-        assert!(r.stderr.contains("has 2 fields (`x`, `y`)"), "{}", r.stderr);
-        assert!(r.stdout.is_empty());
-    }
-    // golden refuses each such file as a failing model, never a one-field analysis of x.
-    let dir = std::env::temp_dir().join(format!("efold-fields-golden-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    std::fs::copy(&model, dir.join("merging.toml")).unwrap();
-    let r = efold(&["golden", "write", dir.to_str().unwrap()]);
-    assert_ne!(r.code, 0, "{}", r.stderr);
-    assert!(r.stderr.contains("analyses models of one field only"), "{}", r.stderr);
-    assert!(!dir.join("merging.predictions.json").exists());
-    std::fs::remove_dir_all(&dir).ok();
-}
-
 #[test]
 fn inline_models_of_several_fields() {
     let base = ["inspect", "--potential", "x^2 + y^2", "--field", "x", "--field", "y"];
