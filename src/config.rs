@@ -272,7 +272,8 @@ pub struct BasinLimits {
     /// inflates longer than this is reported as never ending (stuck on the plateau).
     pub cap_efolds: f64,
     /// After eps_H rises through 1, the run goes on this many e-folds to see whether inflation
-    /// restarts. Default 2.
+    /// restarts. Default 1: the oscillation about a minimum speeds up as e^(3N/2) in e-folds,
+    /// so each further e-fold of settling costs more steps than the one before.
     pub settle_efolds: f64,
     /// A dip of eps_H below 1 after an end counts as inflation restarting only if it lasts this
     /// many e-folds; shorter ones are the turning points of oscillations about a minimum.
@@ -282,7 +283,7 @@ pub struct BasinLimits {
     /// Relative tolerance of the background integration per step. Default 1e-10 (absolute
     /// 1e-13).
     pub rtol: f64,
-    /// Largest step in e-folds. Default 0.5: slow roll is smooth over many e-folds, and the
+    /// Largest step in e-folds. Default 2: slow roll is smooth over many e-folds, and the
     /// step control shortens the steps of kinetic domination and oscillations.
     pub h_max: f64,
     /// Most starts of one run (grid or `--random`). Default 10 000 000.
@@ -299,10 +300,10 @@ impl Default for BasinLimits {
     fn default() -> Self {
         BasinLimits {
             cap_efolds: 5000.0,
-            settle_efolds: 2.0,
+            settle_efolds: 1.0,
             restart_efolds: 1.0,
             rtol: 1e-10,
-            h_max: 0.5,
+            h_max: 2.0,
             max_starts: 10_000_000,
             delta_n_rtol: 1e-9,
         }

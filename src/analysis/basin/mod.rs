@@ -407,12 +407,12 @@ mod tests {
         assert_eq!((t.n_begin, t.n_end), (Some(1.5), Some(61.5)));
         assert_eq!(t.n_total(), 60.0);
         assert_eq!(t.n_inflating, 60.0);
-        // a restart lasting 3 e-folds after a pause of 1.5: it counts, and the gap does not
-        let t = run(true, &[1.5, 41.5, 43.0, 46.0]);
-        assert_eq!(t.n_end, Some(46.0));
-        assert_eq!(t.n_total(), 44.5);
-        assert_eq!(t.n_inflating, 43.0);
-        // a second stretch after the settling window (2 e-folds) is not looked for
+        // a restart lasting 3.5 e-folds after a pause of 0.5: it counts, and the gap does not
+        let t = run(true, &[1.5, 41.5, 42.0, 45.5]);
+        assert_eq!(t.n_end, Some(45.5));
+        assert_eq!(t.n_total(), 44.0);
+        assert_eq!(t.n_inflating, 43.5);
+        // a second stretch after the settling window (1 e-fold) is not looked for
         assert_eq!(run(false, &[10.0, 13.0, 20.0]).n_end, Some(10.0));
         // inflating from the start, and never ending within the cap
         let t = run(false, &[]);
