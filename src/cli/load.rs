@@ -223,7 +223,13 @@ pub(crate) fn predict_model_file(path: &Path, data: &DataSet, config: &Config) -
             PointError::Analysis(a) => Failure::from(a),
             PointError::Model(d) => Failure::from(*d),
         })?;
-        let text = multi::json(&model.spec.name, &rep, data.a_s());
+        // The pivot extras as `efold predict` adds them, so the golden file is its JSON.
+        let extras: Vec<_> = rep
+            .predictions
+            .iter()
+            .map(|p| crate::analysis::multi::at_pivot::pivot_extras(&model, &p.fields_star, &p.velocity_star, config))
+            .collect::<Result<_, _>>()?;
+        let text = multi::json_with(&model.spec.name, &rep, &extras, data.a_s());
         return Ok(FileReport::Several(several_fields_report(&model, &text)));
     }
     let opts = Options {

@@ -243,8 +243,11 @@ pub fn figure(f: &PlaneFigure, width_pt: f64) -> String {
     let [a, b] = &f.axes;
     let title = if held.is_empty() {
         format!("$V$({}, {}); pivots by $N$_*", plot::symbol(a), plot::symbol(b))
-    } else {
+    } else if held.len() <= 2 {
         format!("$V$ at {} (start); pivots by $N$_*", held.join(", "))
+    } else {
+        // Many held fields would run past the figure's edges: name them by count.
+        format!("$V$, {} other fields at the start; pivots by $N$_*", held.len())
     };
     let panel = Panel {
         title,
