@@ -35,7 +35,13 @@ fn parse_axis(flag: &str, text: &str, name: &str, config: &Config) -> Result<Axi
         let d = e.diagnostic();
         let mut out = Diagnostic::new(d.message.replace("--vary", flag));
         for h in &d.hints {
-            out = out.with_hint(h.replace("--vary alpha=0.1:10:30:log", &format!("{flag} {name}=0.1:10:30")));
+            // --kinetic-ratio takes the range alone; --sample names its field.
+            let example = if name == X_NAME {
+                format!("{flag} 0.1:10:30")
+            } else {
+                format!("{flag} {name}=0.1:10:30")
+            };
+            out = out.with_hint(h.replace("--vary alpha=0.1:10:30:log", &example));
         }
         Failure::from(out)
     })

@@ -102,9 +102,13 @@ fn plane_fields(flag: Option<&str>, fields: &[String]) -> Result<[usize; 2], Fai
     let parts: Vec<&str> = text.split(',').collect();
     if parts.len() != 2 {
         return Err(fail(
-            Diagnostic::new(format!("`--plane {text}` names {} fields; it takes two", parts.len()))
-                .with_span(Span::new(0, text.len()), "two field names, separated by a comma")
-                .with_hint(format!("write e.g. `--plane {},{}`", fields[0], fields[1])),
+            Diagnostic::new(format!(
+                "`--plane {text}` names {} field{}; it takes two",
+                parts.len(),
+                if parts.len() == 1 { "" } else { "s" }
+            ))
+            .with_span(Span::new(0, text.len()), "two field names, separated by a comma")
+            .with_hint(format!("write e.g. `--plane {},{}`", fields[0], fields[1])),
         ));
     }
     let mut at = [0; 2];
