@@ -8,10 +8,10 @@
 //! `delta_n` object to rounding. Only the pivot itself must lie after the start: the modes'
 //! margin of the exact route is not needed.
 
-use super::background::{before_end, run, start_state, Flow, Run};
+use super::background::{before_end, Flow, Run};
 use super::delta_n::{delta_n, observables, DeltaN, DeltaNObservables};
-use super::predict::MultiSettings;
-use super::trajectory::{max_turn, profile, sample, stages, MaxTurn, Stage};
+use super::predict::{along_trajectory, MultiSettings};
+use super::trajectory::{sample, MaxTurn, Stage};
 use super::FieldSpace;
 use crate::analysis::error::{AnalysisError, ErrorKind};
 use serde::Serialize;
@@ -66,37 +66,12 @@ pub fn predict_delta_n(
     n_stars: &[f64],
     settings: &MultiSettings,
 ) -> Result<DeltaNReport, AnalysisError> {
-    let limits = &settings.limits;
-    let n = space.n_fields();
-    if n > limits.max_fields {
-        return Err(ErrorKind::MultiTooManyFields {
-            n,
-            max: limits.max_fields,
-        }
-        .into());
-    }
-    if n_stars.is_empty() {
-        return Err(ErrorKind::NoEfolds.into());
-    }
-    if let Some(&bad) = n_stars.iter().find(|x| !x.is_finite() || **x <= 0.0) {
-        return Err(ErrorKind::BadEfolds { n_star: bad }.into());
-    }
-    let fields = space.field_names();
-    let mut flow = Flow::new(space);
-    let y0 = start_state(&mut flow, start, velocity)?;
-    let bg = run(&mut flow, &y0, limits)?;
-    let samples = profile(&mut flow, &bg)?;
-    let max_turn = max_turn(&mut flow, &bg, &samples, limits)?;
-    let stages = stages(&mut flow, &bg, &samples, limits)?;
-    let predictions = n_stars
-        .iter()
-        .map(|&n_star| at_pivot(&mut flow, &bg, n_star, settings))
-        .collect::<Result<_, _>>()?;
+    let (t, predictions) = along_trajectory(space, start, velocity, n_stars, settings, at_pivot)?;
     Ok(DeltaNReport {
-        fields,
-        n_total: bg.n_end,
-        stages,
-        max_turn,
+        fields: t.fields,
+        n_total: t.n_total,
+        stages: t.stages,
+        max_turn: t.max_turn,
         predictions,
     })
 }

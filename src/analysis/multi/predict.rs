@@ -116,6 +116,38 @@ pub fn predict(
     n_stars: &[f64],
     settings: &MultiSettings,
 ) -> Result<MultiReport, AnalysisError> {
+    let (t, predictions) = along_trajectory(space, start, velocity, n_stars, settings, at_pivot)?;
+    Ok(MultiReport {
+        fields: t.fields,
+        n_total: t.n_total,
+        stages: t.stages,
+        max_turn: t.max_turn,
+        predictions,
+    })
+}
+
+/// What every route reports of the background: the field names, its length, its stages and
+/// its largest turn.
+pub(crate) struct Summary {
+    pub fields: Vec<String>,
+    pub n_total: f64,
+    pub stages: Vec<Stage>,
+    pub max_turn: MaxTurn,
+}
+
+/// One route's prediction at one N_* on a background run.
+pub(crate) type AtPivot<P> = fn(&mut Flow<'_>, &Run, f64, &MultiSettings) -> Result<P, AnalysisError>;
+
+/// The part every multi-field route shares: the checks of the field count and the N_*, the
+/// background from the start, its trajectory summary, and `each` at every N_* on it.
+pub(crate) fn along_trajectory<P>(
+    space: &mut dyn FieldSpace,
+    start: &[f64],
+    velocity: Option<&[f64]>,
+    n_stars: &[f64],
+    settings: &MultiSettings,
+    each: AtPivot<P>,
+) -> Result<(Summary, Vec<P>), AnalysisError> {
     let limits = &settings.limits;
     check(space, n_stars, limits)?;
     let fields = space.field_names();
@@ -127,15 +159,15 @@ pub fn predict(
     let stages = stages(&mut flow, &bg, &samples, limits)?;
     let predictions = n_stars
         .iter()
-        .map(|&n_star| at_pivot(&mut flow, &bg, n_star, settings))
+        .map(|&n_star| each(&mut flow, &bg, n_star, settings))
         .collect::<Result<_, _>>()?;
-    Ok(MultiReport {
+    let summary = Summary {
         fields,
         n_total: bg.n_end,
         stages,
         max_turn,
-        predictions,
-    })
+    };
+    Ok((summary, predictions))
 }
 
 /// The prediction at one N_*.
