@@ -600,6 +600,17 @@ impl Job<'_> {
         })
     }
 
+    /// The order of the e-fold integral: second with `--second-order`
+    /// ([`crate::analysis::slowroll::Order`]), so that phi_* is placed to the order of the
+    /// observables.
+    fn order(&self) -> crate::analysis::slowroll::Order {
+        if self.opts.second_order {
+            crate::analysis::slowroll::Order::Second
+        } else {
+            crate::analysis::slowroll::Order::First
+        }
+    }
+
     /// The kind of the domain's end at `x`, if `x` is one.
     fn end_kind(&self, x: f64) -> Option<EndKind> {
         if x == self.iv.lo {
@@ -634,7 +645,7 @@ impl Job<'_> {
             }
         };
         let (stars, n_error) =
-            crate::analysis::slowroll::phi_stars_with_accuracy(ev, b, phi_end, &n_stars, config, field)?;
+            crate::analysis::slowroll::phi_stars_of_order(ev, b, phi_end, &n_stars, config, field, self.order())?;
         if n_error > 0.0 {
             let nearest = stars.iter().map(|x| (x - b.top).abs()).fold(f64::INFINITY, f64::min);
             warnings.push(format!(
@@ -860,7 +871,9 @@ impl Job<'_> {
         let v_end_user = ev.eval(phi_end);
         let mut n = 55.0;
         for _ in 0..60 {
-            let phi = phi_stars(ev, b, phi_end, &[n], self.config, self.field)?[0];
+            let phi =
+                crate::analysis::slowroll::phi_stars_of_order(ev, b, phi_end, &[n], self.config, self.field, self.order())?
+                    .0[0];
             let sr = SlowRoll::at(ev, phi);
             // potential_scale(a_s_first_order(..)) in the order of operations the pinned
             // N_* of every reheating history was computed with.
