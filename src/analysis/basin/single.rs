@@ -36,6 +36,9 @@ pub struct SingleFlow<'m> {
     opts: Options,
     /// (N, state) at every accepted step of the current run, ascending.
     checkpoints: Vec<(f64, State)>,
+    /// (phi, V) of the last right-hand side: the integrator's last stage is at the new
+    /// point, where the event asks for eps_H next, so V is not evaluated twice.
+    last_v: Cell<(f64, f64)>,
 }
 
 impl<'m> SingleFlow<'m> {
@@ -53,6 +56,7 @@ impl<'m> SingleFlow<'m> {
                 max_steps: (lim.cap_efolds / lim.h_max) as usize * 20 + 100_000,
             },
             checkpoints: Vec::new(),
+            last_v: Cell::new((f64::NAN, f64::NAN)),
         }
     }
 
@@ -80,6 +84,7 @@ impl<'m> SingleFlow<'m> {
         let mut ev = self.ev.borrow_mut();
         let v = ev.eval(y[0]);
         let (dv, sqrt_k) = (ev.output(self.out.dv()), ev.output(self.out.sqrt_k()));
+        self.last_v.set((y[0], v));
         if !(v >= 0.0 && v.is_finite()) {
             if y[1].is_finite() {
                 left.set(Some(y[0]));
@@ -96,7 +101,8 @@ impl<'m> SingleFlow<'m> {
         if !self.iv.contains(y[0]) {
             return f64::NAN;
         }
-        let v = self.ev.borrow_mut().eval(y[0]);
+        let (phi, v) = self.last_v.get();
+        let v = if phi == y[0] { v } else { self.ev.borrow_mut().eval(y[0]) };
         let kin = 0.5 * y[1] * y[1];
         3.0 * kin / (kin + v / self.v_scale)
     }
