@@ -158,6 +158,13 @@ pub const SLOW_ROLL_WARN_EFOLDS: f64 = 20.0;
 /// below any direction that matters).
 pub const FRAME_GRAM_SCHMIDT_CUT: f64 = 1e-8;
 
+/// How far a grid value of `scan --vary` or `basin --sample` may move to the shortest decimal
+/// near it, in units in the last place of the computed value (and never more than a quarter of
+/// the distance to its neighbours, so that the grid keeps its order). The computed value is
+/// within about an ulp of the exact grid point, so 4 leaves room for that and no more: the
+/// value printed is the value used. Default 4.
+pub const GRID_SNAP_ULPS: f64 = 4.0;
+
 /// The N_* values predicted when neither `--efolds` nor the model's `efolds` setting gives
 /// them: 50, 55 and 60 (common practice: the CMB pivot leaves the horizon some 50-60 e-folds
 /// before the end of inflation, depending on reheating).
