@@ -3,7 +3,7 @@
 use crate::cli::args::{MergeArgs, ScanArgs, ScanFormat};
 use crate::cli::check::{check_efolds_count, check_grid_size, check_vary_names};
 use crate::cli::files::{cannot_write, refuse_one_file, write_figure, write_output_file};
-use crate::cli::load::{checked_n_stars, load_data, load_model_any, read_bounded};
+use crate::cli::load::{check_varied_used, checked_n_stars, declare_varied, load_data, load_spec, read_bounded};
 use crate::cli::{print_out, Failure};
 use crate::config::Config;
 use crate::data::DataSet;
@@ -30,11 +30,14 @@ struct Grid {
 pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     check_efolds_count(&a.efolds.efolds, config)?;
     // Compile once up front: a bad model is one error, not one per point.
-    let model = load_model_any(
+    let mut spec = load_spec(
         &a.model,
         "efold scan models/pole-order-2-quadratic.toml --vary alpha=0.1:10:30:log",
         config,
     )?;
+    declare_varied(&mut spec, &a.vary, config)?;
+    let model = Model::build(&spec, config)?;
+    check_varied_used("--vary", &a.vary, &model.spec, config)?;
     if model.n_fields() > 1 {
         return scan_several_fields(a, &model, config);
     }
