@@ -43,6 +43,9 @@ pub struct Limits {
     /// memory, and a device that never ends (`/dev/zero`) must not fill it. A larger scan is
     /// merged in parts, or written unsharded.
     pub max_shard_bytes: usize,
+    /// Most worker threads `--threads` may ask for (`scan`, `spectrum`, `basin`). Default 256:
+    /// far more than the cores of any one node, and each thread has its own stack.
+    pub max_threads: usize,
 }
 
 impl Default for Limits {
@@ -59,6 +62,7 @@ impl Default for Limits {
             max_symbolic_order: 8,
             max_efolds: 1000,
             max_shard_bytes: 1 << 30,
+            max_threads: 256,
         }
     }
 }

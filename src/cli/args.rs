@@ -110,7 +110,9 @@ pub struct ScanArgs {
     #[arg(long, default_value_t = 20, allow_negative_numbers = true)]
     pub(crate) points: usize,
     /// Compute only the K-th of N slices of the grid (for job arrays); join with `efold merge`.
-    #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
+    /// `auto/N` takes K from the job array's task id (SLURM_ARRAY_TASK_ID, PBS_ARRAY_INDEX,
+    /// PBS_ARRAYID, SGE_TASK_ID or LSB_JOBINDEX, counted from the array's first index).
+    #[arg(long, value_name = "K/N|auto/N", allow_hyphen_values = true)]
     pub(crate) shard: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = ScanFormat::Csv)]
@@ -119,6 +121,8 @@ pub struct ScanArgs {
     pub(crate) out: OutArgs,
     #[command(flatten)]
     pub(crate) figure: FigureArgs,
+    #[command(flatten)]
+    pub(crate) threads: ThreadsArgs,
     #[command(flatten)]
     pub(crate) data: DataArgs,
 }
@@ -170,6 +174,8 @@ pub struct SpectrumArgs {
     /// With --start-phi: the initial dphi/dN [default: the slow-roll attractor's].
     #[arg(long, value_name = "DPHI_DN", allow_hyphen_values = true)]
     pub(crate) start_velocity: Option<f64>,
+    #[command(flatten)]
+    pub(crate) threads: ThreadsArgs,
     #[command(flatten)]
     pub(crate) data: DataArgs,
     /// Output format.
@@ -303,7 +309,8 @@ pub struct BasinArgs {
     #[command(flatten)]
     pub(crate) efolds: EfoldsArgs,
     /// Compute only the K-th of N slices of the starts (for job arrays); join with `efold basin-merge`.
-    #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
+    /// `auto/N` takes K from the job array's task id, as for `scan`.
+    #[arg(long, value_name = "K/N|auto/N", allow_hyphen_values = true)]
     pub(crate) shard: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = TableFormat::Text)]
@@ -312,6 +319,8 @@ pub struct BasinArgs {
     pub(crate) out: OutArgs,
     #[command(flatten)]
     pub(crate) figure: FigureArgs,
+    #[command(flatten)]
+    pub(crate) threads: ThreadsArgs,
     #[command(flatten)]
     pub(crate) data: DataArgs,
 }
@@ -385,6 +394,14 @@ pub struct EfoldsArgs {
     /// [default: the model's `efolds` setting, or 50,55,60].
     #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
     pub(crate) efolds: Vec<f64>,
+}
+
+/// The worker threads of a parallel command (`scan`, `spectrum`, `basin`).
+#[derive(Debug, clap::Args)]
+pub struct ThreadsArgs {
+    /// Run on N worker threads, N >= 1; the output does not depend on N [default: one per core].
+    #[arg(long, value_name = "N", allow_hyphen_values = true)]
+    pub(crate) threads: Option<String>,
 }
 
 /// The data file of constraints and constants.

@@ -35,7 +35,7 @@ pub use args::{
     BasinArgs, BasinDirection, BasinMergeArgs, BasinVelocity, CompileArgs, DataArgs, EfoldsArgs, Emit, EvalArgs,
     FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs, InspectArgs, MergeArgs,
     Method, ModelArgs, OutArgs, PredictArgs, ScanArgs, ScanFormat, ScopeArgs, SpectrumArgs, SpectrumFormat,
-    TableFormat, WatchArgs,
+    TableFormat, ThreadsArgs, WatchArgs,
 };
 
 /// efold: from a potential and a kinetic function to inflationary predictions.
@@ -190,15 +190,36 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Compile(a) => commands::eval::compile_view(a, &config),
         Command::Inspect(a) => commands::inspect::inspect_cmd(a, &config),
         Command::Predict(a) => commands::predict::predict_cmd(a, &config),
-        Command::Spectrum(a) => commands::spectrum::spectrum_cmd(a, &config),
-        Command::Scan(a) => commands::scan::scan_cmd(a, &config),
+        Command::Spectrum(a) => in_pool(&a.threads, &config, || commands::spectrum::spectrum_cmd(a, &config)),
+        Command::Scan(a) => in_pool(&a.threads, &config, || commands::scan::scan_cmd(a, &config)),
         Command::Merge(a) => commands::scan::merge_cmd(a, &config),
-        Command::Basin(a) => commands::basin::basin_cmd(a, &config),
+        Command::Basin(a) => in_pool(&a.threads, &config, || commands::basin::basin_cmd(a, &config)),
         Command::BasinMerge(a) => commands::basin::merge_cmd(a, &config),
         Command::Fit(a) => commands::fit::fit_cmd(a, &config),
         Command::Golden(a) => commands::golden::golden_cmd(a, &config),
         Command::Watch(a) => commands::watch::watch_cmd(a, &config),
     }
+}
+
+/// Runs `f` on `--threads N` worker threads (a pool of its own), or on rayon's global pool
+/// (one thread per core) without the flag. N is checked first: a whole number from 1 to
+/// `Limits::max_threads`.
+fn in_pool(
+    t: &ThreadsArgs,
+    config: &Config,
+    f: impl FnOnce() -> Result<String, Failure> + Send,
+) -> Result<String, Failure> {
+    let Some(text) = &t.threads else {
+        return f();
+    };
+    let n = check::check_threads(text, config)?;
+    let pool = rayon::ThreadPoolBuilder::new().num_threads(n).build().map_err(|e| {
+        Failure::from(
+            Diagnostic::new(format!("cannot start {n} worker threads: {e}"))
+                .with_hint("give fewer with --threads, or leave it out to use one per core"),
+        )
+    })?;
+    pool.install(f)
 }
 
 #[cfg(test)]

@@ -1,7 +1,7 @@
 //! `scan` and `merge`: predictions over a parameter grid, streamed, and shards joined.
 
 use crate::cli::args::{MergeArgs, ScanArgs, ScanFormat};
-use crate::cli::check::{check_efolds_count, check_grid_size, check_vary_names};
+use crate::cli::check::{check_efolds_count, check_grid_size, check_vary_names, shard_from_flag};
 use crate::cli::files::{cannot_write, refuse_one_file, write_figure, write_output_file};
 use crate::cli::load::{check_varied_used, checked_n_stars, declare_varied, load_data, load_spec, read_bounded};
 use crate::cli::{print_out, Failure};
@@ -45,12 +45,7 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
     let data = load_data(&a.data, config)?;
     let axes = parse_axes(a, &spec, config)?;
     let total = check_grid_size(&axes, config)?;
-    let shard = a
-        .shard
-        .as_deref()
-        .map(Shard::parse)
-        .transpose()
-        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
+    let shard = shard_from_flag(a.shard.as_deref())?;
     let n_stars = checked_n_stars(&a.efolds.efolds, &spec, config)?;
     check_out_and_figure(a)?;
     let grid = Grid {
@@ -193,12 +188,7 @@ fn scan_several_fields(a: &ScanArgs, model: &Model, config: &Config) -> Result<S
         .collect::<Result<Vec<_>, _>>()
         .map_err(|e| Failure::input(e.render()))?;
     let total = check_grid_size(&axes, config)?;
-    let shard = a
-        .shard
-        .as_deref()
-        .map(Shard::parse)
-        .transpose()
-        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
+    let shard = shard_from_flag(a.shard.as_deref())?;
     let n_stars = checked_n_stars(&a.efolds.efolds, &model.spec, config)?;
     let grid = Grid {
         spec: model.spec.clone(),
