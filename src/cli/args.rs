@@ -11,6 +11,26 @@
 use clap::{Subcommand, ValueEnum};
 use std::path::PathBuf;
 
+/// `efold completions`.
+#[derive(Debug, clap::Args)]
+pub struct CompletionsArgs {
+    /// The shell to write the completion script for.
+    #[arg(value_enum)]
+    pub(crate) shell: clap_complete::Shell,
+}
+
+/// `efold man`.
+#[derive(Debug, clap::Args)]
+pub struct ManArgs {
+    /// One command's page (`scan`, `golden-write`) [default: efold's own page].
+    #[arg(value_name = "COMMAND")]
+    pub(crate) page: Option<String>,
+    /// Write every page into this directory instead (efold.1 and efold-COMMAND.1, each
+    /// atomically).
+    #[arg(long, value_name = "DIR", conflicts_with = "page")]
+    pub(crate) out: Option<std::path::PathBuf>,
+}
+
 /// `efold golden`.
 #[derive(Debug, clap::Args)]
 pub struct GoldenArgs {
@@ -100,8 +120,9 @@ pub struct ScanArgs {
     #[command(flatten)]
     pub(crate) model: ModelArgs,
     /// A parameter to vary: NAME=LO:HI:COUNT, `:log` appended for a logarithmic grid, or NAME
-    /// alone for the model file's `[scan]` range. Once or twice. On a model of several fields
-    /// also a start coordinate, start.FIELD=LO:HI:COUNT.
+    /// alone for the model file's `[scan]` range. Once or twice. A NAME the model does not
+    /// declare is declared (it must appear in the model's expressions). On a model of several
+    /// fields also a start coordinate, start.FIELD=LO:HI:COUNT.
     #[arg(long, value_name = "NAME=LO:HI:COUNT[:log]", required = true)]
     pub(crate) vary: Vec<String>,
     #[command(flatten)]

@@ -32,8 +32,8 @@ mod files;
 mod load;
 
 pub use args::{
-    BasinArgs, BasinDirection, BasinMergeArgs, BasinVelocity, CompileArgs, DataArgs, EfoldsArgs, Emit, EvalArgs,
-    FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs, InspectArgs, MergeArgs,
+    BasinArgs, BasinDirection, BasinMergeArgs, BasinVelocity, CompileArgs, CompletionsArgs, DataArgs, EfoldsArgs, Emit, EvalArgs,
+    FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs, InspectArgs, ManArgs, MergeArgs,
     Method, ModelArgs, OutArgs, PredictArgs, ScanArgs, ScanFormat, ScopeArgs, SpectrumArgs, SpectrumFormat,
     TableFormat, ThreadsArgs, WatchArgs,
 };
@@ -76,6 +76,11 @@ pub enum Command {
     Golden(GoldenArgs),
     /// Re-predict a model file or a directory whenever a file changes, and print what moved.
     Watch(WatchArgs),
+    /// Write the completion script for a shell (bash, zsh, fish, elvish, powershell).
+    Completions(CompletionsArgs),
+    /// Write the manual pages (roff): efold's own or one command's to standard output, or
+    /// every page into a directory with --out.
+    Man(ManArgs),
 }
 
 /// A command's failure: what to print on stderr, and the exit code.
@@ -198,6 +203,8 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Fit(a) => commands::fit::fit_cmd(a, &config),
         Command::Golden(a) => commands::golden::golden_cmd(a, &config),
         Command::Watch(a) => commands::watch::watch_cmd(a, &config),
+        Command::Completions(a) => commands::docs::completions_cmd(a),
+        Command::Man(a) => commands::docs::man_cmd(a),
     }
 }
 
