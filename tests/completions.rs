@@ -54,7 +54,11 @@ fn completion_scripts_name_every_command_and_parse() {
             assert!(r.stdout.contains(name.as_str()), "{shell}: no command {name}");
             for l in longs {
                 // fish names a long option `-l NAME`
-                let written = if shell == "fish" { format!("-l {}", &l[2..]) } else { l.clone() };
+                let written = if shell == "fish" {
+                    format!("-l {}", &l[2..])
+                } else {
+                    l.clone()
+                };
                 assert!(r.stdout.contains(&written), "{shell}: no {l} of {path:?}");
             }
         }
@@ -85,7 +89,10 @@ fn manual_pages_hold_every_command_and_option() {
     assert_eq!(top.code, 0, "{}", top.stderr);
     assert!(top.stdout.starts_with(".ie") && top.stdout.contains(".TH efold 1"));
     for (path, _) in &cmds {
-        assert!(plain(&top.stdout).contains(&path.join("-")) || path.len() > 1, "no {path:?}");
+        assert!(
+            plain(&top.stdout).contains(&path.join("-")) || path.len() > 1,
+            "no {path:?}"
+        );
     }
     let dir = std::env::temp_dir().join(format!("efold-man-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
@@ -116,7 +123,11 @@ fn manual_pages_hold_every_command_and_option() {
                 .arg(dir.join(&name))
                 .output()
                 .unwrap();
-            assert!(out.status.success() && out.stderr.is_empty(), "{name}: {}", String::from_utf8_lossy(&out.stderr));
+            assert!(
+                out.status.success() && out.stderr.is_empty(),
+                "{name}: {}",
+                String::from_utf8_lossy(&out.stderr)
+            );
         }
     }
     std::fs::remove_dir_all(&dir).ok();

@@ -232,11 +232,24 @@ fn bad_scans() {
 fn an_inline_scan_declares_its_varied_name_and_rows_reproduce() {
     let (v, k) = ("phi^2/(6*alpha)", "1/(1 - phi^2/(6*alpha))^2");
     let inline = efold(&[
-        "scan", "--potential", v, "--kinetic", k, "--vary", "alpha=0.3:3:5:log", "--efolds", "60",
+        "scan",
+        "--potential",
+        v,
+        "--kinetic",
+        k,
+        "--vary",
+        "alpha=0.3:3:5:log",
+        "--efolds",
+        "60",
     ]);
     assert_eq!(inline.code, 0, "{}", inline.stderr);
     let file = efold(&[
-        "scan", &model("pole-order-2-quadratic"), "--vary", "alpha=0.3:3:5:log", "--efolds", "60",
+        "scan",
+        &model("pole-order-2-quadratic"),
+        "--vary",
+        "alpha=0.3:3:5:log",
+        "--efolds",
+        "60",
     ]);
     assert_eq!(inline.stdout, file.stdout);
     let lines: Vec<&str> = inline.stdout.lines().collect();
@@ -247,15 +260,27 @@ fn an_inline_scan_declares_its_varied_name_and_rows_reproduce() {
     assert_eq!((alphas[0], alphas[4]), ("0.3", "3"));
     for (i, a) in alphas.iter().enumerate() {
         let exact = 0.3 * 10f64.powf(i as f64 / 4.0);
-        assert!((a.parse::<f64>().unwrap() - exact).abs() < 8.0 * f64::EPSILON * exact, "{a}");
+        assert!(
+            (a.parse::<f64>().unwrap() - exact).abs() < 8.0 * f64::EPSILON * exact,
+            "{a}"
+        );
     }
     for line in &lines[1..] {
         let cells: Vec<&str> = line.split(',').collect();
         let ns: f64 = cells[col("n_s")].parse().unwrap();
         assert!((ns - (1.0 - 2.0 / 60.0)).abs() < 2e-3, "n_s {ns}");
         let p = efold(&[
-            "predict", "--potential", v, "--kinetic", k, "--param", &format!("alpha={}", cells[1]),
-            "--efolds", "60", "--format", "csv",
+            "predict",
+            "--potential",
+            v,
+            "--kinetic",
+            k,
+            "--param",
+            &format!("alpha={}", cells[1]),
+            "--efolds",
+            "60",
+            "--format",
+            "csv",
         ]);
         assert_eq!(p.code, 0, "{}", p.stderr);
         let row: Vec<&str> = p.stdout.lines().nth(1).unwrap().split(',').collect();
@@ -265,16 +290,46 @@ fn an_inline_scan_declares_its_varied_name_and_rows_reproduce() {
         assert_eq!(row[pcol("r")], cells[col("r")]);
     }
     // a name that no expression uses, and one without a range, are refused under the name
-    let unused = efold(&["scan", "--potential", v, "--kinetic", k, "--param", "alpha=1", "--vary", "beta=1:2:3"]);
+    let unused = efold(&[
+        "scan",
+        "--potential",
+        v,
+        "--kinetic",
+        k,
+        "--param",
+        "alpha=1",
+        "--vary",
+        "beta=1:2:3",
+    ]);
     assert_eq!(unused.code, 2);
-    assert!(unused.stderr.contains("no expression of the model uses `beta`"), "{}", unused.stderr);
-    assert!(unused.stderr.contains("| ^^^^ used by no expression"), "{}", unused.stderr);
+    assert!(
+        unused.stderr.contains("no expression of the model uses `beta`"),
+        "{}",
+        unused.stderr
+    );
+    assert!(
+        unused.stderr.contains("| ^^^^ used by no expression"),
+        "{}",
+        unused.stderr
+    );
     let bare = efold(&["scan", "--potential", v, "--kinetic", k, "--vary", "alpha"]);
     assert_eq!(bare.code, 2);
-    assert!(bare.stderr.contains("without a range it cannot be declared"), "{}", bare.stderr);
+    assert!(
+        bare.stderr.contains("without a range it cannot be declared"),
+        "{}",
+        bare.stderr
+    );
     // a parameter used only through another one counts as used
     let chained = efold(&[
-        "scan", "--potential", "m2*phi^2/2", "--param", "m2=c^2", "--vary", "c=1:2:3", "--efolds", "60",
+        "scan",
+        "--potential",
+        "m2*phi^2/2",
+        "--param",
+        "m2=c^2",
+        "--vary",
+        "c=1:2:3",
+        "--efolds",
+        "60",
     ]);
     assert_eq!(chained.code, 0, "{}", chained.stderr);
 }

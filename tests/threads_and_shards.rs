@@ -20,6 +20,9 @@ const ARRAY_VARS: [&str; 7] = [
     "LSB_JOBINDEX",
 ];
 
+/// Job-array variables and their values.
+type Vars<'a> = &'a [(&'a str, &'a str)];
+
 /// Runs efold with exactly these job-array variables set (the others removed).
 fn efold_env(args: &[&str], vars: &[(&str, &str)]) -> common::Run {
     let mut cmd = Command::new(env!("CARGO_BIN_EXE_efold"));
@@ -54,8 +57,19 @@ fn output_does_not_depend_on_the_thread_count() {
     let runs: Vec<Vec<&str>> = vec![
         vec!["scan", &pole, "--vary", "alpha=0.1:10:24:log", "--efolds", "50,60"],
         vec!["scan", &pole, "--vary", "alpha=0.1:10:24:log", "--format", "json"],
-        vec!["spectrum", &pole, "--points", "6", "--k-min", "1e-3", "--k-max", "1", "--format", "csv"],
-        vec!["basin", &plateau, "--sample", "phi=4:8:12", "--velocity", "rest", "--format", "json"],
+        vec![
+            "spectrum", &pole, "--points", "6", "--k-min", "1e-3", "--k-max", "1", "--format", "csv",
+        ],
+        vec![
+            "basin",
+            &plateau,
+            "--sample",
+            "phi=4:8:12",
+            "--velocity",
+            "rest",
+            "--format",
+            "json",
+        ],
     ];
     for args in runs {
         let one = run(&with(&args, &["--threads", "1"]));
@@ -88,7 +102,8 @@ fn bad_thread_counts_are_refused() {
             assert!(r.stderr.contains(says), "{cmd:?}: {}", r.stderr);
             assert!(r.stderr.contains(&format!("--threads {n}\n")), "{}", r.stderr);
             assert!(
-                r.stderr.contains(&format!("|           {} not in the valid range", "^".repeat(n.len()))),
+                r.stderr
+                    .contains(&format!("|           {} not in the valid range", "^".repeat(n.len()))),
                 "{}",
                 r.stderr
             );
@@ -106,25 +121,50 @@ fn bad_thread_counts_are_refused() {
 fn auto_shards_read_the_task_id() {
     let pole = model("pole-order-2-quadratic");
     let scan = ["scan", pole.as_str(), "--vary", "alpha=0.5:4:9:log", "--efolds", "55"];
-    let cases: [(&[(&str, &str)], usize, &str); 6] = [
-        (&[("SLURM_ARRAY_TASK_ID", "2"), ("SLURM_ARRAY_TASK_MIN", "0")], 3, "SLURM_ARRAY_TASK_ID=2, SLURM_ARRAY_TASK_MIN=0"),
+    let cases: [(Vars, usize, &str); 6] = [
+        (
+            &[("SLURM_ARRAY_TASK_ID", "2"), ("SLURM_ARRAY_TASK_MIN", "0")],
+            3,
+            "SLURM_ARRAY_TASK_ID=2, SLURM_ARRAY_TASK_MIN=0",
+        ),
         (&[("SLURM_ARRAY_TASK_ID", "2")], 2, "SLURM_ARRAY_TASK_ID=2"),
         (&[("PBS_ARRAY_INDEX", "1")], 1, "PBS_ARRAY_INDEX=1"),
         (&[("PBS_ARRAYID", "3")], 3, "PBS_ARRAYID=3"),
-        (&[("SGE_TASK_ID", "11"), ("SGE_TASK_FIRST", "10")], 2, "SGE_TASK_ID=11, SGE_TASK_FIRST=10"),
-        (&[("LSB_JOBINDEX", "3"), ("SGE_TASK_ID", "undefined")], 3, "LSB_JOBINDEX=3"),
+        (
+            &[("SGE_TASK_ID", "11"), ("SGE_TASK_FIRST", "10")],
+            2,
+            "SGE_TASK_ID=11, SGE_TASK_FIRST=10",
+        ),
+        (
+            &[("LSB_JOBINDEX", "3"), ("SGE_TASK_ID", "undefined")],
+            3,
+            "LSB_JOBINDEX=3",
+        ),
     ];
     for (vars, k, from) in cases {
-        let auto = efold_env(&with(&scan, &["--shard", "auto/3"]).iter().map(String::as_str).collect::<Vec<_>>(), vars);
+        let auto = efold_env(
+            &with(&scan, &["--shard", "auto/3"])
+                .iter()
+                .map(String::as_str)
+                .collect::<Vec<_>>(),
+            vars,
+        );
         assert_eq!(auto.code, 0, "{vars:?}: {}", auto.stderr);
-        assert!(auto.stderr.contains(&format!("shard {k}/3 (from {from})")), "{}", auto.stderr);
+        assert!(
+            auto.stderr.contains(&format!("shard {k}/3 (from {from})")),
+            "{}",
+            auto.stderr
+        );
         let explicit = run(&with(&scan, &["--shard", &format!("{k}/3")]));
         assert_eq!(auto.stdout, explicit.stdout, "{vars:?}");
         assert!(auto.stdout.contains(&format!("\"shard\":{k},\"shards\":3")));
     }
     // two systems that agree are fine
     let agree = efold_env(
-        &with(&scan, &["--shard", "auto/3"]).iter().map(String::as_str).collect::<Vec<_>>(),
+        &with(&scan, &["--shard", "auto/3"])
+            .iter()
+            .map(String::as_str)
+            .collect::<Vec<_>>(),
         &[("SLURM_ARRAY_TASK_ID", "2"), ("PBS_ARRAYID", "2")],
     );
     assert_eq!(agree.code, 0, "{}", agree.stderr);
@@ -134,7 +174,10 @@ fn auto_shards_read_the_task_id() {
     let mut files = Vec::new();
     for id in 0..3 {
         let path = dir.join(format!("part-{id}.json"));
-        let args = with(&scan, &["--format", "json", "--shard", "auto/3", "--out", path.to_str().unwrap()]);
+        let args = with(
+            &scan,
+            &["--format", "json", "--shard", "auto/3", "--out", path.to_str().unwrap()],
+        );
         let id = id.to_string();
         let r = efold_env(
             &args.iter().map(String::as_str).collect::<Vec<_>>(),
@@ -154,7 +197,10 @@ fn auto_shards_read_the_task_id() {
     let plateau = model("exponential-plateau");
     let basin = ["basin", plateau.as_str(), "--sample", "phi=5:8:4", "--format", "json"];
     let auto = efold_env(
-        &with(&basin, &["--shard", "auto/2"]).iter().map(String::as_str).collect::<Vec<_>>(),
+        &with(&basin, &["--shard", "auto/2"])
+            .iter()
+            .map(String::as_str)
+            .collect::<Vec<_>>(),
         &[("LSB_JOBINDEX", "2")],
     );
     assert_eq!(auto.code, 0, "{}", auto.stderr);
@@ -165,14 +211,36 @@ fn auto_shards_read_the_task_id() {
 #[test]
 fn auto_shards_fail_clearly() {
     let pole = model("pole-order-2-quadratic");
-    let scan = ["scan", pole.as_str(), "--vary", "alpha=0.5:4:9:log", "--shard", "auto/3"];
-    let cases: [(&[(&str, &str)], &str); 6] = [
+    let scan = [
+        "scan",
+        pole.as_str(),
+        "--vary",
+        "alpha=0.5:4:9:log",
+        "--shard",
+        "auto/3",
+    ];
+    let cases: [(Vars, &str); 6] = [
         (&[], "no job-array task id in the environment"),
-        (&[("SGE_TASK_ID", "undefined"), ("LSB_JOBINDEX", "0")], "no job-array task id"),
-        (&[("SLURM_ARRAY_TASK_ID", "2"), ("PBS_ARRAYID", "1")], "disagree: SLURM_ARRAY_TASK_ID=2 gives shard 2, PBS_ARRAYID=1 gives 1"),
-        (&[("SLURM_ARRAY_TASK_ID", "4"), ("SLURM_ARRAY_TASK_MIN", "1")], "gives shard 4, outside 1..3"),
-        (&[("PBS_ARRAY_INDEX", "0")], "PBS_ARRAY_INDEX=0 gives shard 0, outside 1..3"),
-        (&[("SLURM_ARRAY_TASK_ID", "two")], "SLURM_ARRAY_TASK_ID=two is not a whole number"),
+        (
+            &[("SGE_TASK_ID", "undefined"), ("LSB_JOBINDEX", "0")],
+            "no job-array task id",
+        ),
+        (
+            &[("SLURM_ARRAY_TASK_ID", "2"), ("PBS_ARRAYID", "1")],
+            "disagree: SLURM_ARRAY_TASK_ID=2 gives shard 2, PBS_ARRAYID=1 gives 1",
+        ),
+        (
+            &[("SLURM_ARRAY_TASK_ID", "4"), ("SLURM_ARRAY_TASK_MIN", "1")],
+            "gives shard 4, outside 1..3",
+        ),
+        (
+            &[("PBS_ARRAY_INDEX", "0")],
+            "PBS_ARRAY_INDEX=0 gives shard 0, outside 1..3",
+        ),
+        (
+            &[("SLURM_ARRAY_TASK_ID", "two")],
+            "SLURM_ARRAY_TASK_ID=two is not a whole number",
+        ),
     ];
     for (vars, says) in cases {
         let r = efold_env(&scan, vars);
@@ -182,7 +250,10 @@ fn auto_shards_fail_clearly() {
         assert!(r.stderr.contains("|         ^^^^"), "{}", r.stderr);
         assert!(r.stdout.is_empty());
     }
-    let r = efold_env(&["scan", &pole, "--vary", "alpha=1:2:2", "--shard", "auto/0"], &[("PBS_ARRAYID", "1")]);
+    let r = efold_env(
+        &["scan", &pole, "--vary", "alpha=1:2:2", "--shard", "auto/0"],
+        &[("PBS_ARRAYID", "1")],
+    );
     assert_eq!(r.code, 2);
     assert!(r.stderr.contains("`--shard auto/0`"), "{}", r.stderr);
 }

@@ -501,9 +501,10 @@ pub(crate) fn parse_shard(
         }
     };
     let set = |name: &str| {
-        env(name)
-            .map(|v| v.trim().to_string())
-            .filter(|v| !v.is_empty() && !(name == "SGE_TASK_ID" && v == "undefined") && !(name == "LSB_JOBINDEX" && v == "0"))
+        // what these systems set outside a job array counts as unset
+        let outside =
+            |v: &str| v.is_empty() || (name, v) == ("SGE_TASK_ID", "undefined") || (name, v) == ("LSB_JOBINDEX", "0");
+        env(name).map(|v| v.trim().to_string()).filter(|v| !outside(v))
     };
     let mut found: Vec<(String, i128)> = Vec::new();
     for (id_var, first_var) in ARRAY_TASK_VARS {
@@ -527,7 +528,10 @@ pub(crate) fn parse_shard(
     let Some((from, k)) = found.first().cloned() else {
         let names: Vec<&str> = ARRAY_TASK_VARS.iter().map(|(v, _)| *v).collect();
         return Err(fail(
-            format!("--shard {text}: no job-array task id in the environment (none of {} is set)", names.join(", ")),
+            format!(
+                "--shard {text}: no job-array task id in the environment (none of {} is set)",
+                names.join(", ")
+            ),
             "K from the environment",
             format!("run it as a task of a job array of {n} tasks, or give the shard as K/{n}"),
         ));
@@ -543,7 +547,9 @@ pub(crate) fn parse_shard(
         return Err(fail(
             format!("--shard {text}: {from} gives shard {k}, outside 1..{n}"),
             "K from the environment",
-            format!("make the job array {n} tasks long, its task ids counted from its first, or give the shard as K/{n}"),
+            format!(
+                "make the job array {n} tasks long, its task ids counted from its first, or give the shard as K/{n}"
+            ),
         ));
     }
     let from = found.iter().map(|(f, _)| f.as_str()).collect::<Vec<_>>().join("; ");

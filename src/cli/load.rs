@@ -4,7 +4,8 @@
 //! with a size limit.
 
 use super::check::{
-    check_efolds_count, is_reserved, check_efolds_values, check_field_name, check_keys_once, check_params_once, split_binding,
+    check_efolds_count, check_efolds_values, check_field_name, check_keys_once, check_params_once, is_reserved,
+    split_binding,
 };
 use super::Failure;
 use crate::cli::args::{DataArgs, ModelArgs};
@@ -77,12 +78,21 @@ pub(crate) fn declare_varied(spec: &mut ModelSpec, vary: &[String], config: &Con
                 "`--vary {v}`: `{name}` is not a parameter of the model, and without a range it cannot be declared"
             ))
             .with_span(Span::new(start, start + name.len()), "no such parameter")
-            .with_hint(format!("give its range, `--vary {name}=LO:HI:COUNT`, to declare and vary it"));
+            .with_hint(format!(
+                "give its range, `--vary {name}=LO:HI:COUNT`, to declare and vary it"
+            ));
             return Err(Failure::input(d.render(Some(&Source::new("--vary", v)))));
         };
         // The range must parse before LO becomes the parameter's value.
-        Axis::parse_range(v, name, Some(range.trim()), Err(AxisError::NoRange { name: name.to_string() }), 2, config.limits.max_axis_points)
-            .map_err(|e| Failure::from(e.diagnostic()))?;
+        Axis::parse_range(
+            v,
+            name,
+            Some(range.trim()),
+            Err(AxisError::NoRange { name: name.to_string() }),
+            2,
+            config.limits.max_axis_points,
+        )
+        .map_err(|e| Failure::from(e.diagnostic()))?;
         let lo = range.split(':').next().unwrap_or_default().trim();
         spec.params.insert(
             0,
@@ -130,7 +140,12 @@ pub(crate) fn used_names(spec: &ModelSpec, config: &Config) -> Vec<String> {
 /// A parameter given to `flag` (`--vary`, `--free`) that no expression of the model uses
 /// would change nothing: refused, with a caret under its name. Start coordinates
 /// (`start.FIELD`) and names that are not parameters are left to the command's own checks.
-pub(crate) fn check_varied_used(flag: &str, given: &[String], spec: &ModelSpec, config: &Config) -> Result<(), Failure> {
+pub(crate) fn check_varied_used(
+    flag: &str,
+    given: &[String],
+    spec: &ModelSpec,
+    config: &Config,
+) -> Result<(), Failure> {
     let used = used_names(spec, config);
     for v in given {
         let name = v.split_once('=').map_or(v.as_str(), |(n, _)| n).trim();
@@ -152,7 +167,10 @@ pub(crate) fn check_varied_used(flag: &str, given: &[String], spec: &ModelSpec, 
         .with_hint(if users.is_empty() {
             "the model's expressions use no parameter; check the potential and the kinetic function".to_string()
         } else {
-            format!("check the spelling; the parameters the model uses: {}", users.join(", "))
+            format!(
+                "check the spelling; the parameters the model uses: {}",
+                users.join(", ")
+            )
         });
         return Err(Failure::input(d.render(Some(&Source::new(flag, v)))));
     }

@@ -32,10 +32,10 @@ mod files;
 mod load;
 
 pub use args::{
-    BasinArgs, BasinDirection, BasinMergeArgs, BasinVelocity, CompileArgs, CompletionsArgs, DataArgs, EfoldsArgs, Emit, EvalArgs,
-    FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs, InspectArgs, ManArgs, MergeArgs,
-    Method, ModelArgs, OutArgs, PredictArgs, ScanArgs, ScanFormat, ScopeArgs, SpectrumArgs, SpectrumFormat,
-    TableFormat, ThreadsArgs, WatchArgs,
+    BasinArgs, BasinDirection, BasinMergeArgs, BasinVelocity, CompileArgs, CompletionsArgs, DataArgs, EfoldsArgs, Emit,
+    EvalArgs, FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs, InspectArgs,
+    ManArgs, MergeArgs, Method, ModelArgs, OutArgs, PredictArgs, ScanArgs, ScanFormat, ScopeArgs, SpectrumArgs,
+    SpectrumFormat, TableFormat, ThreadsArgs, WatchArgs,
 };
 
 /// efold: from a potential and a kinetic function to inflationary predictions.

@@ -1526,7 +1526,15 @@ mod tests {
         let a = Axis::new("a", 0.1, 10.0, 7, true).unwrap();
         assert_eq!(
             a.values,
-            vec![0.1, 0.2154434690031884, 0.464158883361278, 1.0, 2.154434690031884, 4.64158883361278, 10.0]
+            vec![
+                0.1,
+                0.2154434690031884,
+                0.464158883361278,
+                1.0,
+                2.154434690031884,
+                4.64158883361278,
+                10.0
+            ]
         );
         // each within a few ulp of the exact point: x^3 = 10 and x^3 = 100 (common practice)
         for (x, cube) in [(a.values[4], 10.0), (a.values[5], 100.0)] {

@@ -59,13 +59,12 @@ pub(crate) fn man_cmd(a: &ManArgs) -> Result<String, Failure> {
                     .skip(1)
                     .map(|(n, _)| n.trim_start_matches("efold-").trim_end_matches(".1").to_string())
                     .collect();
-                Err(Diagnostic::new(format!(
-                    "no manual page `{}`",
-                    a.page.as_deref().unwrap_or_default()
-                ))
-                .with_hint(format!("the pages: {}", names.join(", ")))
-                .with_hint("or leave the page out for efold's own")
-                .into())
+                Err(
+                    Diagnostic::new(format!("no manual page `{}`", a.page.as_deref().unwrap_or_default()))
+                        .with_hint(format!("the pages: {}", names.join(", ")))
+                        .with_hint("or leave the page out for efold's own")
+                        .into(),
+                )
             }
         };
     };
