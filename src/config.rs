@@ -43,6 +43,9 @@ pub struct Limits {
     /// memory, and a device that never ends (`/dev/zero`) must not fill it. A larger scan is
     /// merged in parts, or written unsharded.
     pub max_shard_bytes: usize,
+    /// Most worker threads `--threads` may ask for (`scan`, `spectrum`, `basin`). Default 256:
+    /// far more than the cores of any one node, and each thread has its own stack.
+    pub max_threads: usize,
 }
 
 impl Default for Limits {
@@ -59,6 +62,7 @@ impl Default for Limits {
             max_symbolic_order: 8,
             max_efolds: 1000,
             max_shard_bytes: 1 << 30,
+            max_threads: 256,
         }
     }
 }
@@ -157,6 +161,13 @@ pub const SLOW_ROLL_WARN_EFOLDS: f64 = 20.0;
 /// fraction of its own length is skipped as dependent. Default 1e-8 (well above rounding, far
 /// below any direction that matters).
 pub const FRAME_GRAM_SCHMIDT_CUT: f64 = 1e-8;
+
+/// How far a grid value of `scan --vary` or `basin --sample` may move to the shortest decimal
+/// near it, in units in the last place of the computed value (and never more than a quarter of
+/// the distance to its neighbours, so that the grid keeps its order). The computed value is
+/// within about an ulp of the exact grid point, so 4 leaves room for that and no more: the
+/// value printed is the value used. Default 4.
+pub const GRID_SNAP_ULPS: f64 = 4.0;
 
 /// The N_* values predicted when neither `--efolds` nor the model's `efolds` setting gives
 /// them: 50, 55 and 60 (common practice: the CMB pivot leaves the horizon some 50-60 e-folds

@@ -236,6 +236,30 @@ fn every_size_has_a_limit() {
             ],
             "--shard 0/1",
         ),
+        (
+            "threads",
+            vec![
+                "scan",
+                &pole,
+                "--vary",
+                "alpha=1:2:2",
+                "--threads",
+                "256",
+                "--shard",
+                "0/1",
+            ],
+            vec![
+                "scan",
+                &pole,
+                "--vary",
+                "alpha=1:2:2",
+                "--threads",
+                "257",
+                "--shard",
+                "0/1",
+            ],
+            "--shard 0/1",
+        ),
     ];
     for (name, edge, beyond, stop) in cases {
         let r = efold(&edge);

@@ -222,3 +222,114 @@ fn bad_scans() {
         insta::assert_snapshot!(format!("scan_error_{name}"), r.stderr);
     }
 }
+
+/// An inline scan declares its varied name: `--vary alpha=...` without `--param alpha` gives
+/// the rows of the model file that declares alpha, each against the order-2 pole's leading
+/// order n_s = 1 - 2/N (check-values section 3), and each row's alpha as printed, typed back
+/// into `predict --param`, gives the row's n_s and r bit for bit (the value printed is the
+/// value used).
+#[test]
+fn an_inline_scan_declares_its_varied_name_and_rows_reproduce() {
+    let (v, k) = ("phi^2/(6*alpha)", "1/(1 - phi^2/(6*alpha))^2");
+    let inline = efold(&[
+        "scan",
+        "--potential",
+        v,
+        "--kinetic",
+        k,
+        "--vary",
+        "alpha=0.3:3:5:log",
+        "--efolds",
+        "60",
+    ]);
+    assert_eq!(inline.code, 0, "{}", inline.stderr);
+    let file = efold(&[
+        "scan",
+        &model("pole-order-2-quadratic"),
+        "--vary",
+        "alpha=0.3:3:5:log",
+        "--efolds",
+        "60",
+    ]);
+    assert_eq!(inline.stdout, file.stdout);
+    let lines: Vec<&str> = inline.stdout.lines().collect();
+    let header: Vec<&str> = lines[0].split(',').collect();
+    let col = |name: &str| header.iter().position(|h| *h == name).unwrap();
+    let alphas: Vec<&str> = lines[1..].iter().map(|l| l.split(',').nth(1).unwrap()).collect();
+    // the end points as typed; 0.3 * 10^(k/4) in between, short decimals near it
+    assert_eq!((alphas[0], alphas[4]), ("0.3", "3"));
+    for (i, a) in alphas.iter().enumerate() {
+        let exact = 0.3 * 10f64.powf(i as f64 / 4.0);
+        assert!(
+            (a.parse::<f64>().unwrap() - exact).abs() < 8.0 * f64::EPSILON * exact,
+            "{a}"
+        );
+    }
+    for line in &lines[1..] {
+        let cells: Vec<&str> = line.split(',').collect();
+        let ns: f64 = cells[col("n_s")].parse().unwrap();
+        assert!((ns - (1.0 - 2.0 / 60.0)).abs() < 2e-3, "n_s {ns}");
+        let p = efold(&[
+            "predict",
+            "--potential",
+            v,
+            "--kinetic",
+            k,
+            "--param",
+            &format!("alpha={}", cells[1]),
+            "--efolds",
+            "60",
+            "--format",
+            "csv",
+        ]);
+        assert_eq!(p.code, 0, "{}", p.stderr);
+        let row: Vec<&str> = p.stdout.lines().nth(1).unwrap().split(',').collect();
+        let pheader: Vec<&str> = p.stdout.lines().next().unwrap().split(',').collect();
+        let pcol = |name: &str| pheader.iter().position(|h| *h == name).unwrap();
+        assert_eq!(row[pcol("n_s")], cells[col("n_s")]);
+        assert_eq!(row[pcol("r")], cells[col("r")]);
+    }
+    // a name that no expression uses, and one without a range, are refused under the name
+    let unused = efold(&[
+        "scan",
+        "--potential",
+        v,
+        "--kinetic",
+        k,
+        "--param",
+        "alpha=1",
+        "--vary",
+        "beta=1:2:3",
+    ]);
+    assert_eq!(unused.code, 2);
+    assert!(
+        unused.stderr.contains("no expression of the model uses `beta`"),
+        "{}",
+        unused.stderr
+    );
+    assert!(
+        unused.stderr.contains("| ^^^^ used by no expression"),
+        "{}",
+        unused.stderr
+    );
+    let bare = efold(&["scan", "--potential", v, "--kinetic", k, "--vary", "alpha"]);
+    assert_eq!(bare.code, 2);
+    assert!(
+        bare.stderr.contains("without a range it cannot be declared"),
+        "{}",
+        bare.stderr
+    );
+    // a parameter used only through another one counts as used
+    let chained = efold(&[
+        "scan",
+        "--potential",
+        "m2*phi^2/2",
+        "--param",
+        "m2=c^2",
+        "--vary",
+        "c=1:2:3",
+        "--efolds",
+        "60",
+    ]);
+    assert_eq!(chained.code, 0, "{}", chained.stderr);
+}

@@ -11,6 +11,26 @@
 use clap::{Subcommand, ValueEnum};
 use std::path::PathBuf;
 
+/// `efold completions`.
+#[derive(Debug, clap::Args)]
+pub struct CompletionsArgs {
+    /// The shell to write the completion script for.
+    #[arg(value_enum)]
+    pub(crate) shell: clap_complete::Shell,
+}
+
+/// `efold man`.
+#[derive(Debug, clap::Args)]
+pub struct ManArgs {
+    /// One command's page (`scan`, `golden-write`) [default: efold's own page].
+    #[arg(value_name = "COMMAND")]
+    pub(crate) page: Option<String>,
+    /// Write every page into this directory instead (efold.1 and efold-COMMAND.1, each
+    /// atomically).
+    #[arg(long, value_name = "DIR", conflicts_with = "page")]
+    pub(crate) out: Option<std::path::PathBuf>,
+}
+
 /// `efold golden`.
 #[derive(Debug, clap::Args)]
 pub struct GoldenArgs {
@@ -100,8 +120,9 @@ pub struct ScanArgs {
     #[command(flatten)]
     pub(crate) model: ModelArgs,
     /// A parameter to vary: NAME=LO:HI:COUNT, `:log` appended for a logarithmic grid, or NAME
-    /// alone for the model file's `[scan]` range. Once or twice. On a model of several fields
-    /// also a start coordinate, start.FIELD=LO:HI:COUNT.
+    /// alone for the model file's `[scan]` range. Once or twice. A NAME the model does not
+    /// declare is declared (it must appear in the model's expressions). On a model of several
+    /// fields also a start coordinate, start.FIELD=LO:HI:COUNT.
     #[arg(long, value_name = "NAME=LO:HI:COUNT[:log]", required = true)]
     pub(crate) vary: Vec<String>,
     #[command(flatten)]
@@ -110,7 +131,9 @@ pub struct ScanArgs {
     #[arg(long, default_value_t = 20, allow_negative_numbers = true)]
     pub(crate) points: usize,
     /// Compute only the K-th of N slices of the grid (for job arrays); join with `efold merge`.
-    #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
+    /// `auto/N` takes K from the job array's task id (SLURM_ARRAY_TASK_ID, PBS_ARRAY_INDEX,
+    /// PBS_ARRAYID, SGE_TASK_ID or LSB_JOBINDEX, counted from the array's first index).
+    #[arg(long, value_name = "K/N|auto/N", allow_hyphen_values = true)]
     pub(crate) shard: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = ScanFormat::Csv)]
@@ -119,6 +142,8 @@ pub struct ScanArgs {
     pub(crate) out: OutArgs,
     #[command(flatten)]
     pub(crate) figure: FigureArgs,
+    #[command(flatten)]
+    pub(crate) threads: ThreadsArgs,
     #[command(flatten)]
     pub(crate) data: DataArgs,
 }
@@ -170,6 +195,8 @@ pub struct SpectrumArgs {
     /// With --start-phi: the initial dphi/dN [default: the slow-roll attractor's].
     #[arg(long, value_name = "DPHI_DN", allow_hyphen_values = true)]
     pub(crate) start_velocity: Option<f64>,
+    #[command(flatten)]
+    pub(crate) threads: ThreadsArgs,
     #[command(flatten)]
     pub(crate) data: DataArgs,
     /// Output format.
@@ -303,7 +330,8 @@ pub struct BasinArgs {
     #[command(flatten)]
     pub(crate) efolds: EfoldsArgs,
     /// Compute only the K-th of N slices of the starts (for job arrays); join with `efold basin-merge`.
-    #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
+    /// `auto/N` takes K from the job array's task id, as for `scan`.
+    #[arg(long, value_name = "K/N|auto/N", allow_hyphen_values = true)]
     pub(crate) shard: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = TableFormat::Text)]
@@ -312,6 +340,8 @@ pub struct BasinArgs {
     pub(crate) out: OutArgs,
     #[command(flatten)]
     pub(crate) figure: FigureArgs,
+    #[command(flatten)]
+    pub(crate) threads: ThreadsArgs,
     #[command(flatten)]
     pub(crate) data: DataArgs,
 }
@@ -385,6 +415,14 @@ pub struct EfoldsArgs {
     /// [default: the model's `efolds` setting, or 50,55,60].
     #[arg(long, value_delimiter = ',', value_name = "N,N,...", allow_hyphen_values = true)]
     pub(crate) efolds: Vec<f64>,
+}
+
+/// The worker threads of a parallel command (`scan`, `spectrum`, `basin`).
+#[derive(Debug, clap::Args)]
+pub struct ThreadsArgs {
+    /// Run on N worker threads, N >= 1; the output does not depend on N [default: one per core].
+    #[arg(long, value_name = "N", allow_hyphen_values = true)]
+    pub(crate) threads: Option<String>,
 }
 
 /// The data file of constraints and constants.

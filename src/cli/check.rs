@@ -8,7 +8,7 @@ use crate::analysis::perturbations::TILT_STEP;
 use crate::analysis::reheating::Reheating;
 use crate::config::{Config, MAX_REHEAT_EFOLDS, MIN_EFOLDS};
 use crate::diag::{Diagnostic, Source, Span};
-use crate::drivers::scan::{total_points, Axis};
+use crate::drivers::scan::{total_points, Axis, Shard, ShardError};
 use crate::language::compile::lower_into;
 use crate::language::ir::{format_number, Func, Graph, Scope};
 use crate::language::tape::Tape;
@@ -435,4 +435,137 @@ pub(crate) fn check_efolds_count(n_stars: &[f64], config: &Config) -> Result<(),
         .into());
     }
     Ok(())
+}
+
+/// `--threads N`: a whole number from 1 to `Limits::max_threads`.
+pub(crate) fn check_threads(text: &str, config: &Config) -> Result<usize, Failure> {
+    let max = config.limits.max_threads;
+    match text.trim().parse::<usize>() {
+        Ok(n) if (1..=max).contains(&n) => Ok(n),
+        Ok(n) if n > max => Err(bad_flag_value(
+            "--threads",
+            text,
+            format!("--threads {text}: at most {max} worker threads (config::Limits::max_threads)"),
+            "give fewer, or leave --threads out to use one per core",
+        )),
+        _ => Err(bad_flag_value(
+            "--threads",
+            text,
+            format!("--threads {text}: give a whole number of worker threads, 1 or more"),
+            "e.g. `--threads 2`; without --threads efold uses one per core",
+        )),
+    }
+}
+
+/// The job-array variables `--shard auto/N` reads, each with the variable that holds the
+/// array's first index, if its batch system sets one (else the first index is 1).
+pub(crate) const ARRAY_TASK_VARS: [(&str, Option<&str>); 5] = [
+    ("SLURM_ARRAY_TASK_ID", Some("SLURM_ARRAY_TASK_MIN")),
+    ("PBS_ARRAY_INDEX", None),
+    ("PBS_ARRAYID", None),
+    ("SGE_TASK_ID", Some("SGE_TASK_FIRST")),
+    ("LSB_JOBINDEX", None),
+];
+
+/// `--shard K/N`, or `--shard auto/N` with K read from the environment (`env`), and for
+/// `auto` where K came from (`SLURM_ARRAY_TASK_ID=4, SLURM_ARRAY_TASK_MIN=1`).
+///
+/// The rule for `auto`: each variable of [`ARRAY_TASK_VARS`] that is set gives
+/// K = id - first + 1, first being the array's first index where the batch system says it
+/// and 1 otherwise; unset counts the same as empty, `SGE_TASK_ID=undefined` (a job that is not
+/// an array task) and `LSB_JOBINDEX=0` (likewise). None set, a value that is not a whole
+/// number, two variables giving different K, or K outside 1..N is an error.
+pub(crate) fn parse_shard(
+    text: &str,
+    env: &dyn Fn(&str) -> Option<String>,
+) -> Result<(Shard, Option<String>), Failure> {
+    let Some(n_text) = text.trim().strip_prefix("auto/") else {
+        return Shard::parse(text)
+            .map(|s| (s, None))
+            .map_err(|e| Failure::from(Diagnostic::new(e.to_string())));
+    };
+    let shown = format!("--shard {text}");
+    let at = shown.find("auto").unwrap_or(0);
+    let fail = |message: String, label: &str, hint: String| {
+        let d = Diagnostic::new(message)
+            .with_span(Span::new(at, at + 4), label)
+            .with_hint(hint);
+        Failure::input(d.render(Some(&Source::new("command line", &shown))))
+    };
+    let n = match n_text.trim().parse::<usize>() {
+        Ok(n) if n >= 1 => n,
+        _ => {
+            return Err(Failure::from(Diagnostic::new(
+                ShardError { text: text.to_string() }.to_string(),
+            )))
+        }
+    };
+    let set = |name: &str| {
+        // what these systems set outside a job array counts as unset
+        let outside =
+            |v: &str| v.is_empty() || (name, v) == ("SGE_TASK_ID", "undefined") || (name, v) == ("LSB_JOBINDEX", "0");
+        env(name).map(|v| v.trim().to_string()).filter(|v| !outside(v))
+    };
+    let mut found: Vec<(String, i128)> = Vec::new();
+    for (id_var, first_var) in ARRAY_TASK_VARS {
+        let Some(id) = set(id_var) else { continue };
+        let whole = |var: &str, v: &str| {
+            v.parse::<i128>().map_err(|_| {
+                fail(
+                    format!("--shard {text}: {var}={v} is not a whole number"),
+                    "K from the environment",
+                    "run inside a job array, or give the shard as K/N".to_string(),
+                )
+            })
+        };
+        let k_id = whole(id_var, &id)?;
+        let (first, from) = match first_var.and_then(|f| set(f).map(|v| (f, v))) {
+            Some((f, v)) => (whole(f, &v)?, format!("{id_var}={id}, {f}={v}")),
+            None => (1, format!("{id_var}={id}")),
+        };
+        found.push((from, k_id - first + 1));
+    }
+    let Some((from, k)) = found.first().cloned() else {
+        let names: Vec<&str> = ARRAY_TASK_VARS.iter().map(|(v, _)| *v).collect();
+        return Err(fail(
+            format!(
+                "--shard {text}: no job-array task id in the environment (none of {} is set)",
+                names.join(", ")
+            ),
+            "K from the environment",
+            format!("run it as a task of a job array of {n} tasks, or give the shard as K/{n}"),
+        ));
+    };
+    if let Some((other, k2)) = found.iter().find(|(_, k2)| *k2 != k) {
+        return Err(fail(
+            format!("--shard {text}: the job-array variables disagree: {from} gives shard {k}, {other} gives {k2}"),
+            "K from the environment",
+            format!("unset the variables of the other batch system, or give the shard as K/{n}"),
+        ));
+    }
+    if k < 1 || k > n as i128 {
+        return Err(fail(
+            format!("--shard {text}: {from} gives shard {k}, outside 1..{n}"),
+            "K from the environment",
+            format!(
+                "make the job array {n} tasks long, its task ids counted from its first, or give the shard as K/{n}"
+            ),
+        ));
+    }
+    let from = found.iter().map(|(f, _)| f.as_str()).collect::<Vec<_>>().join("; ");
+    Ok((Shard { k: k as usize, n }, Some(from)))
+}
+
+/// [`parse_shard`] of the process's environment; for `auto`, says on stderr which K it took
+/// and from where.
+pub(crate) fn shard_from_flag(text: Option<&str>) -> Result<Option<Shard>, Failure> {
+    let Some(text) = text else { return Ok(None) };
+    let (shard, from) = parse_shard(text, &|name| std::env::var(name).ok())?;
+    if let Some(from) = from {
+        crate::report::output::stderr(&format!(
+            "efold: --shard {text}: shard {}/{} (from {from})\n",
+            shard.k, shard.n
+        ));
+    }
+    Ok(Some(shard))
 }

@@ -4,7 +4,8 @@
 //! with a size limit.
 
 use super::check::{
-    check_efolds_count, check_efolds_values, check_field_name, check_keys_once, check_params_once, split_binding,
+    check_efolds_count, check_efolds_values, check_field_name, check_keys_once, check_params_once, is_reserved,
+    split_binding,
 };
 use super::Failure;
 use crate::cli::args::{DataArgs, ModelArgs};
@@ -13,9 +14,9 @@ use crate::data::DataSet;
 use crate::diag::{Diagnostic, Source, Span};
 use crate::drivers::golden::several_fields_report;
 use crate::drivers::predict::{predict, Options, Report};
-use crate::drivers::scan::PointError;
+use crate::drivers::scan::{Axis, AxisError, PointError};
 use crate::drivers::scan_multi::{predict_bound, MultiScanJob};
-use crate::model::{FieldValue, MetricEntry, Model, ModelSpec, Origin, Text};
+use crate::model::{FieldValue, MetricEntry, Model, ModelSpec, Origin, ParamSpec, Text};
 use crate::report::multi;
 use std::path::Path;
 
@@ -35,6 +36,13 @@ pub(crate) fn load_model(a: &ModelArgs, example: &str, config: &Config) -> Resul
 
 /// [`load_model`] for a command that also takes models of several fields.
 pub(crate) fn load_model_any(a: &ModelArgs, example: &str, config: &Config) -> Result<Model, Failure> {
+    let spec = load_spec(a, example, config)?;
+    Ok(Model::build(&spec, config)?)
+}
+
+/// The model as written, from a file and/or the inline flags, not yet built (`scan` declares
+/// its varied names first).
+pub(crate) fn load_spec(a: &ModelArgs, example: &str, config: &Config) -> Result<ModelSpec, Failure> {
     let mut spec = match (&a.model, &a.potential) {
         (Some(path), _) => ModelSpec::load_with(path, &config.limits)?,
         (None, Some(v)) => ModelSpec::inline(v, None),
@@ -46,7 +54,127 @@ pub(crate) fn load_model_any(a: &ModelArgs, example: &str, config: &Config) -> R
         }
     };
     apply_flags(&mut spec, a)?;
-    Ok(Model::build(&spec, config)?)
+    Ok(spec)
+}
+
+/// `--vary NAME=LO:HI...` declares NAME when the model has no parameter of that name (and it
+/// is not a field nor a start coordinate `start.FIELD`): it goes first among the parameters,
+/// so that the others may use it, with LO as its value, as typed. A name without a range
+/// cannot be declared and is refused, with a caret under it.
+pub(crate) fn declare_varied(spec: &mut ModelSpec, vary: &[String], config: &Config) -> Result<(), Failure> {
+    for v in vary {
+        let (name, range) = match v.split_once('=') {
+            Some((n, r)) => (n.trim(), Some(r)),
+            None => (v.trim(), None),
+        };
+        let is_field = name == spec.field || spec.fields.iter().any(|f| f.text == name);
+        let known = spec.params.iter().any(|p| p.name == name);
+        if known || is_field || name.starts_with("start.") || !is_identifier(name) || is_reserved(name) {
+            continue;
+        }
+        let Some(range) = range else {
+            let start = v.len() - v.trim_start().len();
+            let d = Diagnostic::new(format!(
+                "`--vary {v}`: `{name}` is not a parameter of the model, and without a range it cannot be declared"
+            ))
+            .with_span(Span::new(start, start + name.len()), "no such parameter")
+            .with_hint(format!(
+                "give its range, `--vary {name}=LO:HI:COUNT`, to declare and vary it"
+            ));
+            return Err(Failure::input(d.render(Some(&Source::new("--vary", v)))));
+        };
+        // The range must parse before LO becomes the parameter's value.
+        Axis::parse_range(
+            v,
+            name,
+            Some(range.trim()),
+            Err(AxisError::NoRange { name: name.to_string() }),
+            2,
+            config.limits.max_axis_points,
+        )
+        .map_err(|e| Failure::from(e.diagnostic()))?;
+        let lo = range.split(':').next().unwrap_or_default().trim();
+        spec.params.insert(
+            0,
+            ParamSpec {
+                name: name.to_string(),
+                value: Text::inline(&format!("--vary {name}"), lo),
+                scan: None,
+            },
+        );
+    }
+    Ok(())
+}
+
+/// A name of the expression language's form: letters, digits and `_`, not starting with a digit.
+fn is_identifier(name: &str) -> bool {
+    name.chars().next().is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+        && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')
+}
+
+/// The names the model's expressions use: those of V, K, the metric, the range, the start and
+/// its velocity, and of every parameter that one of them uses (parameters defined from others).
+pub(crate) fn used_names(spec: &ModelSpec, config: &Config) -> Vec<String> {
+    let names_of = |t: &Text| -> Vec<String> {
+        crate::language::syntax::parse(&t.text, &config.limits)
+            .map(|e| e.names().into_iter().map(str::to_string).collect())
+            .unwrap_or_default()
+    };
+    let mut texts: Vec<&Text> = vec![&spec.potential, &spec.kinetic];
+    texts.extend(spec.metric.iter().map(|m| &m.value));
+    texts.extend(spec.range.iter().flat_map(|(a, b)| [a, b]));
+    texts.extend(spec.start_point.iter().chain(&spec.start_velocity).map(|s| &s.value));
+    let mut used: Vec<String> = texts.into_iter().flat_map(names_of).collect();
+    // Parameters are defined from earlier ones: walking them from the last, each used one adds
+    // the names of its value.
+    for p in spec.params.iter().rev() {
+        if used.contains(&p.name) {
+            used.extend(names_of(&p.value));
+        }
+    }
+    used.sort();
+    used.dedup();
+    used
+}
+
+/// A parameter given to `flag` (`--vary`, `--free`) that no expression of the model uses
+/// would change nothing: refused, with a caret under its name. Start coordinates
+/// (`start.FIELD`) and names that are not parameters are left to the command's own checks.
+pub(crate) fn check_varied_used(
+    flag: &str,
+    given: &[String],
+    spec: &ModelSpec,
+    config: &Config,
+) -> Result<(), Failure> {
+    let used = used_names(spec, config);
+    for v in given {
+        let name = v.split_once('=').map_or(v.as_str(), |(n, _)| n).trim();
+        if !spec.params.iter().any(|p| p.name == name) || used.iter().any(|u| u == name) {
+            continue;
+        }
+        let users: Vec<&str> = spec
+            .params
+            .iter()
+            .map(|p| p.name.as_str())
+            .filter(|p| used.iter().any(|u| u == p))
+            .collect();
+        let start = v.len() - v.trim_start().len();
+        let doing = if flag == "--free" { "solving for" } else { "varying" };
+        let d = Diagnostic::new(format!(
+            "`{flag} {v}`: no expression of the model uses `{name}`, so {doing} it would change nothing"
+        ))
+        .with_span(Span::new(start, start + name.len()), "used by no expression")
+        .with_hint(if users.is_empty() {
+            "the model's expressions use no parameter; check the potential and the kinetic function".to_string()
+        } else {
+            format!(
+                "check the spelling; the parameters the model uses: {}",
+                users.join(", ")
+            )
+        });
+        return Err(Failure::input(d.render(Some(&Source::new(flag, v)))));
+    }
+    Ok(())
 }
 
 /// `FLAG` text as the origin of a part of it (`start..end`), so that an error in that part is

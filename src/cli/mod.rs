@@ -32,10 +32,10 @@ mod files;
 mod load;
 
 pub use args::{
-    BasinArgs, BasinDirection, BasinMergeArgs, BasinVelocity, CompileArgs, DataArgs, EfoldsArgs, Emit, EvalArgs,
-    FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs, InspectArgs, MergeArgs,
-    Method, ModelArgs, OutArgs, PredictArgs, ScanArgs, ScanFormat, ScopeArgs, SpectrumArgs, SpectrumFormat,
-    TableFormat, WatchArgs,
+    BasinArgs, BasinDirection, BasinMergeArgs, BasinVelocity, CompileArgs, CompletionsArgs, DataArgs, EfoldsArgs, Emit,
+    EvalArgs, FigureArgs, FitArgs, Format, GoldenAction, GoldenArgs, GoldenCheckArgs, GoldenWriteArgs, InspectArgs,
+    ManArgs, MergeArgs, Method, ModelArgs, OutArgs, PredictArgs, ScanArgs, ScanFormat, ScopeArgs, SpectrumArgs,
+    SpectrumFormat, TableFormat, ThreadsArgs, WatchArgs,
 };
 
 /// efold: from a potential and a kinetic function to inflationary predictions.
@@ -76,6 +76,11 @@ pub enum Command {
     Golden(GoldenArgs),
     /// Re-predict a model file or a directory whenever a file changes, and print what moved.
     Watch(WatchArgs),
+    /// Write the completion script for a shell (bash, zsh, fish, elvish, powershell).
+    Completions(CompletionsArgs),
+    /// Write the manual pages (roff): efold's own or one command's to standard output, or
+    /// every page into a directory with --out.
+    Man(ManArgs),
 }
 
 /// A command's failure: what to print on stderr, and the exit code.
@@ -190,15 +195,38 @@ pub fn run(args: &Args) -> Result<String, Failure> {
         Command::Compile(a) => commands::eval::compile_view(a, &config),
         Command::Inspect(a) => commands::inspect::inspect_cmd(a, &config),
         Command::Predict(a) => commands::predict::predict_cmd(a, &config),
-        Command::Spectrum(a) => commands::spectrum::spectrum_cmd(a, &config),
-        Command::Scan(a) => commands::scan::scan_cmd(a, &config),
+        Command::Spectrum(a) => in_pool(&a.threads, &config, || commands::spectrum::spectrum_cmd(a, &config)),
+        Command::Scan(a) => in_pool(&a.threads, &config, || commands::scan::scan_cmd(a, &config)),
         Command::Merge(a) => commands::scan::merge_cmd(a, &config),
-        Command::Basin(a) => commands::basin::basin_cmd(a, &config),
+        Command::Basin(a) => in_pool(&a.threads, &config, || commands::basin::basin_cmd(a, &config)),
         Command::BasinMerge(a) => commands::basin::merge_cmd(a, &config),
         Command::Fit(a) => commands::fit::fit_cmd(a, &config),
         Command::Golden(a) => commands::golden::golden_cmd(a, &config),
         Command::Watch(a) => commands::watch::watch_cmd(a, &config),
+        Command::Completions(a) => commands::docs::completions_cmd(a),
+        Command::Man(a) => commands::docs::man_cmd(a),
     }
+}
+
+/// Runs `f` on `--threads N` worker threads (a pool of its own), or on rayon's global pool
+/// (one thread per core) without the flag. N is checked first: a whole number from 1 to
+/// `Limits::max_threads`.
+fn in_pool(
+    t: &ThreadsArgs,
+    config: &Config,
+    f: impl FnOnce() -> Result<String, Failure> + Send,
+) -> Result<String, Failure> {
+    let Some(text) = &t.threads else {
+        return f();
+    };
+    let n = check::check_threads(text, config)?;
+    let pool = rayon::ThreadPoolBuilder::new().num_threads(n).build().map_err(|e| {
+        Failure::from(
+            Diagnostic::new(format!("cannot start {n} worker threads: {e}"))
+                .with_hint("give fewer with --threads, or leave it out to use one per core"),
+        )
+    })?;
+    pool.install(f)
 }
 
 #[cfg(test)]

@@ -3,7 +3,7 @@
 //! the n_s–r figure.
 
 use crate::analysis::error::AnalysisError;
-use crate::config::Config;
+use crate::config::{Config, GRID_SNAP_ULPS};
 use crate::data::DataSet;
 use crate::diag::Diagnostic;
 use crate::drivers::predict::{predict, Options, Prediction};
@@ -173,19 +173,20 @@ impl Axis {
                 log,
             });
         }
+        let raw: Vec<f64> = (0..count).map(|i| grid_value(lo, hi, i, count, log)).collect();
         let values = (0..count)
             .map(|i| {
-                let t = if count == 1 { 0.0 } else { i as f64 / (count - 1) as f64 };
-                // The end points are the numbers asked for, exactly.
+                // The end points are the numbers asked for, exactly; the others the shortest
+                // decimal near the computed value, so that a row's value typed back gives the
+                // row.
                 if i == 0 {
                     lo
                 } else if i + 1 == count {
                     hi
-                } else if log {
-                    // in decades, so that grid points on powers of ten come out exact
-                    10f64.powf(lo.log10() + (hi.log10() - lo.log10()) * t)
                 } else {
-                    lo + (hi - lo) * t
+                    let gap = (raw[i] - raw[i - 1]).abs().min((raw[i + 1] - raw[i]).abs());
+                    let tol = (GRID_SNAP_ULPS * ulp(raw[i])).min(gap / 4.0);
+                    shortest_near(raw[i], tol)
                 }
             })
             .collect();
@@ -273,6 +274,74 @@ impl Axis {
         }
         Axis::new(name, lo, hi, count, log)
     }
+}
+
+/// Point `i` of `count` from `lo` to `hi` (evenly spaced, or evenly in log10), to about an ulp:
+/// the fraction `i / (count - 1)` and the interpolated position are carried in two doubles
+/// (a value and its rounding error), so that only the last rounding (and for a logarithmic
+/// axis `powf`'s own) is left.
+fn grid_value(lo: f64, hi: f64, i: usize, count: usize, log: bool) -> f64 {
+    if count == 1 {
+        return lo;
+    }
+    let (a, b) = if log { (lo.log10(), hi.log10()) } else { (lo, hi) };
+    let m = (count - 1) as f64;
+    let t = i as f64 / m;
+    let t_err = (-t).mul_add(m, i as f64) / m;
+    let (d, d_err) = two_sum(b, -a);
+    let p = d * t;
+    let p_err = d.mul_add(t, -p) + d * t_err + d_err * t;
+    let (x, x_sum_err) = two_sum(a, p);
+    let x_err = x_sum_err + p_err;
+    if log {
+        let v = 10f64.powf(x);
+        v.mul_add(std::f64::consts::LN_10 * x_err, v)
+    } else {
+        x + x_err
+    }
+}
+
+/// `x + y` and its rounding error (Knuth's two-sum, common practice).
+fn two_sum(x: f64, y: f64) -> (f64, f64) {
+    let s = x + y;
+    let bb = s - x;
+    (s, (x - (s - bb)) + (y - bb))
+}
+
+/// The spacing of doubles at `x` (the distance to the next one away from zero).
+fn ulp(x: f64) -> f64 {
+    let a = x.abs();
+    if a == 0.0 {
+        return f64::from_bits(1);
+    }
+    f64::from_bits(a.to_bits() + 1) - a
+}
+
+/// The double of the shortest decimal within `tol` of `x` (with as few significant digits as
+/// any, and of those the nearest to `x`); `x` itself when none is nearer than `x`'s own
+/// 17 digits.
+fn shortest_near(x: f64, tol: f64) -> f64 {
+    for digits in 1..17usize {
+        let nearest = format!("{:.*e}", digits - 1, x);
+        let Some((mantissa, exp)) = nearest.split_once('e') else {
+            return x;
+        };
+        let (Ok(m), Ok(e)) = (mantissa.parse::<f64>(), exp.parse::<i32>()) else {
+            return x;
+        };
+        // The nearest decimal of this length and its two neighbours, as the digits' rounding
+        // may leave the nearest one just outside the tolerance and a neighbour inside.
+        let step = 10f64.powi(1 - digits as i32);
+        let best = [m - step, m, m + step]
+            .iter()
+            .filter_map(|c| format!("{c:.*}e{e}", digits - 1).parse::<f64>().ok())
+            .filter(|c| (c - x).abs() <= tol)
+            .min_by(|p, q| (p - x).abs().total_cmp(&(q - x).abs()));
+        if let Some(b) = best {
+            return b;
+        }
+    }
+    x
 }
 
 /// A `--shard` value that is not K/N with 1 <= K <= N.
@@ -1446,6 +1515,45 @@ mod tests {
         assert_eq!((b.values[0], b.values[2]), (0.3, 0.7));
         let c = Axis::new("c", 0.01, 100.0, 5, true).unwrap();
         assert_eq!(c.values, vec![0.01, 0.1, 1.0, 10.0, 100.0]);
+    }
+
+    /// Interior grid values are the shortest decimals near the grid points: 10^(1/3) =
+    /// 2.15443469003188372... and 10^(2/3) = 4.64158883361277889... (from memory; cubed below)
+    /// to 16 and 15 digits, within 4 ulp; linear steps as typed; each printed value is the value
+    /// used.
+    #[test]
+    fn interior_grid_values_are_short_decimals() {
+        let a = Axis::new("a", 0.1, 10.0, 7, true).unwrap();
+        assert_eq!(
+            a.values,
+            vec![
+                0.1,
+                0.2154434690031884,
+                0.464158883361278,
+                1.0,
+                2.154434690031884,
+                4.64158883361278,
+                10.0
+            ]
+        );
+        // each within a few ulp of the exact point: x^3 = 10 and x^3 = 100 (common practice)
+        for (x, cube) in [(a.values[4], 10.0), (a.values[5], 100.0)] {
+            assert!((x * x * x - cube).abs() < 16.0 * f64::EPSILON * cube, "{x}");
+        }
+        let b = Axis::new("b", 1.0, 2.0, 6, false).unwrap();
+        assert_eq!(b.values, vec![1.0, 1.2, 1.4, 1.6, 1.8, 2.0]);
+        let c = Axis::new("c", 0.0, 0.3, 4, false).unwrap();
+        assert_eq!(c.values, vec![0.0, 0.1, 0.2, 0.3]);
+        for v in a.values.iter().chain(&b.values) {
+            assert_eq!(v.to_string().parse::<f64>().unwrap(), *v);
+        }
+        // 4/3 has no short decimal: the one of 16 digits within the tolerance
+        let d = Axis::new("d", 1.0, 2.0, 4, false).unwrap();
+        assert_eq!(d.values[1].to_string(), "1.333333333333333");
+        assert!((d.values[1] - 4.0 / 3.0).abs() <= GRID_SNAP_ULPS * f64::EPSILON);
+        // a grid finer than the tolerance keeps its order
+        let e = Axis::new("e", 1.0, 1.0 + 8.0 * f64::EPSILON, 5, false).unwrap();
+        assert!(e.values.windows(2).all(|w| w[0] < w[1]), "{:?}", e.values);
     }
 
     #[test]

@@ -185,8 +185,8 @@ pub fn csv_rows(names: &[String], n_stars: &[f64], points: &[BasinPoint]) -> Str
     for p in points {
         let r = &p.result;
         let mut head: Vec<String> = vec![p.index.to_string()];
-        head.extend(p.start.iter().map(|v| format!("{v:e}")));
-        head.push(csv_num(p.x_kinetic));
+        head.extend(p.start.iter().map(|v| crate::report::numfmt::typed(*v)));
+        head.push(p.x_kinetic.map_or(String::new(), crate::report::numfmt::typed));
         head.push(p.direction.unwrap_or("").to_string());
         head.push(format!("{:e}", r.n_total));
         head.push(format!("{:e}", r.n_inflating));

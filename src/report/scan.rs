@@ -39,7 +39,8 @@ pub fn csv_rows(rows: &[ScanRow]) -> String {
     let mut o = String::new();
     for r in rows {
         let mut f: Vec<String> = vec![r.point.to_string()];
-        f.extend(r.params.iter().map(|(_, v)| format!("{v:e}")));
+        // grid values as typed: the shortest round-trip form, positional in [1e-4, 1e6)
+        f.extend(r.params.iter().map(|(_, v)| typed(*v)));
         match &r.result {
             Ok(p) => {
                 f.extend(csv_values(p));

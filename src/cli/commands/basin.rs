@@ -3,7 +3,7 @@
 
 use crate::analysis::basin::sample::{Plan, Range};
 use crate::cli::args::{BasinArgs, BasinDirection, BasinVelocity, TableFormat};
-use crate::cli::check::check_efolds_values;
+use crate::cli::check::{check_efolds_values, shard_from_flag};
 use crate::cli::files::{refuse_one_file, write_figure, write_output_file};
 use crate::cli::load::{load_data, load_model_any};
 use crate::cli::{check::check_efolds_count, Failure};
@@ -279,12 +279,7 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
     check_in_domain(a, &axes, &model)?;
     let velocity = velocity_plan(a, &mut axes, config)?;
     let plan = plan_of(a, axes, &limits)?;
-    let shard = a
-        .shard
-        .as_deref()
-        .map(Shard::parse)
-        .transpose()
-        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
+    let shard = shard_from_flag(a.shard.as_deref())?;
     check_outputs(a)?;
     let data = load_data(&a.data, config)?;
     use std::io::IsTerminal;

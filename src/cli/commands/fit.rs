@@ -2,7 +2,7 @@
 
 use crate::cli::args::{FitArgs, Format};
 use crate::cli::check::check_efolds_values;
-use crate::cli::load::{load_data, load_model_any};
+use crate::cli::load::{check_varied_used, load_data, load_model_any};
 use crate::cli::Failure;
 use crate::config::Config;
 use crate::diag::Diagnostic;
@@ -19,6 +19,7 @@ pub(crate) fn fit_cmd(a: &FitArgs, config: &Config) -> Result<String, Failure> {
         "efold fit models/pole-order-2-quadratic.toml --free alpha --target r=0.01",
         config,
     )?;
+    check_varied_used("--free", &a.free, &model.spec, config)?;
     let data = load_data(&a.data, config)?;
     let targets = a
         .targets

@@ -1,6 +1,7 @@
 //! One module a command: each turns its arguments into the text to print.
 
 pub(crate) mod basin;
+pub(crate) mod docs;
 pub(crate) mod eval;
 pub(crate) mod fit;
 pub(crate) mod golden;

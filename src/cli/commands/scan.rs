@@ -1,9 +1,9 @@
 //! `scan` and `merge`: predictions over a parameter grid, streamed, and shards joined.
 
 use crate::cli::args::{MergeArgs, ScanArgs, ScanFormat};
-use crate::cli::check::{check_efolds_count, check_grid_size, check_vary_names};
+use crate::cli::check::{check_efolds_count, check_grid_size, check_vary_names, shard_from_flag};
 use crate::cli::files::{cannot_write, refuse_one_file, write_figure, write_output_file};
-use crate::cli::load::{checked_n_stars, load_data, load_model_any, read_bounded};
+use crate::cli::load::{check_varied_used, checked_n_stars, declare_varied, load_data, load_spec, read_bounded};
 use crate::cli::{print_out, Failure};
 use crate::config::Config;
 use crate::data::DataSet;
@@ -30,11 +30,14 @@ struct Grid {
 pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure> {
     check_efolds_count(&a.efolds.efolds, config)?;
     // Compile once up front: a bad model is one error, not one per point.
-    let model = load_model_any(
+    let mut spec = load_spec(
         &a.model,
         "efold scan models/pole-order-2-quadratic.toml --vary alpha=0.1:10:30:log",
         config,
     )?;
+    declare_varied(&mut spec, &a.vary, config)?;
+    let model = Model::build(&spec, config)?;
+    check_varied_used("--vary", &a.vary, &model.spec, config)?;
     if model.n_fields() > 1 {
         return scan_several_fields(a, &model, config);
     }
@@ -42,12 +45,7 @@ pub(crate) fn scan_cmd(a: &ScanArgs, config: &Config) -> Result<String, Failure>
     let data = load_data(&a.data, config)?;
     let axes = parse_axes(a, &spec, config)?;
     let total = check_grid_size(&axes, config)?;
-    let shard = a
-        .shard
-        .as_deref()
-        .map(Shard::parse)
-        .transpose()
-        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
+    let shard = shard_from_flag(a.shard.as_deref())?;
     let n_stars = checked_n_stars(&a.efolds.efolds, &spec, config)?;
     check_out_and_figure(a)?;
     let grid = Grid {
@@ -190,12 +188,7 @@ fn scan_several_fields(a: &ScanArgs, model: &Model, config: &Config) -> Result<S
         .collect::<Result<Vec<_>, _>>()
         .map_err(|e| Failure::input(e.render()))?;
     let total = check_grid_size(&axes, config)?;
-    let shard = a
-        .shard
-        .as_deref()
-        .map(Shard::parse)
-        .transpose()
-        .map_err(|e| Failure::from(Diagnostic::new(e.to_string())))?;
+    let shard = shard_from_flag(a.shard.as_deref())?;
     let n_stars = checked_n_stars(&a.efolds.efolds, &model.spec, config)?;
     let grid = Grid {
         spec: model.spec.clone(),
