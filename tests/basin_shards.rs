@@ -110,3 +110,70 @@ fn shards_merge_into_the_unsharded_output() {
     assert!(r.stderr.contains("is not the JSON of `efold basin`"), "{}", r.stderr);
     std::fs::remove_dir_all(tmp("x").parent().unwrap()).ok();
 }
+
+/// CSV shards carry their run's definition in a first line and merge into the unsharded CSV
+/// byte for byte, also on two fields (whose minimum label, a quoted field, holds commas); a
+/// cut-short shard, CSV mixed with JSON and an unsharded table are refused.
+#[test]
+fn csv_shards_merge_into_the_unsharded_table() {
+    let two = format!(
+        "{}/models/several-fields/two-alphas-turning.toml",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let one: Vec<String> = args(&plateau())
+        .into_iter()
+        .map(|s| if s == "json" { "csv".to_string() } else { s })
+        .collect();
+    let several: Vec<String> = [
+        "basin", &two, "--sample", "x=0.6:0.95:3", "--sample", "y=2:3:2", "--format", "csv",
+    ]
+    .map(String::from)
+    .to_vec();
+    for (tag, a) in [("one", one), ("two", several)] {
+        let whole = run(&a);
+        assert!(whole.starts_with("index,"), "{whole}");
+        let mut files = Vec::new();
+        for k in [2, 1, 3] {
+            let mut s = a.clone();
+            s.extend(["--shard".to_string(), format!("{k}/3")]);
+            let text = run(&s);
+            assert!(text.starts_with("# efold-basin-shard {"), "{text}");
+            let path = csv_tmp(&format!("{tag}-shard{k}.csv"));
+            std::fs::write(&path, text).unwrap();
+            files.push(path.display().to_string());
+        }
+        let mut merge = vec!["basin-merge".to_string()];
+        merge.extend(files.iter().cloned());
+        assert_eq!(run(&merge), whole, "{tag}");
+        // a shard cut short by a row
+        let cut = std::fs::read_to_string(&files[0]).unwrap();
+        let cut = &cut[..cut.trim_end().rfind('\n').unwrap() + 1];
+        let path = csv_tmp(&format!("{tag}-cut.csv"));
+        std::fs::write(&path, cut).unwrap();
+        let r = efold(&["basin-merge", &path.display().to_string(), &files[1], &files[2]]);
+        assert_eq!(r.code, 2, "{tag}");
+        assert!(r.stderr.contains("rows"), "{}", r.stderr);
+        // the unsharded table is no shard
+        let path = csv_tmp(&format!("{tag}-whole.csv"));
+        std::fs::write(&path, &whole).unwrap();
+        let r = efold(&["basin-merge", &path.display().to_string()]);
+        assert_eq!(r.code, 2);
+        assert!(r.stderr.contains("without a shard line"), "{}", r.stderr);
+    }
+    // CSV and JSON mixed
+    let mut j = args(&plateau());
+    j.extend(["--shard".to_string(), "1/3".to_string()]);
+    let jp = csv_tmp("mixed1.json");
+    std::fs::write(&jp, run(&j)).unwrap();
+    let r = efold(&["basin-merge", &jp.display().to_string(), &csv_tmp("one-shard2.csv").display().to_string()]);
+    assert_eq!(r.code, 2);
+    assert!(r.stderr.contains("mixed"), "{}", r.stderr);
+    std::fs::remove_dir_all(csv_tmp("x").parent().unwrap()).ok();
+}
+
+/// A file in a directory of the CSV test's own (the other test removes its directory).
+fn csv_tmp(name: &str) -> std::path::PathBuf {
+    let dir = std::env::temp_dir().join(format!("efold-basin-csv-shards-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir.join(name)
+}

@@ -350,7 +350,7 @@ pub struct BasinArgs {
 #[derive(Debug, clap::Args)]
 #[command(mut_arg("out", |a| a.help("Write the merged output here (atomically) instead of standard output")))]
 pub struct BasinMergeArgs {
-    /// The JSON shard files of one `efold basin --shard K/N --format json` run.
+    /// The shard files (JSON or CSV) of one `efold basin --shard K/N` run.
     #[arg(required = true)]
     pub(crate) files: Vec<PathBuf>,
     #[command(flatten)]

@@ -68,7 +68,7 @@ pub enum Command {
     /// Basins of initial conditions: from many starts (field values and velocities), how many
     /// e-folds, which outcome and which n_s and r.
     Basin(BasinArgs),
-    /// Join the JSON shards of a basin run into the output an unsharded run writes.
+    /// Join the JSON or CSV shards of a basin run into the output an unsharded run writes.
     BasinMerge(BasinMergeArgs),
     /// Solve for parameter values that reproduce target observables.
     Fit(FitArgs),

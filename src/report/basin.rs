@@ -216,6 +216,35 @@ pub fn csv(names: &[String], n_stars: &[f64], points: &[BasinPoint]) -> String {
     format!("{}\n{}", csv_header(names), csv_rows(names, n_stars, points))
 }
 
+/// The first line of a CSV shard: [`CSV_SHARD_MARK`], then one line of JSON with the run's
+/// definition (the keys a JSON shard has besides its summary and points) and the `shard`
+/// record, so that [`merge`] can check CSV shards as it checks JSON ones.
+pub const CSV_SHARD_MARK: &str = "# efold-basin-shard ";
+
+/// The CSV table of a run; a shard's starts with its provenance line ([`CSV_SHARD_MARK`]).
+pub fn csv_table(h: &Header, points: &[BasinPoint]) -> String {
+    let body = csv(&h.fields, &h.n_stars, points);
+    match &h.shard {
+        None => body,
+        Some(sh) => {
+            let mut m = serde_json::Map::new();
+            m.insert("model".into(), json!(h.model));
+            m.insert("fields".into(), json!(h.fields));
+            m.insert("need".into(), json!(h.need));
+            m.insert("efolds".into(), json!(h.n_stars));
+            m.insert("velocity".into(), json!(h.velocity));
+            m.insert("sampling".into(), json!(h.sampling));
+            if let Some(seed) = h.seed {
+                m.insert("seed".into(), json!(seed));
+            }
+            m.insert("definition".into(), json!(h.definition));
+            m.insert("shard".into(), sh.clone());
+            let line = serde_json::to_string(&Value::Object(m)).expect("JSON values serialise");
+            format!("{CSV_SHARD_MARK}{line}\n{body}")
+        }
+    }
+}
+
 /// The summary for people.
 pub fn text(h: &Header, s: &Summary) -> String {
     let mut o = format!(
@@ -344,10 +373,27 @@ fn point_from_json(names: &[String], v: &Value) -> Option<BasinPoint> {
 /// computed again from all the points.
 pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
     let err = |m: String| MergeError(m);
+    let csv_count = texts.iter().filter(|(_, t)| t.starts_with(CSV_SHARD_MARK)).count();
+    if csv_count > 0 && csv_count < texts.len() {
+        return Err(err("CSV and JSON shards are mixed: give the shards of one format".into()));
+    }
+    let csv = csv_count > 0;
     let mut shards: Vec<(String, Value)> = Vec::new();
+    let mut bodies: IndexMap<String, String> = IndexMap::new();
     for (name, t) in texts {
-        let v: Value =
-            serde_json::from_str(t).map_err(|e| err(format!("`{name}` is not the JSON of `efold basin`: {e}")))?;
+        let v: Value = if csv {
+            let (line, body) = t.split_once('\n').unwrap_or((t, ""));
+            bodies.insert(name.clone(), body.to_string());
+            serde_json::from_str(&line[CSV_SHARD_MARK.len()..])
+                .map_err(|e| err(format!("`{name}` has a shard line that is not as written: {e}")))?
+        } else {
+            if t.starts_with("index,") {
+                return Err(err(format!(
+                    "`{name}` is a CSV table without a shard line: it is not a shard (run with --shard K/N)"
+                )));
+            }
+            serde_json::from_str(t).map_err(|e| err(format!("`{name}` is not the JSON of `efold basin`: {e}")))?
+        };
         if !v["shard"].is_object() {
             return Err(err(format!(
                 "`{name}` is not a shard: it has no `shard` record (run with --shard K/N)"
@@ -385,13 +431,20 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
         )));
     }
     let names: Vec<String> = serde_json::from_value(first["fields"].clone()).map_err(|e| err(e.to_string()))?;
+    let n_stars: Vec<f64> = serde_json::from_value(first["efolds"].clone()).map_err(|e| err(e.to_string()))?;
     let mut points = Vec::new();
     let mut next = 0u64;
+    let mut rows = String::new();
     for (name, v) in &shards {
         if v["shard"]["points"][0].as_u64() != Some(next) {
             return Err(err(format!("`{name}` does not start where the shard before it ends")));
         }
+        let first_point = next;
         next = v["shard"]["points"][1].as_u64().unwrap_or(0);
+        if csv {
+            rows.push_str(&csv_shard_rows(name, &bodies[name], &names, n_stars.len(), first_point, next)?);
+            continue;
+        }
         for p in v["points"].as_array().into_iter().flatten() {
             points.push(
                 point_from_json(&names, p)
@@ -399,7 +452,12 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
             );
         }
     }
-    let n_stars: Vec<f64> = serde_json::from_value(first["efolds"].clone()).map_err(|e| err(e.to_string()))?;
+    if csv {
+        if next != total.as_u64().unwrap_or(u64::MAX) {
+            return Err(err(format!("the shards end at point {next}, the run has {total}")));
+        }
+        return Ok(format!("{}\n{rows}", csv_header(&names)));
+    }
     let random = first["sampling"] == "random";
     let header = Header {
         model: first["model"].as_str().unwrap_or_default().to_string(),
@@ -414,6 +472,63 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
     };
     let summary = crate::drivers::basin::summarise(&points, &names, &n_stars, random);
     Ok(json(&header, &summary, &points))
+}
+
+/// The rows of one CSV shard (`body`: the header line and the rows), checked to hold points
+/// `first..end` in order with one row per N_* each, every row with the header's number of
+/// fields, and a final newline.
+fn csv_shard_rows(
+    name: &str,
+    body: &str,
+    names: &[String],
+    per_point: usize,
+    first: u64,
+    end: u64,
+) -> Result<String, MergeError> {
+    let err = |m: String| MergeError(m);
+    let header = csv_header(names);
+    let Some(rows) = body.strip_prefix(&header).and_then(|r| r.strip_prefix('\n')) else {
+        return Err(err(format!("`{name}` does not have the header of this run's CSV")));
+    };
+    if !rows.is_empty() && !rows.ends_with('\n') {
+        return Err(err(format!("`{name}` is cut short: its last row does not end in a newline")));
+    }
+    let columns = header.split(',').count();
+    let mut count = 0u64;
+    for (i, line) in rows.lines().enumerate() {
+        let fields = csv_field_count(line);
+        let want = first + (i / per_point.max(1)) as u64;
+        let index = line.split(',').next().and_then(|x| x.parse::<u64>().ok());
+        if fields != columns || index != Some(want) {
+            return Err(err(format!(
+                "`{name}` row {} is not as written (expected point {want} with {columns} fields)",
+                i + 2
+            )));
+        }
+        count += 1;
+    }
+    if count != (end - first) * per_point as u64 {
+        return Err(err(format!(
+            "`{name}` holds {count} rows; its points {first}..{end} need {}",
+            (end - first) * per_point as u64
+        )));
+    }
+    Ok(rows.to_string())
+}
+
+/// The number of fields of a CSV line whose quoted fields may hold commas and doubled quotes
+/// (as [`csv_rows`] writes them).
+fn csv_field_count(line: &str) -> usize {
+    let mut quoted = false;
+    1 + line
+        .chars()
+        .filter(|&c| {
+            if c == '"' {
+                quoted = !quoted;
+            }
+            c == ',' && !quoted
+        })
+        .count()
 }
 
 /// How a sampled coordinate is drawn: its values (log10 of them on a logarithmic axis) and

@@ -304,7 +304,7 @@ pub(crate) fn basin_cmd(a: &BasinArgs, config: &Config) -> Result<String, Failur
     let table = match a.format {
         TableFormat::Text => crate::report::basin::text(&header, &summary),
         TableFormat::Json => crate::report::basin::json(&header, &summary, &points),
-        TableFormat::Csv => crate::report::basin::csv(&header.fields, &n_stars, &points),
+        TableFormat::Csv => crate::report::basin::csv_table(&header, &points),
     };
     if a.figure.wanted() {
         let svg = crate::report::basin::figure(&header, &plan, &points, &data, a.figure.figure_width);
