@@ -33,6 +33,44 @@ fn main() {
                 "1e11".into(),
             ],
         ),
+        (
+            "basin-random",
+            [
+                "basin",
+                &format!("{root}/models/exponential-plateau.toml"),
+                "--sample",
+                "phi=0.5:9",
+                "--kinetic-ratio",
+                "1e-3:1e8:2:log",
+                "--direction",
+                "up",
+                "--random",
+                "2500",
+                "--seed",
+                "3",
+                "--format",
+                "text",
+            ]
+            .map(String::from)
+            .to_vec(),
+        ),
+        (
+            "basin-random-fields",
+            [
+                "basin",
+                &format!("{root}/models/several-fields/two-alphas-turning.toml"),
+                "--sample",
+                "x=0.3:0.99",
+                "--sample",
+                "y=0.5:3.5",
+                "--random",
+                "1500",
+                "--format",
+                "text",
+            ]
+            .map(String::from)
+            .to_vec(),
+        ),
     ];
     let mut db = usvg::fontdb::Database::new();
     db.load_font_data(include_bytes!("../assets/fonts/DejaVuSans.ttf").to_vec());

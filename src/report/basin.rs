@@ -759,8 +759,115 @@ fn map_panel(fields: &[String], plan: &Plan, points: &[BasinPoint], shade: &Shad
                 color: shade.color(p),
             })
             .collect();
+        if let Some((cells, b)) = scattered_boundaries(&axes, &coords, shade) {
+            panel.regions = cells;
+            panel.series = vec![b];
+            panel.markers = outcome_labels(&axes, &coords);
+            panel.title = "$N$_{total} by nearest start, outcomes".into();
+        }
     }
     panel
+}
+
+/// The map of scattered starts (random samples): a raster of about one cell per start
+/// (sqrt(n) a side, 8 to 64), each cell coloured as the start nearest to its middle (in
+/// coordinates scaled to the sampled ranges) and given its outcome, and the edges between
+/// cells of different outcomes, as one line broken between segments. None when the starts do
+/// not span both coordinates.
+fn scattered_boundaries(
+    axes: &[MapAxis],
+    coords: &[(Vec<f64>, &BasinPoint)],
+    shade: &Shade,
+) -> Option<(Vec<Region>, Series)> {
+    let pts: Vec<(f64, f64, &BasinPoint)> = coords
+        .iter()
+        .map(|(c, p)| (axes[0].value(c), axes[1].value(c), *p))
+        .filter(|(x, y, _)| x.is_finite() && y.is_finite())
+        .collect();
+    if pts.is_empty() {
+        return None;
+    }
+    let range = |k: usize| {
+        let vs = pts.iter().map(|p| if k == 0 { p.0 } else { p.1 });
+        vs.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(v), b.max(v)))
+    };
+    let (rx, ry) = (range(0), range(1));
+    if !(rx.1 > rx.0 && ry.1 > ry.0) {
+        return None;
+    }
+    let side = ((pts.len() as f64).sqrt().round() as usize).clamp(8, 64);
+    let unit = |v: f64, r: (f64, f64)| (v - r.0) / (r.1 - r.0);
+    let cell_of = |u: f64| ((u * side as f64) as usize).min(side - 1);
+    // the starts in buckets of the raster, so that the nearest is found ring by ring
+    let mut buckets = vec![Vec::new(); side * side];
+    let scaled: Vec<(f64, f64)> = pts.iter().map(|p| (unit(p.0, rx), unit(p.1, ry))).collect();
+    for (k, &(u, v)) in scaled.iter().enumerate() {
+        buckets[cell_of(u) * side + cell_of(v)].push(k);
+    }
+    let h = 1.0 / side as f64;
+    let nearest = |i: usize, j: usize| -> usize {
+        let (cu, cv) = ((i as f64 + 0.5) * h, (j as f64 + 0.5) * h);
+        let mut best = (f64::INFINITY, 0usize);
+        for ring in 0..side as isize {
+            // every start in this ring or beyond is at least (ring - 1/2) cells away
+            if best.0.is_finite() && ((ring as f64 - 0.5) * h).powi(2) > best.0 {
+                break;
+            }
+            for di in -ring..=ring {
+                for dj in -ring..=ring {
+                    if di.abs() != ring && dj.abs() != ring {
+                        continue;
+                    }
+                    let (a, b) = (i as isize + di, j as isize + dj);
+                    if a < 0 || b < 0 || a >= side as isize || b >= side as isize {
+                        continue;
+                    }
+                    for &k in &buckets[a as usize * side + b as usize] {
+                        let d = (scaled[k].0 - cu).powi(2) + (scaled[k].1 - cv).powi(2);
+                        if d < best.0 || (d == best.0 && k < best.1) {
+                            best = (d, k);
+                        }
+                    }
+                }
+            }
+        }
+        best.1
+    };
+    let x_at = |i: usize| rx.0 + (rx.1 - rx.0) * i as f64 * h;
+    let y_at = |j: usize| ry.0 + (ry.1 - ry.0) * j as f64 * h;
+    let mut outcome = vec![vec![pts[0].2.result.outcome; side]; side];
+    let mut cells = Vec::with_capacity(side * side);
+    for (i, row) in outcome.iter_mut().enumerate() {
+        for (j, o) in row.iter_mut().enumerate() {
+            let p = pts[nearest(i, j)].2;
+            *o = p.result.outcome;
+            cells.push(Region {
+                x: (x_at(i), x_at(i + 1)),
+                y: Some((y_at(j), y_at(j + 1))),
+                color: shade.color(p),
+                opacity: 1.0,
+                label: String::new(),
+            });
+        }
+    }
+    let mut line = Vec::new();
+    for i in 0..side {
+        for j in 0..side {
+            if i + 1 < side && outcome[i][j] != outcome[i + 1][j] {
+                line.extend([(x_at(i + 1), y_at(j)), (x_at(i + 1), y_at(j + 1)), (f64::NAN, f64::NAN)]);
+            }
+            if j + 1 < side && outcome[i][j] != outcome[i][j + 1] {
+                line.extend([(x_at(i), y_at(j + 1)), (x_at(i + 1), y_at(j + 1)), (f64::NAN, f64::NAN)]);
+            }
+        }
+    }
+    let series = Series {
+        name: "outcome boundaries".into(),
+        points: line,
+        color: "black".into(),
+        dashed: false,
+    };
+    Some((cells, series))
 }
 
 /// The smallest x of some markers.
@@ -856,4 +963,66 @@ pub fn figure(h: &Header, plan: &Plan, points: &[BasinPoint], data: &DataSet, wi
         ..Panel::default()
     };
     plot::render(&format!("basin of {}", h.model), &[map, ns_r], width_pt)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::basin::{Outcome, StartResult};
+
+    fn point(index: usize, x: f64, y: f64, outcome: Outcome) -> BasinPoint {
+        BasinPoint {
+            index,
+            start: vec![x, y],
+            x_kinetic: None,
+            direction: None,
+            result: StartResult {
+                n_total: 10.0,
+                n_inflating: 10.0,
+                outcome,
+                end: vec![0.0, 0.0],
+                minimum: None,
+                rolls_along: None,
+                n_s: vec![None],
+                r: vec![None],
+                reason: None,
+            },
+        }
+    }
+
+    /// Scattered starts whose outcome changes across the line x + y = 1 (a known boundary):
+    /// every boundary segment lies within two raster cells of it, and there are segments all
+    /// along it.
+    #[test]
+    fn the_boundary_of_scattered_starts_follows_the_outcomes() {
+        let mut points = Vec::new();
+        for i in 0..900 {
+            // a low-discrepancy cloud on the unit square
+            let (x, y) = ((i as f64 * 0.618_033_988_75).fract(), (i as f64 + 0.5) / 900.0);
+            let o = if x + y < 1.0 { Outcome::Enough } else { Outcome::TooFew };
+            points.push(point(i, x, y, o));
+        }
+        let axes: Vec<MapAxis> = (0..2)
+            .map(|index| MapAxis {
+                index,
+                log: false,
+                label: String::new(),
+            })
+            .collect();
+        let coords: Vec<(Vec<f64>, &BasinPoint)> = points.iter().map(|p| (p.start.clone(), p)).collect();
+        let shade = Shade { lo: 1.0, hi: 100.0 };
+        let (cells, b) = scattered_boundaries(&axes, &coords, &shade).unwrap();
+        assert_eq!(cells.len(), 30 * 30);
+        let segs: Vec<&(f64, f64)> = b.points.iter().filter(|p| p.0.is_finite()).collect();
+        assert!(segs.len() >= 2 * 30, "{} points", segs.len());
+        let cell = 1.0 / 30.0;
+        for p in &segs {
+            let off = (p.0 + p.1 - 1.0).abs() / 2f64.sqrt();
+            assert!(off < 2.0 * cell, "{p:?} is {off} from the line");
+        }
+        // one outcome only: no boundary
+        let same: Vec<BasinPoint> = (0..50).map(|i| point(i, i as f64, (i * 7 % 50) as f64, Outcome::Enough)).collect();
+        let coords: Vec<(Vec<f64>, &BasinPoint)> = same.iter().map(|p| (p.start.clone(), p)).collect();
+        assert!(scattered_boundaries(&axes, &coords, &shade).unwrap().1.points.is_empty());
+    }
 }
