@@ -552,9 +552,11 @@ pub enum Column {
 }
 
 /// The rows of a table (flat JSON objects, as [`scan`] returns them or a spectrum's `rows`)
-/// as columns, keys in the order they first appear.
+/// as columns, keys in the order of the row with the most keys.
 pub fn columns<'a>(rows: impl IntoIterator<Item = &'a [(String, Value)]> + Clone) -> Vec<(String, Column)> {
-    let mut keys: Vec<String> = Vec::new();
+    // The keys of the fullest row (a failed point's rows lack the prediction's), then any other.
+    let fullest = rows.clone().into_iter().max_by_key(|r| r.len()).unwrap_or(&[]);
+    let mut keys: Vec<String> = fullest.iter().map(|(k, _)| k.clone()).collect();
     for row in rows.clone() {
         for (k, _) in row {
             if !keys.contains(k) {
