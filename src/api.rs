@@ -307,7 +307,7 @@ pub fn predict(model: &Model, req: &PredictRequest, config: &Config) -> Result<V
         n_stars,
         branch: None,
         second_order: req.second_order,
-        reheating: req.reheating.clone(),
+        reheating: req.reheating,
         data,
         exact,
     };
@@ -496,7 +496,7 @@ pub fn scan(
             .map_err(|e| ApiError::from(e.diagnostic()))?
     };
     let max = config.limits.max_scan_points;
-    if !total_points(&axes).is_some_and(|n| n <= max) {
+    if total_points(&axes).is_none_or(|n| n > max) {
         return Err(Diagnostic::new(format!(
             "the grid has more than {max} points (config::Limits::max_scan_points)"
         ))
