@@ -17,7 +17,11 @@ fn main() {
 
 fn model(name: &str) -> Model {
     let path = format!("{}/models/{name}.toml", env!("CARGO_MANIFEST_DIR"));
-    Model::build(&ModelSpec::load(std::path::Path::new(&path)).unwrap(), &Config::default()).unwrap()
+    Model::build(
+        &ModelSpec::load(std::path::Path::new(&path)).unwrap(),
+        &Config::default(),
+    )
+    .unwrap()
 }
 
 /// Clone the built model, rebind `alpha` (alternating between two values, so that nothing is
@@ -32,7 +36,7 @@ fn rebind_and_predict(b: Bencher) {
     let mut i = 0u64;
     b.bench_local(|| {
         i += 1;
-        let alpha = if i % 2 == 0 { 0.9 } else { 1.1 };
+        let alpha = if i.is_multiple_of(2) { 0.9 } else { 1.1 };
         let config = Config::default();
         let mut m = black_box(&base).clone();
         m.rebind(&[("alpha", alpha)], &config).unwrap();

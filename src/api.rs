@@ -178,7 +178,11 @@ pub fn reheating(
     let check = |name: &str, v: f64, ok: bool, what: &str| -> Result<(), ApiError> {
         match ok && v.is_finite() {
             true => Ok(()),
-            false => Err(ApiError::option(name, &numfmt::typed(v), Diagnostic::new(what.to_string()))),
+            false => Err(ApiError::option(
+                name,
+                &numfmt::typed(v),
+                Diagnostic::new(what.to_string()),
+            )),
         }
     };
     let g_star = g_star.unwrap_or(DEFAULT_G_STAR);
@@ -197,7 +201,12 @@ pub fn reheating(
         )?;
     }
     if let Some(t) = temp_gev {
-        check("temp", t, t > 0.0, "the reheating temperature must be a finite number of GeV above 0")?;
+        check(
+            "temp",
+            t,
+            t > 0.0,
+            "the reheating temperature must be a finite number of GeV above 0",
+        )?;
     }
     if let Some(n) = efolds {
         check(
@@ -209,7 +218,11 @@ pub fn reheating(
     }
     match (instant, w, temp_gev, efolds) {
         (true, None, None, None) => Ok(Reheating::Instant { g_star }),
-        (false, Some(w), Some(t), None) => Ok(Reheating::Temperature { w, t_reh_gev: t, g_star }),
+        (false, Some(w), Some(t), None) => Ok(Reheating::Temperature {
+            w,
+            t_reh_gev: t,
+            g_star,
+        }),
         (false, Some(w), None, Some(n)) => Ok(Reheating::Efolds { w, n_reh: n, g_star }),
         _ => Err(Diagnostic::new("incomplete or conflicting reheating options")
             .with_hint("`instant`, or `w` with one of `temp` (GeV) and `efolds`")
@@ -327,10 +340,7 @@ fn predict_several_fields(
     data: &DataSet,
     config: &Config,
 ) -> Result<Value, ApiError> {
-    let refused = [
-        (req.second_order, "second_order"),
-        (req.reheating.is_some(), "reheat"),
-    ];
+    let refused = [(req.second_order, "second_order"), (req.reheating.is_some(), "reheat")];
     if let Some((_, option)) = refused.iter().find(|(given, _)| *given) {
         return Err(Diagnostic::new(format!(
             "{option} is an option of one-field models; the model `{}` has {} fields",
@@ -477,9 +487,11 @@ pub fn scan(
     config: &Config,
 ) -> Result<Vec<JsonRow>, ApiError> {
     if vary.is_empty() || vary.len() > 2 {
-        return Err(Diagnostic::new(format!("{} parameters varied; a scan varies one or two", vary.len()))
-            .with_hint("give vary one or two names")
-            .into());
+        return Err(
+            Diagnostic::new(format!("{} parameters varied; a scan varies one or two", vary.len()))
+                .with_hint("give vary one or two names")
+                .into(),
+        );
     }
     let n_stars = n_stars(efolds, model, config)?;
     let limit = config.limits.max_axis_points;
@@ -571,13 +583,25 @@ pub fn columns<'a>(rows: impl IntoIterator<Item = &'a [(String, Value)]> + Clone
                 .into_iter()
                 .map(|row| row.iter().find(|(k, _)| *k == key).map(|(_, v)| v))
                 .collect();
-            let numeric = cells.iter().all(|c| matches!(c, None | Some(Value::Null | Value::Number(_))))
+            let numeric = cells
+                .iter()
+                .all(|c| matches!(c, None | Some(Value::Null | Value::Number(_))))
                 && cells.iter().any(|c| matches!(c, Some(Value::Number(_))));
             let integers = cells.iter().all(|c| c.is_some_and(Value::is_i64));
             let column = if integers {
-                Column::Integers(cells.iter().map(|c| c.and_then(Value::as_i64).unwrap_or_default()).collect())
+                Column::Integers(
+                    cells
+                        .iter()
+                        .map(|c| c.and_then(Value::as_i64).unwrap_or_default())
+                        .collect(),
+                )
             } else if numeric {
-                Column::Numbers(cells.iter().map(|c| c.and_then(Value::as_f64).unwrap_or(f64::NAN)).collect())
+                Column::Numbers(
+                    cells
+                        .iter()
+                        .map(|c| c.and_then(Value::as_f64).unwrap_or(f64::NAN))
+                        .collect(),
+                )
             } else {
                 Column::Texts(
                     cells

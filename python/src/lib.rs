@@ -14,11 +14,36 @@ use pyo3::types::{PyBool, PyBytes, PyDict, PyList, PyString};
 use serde_json::Value;
 use std::path::PathBuf;
 
-create_exception!(efold, Error, PyValueError, "An error of efold; the message is its diagnostic.");
-create_exception!(efold, ExpressionError, Error, "An expression that does not parse or names what is not in scope.");
-create_exception!(efold, ModelError, Error, "A model (or data) file or its parts are invalid.");
-create_exception!(efold, AnalysisError, Error, "An analysis failed: no end of inflation, too few e-folds, ...");
-create_exception!(efold, InputError, Error, "An option's value is outside its range or conflicts with another.");
+create_exception!(
+    efold,
+    Error,
+    PyValueError,
+    "An error of efold; the message is its diagnostic."
+);
+create_exception!(
+    efold,
+    ExpressionError,
+    Error,
+    "An expression that does not parse or names what is not in scope."
+);
+create_exception!(
+    efold,
+    ModelError,
+    Error,
+    "A model (or data) file or its parts are invalid."
+);
+create_exception!(
+    efold,
+    AnalysisError,
+    Error,
+    "An analysis failed: no end of inflation, too few e-folds, ..."
+);
+create_exception!(
+    efold,
+    InputError,
+    Error,
+    "An option's value is outside its range or conflicts with another."
+);
 
 /// The library's error as the exception of its stage.
 fn raise(e: ApiError) -> PyErr {
@@ -142,7 +167,11 @@ fn reheating(reheat: Option<&Bound<'_, PyAny>>) -> PyResult<Option<efold::reheat
         }
     }
     let get = |k: &str| -> PyResult<Option<f64>> { d.get_item(k)?.map(|v| v.extract()).transpose() };
-    let instant = d.get_item("instant")?.map(|v| v.is_truthy()).transpose()?.unwrap_or(false);
+    let instant = d
+        .get_item("instant")?
+        .map(|v| v.is_truthy())
+        .transpose()?
+        .unwrap_or(false);
     api::reheating(instant, get("w")?, get("temp")?, get("efolds")?, get("g_star")?)
         .map(Some)
         .map_err(raise)
@@ -187,7 +216,9 @@ impl PyModel {
             start: text_pairs(start)?,
             velocity: text_pairs(velocity)?,
             params: text_pairs(params)?,
-            range: range.map(|(lo, hi)| Ok::<_, PyErr>((param_text(&lo)?, param_text(&hi)?))).transpose()?,
+            range: range
+                .map(|(lo, hi)| Ok::<_, PyErr>((param_text(&lo)?, param_text(&hi)?)))
+                .transpose()?,
             efolds,
         };
         let spec = ModelSpec::from_parts(&parts);
@@ -305,7 +336,9 @@ impl PyModel {
 
     /// `efold inspect --format json` as a dict.
     fn inspect<'py>(&self, py: Python<'py>) -> PyResult<Bound<'py, PyAny>> {
-        let v = py.detach(|| api::inspect(&self.inner, &Config::default())).map_err(raise)?;
+        let v = py
+            .detach(|| api::inspect(&self.inner, &Config::default()))
+            .map_err(raise)?;
         to_py(py, &v)
     }
 
@@ -452,7 +485,9 @@ fn eval_expr<'py>(
             let (k, v) = d.iter().next().expect("one entry");
             let name: String = k.extract()?;
             if let Some(f) = field.as_ref().filter(|f| **f != name) {
-                return Err(PyValueError::new_err(format!("at names `{name}`, but the field is `{f}`")));
+                return Err(PyValueError::new_err(format!(
+                    "at names `{name}`, but the field is `{f}`"
+                )));
             }
             (name, v.extract::<f64>()?)
         }

@@ -1,11 +1,11 @@
 //! `eval` and `compile`: an expression's value and derivatives at points, and the compiler's views.
 
+use crate::api::Evaluated;
 use crate::cli::args::{CompileArgs, Emit, EvalArgs, Format};
 use crate::cli::check::{bind_params, check_count, check_field_name, constant_expr, split_binding};
 use crate::cli::Failure;
 use crate::config::Config;
 use crate::diag::Diagnostic;
-use crate::api::Evaluated;
 use crate::language::compile::compile;
 use crate::language::ir::{Func, Scope, CONSTANTS};
 use crate::language::tape::MAX_ORDER;
@@ -47,8 +47,7 @@ pub(crate) fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     let scope = Scope::new(&field, &refs);
     let x = constant_expr("--at", at_text, &scope, &values, config)?;
     let params: Vec<(String, f64)> = names.into_iter().zip(values).collect();
-    let e = crate::api::eval(&a.expr, &field, x, &params, a.order, config)
-        .map_err(|e| Failure::input(e.message))?;
+    let e = crate::api::eval(&a.expr, &field, x, &params, a.order, config).map_err(|e| Failure::input(e.message))?;
     Ok(match a.format {
         Format::Json => format!(
             "{}\n",
