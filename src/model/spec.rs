@@ -464,11 +464,11 @@ impl ModelSpec {
     /// use efold::model::{Model, ModelParts, ModelSpec};
     /// let parts = ModelParts {
     ///     potential: "m^2 * phi^2 / 2".into(),
-    ///     params: vec![("m".into(), "1e-5".into())],
+    ///     params: vec![("m".into(), "0.5".into())],
     ///     ..ModelParts::default()
     /// };
     /// let model = Model::build(&ModelSpec::from_parts(&parts), &Config::default())?;
-    /// assert_eq!(model.evaluator().eval(2.0), 2e-10);
+    /// assert_eq!(model.evaluator().eval(2.0), 0.5);
     /// # Ok::<(), efold::model::ModelError>(())
     /// ```
     pub fn from_parts(p: &ModelParts) -> ModelSpec {
