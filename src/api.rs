@@ -350,7 +350,7 @@ fn predict_several_fields(
         .with_hint("a model of several fields starts where its [start] table says, and is predicted on the exact route with delta-N beside it (or by delta-N alone with method delta-n)")
         .into());
     }
-    let mut space = ModelFieldSpace::new(model).expect("a model of several fields has a field space");
+    let mut space = field_space(model)?;
     let (start, velocity) = space.start()?;
     let extras_of = |fields: &mut dyn Iterator<Item = (&[f64], &[f64])>| -> Result<Vec<PivotExtras>, ApiError> {
         Ok(fields
@@ -379,6 +379,22 @@ fn predict_several_fields(
         crate::report::multi::json_with(&model.spec.name, &rep, &extras, data.a_s())
     };
     Ok(serde_json::from_str(&text).expect("the report's own JSON"))
+}
+
+/// The field space of a model of several fields; a model compiled without its geometry is an
+/// error rather than a panic.
+fn field_space(model: &Model) -> Result<ModelFieldSpace<'_>, ApiError> {
+    ModelFieldSpace::new(model).ok_or_else(|| {
+        ApiError::new(
+            Stage::Model,
+            Diagnostic::new(format!(
+                "the model `{}` compiled without its field-space geometry",
+                model.spec.name
+            ))
+            .with_hint("write the model with `fields = [...]`, a [metric] table and a [start] table")
+            .render(None),
+        )
+    })
 }
 
 /// `efold inspect --format json` of `model`.
@@ -411,7 +427,7 @@ pub fn spectrum(model: &Model, k_mpc: &[f64], n_star: f64, data: &DataSet, confi
     let k_star = data.pivot.k_mpc;
     let (k_min, k_max) = (k_mpc[0], k_mpc[k_mpc.len() - 1]);
     if model.n_fields() > 1 {
-        let mut space = ModelFieldSpace::new(model).expect("a model of several fields has a field space");
+        let mut space = field_space(model)?;
         let (start, velocity) = space.start()?;
         let req = MultiSpectrumRequest {
             start: &start,
@@ -725,4 +741,72 @@ pub fn eval(
         derivatives,
         warnings,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{ModelParts, ModelSpec};
+    use serde_json::json;
+
+    fn row(cells: &[(&str, Value)]) -> Vec<(String, Value)> {
+        cells.iter().map(|(k, v)| (k.to_string(), v.clone())).collect()
+    }
+
+    #[test]
+    fn columns_take_the_fullest_row_s_keys_and_type_each_column() {
+        let failed = row(&[("point", json!(0)), ("n_star", json!(50.0)), ("error", json!("no end"))]);
+        let full = row(&[
+            ("point", json!(1)),
+            ("n_star", json!(50.0)),
+            ("n_s", json!(0.96)),
+            ("verdict", json!("consistent")),
+            ("error", Value::Null),
+        ]);
+        let rows = [failed, full];
+        let cols = columns(rows.iter().map(Vec::as_slice));
+        let keys: Vec<&str> = cols.iter().map(|(k, _)| k.as_str()).collect();
+        assert_eq!(keys, ["point", "n_star", "n_s", "verdict", "error"]);
+        assert_eq!(cols[0].1, Column::Integers(vec![0, 1]));
+        assert_eq!(cols[1].1, Column::Numbers(vec![50.0, 50.0]));
+        let Column::Numbers(n_s) = &cols[2].1 else {
+            panic!("n_s is numeric")
+        };
+        assert!(n_s[0].is_nan() && n_s[1] == 0.96);
+        assert_eq!(cols[3].1, Column::Texts(vec![None, Some("consistent".into())]));
+        assert_eq!(cols[4].1, Column::Texts(vec![Some("no end".into()), None]));
+    }
+
+    #[test]
+    fn an_unknown_method_is_drawn_with_a_caret_under_it() {
+        let e = Route::from_name("fast").unwrap_err();
+        assert_eq!(e.stage, Stage::Input);
+        let lines: Vec<&str> = e.message.lines().collect();
+        assert_eq!(lines[0], "error: unknown method `fast`");
+        assert!(lines[2].ends_with("method = fast"), "{}", e.message);
+        assert_eq!(lines[3].find('^'), lines[2].find("fast"));
+    }
+
+    #[test]
+    fn errors_of_a_model_from_strings_are_sorted_by_stage() {
+        let build = |parts: ModelParts| Model::build(&ModelSpec::from_parts(&parts), &Config::default());
+        let e = ApiError::from(
+            build(ModelParts {
+                potential: "phi^2 +".into(),
+                ..ModelParts::default()
+            })
+            .unwrap_err(),
+        );
+        assert_eq!(e.stage, Stage::Expression);
+        assert!(e.message.contains("--> potential:1:"), "{}", e.message);
+        let e = ApiError::from(
+            build(ModelParts {
+                potential: "phi^2".into(),
+                fields: vec!["x".into(), "y".into()],
+                ..ModelParts::default()
+            })
+            .unwrap_err(),
+        );
+        assert_eq!(e.stage, Stage::Model, "{}", e.message);
+    }
 }
