@@ -29,9 +29,9 @@ use crate::drivers::scan_multi::{self, MultiScanJob};
 use crate::drivers::spectrum::{spectrum as spectrum_one, start_background};
 use crate::drivers::spectrum_multi::{spectrum_multi, MultiSpectrumRequest};
 use crate::language::compile::{compile, ExprError};
-use crate::language::ir::Scope;
+use crate::language::ir::{Func, Scope};
 use crate::language::tape::MAX_ORDER;
-use crate::model::{Model, ModelError};
+use crate::model::{Model, ModelError, ModelParts, ModelSpec};
 use crate::report::numfmt;
 use crate::report::scan::JsonRow;
 use serde_json::Value;
@@ -115,6 +115,32 @@ impl From<Diagnostic> for ApiError {
     fn from(d: Diagnostic) -> ApiError {
         ApiError::new(Stage::Input, d.render(None))
     }
+}
+
+/// A model from strings ([`ModelParts`]): the field names checked first (each a valid name, and
+/// not the language's own: a function, `pow`, `pi`), as `--field` is, then built as a model file
+/// is ([`Model::build`]).
+pub fn build_model(parts: &ModelParts, config: &Config) -> Result<Model, ApiError> {
+    let names = parts
+        .field
+        .iter()
+        .map(|f| ("field", f))
+        .chain(parts.fields.iter().map(|f| ("fields", f)));
+    for (option, name) in names {
+        let valid = name.chars().next().is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+            && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_');
+        let reserved = name == "pi" || name == "pow" || Func::from_name(name).is_some();
+        let d = match (valid, reserved) {
+            (false, _) => Diagnostic::new(format!("`{name}` is not a valid name for a field"))
+                .with_hint("a name is a letter or `_`, then letters, digits or `_`"),
+            (true, true) => Diagnostic::new(format!("`{name}` is a built-in name")).with_hint(
+                "choose another name: the functions (exp, sqrt, ...), `pow` and `pi` are the language's own",
+            ),
+            (true, false) => continue,
+        };
+        return Err(ApiError::option(option, name, d));
+    }
+    Ok(Model::build(&ModelSpec::from_parts(parts), config)?)
 }
 
 /// Which route `predict` takes.
@@ -746,7 +772,6 @@ pub fn eval(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::model::{ModelParts, ModelSpec};
     use serde_json::json;
 
     fn row(cells: &[(&str, Value)]) -> Vec<(String, Value)> {
@@ -785,6 +810,21 @@ mod tests {
         assert_eq!(lines[0], "error: unknown method `fast`");
         assert!(lines[2].ends_with("method = fast"), "{}", e.message);
         assert_eq!(lines[3].find('^'), lines[2].find("fast"));
+    }
+
+    #[test]
+    fn a_field_named_as_a_built_in_or_not_a_name_is_refused() {
+        for (field, message) in [("pi", "`pi` is a built-in name"), ("2x", "`2x` is not a valid name")] {
+            let parts = ModelParts {
+                potential: "1".into(),
+                field: Some(field.into()),
+                ..ModelParts::default()
+            };
+            let e = build_model(&parts, &Config::default()).unwrap_err();
+            assert_eq!(e.stage, Stage::Input);
+            assert!(e.message.contains(message), "{}", e.message);
+            assert!(e.message.contains(&format!("field = {field}")), "{}", e.message);
+        }
     }
 
     #[test]

@@ -221,10 +221,9 @@ impl PyModel {
                 .transpose()?,
             efolds,
         };
-        let spec = ModelSpec::from_parts(&parts);
-        let model = py.detach(|| Model::build(&spec, &Config::default()));
+        let model = py.detach(|| api::build_model(&parts, &Config::default()));
         Ok(PyModel {
-            inner: model.map_err(|e| raise(e.into()))?,
+            inner: model.map_err(raise)?,
         })
     }
 

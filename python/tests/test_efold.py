@@ -21,7 +21,7 @@ SEVERAL = sorted((ROOT / "models" / "several-fields").glob("*.toml"))
 
 @pytest.fixture(scope="session")
 def binary():
-    path = pathlib.Path(os.environ.get("EFOLD_BIN", ROOT / "target" / "release" / "efold"))
+    path = pathlib.Path(os.environ.get("EFOLD_BIN", ROOT / "target" / "release" / "efold")).resolve()
     if not path.exists():
         subprocess.run(["cargo", "build", "--release", "--locked", "--bin", "efold"], cwd=ROOT, check=True)
     return str(path)
@@ -310,6 +310,14 @@ def test_an_inline_expression_error_points_into_the_expression():
     assert carets.index("^") == source.index("tanhh") and carets.count("^") == len("tanhh")
     with pytest.raises(efold.ExpressionError, match="params.alpha"):
         efold.Model(potential="alpha*phi^2", params={"alpha": "1/(2"})
+
+
+def test_a_bad_field_name_is_refused_with_a_caret():
+    with pytest.raises(efold.InputError) as e:
+        efold.Model(potential="1", field="pi")
+    assert "`pi` is a built-in name" in str(e.value) and "^^" in str(e.value)
+    with pytest.raises(efold.InputError, match="not a valid name"):
+        efold.Model(potential="x^2", fields=["x", "2y"], metric={"x": 1}, start={"x": 1})
 
 
 def test_an_analysis_error_is_the_command_s_diagnostic(binary):
