@@ -15,6 +15,8 @@
 //! 5. [`report`]: numbers, text, figures and files (the one number formatter and the atomic
 //!    writer).
 //! 6. [`cli`]: arguments → drivers → reports; the binary is `cli::run` and an exit code.
+//!    Beside it, [`api`]: the same commands for programs (the Python module), a built model
+//!    and plain options in, the commands' JSON values out, errors sorted by stage.
 //!
 //! [`numerics`] (quadrature, roots, ODE) serves every stage; [`config`] holds every limit and
 //! tolerance; errors of every stage become a [`diag::Diagnostic`], drawn by one renderer.
@@ -28,6 +30,7 @@
 extern crate alloc;
 
 pub mod analysis;
+pub mod api;
 pub mod cli;
 pub mod config;
 pub mod data;

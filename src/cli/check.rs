@@ -4,7 +4,6 @@
 use super::args::{Method, PredictArgs};
 use super::Failure;
 use crate::analysis::background::Settings;
-use crate::analysis::perturbations::TILT_STEP;
 use crate::analysis::reheating::Reheating;
 use crate::config::{Config, MAX_REHEAT_EFOLDS, MIN_EFOLDS};
 use crate::diag::{Diagnostic, Source, Span};
@@ -354,7 +353,7 @@ pub(crate) fn check_predict_flags(a: &PredictArgs) -> Result<(), Failure> {
 /// the defaults 14.31; every shipped model integrates at that N_*, the quartic monomial not
 /// below 13).
 pub(crate) fn min_exact_efolds(settings: &Settings) -> f64 {
-    (1.0 / settings.k_stop).ln() + 2.0 * TILT_STEP + 1.0 + 4.0
+    crate::api::min_exact_efolds(settings)
 }
 
 /// Whether N_* comes from `--efolds` or the model (not from reheating, which is checked

@@ -13,6 +13,9 @@ pub struct ModelError {
     pub diagnostic: Box<Diagnostic>,
     /// The text its span points into: (name, text, offset).
     pub source: Option<(String, String, usize)>,
+    /// Whether the error is one of an expression of the model (a syntax error, an unknown
+    /// name) rather than of the model's structure; programs that sort errors by stage read it.
+    pub from_expression: bool,
 }
 
 impl ModelError {
@@ -20,6 +23,7 @@ impl ModelError {
         ModelError {
             diagnostic: Box::new(d),
             source: None,
+            from_expression: false,
         }
     }
 
@@ -27,6 +31,7 @@ impl ModelError {
         ModelError {
             diagnostic: Box::new(d),
             source: Some((name.to_string(), text.to_string(), 0)),
+            from_expression: false,
         }
     }
 
@@ -37,10 +42,12 @@ impl ModelError {
             Some(file) => ModelError {
                 diagnostic: Box::new(d),
                 source: Some((origin.name.clone(), file.to_string(), origin.offset)),
+                from_expression: true,
             },
             None => ModelError {
                 diagnostic: Box::new(d),
                 source: Some((e.origin.clone(), e.text.clone(), 0)),
+                from_expression: true,
             },
         }
     }

@@ -28,10 +28,12 @@ pub(super) fn error_in(t: &Text, span: Span, d: Diagnostic, label: &str) -> Mode
         Some(file) => ModelError {
             diagnostic: Box::new(d),
             source: Some((t.origin.name.clone(), file.to_string(), t.origin.offset)),
+            from_expression: false,
         },
         None => ModelError {
             diagnostic: Box::new(d),
             source: Some((t.origin.name.clone(), t.text.clone(), 0)),
+            from_expression: false,
         },
     }
 }

@@ -61,4 +61,4 @@ pub use layout::{Layout, MetricShape};
 pub use metric::{Metric, MetricError, MetricValue};
 pub use params::{ConstantError, ParamTable};
 pub(crate) use spec::toml_message;
-pub use spec::{FieldValue, MetricEntry, ModelSpec, Origin, ParamSpec, Side, Text};
+pub use spec::{FieldValue, MetricEntry, ModelParts, ModelSpec, Origin, ParamSpec, Side, Text};

@@ -85,6 +85,34 @@ pub struct FieldValue {
     pub value: Text,
 }
 
+/// A model as a program gives it, every part a string ([`ModelSpec::from_parts`]): what a
+/// model file holds, without the file.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ModelParts {
+    /// A name (default `inline`).
+    pub name: Option<String>,
+    /// V, an expression of the field(s) and parameters.
+    pub potential: String,
+    /// K of one field (default `1`); a model of several fields gives `metric` instead.
+    pub kinetic: Option<String>,
+    /// The one field's name (default `phi`, or the first of `fields`).
+    pub field: Option<String>,
+    /// The fields of a model of several fields, in order (empty: one field).
+    pub fields: Vec<String>,
+    /// The metric's components: `x` for G_xx, `x y` for G_xy.
+    pub metric: Vec<(String, String)>,
+    /// The start of a model of several fields, one expression per field.
+    pub start: Vec<(String, String)>,
+    /// The start velocity dphi^a/dN, per field (empty: the slow-roll attractor).
+    pub velocity: Vec<(String, String)>,
+    /// Parameters in order, each an expression of numbers, `pi` and earlier parameters.
+    pub params: Vec<(String, String)>,
+    /// The field interval, two expressions (`-inf`, `inf` allowed).
+    pub range: Option<(String, String)>,
+    /// Default N_* values.
+    pub efolds: Option<Vec<f64>>,
+}
+
 /// A model as written: plain data, not yet compiled.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct ModelSpec {
@@ -421,6 +449,78 @@ impl ModelSpec {
             potential: Text::inline("--potential", potential),
             kinetic: Text::inline("--kinetic", kinetic.unwrap_or("1")),
             ..ModelSpec::default()
+        }
+    }
+
+    /// A model given by a program as strings ([`ModelParts`]), without a file: each expression's
+    /// errors point into the expression itself, under the name of its part (`potential`,
+    /// `kinetic`, `params.alpha`, `metric.x y`, `start.x`, `range`). With `fields` it is a model
+    /// of several fields (its `metric` and `start` as in a model file), otherwise one field
+    /// (`field`, default `phi`, and `kinetic`, default `1`). It is checked when built
+    /// ([`crate::model::Model::build`]), as a file's spec is.
+    ///
+    /// ```
+    /// use efold::config::Config;
+    /// use efold::model::{Model, ModelParts, ModelSpec};
+    /// let parts = ModelParts {
+    ///     potential: "m^2 * phi^2 / 2".into(),
+    ///     params: vec![("m".into(), "0.5".into())],
+    ///     ..ModelParts::default()
+    /// };
+    /// let model = Model::build(&ModelSpec::from_parts(&parts), &Config::default())?;
+    /// assert_eq!(model.evaluator().eval(2.0), 0.5);
+    /// # Ok::<(), efold::model::ModelError>(())
+    /// ```
+    pub fn from_parts(p: &ModelParts) -> ModelSpec {
+        let value = |name: &str, text: &str| Text::inline(name, text);
+        let field_values = |table: &str, entries: &[(String, String)]| -> Vec<FieldValue> {
+            entries
+                .iter()
+                .map(|(k, v)| FieldValue {
+                    name: value(&format!("{table}.{k}"), k),
+                    value: value(&format!("{table}.{k}"), v),
+                })
+                .collect()
+        };
+        ModelSpec {
+            name: p.name.clone().unwrap_or_else(|| "inline".to_string()),
+            description: String::new(),
+            field: p
+                .field
+                .clone()
+                .or_else(|| p.fields.first().cloned())
+                .unwrap_or_else(|| "phi".to_string()),
+            potential: value("potential", &p.potential),
+            kinetic: match &p.kinetic {
+                Some(k) => value("kinetic", k),
+                None => value("kinetic (default)", "1"),
+            },
+            params: p
+                .params
+                .iter()
+                .map(|(n, v)| ParamSpec {
+                    name: n.clone(),
+                    value: value(&format!("params.{n}"), v),
+                    scan: None,
+                })
+                .collect(),
+            range: p
+                .range
+                .as_ref()
+                .map(|(lo, hi)| (value("range[0]", lo), value("range[1]", hi))),
+            start: None,
+            efolds: p.efolds.clone(),
+            fields: p.fields.iter().map(|f| value("fields", f)).collect(),
+            metric: p
+                .metric
+                .iter()
+                .map(|(k, v)| MetricEntry {
+                    key: value(&format!("metric.{k}"), k),
+                    value: value(&format!("metric.{k}"), v),
+                })
+                .collect(),
+            start_point: field_values("start", &p.start),
+            start_velocity: field_values("start.velocity", &p.velocity),
         }
     }
 

@@ -1,11 +1,12 @@
 //! `eval` and `compile`: an expression's value and derivatives at points, and the compiler's views.
 
+use crate::api::Evaluated;
 use crate::cli::args::{CompileArgs, Emit, EvalArgs, Format};
 use crate::cli::check::{bind_params, check_count, check_field_name, constant_expr, split_binding};
 use crate::cli::Failure;
 use crate::config::Config;
 use crate::diag::Diagnostic;
-use crate::language::compile::{compile, Compiled};
+use crate::language::compile::compile;
 use crate::language::ir::{Func, Scope, CONSTANTS};
 use crate::language::tape::MAX_ORDER;
 use crate::report::numfmt;
@@ -14,17 +15,7 @@ use std::fmt::Write as _;
 /// Significant digits of `eval`'s text output (a value checked by hand wants more than a table).
 pub(crate) const EVAL_DIGITS: usize = 10;
 
-/// What `eval` computed: the point, the parameters, the value and its derivatives.
-struct Evaluated {
-    field: String,
-    x: f64,
-    names: Vec<String>,
-    values: Vec<f64>,
-    derivs: Vec<f64>,
-    warnings: Vec<String>,
-}
-
-/// `efold eval`: the expression and its derivatives at one point.
+/// `efold eval`: the expression and its derivatives at one point ([`crate::api::eval`]).
 pub(crate) fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     if a.order > MAX_ORDER {
         return Err(Diagnostic::new(format!(
@@ -55,77 +46,15 @@ pub(crate) fn eval(a: &EvalArgs, config: &Config) -> Result<String, Failure> {
     }
     let scope = Scope::new(&field, &refs);
     let x = constant_expr("--at", at_text, &scope, &values, config)?;
-    let c = compile(&[("expression", &a.expr)], &scope, &config.limits)?;
-    let derivs = c.tape.evaluator(&values).derivatives(x, a.order);
-    let mut warnings = Vec::new();
-    if c.tape.has_abs() && a.order > 0 {
-        warnings.push(
-            "`abs` is not differentiable where its argument is zero; derivatives there are undefined".to_string(),
-        );
-    }
-    let e = Evaluated {
-        field,
-        x,
-        names,
-        values,
-        derivs,
-        warnings,
-    };
-    check_finite(&c, &e)?;
+    let params: Vec<(String, f64)> = names.into_iter().zip(values).collect();
+    let e = crate::api::eval(&a.expr, &field, x, &params, a.order, config).map_err(|e| Failure::input(e.message))?;
     Ok(match a.format {
-        Format::Json => eval_json(&a.expr, &e),
+        Format::Json => format!(
+            "{}\n",
+            serde_json::to_string_pretty(&e.json()).expect("json of plain numbers")
+        ),
         Format::Text => eval_text(&e),
     })
-}
-
-/// A value or derivative that is not finite is an error naming the first subexpression that is
-/// not finite there.
-fn check_finite(c: &Compiled, e: &Evaluated) -> Result<(), Failure> {
-    let Some((k, v)) = e.derivs.iter().enumerate().find(|(_, v)| !v.is_finite()) else {
-        return Ok(());
-    };
-    let what = if k == 0 {
-        "the value".to_string()
-    } else {
-        format!("derivative {k}")
-    };
-    let mut d = Diagnostic::new(format!(
-        "{what} of the expression is {} at {} = {}",
-        numfmt::number(*v),
-        e.field,
-        numfmt::typed(e.x)
-    ));
-    if let Some((id, bad)) = c.graph.first_non_finite(c.roots[0], e.x, &e.values) {
-        d = d.with_hint(format!("`{}` is {bad} there", c.graph.print(id)));
-    } else if c.tape.has_abs() {
-        d = d.with_hint("`abs` has no derivative where its argument is zero");
-    }
-    Err(d
-        .with_hint("check the domain of log, sqrt, asin, acos, acosh, atanh, powers, and divisions by zero")
-        .into())
-}
-
-/// `eval --format json`.
-fn eval_json(expr: &str, e: &Evaluated) -> String {
-    let params: serde_json::Map<String, serde_json::Value> = e
-        .names
-        .iter()
-        .cloned()
-        .zip(e.values.iter().map(|v| serde_json::json!(v)))
-        .collect();
-    let obj = serde_json::json!({
-        "expression": expr,
-        "field": e.field,
-        "at": e.x,
-        "params": params,
-        "value": e.derivs[0],
-        "derivatives": &e.derivs[1..],
-        "warnings": e.warnings,
-    });
-    format!(
-        "{}\n",
-        serde_json::to_string_pretty(&obj).expect("json of plain numbers")
-    )
 }
 
 /// `eval`'s text: the point, then the value and its derivatives as one column.
@@ -136,7 +65,7 @@ fn eval_text(e: &Evaluated) -> String {
     }
     let _ = writeln!(out, "at {} = {}", e.field, numfmt::typed(e.x));
     // The value and its derivatives are one column: one style, decimal points aligned.
-    let cells = numfmt::row(&e.derivs, EVAL_DIGITS);
+    let cells = numfmt::row(&e.derivatives, EVAL_DIGITS);
     for (k, v) in cells.iter().enumerate() {
         let label = match k {
             0 => "value".to_string(),

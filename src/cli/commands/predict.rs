@@ -12,7 +12,7 @@ use crate::cli::check::{
 use crate::cli::files::write_figure;
 use crate::cli::load::{checked_n_stars, load_data, load_model_any};
 use crate::cli::Failure;
-use crate::config::{Config, SLOW_ROLL_WARN_EFOLDS};
+use crate::config::Config;
 use crate::diag::Diagnostic;
 use crate::drivers::inspect::{figure, FigureMarks};
 use crate::drivers::predict::{csv, text, Options, Report};
@@ -60,13 +60,7 @@ pub(crate) fn predict_cmd(a: &PredictArgs, config: &Config) -> Result<String, Fa
     let prep = Prepared::new(&model);
     let mut rep = prep.predict(&opts, config)?;
     if a.method == Method::SlowRoll {
-        let limit = SLOW_ROLL_WARN_EFOLDS;
-        if let Some(p) = rep.predictions.iter().find(|p| p.n_star < limit) {
-            rep.warnings.push(format!(
-                "N_* = {} is below {limit}: slow roll is unreliable so close to the end of inflation (try --method exact)",
-                p.n_star
-            ));
-        }
+        crate::api::warn_slow_roll(&mut rep);
     }
     if a.figure.wanted() {
         write_potential_figure(a, &prep, &rep, config)?;
