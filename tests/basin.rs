@@ -103,9 +103,15 @@ fn from_rest_the_efolds_are_the_slow_roll_ones() {
         let offset = rest - n_star;
         assert!(offset.abs() < 1.0, "N_* = {n_star}: {rest} from rest");
         // the two parts: 1/3 and the end's 0.09
-        assert!((offset - (1.0 / 3.0 + 0.09)).abs() < 0.02, "N_* = {n_star}: offset {offset}");
+        assert!(
+            (offset - (1.0 / 3.0 + 0.09)).abs() < 0.02,
+            "N_* = {n_star}: offset {offset}"
+        );
         let rest1 = b.track(p1.at.phi_star, Velocity::Rest, &lim).unwrap().n_total();
-        assert!((1.8..2.5).contains(&(rest1 - n_star)), "N_* = {n_star}: first order {rest1}");
+        assert!(
+            (1.8..2.5).contains(&(rest1 - n_star)),
+            "N_* = {n_star}: first order {rest1}"
+        );
     }
 }
 

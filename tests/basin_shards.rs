@@ -125,7 +125,14 @@ fn csv_shards_merge_into_the_unsharded_table() {
         .map(|s| if s == "json" { "csv".to_string() } else { s })
         .collect();
     let several: Vec<String> = [
-        "basin", &two, "--sample", "x=0.6:0.95:3", "--sample", "y=2:3:2", "--format", "csv",
+        "basin",
+        &two,
+        "--sample",
+        "x=0.6:0.95:3",
+        "--sample",
+        "y=2:3:2",
+        "--format",
+        "csv",
     ]
     .map(String::from)
     .to_vec();
@@ -165,7 +172,11 @@ fn csv_shards_merge_into_the_unsharded_table() {
     j.extend(["--shard".to_string(), "1/3".to_string()]);
     let jp = csv_tmp("mixed1.json");
     std::fs::write(&jp, run(&j)).unwrap();
-    let r = efold(&["basin-merge", &jp.display().to_string(), &csv_tmp("one-shard2.csv").display().to_string()]);
+    let r = efold(&[
+        "basin-merge",
+        &jp.display().to_string(),
+        &csv_tmp("one-shard2.csv").display().to_string(),
+    ]);
     assert_eq!(r.code, 2);
     assert!(r.stderr.contains("mixed"), "{}", r.stderr);
     std::fs::remove_dir_all(csv_tmp("x").parent().unwrap()).ok();

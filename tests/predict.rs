@@ -438,15 +438,22 @@ fn pole_of_order_4_leading_order() {
 /// within 0.26 e-fold of N_* on both models, the first-order one 1.0 to 1.7 e-folds away.
 #[test]
 fn second_order_places_the_pivot_by_the_second_order_efolds() {
-    let refs: serde_json::Value =
-        serde_json::from_str(include_str!("reference/efolds_second_order.json")).unwrap();
+    let refs: serde_json::Value = serde_json::from_str(include_str!("reference/efolds_second_order.json")).unwrap();
     let cases = [
-        ("plateau", model("(1 - exp(-sqrt(2/3)*phi))^2", "1", &[], Some(("0", "inf")))),
+        (
+            "plateau",
+            model("(1 - exp(-sqrt(2/3)*phi))^2", "1", &[], Some(("0", "inf"))),
+        ),
         ("quadratic", model("phi^2", "1", &[], Some(("0", "inf")))),
     ];
     for (name, m) in &cases {
         let r = &refs[*name];
-        let n: Vec<f64> = r["cases"].as_array().unwrap().iter().map(|c| c["n_star"].as_f64().unwrap()).collect();
+        let n: Vec<f64> = r["cases"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|c| c["n_star"].as_f64().unwrap())
+            .collect();
         let mut opts = Options {
             n_stars: n.clone(),
             branch: None,
@@ -460,8 +467,18 @@ fn second_order_places_the_pivot_by_the_second_order_efolds() {
         let first = predict(m, &opts, &Config::default()).unwrap();
         for (i, c) in r["cases"].as_array().unwrap().iter().enumerate() {
             let (p2, p1) = (second.predictions[i].at.phi_star, first.predictions[i].at.phi_star);
-            close(p2, c["phi_star_second"].as_f64().unwrap(), 1e-10, &format!("{name} phi_* second order"));
-            close(p1, c["phi_star_first"].as_f64().unwrap(), 1e-10, &format!("{name} phi_* first order"));
+            close(
+                p2,
+                c["phi_star_second"].as_f64().unwrap(),
+                1e-10,
+                &format!("{name} phi_* second order"),
+            );
+            close(
+                p1,
+                c["phi_star_first"].as_f64().unwrap(),
+                1e-10,
+                &format!("{name} phi_* first order"),
+            );
             // the exact e-folds from each pivot (the script's background), as documented above
             let n_star = c["n_star"].as_f64().unwrap();
             assert!((c["exact_efolds_from_second"].as_f64().unwrap() - n_star).abs() < 0.26);

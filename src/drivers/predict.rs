@@ -871,9 +871,16 @@ impl Job<'_> {
         let v_end_user = ev.eval(phi_end);
         let mut n = 55.0;
         for _ in 0..60 {
-            let phi =
-                crate::analysis::slowroll::phi_stars_of_order(ev, b, phi_end, &[n], self.config, self.field, self.order())?
-                    .0[0];
+            let phi = crate::analysis::slowroll::phi_stars_of_order(
+                ev,
+                b,
+                phi_end,
+                &[n],
+                self.config,
+                self.field,
+                self.order(),
+            )?
+            .0[0];
             let sr = SlowRoll::at(ev, phi);
             // potential_scale(a_s_first_order(..)) in the order of operations the pinned
             // N_* of every reheating history was computed with.

@@ -375,7 +375,9 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
     let err = |m: String| MergeError(m);
     let csv_count = texts.iter().filter(|(_, t)| t.starts_with(CSV_SHARD_MARK)).count();
     if csv_count > 0 && csv_count < texts.len() {
-        return Err(err("CSV and JSON shards are mixed: give the shards of one format".into()));
+        return Err(err(
+            "CSV and JSON shards are mixed: give the shards of one format".into()
+        ));
     }
     let csv = csv_count > 0;
     let mut shards: Vec<(String, Value)> = Vec::new();
@@ -442,7 +444,14 @@ pub fn merge(texts: &[(String, String)]) -> Result<String, MergeError> {
         let first_point = next;
         next = v["shard"]["points"][1].as_u64().unwrap_or(0);
         if csv {
-            rows.push_str(&csv_shard_rows(name, &bodies[name], &names, n_stars.len(), first_point, next)?);
+            rows.push_str(&csv_shard_rows(
+                name,
+                &bodies[name],
+                &names,
+                n_stars.len(),
+                first_point,
+                next,
+            )?);
             continue;
         }
         for p in v["points"].as_array().into_iter().flatten() {
@@ -491,7 +500,9 @@ fn csv_shard_rows(
         return Err(err(format!("`{name}` does not have the header of this run's CSV")));
     };
     if !rows.is_empty() && !rows.ends_with('\n') {
-        return Err(err(format!("`{name}` is cut short: its last row does not end in a newline")));
+        return Err(err(format!(
+            "`{name}` is cut short: its last row does not end in a newline"
+        )));
     }
     let columns = header.split(',').count();
     let mut count = 0u64;
@@ -1021,8 +1032,14 @@ mod tests {
             assert!(off < 2.0 * cell, "{p:?} is {off} from the line");
         }
         // one outcome only: no boundary
-        let same: Vec<BasinPoint> = (0..50).map(|i| point(i, i as f64, (i * 7 % 50) as f64, Outcome::Enough)).collect();
+        let same: Vec<BasinPoint> = (0..50)
+            .map(|i| point(i, i as f64, (i * 7 % 50) as f64, Outcome::Enough))
+            .collect();
         let coords: Vec<(Vec<f64>, &BasinPoint)> = same.iter().map(|p| (p.start.clone(), p)).collect();
-        assert!(scattered_boundaries(&axes, &coords, &shade).unwrap().1.points.is_empty());
+        assert!(scattered_boundaries(&axes, &coords, &shade)
+            .unwrap()
+            .1
+            .points
+            .is_empty());
     }
 }

@@ -102,7 +102,11 @@ impl<'m> SingleFlow<'m> {
             return f64::NAN;
         }
         let (phi, v) = self.last_v.get();
-        let v = if phi == y[0] { v } else { self.ev.borrow_mut().eval(y[0]) };
+        let v = if phi == y[0] {
+            v
+        } else {
+            self.ev.borrow_mut().eval(y[0])
+        };
         let kin = 0.5 * y[1] * y[1];
         3.0 * kin / (kin + v / self.v_scale)
     }
