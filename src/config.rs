@@ -298,6 +298,12 @@ pub struct BasinLimits {
     /// 7e-11 from the values at 1e-10, at half the cost (1e-8 moves N by 1.2e-9 and saves
     /// only 10 % more).
     pub rtol: f64,
+    /// Relative tolerance of the runs after a candidate end (the settling window and the probe
+    /// of a restart). Default 1e-6: those runs only tell whether eps_H stays below 1 for
+    /// `restart_efolds` and where the field heads for its minimum, and N_total and the pivots
+    /// lie before them; the oscillations cost a third of a start's steps at `rtol`. A restart
+    /// goes on at `rtol` from the state so reached.
+    pub settle_rtol: f64,
     /// Largest step in e-folds. Default 2: slow roll is smooth over many e-folds, and the
     /// step control shortens the steps of kinetic domination and oscillations.
     pub h_max: f64,
@@ -318,6 +324,7 @@ impl Default for BasinLimits {
             settle_efolds: 1.0,
             restart_efolds: 1.0,
             rtol: 1e-9,
+            settle_rtol: 1e-6,
             h_max: 2.0,
             max_starts: 10_000_000,
             delta_n_rtol: 1e-9,

@@ -144,6 +144,9 @@ pub trait Flowing {
     fn segment(&mut self, t0: f64, y0: &[f64], t_end: f64, inflating: bool) -> Result<Segment, Stop>;
     /// The state at N (within the run), from the nearest checkpoint below.
     fn state_at(&mut self, n: f64) -> Result<Vec<f64>, AnalysisError>;
+    /// Runs the segments that follow at [`BasinLimits::settle_rtol`] (`true`) or at
+    /// [`BasinLimits::rtol`] (`false`, the state of a new run).
+    fn settling(&mut self, on: bool);
 }
 
 /// What the e-fold rule finds along one run (module docs).
@@ -188,6 +191,7 @@ struct Cursor {
 
 /// Follows a run from `y0` by the e-fold rule (module docs).
 pub fn track(f: &mut dyn Flowing, y0: &[f64], lim: &BasinLimits) -> Result<Track, AnalysisError> {
+    f.settling(false);
     let eps0 = f.eps(y0)?;
     let mut inside = eps0 < 1.0;
     let mut c = Cursor {
@@ -232,6 +236,8 @@ pub fn track(f: &mut dyn Flowing, y0: &[f64], lim: &BasinLimits) -> Result<Track
             }),
             (false, Some(n_end)) => settle(f, &mut c, n_end, lim).map(|(s, restarted)| {
                 if restarted {
+                    // the restarted stretch counts: back to the run's tolerance
+                    f.settling(false);
                     inside = true;
                     out.n_end = None;
                 }
@@ -269,6 +275,7 @@ pub fn track(f: &mut dyn Flowing, y0: &[f64], lim: &BasinLimits) -> Result<Track
 /// After a candidate end at `n_end`: runs until `n_end + settle` or a dip below eps_H = 1; a
 /// dip that lasts `restart_efolds` is a restart (true), a shorter one is an oscillation.
 fn settle(f: &mut dyn Flowing, c: &mut Cursor, n_end: f64, lim: &BasinLimits) -> Result<(Segment, bool), Stop> {
+    f.settling(true);
     let until = (n_end + lim.settle_efolds).min(lim.cap_efolds);
     let s = f.segment(c.t, &c.y, until, false)?;
     if !s.crossed {
@@ -389,6 +396,7 @@ mod tests {
         fn state_at(&mut self, n: f64) -> Result<Vec<f64>, AnalysisError> {
             Ok(vec![n])
         }
+        fn settling(&mut self, _: bool) {}
     }
 
     fn run(starts_above: bool, crossings: &[f64]) -> Track {

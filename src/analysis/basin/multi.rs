@@ -39,6 +39,19 @@ pub struct MultiBasin<'m> {
     local: Local,
     /// (N, state) at every accepted step of the current run, ascending.
     checkpoints: Vec<(f64, Vec<f64>)>,
+    /// The tolerances of the run and of settling (`tol` is one of them).
+    fine: Tolerances,
+    coarse: Tolerances,
+}
+
+/// The integrator's tolerances at relative tolerance `rtol`, with the caps of `lim`.
+fn tolerances(lim: &BasinLimits, rtol: f64) -> Tolerances {
+    Tolerances {
+        rtol,
+        atol: vec![1e-3 * rtol],
+        h_max: lim.h_max,
+        max_steps: (lim.cap_efolds / lim.h_max) as usize * 20 + 100_000,
+    }
 }
 
 impl<'m> MultiBasin<'m> {
@@ -50,12 +63,9 @@ impl<'m> MultiBasin<'m> {
         Some(MultiBasin {
             space,
             n,
-            tol: Tolerances {
-                rtol: lim.rtol,
-                atol: vec![1e-3 * lim.rtol],
-                h_max: lim.h_max,
-                max_steps: (lim.cap_efolds / lim.h_max) as usize * 20 + 100_000,
-            },
+            tol: tolerances(lim, lim.rtol),
+            fine: tolerances(lim, lim.rtol),
+            coarse: tolerances(lim, lim.settle_rtol),
             multi,
             v_scale: 1.0,
             local: Local::zeros(n),
@@ -318,13 +328,17 @@ impl Flowing for MultiBasin<'_> {
         }
     }
 
+    fn settling(&mut self, on: bool) {
+        self.tol = if on { self.coarse.clone() } else { self.fine.clone() };
+    }
+
     fn state_at(&mut self, n_at: f64) -> Result<Vec<f64>, AnalysisError> {
         let i = self.checkpoints.partition_point(|c| c.0 <= n_at).saturating_sub(1);
         let (n0, y0) = self.checkpoints[i].clone();
         if n0 == n_at {
             return Ok(y0);
         }
-        let tol = self.tol.clone();
+        let tol = self.fine.clone();
         let end = integrate(
             &mut |_: f64, y: &[f64], dy: &mut [f64]| self.rhs(y, dy),
             n0,

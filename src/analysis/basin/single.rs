@@ -34,6 +34,10 @@ pub struct SingleFlow<'m> {
     /// V_s.
     v_scale: f64,
     opts: Options,
+    /// The tolerances of the run ([`BasinLimits::rtol`]) and of settling
+    /// ([`BasinLimits::settle_rtol`]).
+    fine: Options,
+    coarse: Options,
     /// (N, state) at every accepted step of the current run, ascending.
     checkpoints: Vec<(f64, State)>,
     /// (phi, V) of the last right-hand side: the integrator's last stage is at the new
@@ -44,7 +48,15 @@ pub struct SingleFlow<'m> {
 impl<'m> SingleFlow<'m> {
     /// For a model and its domain's interval, with the tolerances of `lim`.
     pub fn new(model: &'m Model, iv: Interval, lim: &BasinLimits) -> SingleFlow<'m> {
+        let opts = |rtol: f64| Options {
+            rtol,
+            atol: 1e-3 * rtol,
+            h_max: lim.h_max,
+            max_steps: (lim.cap_efolds / lim.h_max) as usize * 20 + 100_000,
+        };
         SingleFlow {
+            fine: opts(lim.rtol),
+            coarse: opts(lim.settle_rtol),
             ev: RefCell::new(model.evaluator()),
             out: model.layout(),
             iv,
@@ -160,6 +172,10 @@ impl Flowing for SingleFlow<'_> {
         }
     }
 
+    fn settling(&mut self, on: bool) {
+        self.opts = if on { self.coarse } else { self.fine };
+    }
+
     fn state_at(&mut self, n: f64) -> Result<Vec<f64>, AnalysisError> {
         let cps = &self.checkpoints;
         let i = cps.partition_point(|c| c.0 <= n).saturating_sub(1);
@@ -168,7 +184,7 @@ impl Flowing for SingleFlow<'_> {
             return Ok(y0.to_vec());
         }
         let left = Cell::new(None);
-        let sol = integrate(|_, y: &State| self.rhs(y, &left), n0, y0, n, &self.opts, |_, _| None)
+        let sol = integrate(|_, y: &State| self.rhs(y, &left), n0, y0, n, &self.fine, |_, _| None)
             .map_err(|e| AnalysisError::from(ErrorKind::BackgroundIntegration(e)))?;
         Ok(sol.y.to_vec())
     }
