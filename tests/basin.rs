@@ -118,7 +118,7 @@ fn from_rest_the_efolds_are_the_slow_roll_ones() {
 /// From rest and from the attractor: the e-fold rule's n_total is the N of efold's exact
 /// background (analysis::background) from the same state to eps_H = 1, to 1e-6 (two
 /// integrations of one system in different variables: the basin run at relative tolerance
-/// 1e-9, the exact background at its own).
+/// 1e-8, the exact background at its own).
 #[test]
 fn the_total_efolds_are_those_of_the_exact_background() {
     let m = plateau();

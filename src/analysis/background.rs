@@ -46,6 +46,7 @@ impl Default for Settings {
                 atol: 1e-300,
                 h_max: 0.05,
                 max_steps: 500_000,
+                event_tol: 1e-13,
             },
         }
     }

@@ -26,6 +26,8 @@ pub struct Options {
     pub h_max: f64,
     /// Cap on steps. Default 200 000.
     pub max_steps: usize,
+    /// Tolerance of an event's location, relative to the step that holds it. Default 1e-13.
+    pub event_tol: f64,
 }
 
 impl Default for Options {
@@ -35,6 +37,7 @@ impl Default for Options {
             atol: 1e-14,
             h_max: 0.1,
             max_steps: 200_000,
+            event_tol: 1e-13,
         }
     }
 }
@@ -127,7 +130,8 @@ fn step<const D: usize>(
 
 /// Integrates y' = f(t, y) from t0 to t_end (either direction). After each accepted step,
 /// `event(t, y)` may return a value whose sign change from the previous step stops the
-/// integration at the zero, located by Brent's method on single steps (to 1e-13 in t).
+/// integration at the zero, located by Brent's method on single steps (to
+/// `opts.event_tol` of the step in t).
 /// Fails on a non-finite state, a step below rounding, or the step cap.
 pub fn integrate<const D: usize>(
     mut f: impl FnMut(f64, &[f64; D]) -> [f64; D],
@@ -180,7 +184,7 @@ pub fn integrate<const D: usize>(
                         let (ys, _, _) = step(&mut f, t_a, &y_a, &k_a, s);
                         event(t_a + s, &ys).unwrap_or(f64::NAN)
                     };
-                    let r = brent(&mut g_at, 0.0, h, 1e-13 * h.abs().max(1e-300), 200)?;
+                    let r = brent(&mut g_at, 0.0, h, opts.event_tol * h.abs().max(1e-300), 200)?;
                     let (ys, _, _) = step(&mut f, t_a, &y_a, &k_a, r.value);
                     return Ok(Solution {
                         t: t_a + r.value,

@@ -48,25 +48,22 @@ pub struct SingleFlow<'m> {
 impl<'m> SingleFlow<'m> {
     /// For a model and its domain's interval, with the tolerances of `lim`.
     pub fn new(model: &'m Model, iv: Interval, lim: &BasinLimits) -> SingleFlow<'m> {
-        let opts = |rtol: f64| Options {
+        let opts = |rtol: f64, event_tol: f64| Options {
             rtol,
             atol: 1e-3 * rtol,
             h_max: lim.h_max,
             max_steps: (lim.cap_efolds / lim.h_max) as usize * 20 + 100_000,
+            event_tol,
         };
         SingleFlow {
-            fine: opts(lim.rtol),
-            coarse: opts(lim.settle_rtol),
+            fine: opts(lim.rtol, 1e-13),
+            // the crossings of settling only measure dips against `restart_efolds`
+            coarse: opts(lim.settle_rtol, lim.settle_rtol),
             ev: RefCell::new(model.evaluator()),
             out: model.layout(),
             iv,
             v_scale: 1.0,
-            opts: Options {
-                rtol: lim.rtol,
-                atol: 1e-3 * lim.rtol,
-                h_max: lim.h_max,
-                max_steps: (lim.cap_efolds / lim.h_max) as usize * 20 + 100_000,
-            },
+            opts: opts(lim.rtol, 1e-13),
             checkpoints: Vec::new(),
             last_v: Cell::new((f64::NAN, f64::NAN)),
         }
