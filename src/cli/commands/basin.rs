@@ -363,7 +363,7 @@ pub(crate) fn merge_cmd(a: &crate::cli::args::BasinMergeArgs, config: &Config) -
     let merged =
         crate::report::basin::merge(&texts).map_err(|e| {
             Failure::from(Diagnostic::new(e.to_string()).with_hint(
-                "give every JSON file of one `efold basin --shard K/N --format json` run, K = 1..N, each once",
+                "give every file of one `efold basin --shard K/N` run (all JSON or all CSV), K = 1..N, each once",
             ))
         })?;
     match &a.out.out {
