@@ -360,12 +360,11 @@ pub(crate) fn merge_cmd(a: &crate::cli::args::BasinMergeArgs, config: &Config) -
         let t = crate::cli::load::read_bounded(f, config.limits.max_shard_bytes)?;
         texts.push((f.display().to_string(), t));
     }
-    let merged =
-        crate::report::basin::merge(&texts).map_err(|e| {
-            Failure::from(Diagnostic::new(e.to_string()).with_hint(
-                "give every file of one `efold basin --shard K/N` run (all JSON or all CSV), K = 1..N, each once",
-            ))
-        })?;
+    let merged = crate::report::basin::merge(&texts).map_err(|e| {
+        Failure::from(Diagnostic::new(e.to_string()).with_hint(
+            "give every file of one `efold basin --shard K/N` run (all JSON or all CSV), K = 1..N, each once",
+        ))
+    })?;
     match &a.out.out {
         Some(path) => {
             write_output_file(path, &merged)?;
